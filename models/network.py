@@ -1,0 +1,540 @@
+"""Vectorized steady solve of the layer network, hot (exposed) side → cold (wearer) side.
+
+The unknowns are the face temperatures ``T_0 … T_M`` between the ``M`` elements of the network
+(solids, contact resistances, gaps). Each unknown face has an energy balance
+
+``F_j = q_{j-1}(T_{j-1}, T_j) - q_j(T_j, T_{j+1}) = 0``                                (N.1)
+
+with ``q_{-1}`` the net flux delivered by the hot-side boundary and ``q_M`` the flux taken by the
+cold-side boundary; faces held at a prescribed temperature have ``F_j = T_j - T_fixed``. The
+Jacobian of (N.1) is tridiagonal, so each Newton step is one Thomas sweep, vectorized over all
+samples. Steps are damped so that no face temperature changes by more than half its value in
+one iteration (N.3). A sample is converged when its Newton step, or the a posteriori bound on
+the error left after that step (N.2), is below the tolerance; it is then frozen, so every
+sample's result is independent of which other samples share its chunk.
+"""
+
+from __future__ import annotations
+
+import warnings
+from collections.abc import Sequence
+from dataclasses import dataclass, fields, replace
+
+import numpy as np
+from scipy.constants import Stefan_Boltzmann as SIGMA
+
+from models import air, convection
+from models.boundary import (
+    ColdEnvironment,
+    ColdSide,
+    ColdSurface,
+    HotEnvironment,
+    HotFlux,
+    HotSide,
+    HotTemperature,
+    cold_environment_flux,
+    hot_environment_flux,
+)
+from models.elements import (
+    RADIATION_MODES,
+    contact_heat_flux,
+    effective_emissivity,
+    gap_heat_flow_parts,
+    gap_kernel,
+    solid_heat_flux,
+)
+from models.stack import Element, Gap, Solid, StackError, validate_stack
+
+DEFAULT_CHUNK_SIZE = 8192
+"""Samples solved together; small enough for the working arrays to stay in cache."""
+
+
+@dataclass(frozen=True)
+class NetworkSolution:
+    """Steady solution of the network for ``n`` samples.
+
+    Attributes
+    ----------
+    interface_temperature
+        Face temperatures hot → cold, shape ``(n, M + 1)`` [K].
+    heat_flux
+        Heat flux through the assembly, shape ``(n,)`` [W m-2].
+    inner_surface_temperature
+        Temperature of the assembly's innermost face (toward the wearer), ``(n,)`` [K].
+    layer_resistance
+        Effective thermal resistance ``(T_a - T_b) / q`` of each element, ``(n, M)`` [m2 K W-1].
+    layer_temperature_drop
+        Temperature drop across each element, ``(n, M)`` [K].
+    radiative_share
+        Fraction of each gap's heat flow carried by radiation, ``(n, M)``, NaN for non-gaps [-].
+    rayleigh_number
+        Rayleigh number of each gap, ``(n, M)``, NaN for non-gaps [-].
+    convection_onset
+        Whether each gap is past the onset of natural convection, ``(n, M)`` [-].
+    converged
+        Whether the sample converged to a physically valid solution, ``(n,)`` [-].
+    iterations
+        Newton iterations used, ``(n,)`` [-].
+    air_range_exceeded
+        Whether any gap's mean temperature lies outside the air-property range, ``(n,)`` [-].
+    interface_names, element_names, element_kinds, element_layers
+        Labels of the faces and elements; ``element_layers`` gives the index in the input stack
+        of the layer each element belongs to (a contact belongs to the solid before it).
+    inner_surface_index
+        Column of ``interface_temperature`` holding the inner-surface temperature [-].
+
+    Samples that did not converge carry NaN in every numeric output.
+    """
+
+    interface_temperature: np.ndarray
+    heat_flux: np.ndarray
+    inner_surface_temperature: np.ndarray
+    layer_resistance: np.ndarray
+    layer_temperature_drop: np.ndarray
+    radiative_share: np.ndarray
+    rayleigh_number: np.ndarray
+    convection_onset: np.ndarray
+    converged: np.ndarray
+    iterations: np.ndarray
+    air_range_exceeded: np.ndarray
+    interface_names: tuple[str, ...]
+    element_names: tuple[str, ...]
+    element_kinds: tuple[str, ...]
+    element_layers: tuple[int, ...]
+    inner_surface_index: int
+
+
+@dataclass(frozen=True)
+class _Element:
+    kind: str
+    name: str
+    layer: int
+    params: dict
+
+
+def _build_elements(layers: Sequence[Element], cold_side: ColdSide) -> list[_Element]:
+    """Flatten the stack into network elements, resolving the emissivities that face each gap."""
+    elements: list[_Element] = []
+    for i, layer in enumerate(layers):
+        if isinstance(layer, Solid):
+            elements.append(
+                _Element(
+                    "solid",
+                    layer.name,
+                    i,
+                    {
+                        "thickness": layer.thickness,
+                        "conductivity": layer.conductivity,
+                        "conductivity_slope": layer.conductivity_slope,
+                        "reference_temperature": layer.reference_temperature,
+                    },
+                )
+            )
+            if layer.contact_resistance is not None:
+                elements.append(
+                    _Element(
+                        "contact",
+                        f"{layer.name} contact",
+                        i,
+                        {"contact_resistance": layer.contact_resistance},
+                    )
+                )
+        elif isinstance(layer, Gap):
+            before = layers[i - 1]
+            after = layers[i + 1] if i + 1 < len(layers) else None
+            eps_b = after.emissivity_hot if after is not None else cold_side.emissivity
+            elements.append(
+                _Element(
+                    "gap",
+                    layer.name,
+                    i,
+                    {
+                        "gap_width": layer.width,
+                        "emissivity_hot_face": before.emissivity_cold,
+                        "emissivity_cold_face": eps_b,
+                        "orientation": layer.orientation,
+                        "gap_height": layer.height,
+                    },
+                )
+            )
+        else:  # pragma: no cover - validate_stack rejects other types
+            raise StackError(f"element {i} is not a Solid or a Gap", index=i)
+    return elements
+
+
+def _interface_names(elements: list[_Element], cold_side: ColdSide) -> tuple[str, ...]:
+    names = ["exposed face"]
+    for a, b in zip(elements[:-1], elements[1:], strict=True):
+        if b.kind == "contact":
+            names.append(f"{a.name} cold face")
+        elif a.kind == "contact":
+            names.append(f"{b.name} hot face")
+        else:
+            names.append(f"{a.name} | {b.name}")
+    names.append("skin surface" if isinstance(cold_side, ColdSurface) else "inner face")
+    return tuple(names)
+
+
+def _gap_constants(el: _Element) -> dict:
+    p = el.params
+    width = np.asarray(p["gap_width"], dtype=float)
+    return {
+        "inverse_width": 1.0 / width,
+        "radiative_factor": effective_emissivity(
+            p["emissivity_hot_face"], p["emissivity_cold_face"]
+        )
+        * SIGMA,
+        "aspect_ratio": np.asarray(p["gap_height"]) / width,
+        "orientation": p["orientation"],
+    }
+
+
+def _element_flux(el: _Element, ta, tb, *, radiation: str, convection_enabled: bool, gap=None):
+    if el.kind == "solid":
+        return solid_heat_flux(ta, tb, **el.params)
+    if el.kind == "contact":
+        return contact_heat_flux(ta, tb, **el.params)
+    return gap_kernel(ta, tb, radiation=radiation, convection_enabled=convection_enabled, **gap)
+
+
+def _sample_count(*objects) -> int:
+    n = 1
+    for obj in objects:
+        for f in fields(obj):
+            v = getattr(obj, f.name)
+            if isinstance(v, str) or v is None:
+                continue
+            shape = np.shape(v)
+            if len(shape) > 1:
+                raise StackError(
+                    f"{getattr(obj, 'name', type(obj).__name__)}: {f.name} must be a scalar or a "
+                    f"1-D array of samples, got shape {shape}",
+                    quantity=f.name,
+                )
+            if shape:
+                if n not in (1, shape[0]) and shape[0] != 1:
+                    raise StackError(
+                        f"{getattr(obj, 'name', type(obj).__name__)}: {f.name} has {shape[0]} "
+                        f"samples where others have {n}",
+                        quantity=f.name,
+                    )
+                n = max(n, shape[0])
+    return n
+
+
+def _slice(obj, sl: slice, n: int):
+    changes = {}
+    for f in fields(obj):
+        v = getattr(obj, f.name)
+        if not isinstance(v, str) and np.ndim(v) == 1 and np.shape(v)[0] == n:
+            changes[f.name] = np.asarray(v, dtype=float)[sl]
+    return replace(obj, **changes) if changes else obj
+
+
+def solve_network(
+    layers: Sequence[Element],
+    hot_side: HotSide,
+    cold_side: ColdSide,
+    *,
+    radiation: str = "exact",
+    convection_enabled: bool = False,
+    tolerance: float = 1e-6,
+    max_iterations: int = 100,
+    chunk_size: int = DEFAULT_CHUNK_SIZE,
+    validate: bool = True,
+) -> NetworkSolution:
+    """Solve the steady layer network for every sample.
+
+    Parameters
+    ----------
+    layers
+        Solids and gaps, hot (exposed) side first; numeric fields scalars or ``(n,)`` arrays.
+    hot_side
+        Boundary condition of the exposed face (:class:`models.boundary.HotFlux`,
+        :class:`~models.boundary.HotTemperature` or :class:`~models.boundary.HotEnvironment`).
+    cold_side
+        Boundary condition on the wearer side (:class:`models.boundary.ColdTemperature`,
+        :class:`~models.boundary.ColdSurface` or :class:`~models.boundary.ColdEnvironment`).
+    radiation
+        Gap radiation: ``"exact"`` (``sigma (T1^4 - T2^4)``) or ``"linearized"`` [-].
+    convection_enabled
+        Apply natural-convection correlations in gaps [-].
+    tolerance
+        Convergence: largest Newton step of any face temperature [K].
+    max_iterations
+        Newton iterations before a sample is declared not converged [-].
+    chunk_size
+        Samples solved together [-]; the result does not depend on it.
+    validate
+        Check every element, boundary and the arrangement first [-].
+
+    Returns
+    -------
+    NetworkSolution
+
+    Raises
+    ------
+    models.stack.StackError
+        (a ``ValueError``) naming the layer, the quantity and the bad value.
+    ValueError
+        For an unknown ``radiation`` mode or a non-positive ``tolerance``.
+    """
+    if radiation not in RADIATION_MODES:
+        raise ValueError(f"radiation {radiation!r} is not one of {', '.join(RADIATION_MODES)}")
+    if not tolerance > 0:
+        raise ValueError(f"tolerance must be positive, got {tolerance!r}")
+    if int(max_iterations) < 1:
+        raise ValueError(f"max_iterations must be at least 1, got {max_iterations!r}")
+    if int(chunk_size) < 1:
+        raise ValueError(f"chunk_size must be at least 1, got {chunk_size!r}")
+    layers = list(layers)
+    if validate:
+        validate_stack(layers, hot_side, cold_side)
+    n = _sample_count(*layers, hot_side, cold_side)
+    solution = None
+    arrays: dict[str, np.ndarray] = {}
+    for start in range(0, n, int(chunk_size)):
+        sl = slice(start, min(start + int(chunk_size), n))
+        part = _solve_chunk(
+            [_slice(layer, sl, n) for layer in layers],
+            _slice(hot_side, sl, n),
+            _slice(cold_side, sl, n),
+            sl.stop - sl.start,
+            radiation=radiation,
+            convection_enabled=convection_enabled,
+            tolerance=float(tolerance),
+            max_iterations=int(max_iterations),
+        )
+        if solution is None:
+            solution = part
+            if sl.stop == n:
+                break
+            for f in fields(NetworkSolution):
+                v = getattr(part, f.name)
+                if isinstance(v, np.ndarray):
+                    arrays[f.name] = np.empty((n, *v.shape[1:]), dtype=v.dtype)
+        for name, out in arrays.items():
+            out[sl] = getattr(part, name)
+    if arrays:
+        solution = replace(solution, **arrays)
+    if np.any(solution.air_range_exceeded):
+        warnings.warn(
+            "gap mean temperatures outside 250–1500 K in some samples: air properties are "
+            "extrapolated there (see NetworkSolution.air_range_exceeded)",
+            RuntimeWarning,
+            stacklevel=2,
+        )
+    return solution
+
+
+def _full(value, n: int) -> np.ndarray:
+    return np.broadcast_to(np.asarray(value, dtype=float), (n,)).copy()
+
+
+def _solve_chunk(
+    layers: list[Element],
+    hot_side: HotSide,
+    cold_side: ColdSide,
+    n: int,
+    *,
+    radiation: str,
+    convection_enabled: bool,
+    tolerance: float,
+    max_iterations: int,
+) -> NetworkSolution:
+    elements = _build_elements(layers, cold_side)
+    m = len(elements)
+    nodes = m + 1
+    eps_out = layers[0].emissivity_hot
+
+    # Boundary data and the reference (cold) temperature for the starting field.
+    if isinstance(cold_side, ColdEnvironment):
+        t_cold = _full(cold_side.ambient_temperature, n)
+        cold_surround = (
+            cold_side.surroundings_temperature
+            if cold_side.surroundings_temperature is not None
+            else cold_side.ambient_temperature
+        )
+        last = layers[-1]
+        cold_kw = {
+            "ambient_temperature": cold_side.ambient_temperature,
+            "convection_coefficient": cold_side.convection_coefficient,
+            "surroundings_temperature": cold_surround,
+            "emissivity": last.emissivity_cold,
+        }
+    else:
+        t_cold = _full(cold_side.temperature, n)
+    if isinstance(hot_side, HotEnvironment):
+        hot_kw = {
+            "incident_flux": hot_side.incident_flux,
+            "gas_temperature": hot_side.gas_temperature,
+            "convection_coefficient": hot_side.convection_coefficient,
+            "surroundings_temperature": (
+                hot_side.surroundings_temperature
+                if hot_side.surroundings_temperature is not None
+                else hot_side.gas_temperature
+            ),
+            "emissivity": eps_out,
+        }
+    hot_fixed = isinstance(hot_side, HotTemperature)
+    cold_fixed = not isinstance(cold_side, ColdEnvironment)
+
+    # Starting field: a ramp from the hot temperature (when prescribed) to the cold one.
+    t = np.empty((nodes, n))
+    t_hot = _full(hot_side.temperature, n) if hot_fixed else t_cold
+    frac = np.linspace(0.0, 1.0, nodes)[:, None]
+    t[:] = t_hot + (t_cold - t_hot) * frac
+
+    active = np.ones(n, dtype=bool)
+    converged = np.zeros(n, dtype=bool)
+    iterations = np.zeros(n, dtype=np.int64)
+    previous = np.full(n, np.nan)  # no previous step yet: (N.2) needs two
+    kw = {"radiation": radiation, "convection_enabled": convection_enabled}
+    gaps = [_gap_constants(el) if el.kind == "gap" else None for el in elements]
+
+    a = np.zeros((nodes, n))  # sub-diagonal   dF_j/dT_{j-1}
+    b = np.empty((nodes, n))  # diagonal       dF_j/dT_j
+    c = np.zeros((nodes, n))  # super-diagonal dF_j/dT_{j+1}
+    f = np.empty((nodes, n))  # minus the residual, -F_j
+    with np.errstate(all="ignore"):
+        for _ in range(max_iterations):
+            f[0] = 0.0
+            b[0] = 0.0
+            for j, el in enumerate(elements):  # (N.1), element j joins faces j and j+1
+                q, dqa, dqb = _element_flux(el, t[j], t[j + 1], gap=gaps[j], **kw)
+                f[j] += q
+                b[j] -= dqa
+                c[j] = -dqb
+                f[j + 1] = -q
+                a[j + 1] = dqa
+                b[j + 1] = dqb
+            if hot_fixed:
+                f[0], b[0], c[0] = 0.0, 1.0, 0.0
+            elif isinstance(hot_side, HotFlux):
+                f[0] -= hot_side.heat_flux
+            else:
+                q_in, dq_in = hot_environment_flux(t[0], **hot_kw)
+                f[0] -= q_in
+                b[0] += dq_in
+            if cold_fixed:
+                f[-1], a[-1], b[-1] = 0.0, 0.0, 1.0
+            else:
+                q_out, dq_out = cold_environment_flux(t[-1], **cold_kw)
+                f[-1] += q_out
+                b[-1] -= dq_out
+            step = _thomas(a, b, c, f)
+            size = np.max(np.abs(step), axis=0)
+            # (N.2) a posteriori error after this step for a contracting iteration,
+            # e <= |s_k| rho / (1 - rho), rho = |s_k| / |s_k-1|; exact steps below tol also pass
+            rho = size / previous
+            estimate = np.where(rho < 0.5, size * rho / (1.0 - rho), np.inf)
+            done = active & ((size <= tolerance) | (estimate <= tolerance))
+            previous = size
+            # (N.3) damping: no face changes by more than half its temperature in one step
+            ratio = np.max(np.abs(step) / t, axis=0)
+            move = np.where(ratio > 0.5, 0.5 / ratio, 1.0)
+            bad = active & ~np.isfinite(size)
+            move[~active | bad] = 0.0
+            t += step * move
+            iterations += active
+            converged |= done
+            active &= ~done & ~bad
+            if not active.any():
+                break
+
+        # Fluxes, resistances and gap details at the solution.
+        q_el = np.empty((m, n))
+        drop = t[:-1] - t[1:]
+        resistance = np.empty((m, n))
+        rad_share = np.full((m, n), np.nan)
+        rayleigh = np.full((m, n), np.nan)
+        onset = np.zeros((m, n), dtype=bool)
+        range_out = np.zeros(n, dtype=bool)
+        lo, hi = air.VALID_RANGE
+        valid = converged & np.all(np.isfinite(t), axis=0) & np.all(t > 0, axis=0)
+        for j, el in enumerate(elements):
+            ta, tb = t[j], t[j + 1]
+            q, dqa, _ = _element_flux(el, ta, tb, gap=gaps[j], **kw)
+            q_el[j] = q
+            resistance[j] = np.where(np.abs(drop[j]) > 1e-12 * ta, drop[j] / q, 1.0 / dqa)
+            if el.kind == "solid":
+                p = el.params
+                for face in (ta, tb):  # k(T) must stay positive across the slab
+                    k_face = p["conductivity"] + p["conductivity_slope"] * (
+                        face - p["reference_temperature"]
+                    )
+                    valid &= k_face > 0
+            if el.kind == "gap":
+                parts = gap_heat_flow_parts(ta, tb, radiation=radiation, convection_enabled=(
+                    convection_enabled), **el.params)
+                rad_share[j] = parts.radiation / parts.total
+                rayleigh[j] = parts.rayleigh
+                onset[j] = parts.onset
+                tm = 0.5 * (ta + tb)
+                range_out |= (tm < lo) | (tm > hi)
+                if convection_enabled:
+                    matters = valid & (parts.nusselt > 1.0 + convection.VERTICAL_ONSET_EXCESS)
+                    convection.warn_outside_range(
+                        parts.rayleigh[matters],
+                        orientation=el.params["orientation"],
+                        aspect_ratio=np.broadcast_to(
+                            np.asarray(el.params["gap_height"]) / el.params["gap_width"], (n,)
+                        )[matters],
+                    )
+        if isinstance(cold_side, ColdSurface):
+            inner = nodes - 2
+        else:
+            inner = nodes - 1
+
+    def masked(x: np.ndarray) -> np.ndarray:
+        x = np.array(x.T, dtype=float)
+        x[~valid] = np.nan
+        return x
+
+    return NetworkSolution(
+        interface_temperature=masked(t),
+        heat_flux=masked(q_el[:1])[:, 0],
+        inner_surface_temperature=masked(t[inner : inner + 1])[:, 0],
+        layer_resistance=masked(resistance),
+        layer_temperature_drop=masked(drop),
+        radiative_share=masked(rad_share),
+        rayleigh_number=masked(rayleigh),
+        convection_onset=onset.T & valid[:, None],
+        converged=valid,
+        iterations=iterations,
+        air_range_exceeded=range_out & valid,
+        interface_names=_interface_names(elements, cold_side),
+        element_names=tuple(el.name for el in elements),
+        element_kinds=tuple(el.kind for el in elements),
+        element_layers=tuple(el.layer for el in elements),
+        inner_surface_index=inner,
+    )
+
+
+def _thomas(a: np.ndarray, b: np.ndarray, c: np.ndarray, d: np.ndarray) -> np.ndarray:
+    """Solve tridiagonal systems, one per column: ``a_j x_{j-1} + b_j x_j + c_j x_{j+1} = d_j``.
+
+    Parameters
+    ----------
+    a, b, c, d
+        Sub-diagonal, diagonal, super-diagonal and right-hand side, shape ``(nodes, n)``.
+
+    Returns
+    -------
+    numpy.ndarray
+        Solution, shape ``(nodes, n)``.
+    """
+    nodes = b.shape[0]
+    cp = np.empty_like(b)
+    dp = np.empty_like(b)
+    cp[0] = c[0] / b[0]
+    dp[0] = d[0] / b[0]
+    for j in range(1, nodes):
+        denom = b[j] - a[j] * cp[j - 1]
+        cp[j] = c[j] / denom
+        dp[j] = (d[j] - a[j] * dp[j - 1]) / denom
+    x = np.empty_like(b)
+    x[-1] = dp[-1]
+    for j in range(nodes - 2, -1, -1):
+        x[j] = dp[j] - cp[j] * x[j + 1]
+    return x
