@@ -1,0 +1,273 @@
+"""Designs of experiments in the open unit hypercube (0, 1)^d.
+
+A :class:`Design` holds unit-cube coordinates; :meth:`uq.distributions.Distribution.ppf`
+maps each column to an input. Three methods:
+
+``sobol``
+    Saltelli's cross-sampled design for first- and total-order Sobol' indices. Matrices A and B
+    come from one scrambled Sobol' sequence in 2d dimensions
+    (``scipy.stats.qmc.Sobol(d=2*d, scramble=True, seed=seed)``, A = first d columns,
+    B = last d), exactly as ``SALib.sample.sobol.sample`` builds them. Rows are interleaved per
+    base row i: A_i, AB_1 ... AB_d (column j of A replaced by B's), AB_g for every group of two
+    or more parameters (all of the group's columns replaced), B_i. Without groups the design
+    is bit-identical to ``SALib.sample.sobol.sample(problem, N, calc_second_order=False,
+    seed=seed)`` with bounds [0, 1]. ``base_samples`` must be a power of 2 (the balance
+    properties of the Sobol' sequence need it); any other value raises ValueError naming the
+    nearest powers. Groups of one parameter would duplicate that parameter's AB block and get
+    no rows of their own.
+``lhs``
+    Latin hypercube, ``scipy.stats.qmc.LatinHypercube(rng=numpy.random.default_rng(seed))``,
+    optionally optimized (``"random-cd"`` or ``"lloyd"``).
+``random``
+    Plain Monte Carlo, ``numpy.random.default_rng(seed).random``.
+
+All coordinates lie strictly inside (0, 1): the generators can return exactly 0.0 (and an
+optimized Latin hypercube could return 1.0) with vanishing probability; such values are
+replaced by half of the generator's grid step from the edge (2**-31 for Sobol', 2**-54 for
+the others), which changes nothing else. The same seed gives bit-identical designs.
+"""
+
+from __future__ import annotations
+
+import operator
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+import numpy as np
+from scipy.stats import qmc
+
+__all__ = ["METHODS", "Design", "latin_hypercube_design", "make_design", "random_design",
+           "sobol_design"]
+
+METHODS = ("sobol", "lhs", "random")
+LHS_OPTIMIZATIONS = (None, "random-cd", "lloyd")
+_SOBOL_EDGE = 2.0**-31   # half the grid step of scipy's 30-bit Sobol' points
+_FLOAT_EDGE = 2.0**-54   # half the grid step of 53-bit uniform doubles
+
+
+@dataclass(frozen=True, eq=False)
+class Design:
+    """A design of experiments in the open unit hypercube.
+
+    Attributes
+    ----------
+    unit : numpy.ndarray
+        Coordinates, shape (n_rows, d), strictly inside (0, 1) [-]. Read-only.
+    block : numpy.ndarray
+        Integer block code per row, shape (n_rows,): 0 = A, 1 = B, 2 + j = AB_j,
+        2 + d + g = AB for group g (index into ``groups``). Non-Sobol' designs are all 0.
+    method : str
+        ``"sobol"``, ``"lhs"`` or ``"random"``.
+    base_samples : int
+        N: base rows of a Sobol' design; number of rows otherwise.
+    groups : tuple of tuple of int
+        Parameter indices per group, as given (empty for lhs/random).
+    """
+
+    unit: np.ndarray
+    block: np.ndarray
+    method: str
+    base_samples: int
+    groups: tuple[tuple[int, ...], ...] = ()
+
+    @property
+    def n_rows(self) -> int:
+        """Number of rows (model evaluations)."""
+        return int(self.unit.shape[0])
+
+    @property
+    def n_params(self) -> int:
+        """Number of parameters d (columns)."""
+        return int(self.unit.shape[1])
+
+    def independent_rows(self) -> np.ndarray:
+        """Indices of rows drawn from the joint input distribution, for percentiles.
+
+        Returns
+        -------
+        numpy.ndarray
+            For a Sobol' design the A and B rows (2N rows; quasi-random, not i.i.d.); all rows
+            otherwise.
+        """
+        if self.method == "sobol":
+            return np.flatnonzero(self.block <= 1)
+        return np.arange(self.n_rows)
+
+
+def _count(name: str, value: int, minimum: int = 1) -> int:
+    try:
+        n = operator.index(value)
+    except TypeError:
+        raise ValueError(f"{name} must be an integer, got {value!r}") from None
+    if n < minimum:
+        raise ValueError(f"{name} must be at least {minimum}, got {n}")
+    return n
+
+
+def _seed(seed: int) -> int:
+    return _count("seed", seed, minimum=0)
+
+
+def _open(x: np.ndarray, edge: float) -> np.ndarray:
+    x = np.where(x <= 0.0, edge, x)
+    x = np.where(x >= 1.0, 1.0 - edge, x)
+    x.setflags(write=False)
+    return x
+
+
+def _check_groups(groups: Sequence[Sequence[int]], n_params: int) -> tuple[tuple[int, ...], ...]:
+    out: list[tuple[int, ...]] = []
+    seen: set[int] = set()
+    for g, members in enumerate(groups):
+        idx = tuple(_count(f"groups[{g}] member", m, minimum=0) for m in members)
+        if not idx:
+            raise ValueError(f"groups[{g}] is empty; every group needs at least one parameter")
+        bad = [i for i in idx if i >= n_params]
+        if bad:
+            raise ValueError(f"groups[{g}] holds parameter index {bad[0]}; valid: 0 to "
+                             f"{n_params - 1}")
+        twice = seen.intersection(idx) or ({i for i in idx if idx.count(i) > 1})
+        if twice:
+            raise ValueError(f"parameter index {min(twice)} appears in more than one group "
+                             f"(groups must be disjoint)")
+        seen.update(idx)
+        out.append(idx)
+    return tuple(out)
+
+
+def sobol_design(base_samples: int, n_params: int, *, seed: int,
+                 groups: Sequence[Sequence[int]] = ()) -> Design:
+    """Saltelli cross-sampled design from a scrambled Sobol' sequence.
+
+    Parameters
+    ----------
+    base_samples : int
+        N, number of base rows; a power of 2 [-].
+    n_params : int
+        Number of parameters d [-].
+    seed : int
+        Seed of the scrambling (non-negative) [-].
+    groups : sequence of sequence of int
+        Disjoint parameter index groups (e.g. layers) whose joint indices are wanted [-].
+
+    Returns
+    -------
+    Design
+        N * (d + 2 + G2) rows, G2 = number of groups with two or more members.
+    """
+    n = _count("base_samples", base_samples)
+    d = _count("n_params", n_params)
+    seed = _seed(seed)
+    if n & (n - 1):
+        low = 1 << (n.bit_length() - 1)
+        raise ValueError(f"base_samples must be a power of 2 for a Sobol' design, got {n}; "
+                         f"nearest: {low} or {2 * low}")
+    grp = _check_groups(groups, d)
+    base = qmc.Sobol(d=2 * d, scramble=True, seed=seed).random(n)
+    a, b = base[:, :d], base[:, d:]
+    crossed = [(g, m) for g, m in enumerate(grp) if len(m) > 1]
+    blocks = [(0, ())] + [(2 + j, (j,)) for j in range(d)]
+    blocks += [(2 + d + g, m) for g, m in crossed] + [(1, tuple(range(d)))]
+    step = len(blocks)
+    unit = np.empty((n, step, d))
+    for k, (_, cols) in enumerate(blocks):
+        unit[:, k, :] = a
+        unit[:, k, list(cols)] = b[:, list(cols)]
+    codes = np.tile(np.array([c for c, _ in blocks], dtype=np.int64), n)
+    codes.setflags(write=False)
+    return Design(_open(unit.reshape(n * step, d), _SOBOL_EDGE), codes, "sobol", n, grp)
+
+
+def latin_hypercube_design(n: int, n_params: int, *, seed: int,
+                           optimization: str | None = None) -> Design:
+    """Latin hypercube design.
+
+    Parameters
+    ----------
+    n : int
+        Number of rows [-].
+    n_params : int
+        Number of parameters d [-].
+    seed : int
+        Seed of ``numpy.random.default_rng`` (non-negative) [-].
+    optimization : {None, "random-cd", "lloyd"}
+        Optional scipy optimization of the point set; ``"lloyd"`` needs d >= 2.
+
+    Returns
+    -------
+    Design
+    """
+    n = _count("samples", n)
+    d = _count("n_params", n_params)
+    seed = _seed(seed)
+    if optimization not in LHS_OPTIMIZATIONS:
+        raise ValueError(f"unknown Latin hypercube optimization {optimization!r}; valid: "
+                         f"None, 'random-cd', 'lloyd'")
+    if optimization == "lloyd" and d < 2:
+        raise ValueError(f"optimization 'lloyd' needs at least 2 parameters, got {d}")
+    engine = qmc.LatinHypercube(d, optimization=optimization, rng=np.random.default_rng(seed))
+    return _plain(engine.random(n), "lhs")
+
+
+def random_design(n: int, n_params: int, *, seed: int) -> Design:
+    """Plain Monte Carlo design.
+
+    Parameters
+    ----------
+    n : int
+        Number of rows [-].
+    n_params : int
+        Number of parameters d [-].
+    seed : int
+        Seed of ``numpy.random.default_rng`` (non-negative) [-].
+
+    Returns
+    -------
+    Design
+    """
+    n = _count("samples", n)
+    d = _count("n_params", n_params)
+    return _plain(np.random.default_rng(_seed(seed)).random((n, d)), "random")
+
+
+def _plain(x: np.ndarray, method: str) -> Design:
+    codes = np.zeros(x.shape[0], dtype=np.int64)
+    codes.setflags(write=False)
+    return Design(_open(x, _FLOAT_EDGE), codes, method, int(x.shape[0]), ())
+
+
+def make_design(method: str, samples: int, n_params: int, *, seed: int,
+                groups: Sequence[Sequence[int]] = (),
+                optimization: str | None = None) -> Design:
+    """Build a design by method name.
+
+    Parameters
+    ----------
+    method : {"sobol", "lhs", "random"}
+        Design method.
+    samples : int
+        Base rows N for ``sobol`` (a power of 2), number of rows otherwise [-].
+    n_params : int
+        Number of parameters d [-].
+    seed : int
+        Non-negative seed [-].
+    groups : sequence of sequence of int
+        Parameter groups, ``sobol`` only [-].
+    optimization : {None, "random-cd", "lloyd"}
+        Latin hypercube optimization, ``lhs`` only.
+
+    Returns
+    -------
+    Design
+    """
+    if method not in METHODS:
+        raise ValueError(f"unknown design method {method!r}; valid: {', '.join(METHODS)}")
+    if groups and method != "sobol":
+        raise ValueError(f"groups apply to the 'sobol' method only, got method {method!r}")
+    if optimization is not None and method != "lhs":
+        raise ValueError(f"optimization applies to the 'lhs' method only, got method {method!r}")
+    if method == "sobol":
+        return sobol_design(samples, n_params, seed=seed, groups=groups)
+    if method == "lhs":
+        return latin_hypercube_design(samples, n_params, seed=seed, optimization=optimization)
+    return random_design(samples, n_params, seed=seed)
