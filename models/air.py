@@ -260,3 +260,33 @@ def thermal_conductivity_with_slope(temperature: np.ndarray) -> tuple[np.ndarray
     # d/dT at fixed coefficients: d(eta0)/dlnT = eta0 (1/2 - dlnOmega), d(tau^t)/dlnT = -t tau^t
     dk = (_N1 * eta0 * (0.5 - dln_omega) - _T2 * p2 - _T3 * p3) * 1e-3 / temperature
     return k, dk
+
+
+def rayleigh_property_slope(temperature: np.ndarray) -> np.ndarray:
+    """Logarithmic temperature slope of the Rayleigh number's property group, for Newton solves.
+
+    The Rayleigh number with ``beta = 1/T`` is ``g dT L^3 / (T nu alpha)``; with ``nu = eta/rho``,
+    ``alpha = k / (rho cp)`` and ``rho`` proportional to ``1/T`` the group ``T nu alpha`` varies
+    as ``eta k T^3 / cp``. This returns ``d ln(T nu alpha) / d ln T
+    = 3 + d ln(eta)/d ln T + d ln(k)/d ln T - d ln(cp)/d ln T`` from the same models as
+    :func:`viscosity`, :func:`thermal_conductivity` and :func:`heat_capacity`; no range check.
+
+    Parameters
+    ----------
+    temperature
+        Air temperature [K].
+
+    Returns
+    -------
+    numpy.ndarray
+        ``d ln(T nu alpha) / d ln T`` [-].
+    """
+    t = np.asarray(temperature, dtype=float)
+    x = np.log(t / _EPSILON_OVER_K)
+    _, b1, b2, b3, b4 = _OMEGA_B
+    dln_eta = 0.5 - (b1 + x * (2.0 * b2 + x * (3.0 * b3 + x * 4.0 * b4)))  # [LJ2004] Eq. (3)
+    k, dk = thermal_conductivity_with_slope(t)
+    theta = t / 1000.0
+    cp = np.polyval(_CP_POLY, theta)
+    dcp_dtheta = np.polyval(np.polyder(_CP_POLY), theta)
+    return 3.0 + dln_eta + dk * t / k - dcp_dtheta * theta / cp

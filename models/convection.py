@@ -154,6 +154,59 @@ def nusselt(rayleigh: ArrayLike, *, orientation: str, aspect_ratio: ArrayLike) -
     )
 
 
+def nusselt_with_slope(
+    rayleigh: ArrayLike, *, orientation: str, aspect_ratio: ArrayLike
+) -> tuple[np.ndarray, np.ndarray]:
+    """Nusselt number of :func:`nusselt` and its slope ``d Nu / d ln Ra``, for Newton solves.
+
+    The slope is that of the branch that is active (the largest term of [ERH1982], the
+    positive parts of [H1976]); at a switch between branches it is one of the one-sided
+    slopes.
+
+    Parameters
+    ----------
+    rayleigh
+        Rayleigh number based on the gap width [-].
+    orientation
+        ``"vertical"``, ``"horizontal-up"`` or ``"horizontal-down"`` [-].
+    aspect_ratio
+        Gap height over width, used for vertical gaps only [-].
+
+    Returns
+    -------
+    nu, dnu_dlnra
+        Nusselt number [-] and its derivative with respect to ``ln Ra`` [-].
+    """
+    ra = np.maximum(np.asarray(rayleigh, dtype=float), 1e-300)
+    if orientation == "vertical":
+        nu1 = 0.0605 * np.cbrt(ra)
+        with np.errstate(over="ignore"):  # x -> inf as Ra -> 0 is handled below
+            x = (6310.0 / ra) ** 1.36
+        y = 0.104 * ra**0.293 / (1.0 + x)
+        y3 = y**3
+        nu2 = np.cbrt(1.0 + y3)
+        nu3 = 0.242 * (ra / np.asarray(aspect_ratio)) ** 0.272
+        nu = np.maximum(np.maximum(nu1, nu2), np.maximum(nu3, 1.0))
+        # d ln y / d ln Ra = 0.293 + 1.36 x / (1 + x); d Nu2 / d ln Ra = y^3 dln(y) / Nu2^2;
+        # x / (1 + x) written as 1 / (1 + 1/x) stays finite (-> 1) as Ra -> 0 and x -> inf
+        d2 = y3 * (0.293 + 1.36 / (1.0 + 1.0 / x)) / (nu2 * nu2)
+        slope = np.where(
+            nu == nu1, nu1 / 3.0, np.where(nu == nu2, d2, np.where(nu == nu3, 0.272 * nu3, 0.0))
+        )
+        return nu, slope
+    if orientation == "horizontal-up":
+        ratio = CRITICAL_RAYLEIGH_HORIZONTAL / ra
+        c = np.cbrt(ra / 5830.0)
+        nu = 1.0 + 1.44 * np.maximum(1.0 - ratio, 0.0) + np.maximum(c - 1.0, 0.0)
+        slope = np.where(ratio < 1.0, 1.44 * ratio, 0.0) + np.where(c > 1.0, c / 3.0, 0.0)
+        return nu, slope
+    if orientation == "horizontal-down":
+        return np.ones_like(ra), np.zeros_like(ra)
+    raise ValueError(
+        f"orientation {orientation!r} is not one of vertical, horizontal-up, horizontal-down"
+    )
+
+
 def convection_onset(
     rayleigh: ArrayLike, *, orientation: str, aspect_ratio: ArrayLike
 ) -> np.ndarray:

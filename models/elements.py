@@ -150,8 +150,8 @@ def gap_heat_flux(
 
     with ``radiation="linearized"`` replacing the radiative term by
     ``4 eps_eff sigma T_m^3 (Ta - Tb)``. ``Nu = 1`` unless convection is enabled, in which case
-    the correlation of :func:`models.convection.nusselt` for the orientation applies (its
-    temperature dependence is left out of the derivatives, which only slows Newton slightly).
+    the correlation of :func:`models.convection.nusselt` for the orientation applies; its
+    dependence on the face temperatures through the Rayleigh number is part of the derivatives.
 
     Parameters
     ----------
@@ -228,9 +228,18 @@ def gap_kernel(
     k, dk = air.thermal_conductivity_with_slope(tm)
     g = k * inverse_width
     dg = (0.5 * dt) * dk * inverse_width
+    cross_a = cross_b = 0.0
     if convection_enabled:
         ra = convection.rayleigh_number(ta, tb, 1.0 / inverse_width)
-        nu = convection.nusselt(ra, orientation=orientation, aspect_ratio=aspect_ratio)
+        nu, dnu = convection.nusselt_with_slope(
+            ra, orientation=orientation, aspect_ratio=aspect_ratio
+        )
+        # d(Nu)/dTa = dNu/dlnRa * dlnRa/dTa with dlnRa/dTa = 1/dt - p/(2 Tm) and
+        # dlnRa/dTb = -1/dt - p/(2 Tm), p = dln(T nu alpha)/dlnT; times g dt, no 1/dt left.
+        half = (0.5 * dt / tm) * air.rayleigh_property_slope(tm)
+        gs = g * dnu
+        cross_a = gs * (1.0 - half)
+        cross_b = -gs * (1.0 + half)
         g = g * nu
         dg = dg * nu
     es = radiative_factor
@@ -238,13 +247,13 @@ def gap_kernel(
         ta3 = ta * ta * ta
         tb3 = tb * tb * tb
         q = g * dt + es * (ta3 * ta - tb3 * tb)
-        return q, g + dg + 4.0 * es * ta3, dg - g - 4.0 * es * tb3
+        return q, g + dg + cross_a + 4.0 * es * ta3, dg - g + cross_b - 4.0 * es * tb3
     if radiation == "linearized":
         tm2 = tm * tm
         hr = 4.0 * es * tm2 * tm
         dhr = 6.0 * es * tm2 * dt  # d(hr)/dTa * dt = d(hr)/dTb * dt
         q = (g + hr) * dt
-        return q, g + hr + dg + dhr, dg + dhr - g - hr
+        return q, g + hr + dg + dhr + cross_a, dg + dhr - g - hr + cross_b
     raise ValueError(f"radiation {radiation!r} is not one of {', '.join(RADIATION_MODES)}")
 
 

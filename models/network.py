@@ -162,6 +162,23 @@ def _build_elements(layers: Sequence[Element], cold_side: ColdSide) -> list[_Ele
     return elements
 
 
+def interface_names(layers: Sequence[Element], cold_side: ColdSide) -> tuple[str, ...]:
+    """Names of the faces of the network, hot (exposed) side first, as in ``NetworkSolution``.
+
+    Parameters
+    ----------
+    layers
+        Solids and gaps, hot side first.
+    cold_side
+        The cold-side boundary (a :class:`~models.boundary.ColdSurface` adds the skin face).
+
+    Returns
+    -------
+    tuple of str
+    """
+    return _interface_names(_build_elements(list(layers), cold_side), cold_side)
+
+
 def _interface_names(elements: list[_Element], cold_side: ColdSide) -> tuple[str, ...]:
     names = ["exposed face"]
     for a, b in zip(elements[:-1], elements[1:], strict=True):
@@ -384,6 +401,7 @@ def _solve_chunk(
     t_hot = _full(hot_side.temperature, n) if hot_fixed else t_cold
     frac = np.linspace(0.0, 1.0, nodes)[:, None]
     t[:] = t_hot + (t_cold - t_hot) * frac
+    t[0], t[-1] = t_hot, t_cold  # prescribed faces exactly, not to within rounding of the ramp
 
     active = np.ones(n, dtype=bool)
     converged = np.zeros(n, dtype=bool)

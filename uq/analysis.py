@@ -1,0 +1,196 @@
+"""Analysis of a propagated study: percentile bands, exceedance of the limit, Sobol indices and
+the ranking of parameters and layers.
+
+Non-converged samples (flagged by the solver, NaN outputs) never enter a statistic unnoticed:
+percentiles and the exceedance probability use the converged samples only and report how many
+were left out; the Sobol estimators drop every base row in which any evaluation failed (so the
+estimator structure stays intact) and report the count.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+from scipy import stats
+
+from uq.propagate import Propagation, parameter_groups
+from uq.sensitivity import RankedIndex, SobolIndices, rank, sobol_indices
+from uq.statistics import Exceedance, QuantileEstimate, exceedance, quantiles
+
+BAND_PROBABILITIES = (0.01, 0.05, 0.5, 0.95, 0.99)
+"""Quantiles always computed, for the 5–95 % and 1–99 % bands of the profile figure [-]."""
+
+
+class AnalysisError(ValueError):
+    """A study whose results cannot be analysed (e.g. no sample converged); one-line message."""
+
+
+@dataclass(frozen=True)
+class ScenarioAnalysis:
+    """Statistics of one exposure.
+
+    Attributes
+    ----------
+    inner_quantiles
+        Quantiles of the inner-surface temperature with confidence intervals [K].
+    interface_quantiles
+        Quantiles of every face temperature, one :class:`QuantileEstimate` per face [K].
+    exceedance
+        Probability that the inner-surface temperature exceeds the limit, with its interval.
+    indices
+        Output name → (per-parameter, per-group) Sobol indices; empty unless ``method = sobol``.
+    ranking
+        Output name → parameters ranked by total index.
+    group_ranking
+        Output name → groups (layers) ranked by total index.
+    rank_correlation
+        Spearman rank correlation of each input with the inner-surface temperature [-]
+        (screening measure for designs without Sobol indices; computed for every design).
+    nonconverged
+        Samples that did not converge [-].
+    """
+
+    inner_quantiles: QuantileEstimate
+    interface_quantiles: list[QuantileEstimate]
+    exceedance: Exceedance
+    indices: dict[str, tuple[SobolIndices, SobolIndices | None]]
+    ranking: dict[str, list[RankedIndex]]
+    group_ranking: dict[str, list[RankedIndex]]
+    rank_correlation: np.ndarray
+    nonconverged: int
+
+
+@dataclass(frozen=True)
+class StudyAnalysis:
+    """Statistics of every exposure of a study, plus what the design could and could not give."""
+
+    scenarios: list[ScenarioAnalysis]
+    probabilities: np.ndarray
+    outputs: tuple[str, ...]
+    group_names: tuple[str, ...]
+    notes: list[str] = field(default_factory=list)
+
+
+def output_values(propagation: Propagation, output: str, scenario: int) -> np.ndarray:
+    """One scalar output per sample: ``inner_surface_temperature``, ``heat_flux`` or a face name.
+
+    Parameters
+    ----------
+    propagation
+        The propagated study.
+    output
+        Output name [-].
+    scenario
+        Scenario index [-].
+
+    Returns
+    -------
+    numpy.ndarray
+        Shape ``(n_samples,)``, SI.
+    """
+    out = propagation.outputs
+    if output in ("inner_surface_temperature", "heat_flux"):
+        return out[output][scenario]
+    if output in out.interface_names:
+        return out["interface_temperature"][scenario][:, out.interface_names.index(output)]
+    raise ValueError(
+        f"output {output!r} is not one of inner_surface_temperature, heat_flux, "
+        + ", ".join(out.interface_names)
+    )
+
+
+def analyse(study, propagation: Propagation) -> StudyAnalysis:
+    """Percentiles, exceedance, Sobol indices and rankings for every scenario.
+
+    Parameters
+    ----------
+    study
+        The parsed study (:class:`uq.config.Study`).
+    propagation
+        Its propagation.
+
+    Returns
+    -------
+    StudyAnalysis
+    """
+    a = study.analysis
+    probabilities = np.array(sorted(set(a.percentiles) | set(BAND_PROBABILITIES)))
+    extra = [o for o in a.outputs if o != "inner_surface_temperature"]
+    outputs = ("inner_surface_temperature", *extra)
+    group_names, _ = parameter_groups(study)
+    design = propagation.design
+    rows = design.independent_rows()
+    names = [p.name for p in study.parameters]
+    notes: list[str] = []
+    if a.method != "sobol":
+        notes.append(
+            f"method = {a.method}: percentiles, exceedance and rank correlations only; Sobol "
+            "indices need method = \"sobol\" (a Saltelli design). Rank correlations screen for "
+            "monotone influence but do not apportion variance or show interactions."
+        )
+    result = []
+    n_s = propagation.outputs["converged"].shape[0]
+    for s in range(n_s):
+        y = output_values(propagation, "inner_surface_temperature", s)
+        if not np.any(np.isfinite(y[rows])):
+            raise AnalysisError(
+                f"no sample converged{_scenario_text(study, s)}: the solver gave up on all "
+                f"{y.size} samples; raise [model] max_iterations or check the inputs"
+            )
+        inner_q = quantiles(y[rows], probabilities, confidence=a.confidence)
+        faces = propagation.outputs["interface_temperature"][s][rows]
+        face_q = [
+            quantiles(faces[:, i], probabilities, confidence=a.confidence)
+            for i in range(faces.shape[1])
+        ]
+        exc = exceedance(y[rows], a.limit, confidence=a.confidence)
+        indices: dict[str, tuple[SobolIndices, SobolIndices | None]] = {}
+        ranking: dict[str, list[RankedIndex]] = {}
+        group_ranking: dict[str, list[RankedIndex]] = {}
+        if a.method == "sobol" and names:
+            for o in outputs:
+                ind, grp = sobol_indices(
+                    output_values(propagation, o, s),
+                    design,
+                    names=names,
+                    group_names=group_names,
+                    n_bootstrap=a.bootstrap,
+                    confidence=a.confidence,
+                    seed=a.seed,
+                )
+                indices[o] = (ind, grp)
+                ranking[o] = rank(ind, ci_threshold=a.index_ci_threshold)
+                if grp is not None:
+                    group_ranking[o] = rank(grp, ci_threshold=a.index_ci_threshold)
+        result.append(
+            ScenarioAnalysis(
+                inner_quantiles=inner_q,
+                interface_quantiles=face_q,
+                exceedance=exc,
+                indices=indices,
+                ranking=ranking,
+                group_ranking=group_ranking,
+                rank_correlation=_rank_correlation(propagation.inputs[rows], y[rows]),
+                nonconverged=int(np.sum(~propagation.outputs["converged"][s])),
+            )
+        )
+    return StudyAnalysis(result, probabilities, outputs, tuple(group_names), notes)
+
+
+def _scenario_text(study, s: int) -> str:
+    if study.scenarios is None:
+        return ""
+    return f" at {study.scenarios.quantity} = {study.scenarios.labels[s]}"
+
+
+def _rank_correlation(inputs: np.ndarray, y: np.ndarray) -> np.ndarray:
+    ok = np.isfinite(y)
+    d = inputs.shape[1]
+    if d == 0 or ok.sum() < 3 or np.ptp(y[ok]) == 0:
+        return np.full(d, np.nan)
+    out = np.empty(d)
+    for j in range(d):
+        x = inputs[ok, j]
+        out[j] = np.nan if np.ptp(x) == 0 else stats.spearmanr(x, y[ok]).statistic
+    return out

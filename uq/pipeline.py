@@ -1,0 +1,185 @@
+"""The main job end to end: config → propagation → analysis → dataset on disk → summary text."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+import xarray as xr
+
+from uq.analysis import StudyAnalysis, analyse
+from uq.cautions import cautions_text
+from uq.propagate import Propagation, propagate
+from uq.storage import to_dataset, write_results
+from uq.units import TEMPERATURE, from_si
+
+TOP_COUNT = 5
+"""Parameters and layers listed in the summary [-]."""
+
+
+@dataclass(frozen=True)
+class StudyResult:
+    """Everything a run produced: in memory and the path of the dataset written."""
+
+    study: object
+    propagation: Propagation
+    analysis: StudyAnalysis
+    dataset: xr.Dataset
+    path: Path | None
+
+
+def default_output_dir(config_path: str | Path) -> Path:
+    """The default output folder: named after the config, next to where plyrisk runs."""
+    return Path(Path(config_path).stem)
+
+
+def run_study(
+    study,
+    *,
+    out_dir: str | Path | None = None,
+    samples: int | None = None,
+    seed: int | None = None,
+    chunk_size: int | None = None,
+    quiet: bool = False,
+) -> StudyResult:
+    """Propagate, analyse and (when ``out_dir`` is given) write ``out_dir/results.nc``.
+
+    Parameters
+    ----------
+    study
+        The parsed study (:class:`uq.config.Study`).
+    out_dir
+        Output folder, or ``None`` to keep the results in memory only [-].
+    samples
+        Base sample count overriding the config [-].
+    seed
+        Seed overriding the config [-].
+    chunk_size
+        Samples per evaluation chunk overriding the config [-].
+    quiet
+        No progress bar [-].
+
+    Returns
+    -------
+    StudyResult
+    """
+    if samples is not None or seed is not None:
+        from dataclasses import replace
+
+        changes = {}
+        if samples is not None:
+            changes["samples"] = int(samples)
+        if seed is not None:
+            changes["seed"] = int(seed)
+        study = replace(study, analysis=replace(study.analysis, **changes))
+    prop = propagate(study, chunk_size=chunk_size, quiet=quiet)
+    analysis = analyse(study, prop)
+    ds = to_dataset(study, prop, analysis)
+    path = None
+    if out_dir is not None:
+        path = write_results(ds, Path(out_dir) / "results.nc")
+    return StudyResult(study, prop, analysis, ds, path)
+
+
+def _t(study, kelvin: float) -> str:
+    unit = study.limit_unit or "K"
+    if not np.isfinite(kelvin):
+        return "n/a"
+    return f"{float(from_si(kelvin, unit, TEMPERATURE)):.1f} {unit}"
+
+
+def _pct(p: float) -> str:
+    if not np.isfinite(p):
+        return "n/a"
+    return f"{100 * p:.3g} %"
+
+
+def summary_text(result: StudyResult) -> str:
+    """The summary printed at the end of ``plyrisk run``.
+
+    Parameters
+    ----------
+    result
+        A finished run.
+
+    Returns
+    -------
+    str
+    """
+    study, prop, an = result.study, result.propagation, result.analysis
+    a = study.analysis
+    lines = [f"plyrisk study: {study.title}", f"config: {study.source}"]
+    n_eval = prop.inputs.shape[0]
+    lines.append(
+        f"design: {a.method}, {prop.design.base_samples} base samples, "
+        f"{len(study.parameters)} uncertain parameters, {n_eval} model evaluations"
+        + (f" per exposure × {len(an.scenarios)} exposures" if len(an.scenarios) > 1 else "")
+        + f"; seed {a.seed}"
+    )
+    lim = _t(study, a.limit)
+    conf = f"{100 * a.confidence:g} %"
+    for s, sc in enumerate(an.scenarios):
+        lines.append("")
+        if study.scenarios is not None:
+            lines.append(f"exposure {s + 1}: {study.scenarios.quantity} = "
+                         f"{study.scenarios.labels[s]}")
+        q = sc.inner_quantiles
+        lines.append(f"inner-surface temperature (limit {lim}; {conf} confidence intervals):")
+        for p in a.percentiles:
+            i = int(np.argmin(np.abs(q.probabilities - p)))
+            lines.append(
+                f"  P{100 * p:<4g} {_t(study, q.estimate[i]):>10}   "
+                f"[{_t(study, q.lower[i])}, {_t(study, q.upper[i])}]"
+            )
+        e = sc.exceedance
+        lines.append(
+            f"  P(inner surface > {lim}) = {_pct(e.probability)}   [{_pct(e.lower)}, "
+            f"{_pct(e.upper)}]  ({e.method}; {e.count} of {e.n} samples above)"
+        )
+        ranking = sc.ranking.get("inner_surface_temperature")
+        if ranking:
+            lines.append("most influential parameters (total Sobol index ± CI half-width; "
+                         "first-order):")
+            for r, item in enumerate(ranking[:TOP_COUNT], start=1):
+                flag = "" if item.converged else "   (unconverged)"
+                lines.append(
+                    f"  {r}. {item.name:<32} {item.total:6.3f} ± {item.total_ci:.3f}   "
+                    f"first {item.first:6.3f} ± {item.first_ci:.3f}{flag}"
+                )
+            groups = sc.group_ranking.get("inner_surface_temperature", [])
+            if groups:
+                lines.append("layers (grouped total index ± CI half-width):")
+                for r, item in enumerate(groups[:TOP_COUNT], start=1):
+                    flag = "" if item.converged else "   (unconverged)"
+                    lines.append(f"  {r}. {item.name:<32} {item.total:6.3f} ± "
+                                 f"{item.total_ci:.3f}{flag}")
+            unconv = [i for i in ranking if not i.converged]
+            if unconv:
+                need = max(i.suggested_base_samples or 0 for i in unconv)
+                lines.append(
+                    f"  {len(unconv)} index interval(s) wider than ±{a.index_ci_threshold:g}: "
+                    f"rerun with --samples {need} or more to settle the ranking"
+                )
+        else:
+            names = [p.name for p in study.parameters]
+            order = np.argsort(-np.abs(np.nan_to_num(sc.rank_correlation)))
+            if names:
+                lines.append("rank correlation with the inner-surface temperature (screening "
+                             "only; Sobol indices need method = \"sobol\"):")
+                for r, j in enumerate(order[:TOP_COUNT], start=1):
+                    lines.append(f"  {r}. {names[j]:<32} {sc.rank_correlation[j]:+.3f}")
+        lines.append(
+            f"non-converged samples: {sc.nonconverged} of {n_eval}"
+            + (" (excluded from the statistics; see 'converged' in the dataset)"
+               if sc.nonconverged else "")
+        )
+    for note in an.notes:
+        lines.append("")
+        lines.append(f"note: {note}")
+    if result.path is not None:
+        lines.append("")
+        lines.append(f"results: {result.path}")
+    lines.append("")
+    lines.append(cautions_text())
+    return "\n".join(lines)

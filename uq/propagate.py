@@ -1,0 +1,282 @@
+"""Propagation: unit-hypercube design → input values → model evaluations, chunk by chunk.
+
+Every sample is solved independently of every other (the network solver freezes each sample as
+soon as it converges), so the outputs are bit-identical whatever the chunk size. Random numbers
+come only from the design, which is drawn from the study seed.
+"""
+
+from __future__ import annotations
+
+import sys
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass
+
+import numpy as np
+
+from models.network import NetworkSolution, solve_network
+from uq.sampling import Design, make_design
+from uq.study import assemble
+
+OUTPUT_FIELDS = (
+    "inner_surface_temperature",
+    "heat_flux",
+    "interface_temperature",
+    "layer_temperature_drop",
+    "layer_resistance",
+    "radiative_share",
+    "rayleigh_number",
+    "convection_onset",
+    "converged",
+    "iterations",
+    "air_range_exceeded",
+)
+"""Per-sample fields of :class:`models.network.NetworkSolution` kept by a propagation."""
+
+
+@dataclass(frozen=True)
+class Outputs:
+    """Model outputs for every scenario and sample.
+
+    Attributes
+    ----------
+    fields
+        Name → array of shape ``(n_scenarios, n_samples, ...)`` for each of ``OUTPUT_FIELDS``
+        (units as in :class:`models.network.NetworkSolution`).
+    interface_names, element_names, element_kinds, element_layers
+        Labels from the network solution.
+    inner_surface_index
+        Column of ``interface_temperature`` that is the inner surface [-].
+    """
+
+    fields: dict[str, np.ndarray]
+    interface_names: tuple[str, ...]
+    element_names: tuple[str, ...]
+    element_kinds: tuple[str, ...]
+    element_layers: tuple[int, ...]
+    inner_surface_index: int
+
+    def __getitem__(self, name: str) -> np.ndarray:
+        return self.fields[name]
+
+    @property
+    def nonconverged(self) -> np.ndarray:
+        """Number of samples that did not converge, per scenario, shape ``(n_scenarios,)``."""
+        return np.sum(~self.fields["converged"], axis=1)
+
+
+@dataclass(frozen=True)
+class Propagation:
+    """A propagated study: the design, the input values and the outputs.
+
+    Attributes
+    ----------
+    design
+        The unit-hypercube design.
+    inputs
+        Input values, shape ``(n_samples, n_parameters)``, SI units of each parameter.
+    outputs
+        Model outputs for every scenario.
+    """
+
+    design: Design
+    inputs: np.ndarray
+    outputs: Outputs
+
+
+def unit_to_inputs(parameters: Sequence, unit: np.ndarray) -> np.ndarray:
+    """Map unit-hypercube columns through each parameter's inverse CDF.
+
+    Parameters
+    ----------
+    parameters
+        Uncertain parameters (each with a ``distribution``), one per column.
+    unit
+        Points in the open unit cube, shape ``(n, d)`` [-].
+
+    Returns
+    -------
+    numpy.ndarray
+        Input values, shape ``(n, d)``, SI.
+    """
+    unit = np.asarray(unit, dtype=float)
+    out = np.empty_like(unit)
+    for j, p in enumerate(parameters):
+        out[:, j] = p.distribution.ppf(unit[:, j])
+    return out
+
+
+def model_objects(study, values: np.ndarray | None = None, *, scenario: int | None = None):
+    """Build the model's layers and boundaries for a block of samples.
+
+    Parameters
+    ----------
+    study
+        The parsed study (:class:`uq.config.Study`).
+    values
+        Input values, shape ``(n, d)`` in the order of ``study.parameters`` (SI); ``None`` for
+        the nominal stack.
+    scenario
+        Index of the swept exposure to apply, or ``None``.
+
+    Returns
+    -------
+    layers, hot_side, cold_side
+    """
+    columns = {} if values is None else {
+        p.name: values[:, j] for j, p in enumerate(study.parameters)
+    }
+    return assemble(study, columns, scenario=scenario if study.scenarios is not None else None)
+
+
+def _solve(study, values: np.ndarray | None, scenario: int | None) -> NetworkSolution:
+    layers, hot, cold = model_objects(study, values, scenario=scenario)
+    # validate=False: the distributions keep every draw inside its physical bounds
+    return solve_network(layers, hot, cold, validate=False, **study.model.solver_kwargs())
+
+
+def scenario_count(study) -> int:
+    """Number of exposures evaluated: the sweep length, or 1 [-]."""
+    return 1 if study.scenarios is None else len(study.scenarios.values)
+
+
+def evaluate(
+    study,
+    values: np.ndarray,
+    *,
+    chunk_size: int | None = None,
+    progress: Callable[[int], None] | None = None,
+) -> Outputs:
+    """Evaluate the network for every sample and every scenario, in chunks of bounded memory.
+
+    Parameters
+    ----------
+    study
+        The parsed study.
+    values
+        Input values, shape ``(n, d)`` (SI).
+    chunk_size
+        Samples per chunk [-]; default from the study. Results do not depend on it.
+    progress
+        Called with the number of samples finished after each chunk.
+
+    Returns
+    -------
+    Outputs
+    """
+    values = np.asarray(values, dtype=float)
+    n = values.shape[0]
+    chunk = int(chunk_size or study.analysis.chunk_size)
+    if chunk < 1:
+        raise ValueError(f"chunk_size must be at least 1, got {chunk}")
+    n_s = scenario_count(study)
+    scenarios = [None] if study.scenarios is None else list(range(n_s))
+    store: dict[str, np.ndarray] = {}
+    meta = None
+    for start in range(0, max(n, 1), chunk):
+        stop = min(start + chunk, n)
+        block = values[start:stop]
+        for s_index, scenario in enumerate(scenarios):
+            sol = _solve(study, block, scenario)
+            if meta is None:
+                meta = sol
+                for name in OUTPUT_FIELDS:
+                    v = getattr(sol, name)
+                    store[name] = np.empty((n_s, n, *v.shape[1:]), dtype=v.dtype)
+            for name in OUTPUT_FIELDS:
+                store[name][s_index, start:stop] = getattr(sol, name)
+        if progress is not None:
+            progress(stop - start)
+    return Outputs(
+        fields=store,
+        interface_names=meta.interface_names,
+        element_names=meta.element_names,
+        element_kinds=meta.element_kinds,
+        element_layers=meta.element_layers,
+        inner_surface_index=meta.inner_surface_index,
+    )
+
+
+def nominal_solution(study, *, scenario: int | None = None) -> NetworkSolution:
+    """Solve the nominal stack (every uncertain value at its distribution's nominal)."""
+    return _solve(study, None, scenario)
+
+
+def study_design(study, *, samples: int | None = None, seed: int | None = None) -> Design:
+    """The unit-hypercube design of a study, with per-layer groups for the Sobol design.
+
+    Parameters
+    ----------
+    study
+        The parsed study.
+    samples
+        Base sample count overriding the config [-].
+    seed
+        Seed overriding the config [-].
+
+    Returns
+    -------
+    Design
+    """
+    a = study.analysis
+    groups = parameter_groups(study)[1]
+    return make_design(
+        a.method,
+        int(samples if samples is not None else a.samples),
+        len(study.parameters),
+        seed=int(seed if seed is not None else a.seed),
+        groups=groups if a.method == "sobol" else (),
+        optimization=a.lhs_optimization if a.method == "lhs" else None,
+    )
+
+
+def parameter_groups(study) -> tuple[list[str], list[tuple[int, ...]]]:
+    """Group names (layers, ``hot_side``, ``cold_side``) and the parameter indices in each."""
+    names: list[str] = []
+    members: dict[str, list[int]] = {}
+    for j, p in enumerate(study.parameters):
+        if p.group not in members:
+            names.append(p.group)
+            members[p.group] = []
+        members[p.group].append(j)
+    return names, [tuple(members[g]) for g in names]
+
+
+def propagate(
+    study,
+    *,
+    samples: int | None = None,
+    seed: int | None = None,
+    chunk_size: int | None = None,
+    quiet: bool = False,
+) -> Propagation:
+    """Draw the design, map it to inputs and evaluate the model.
+
+    Parameters
+    ----------
+    study
+        The parsed study.
+    samples
+        Base sample count overriding the config [-].
+    seed
+        Seed overriding the config [-].
+    chunk_size
+        Samples per chunk overriding the config [-].
+    quiet
+        Suppress the progress bar (it is shown only on a terminal anyway) [-].
+
+    Returns
+    -------
+    Propagation
+    """
+    design = study_design(study, samples=samples, seed=seed)
+    inputs = unit_to_inputs(study.parameters, design.unit)
+    show = not quiet and sys.stderr.isatty()
+    if show:
+        from tqdm import tqdm
+
+        bar = tqdm(total=len(inputs), unit="sample", desc="solving", file=sys.stderr)
+        outputs = evaluate(study, inputs, chunk_size=chunk_size, progress=bar.update)
+        bar.close()
+    else:
+        outputs = evaluate(study, inputs, chunk_size=chunk_size)
+    return Propagation(design=design, inputs=inputs, outputs=outputs)
