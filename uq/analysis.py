@@ -17,6 +17,7 @@ from scipy import stats
 from uq.propagate import Propagation, parameter_groups
 from uq.sensitivity import RankedIndex, SobolIndices, rank, sobol_indices
 from uq.statistics import Exceedance, QuantileEstimate, exceedance, quantiles
+from uq.surrogate import SurrogateIndices, surrogate_indices
 
 BAND_PROBABILITIES = (0.01, 0.05, 0.5, 0.95, 0.99)
 """Quantiles always computed, for the 5–95 % and 1–99 % bands of the profile figure [-]."""
@@ -49,6 +50,9 @@ class ScenarioAnalysis:
         (screening measure for designs without Sobol indices; computed for every design).
     nonconverged
         Samples that did not converge [-].
+    surrogate, surrogate_groups
+        Sobol indices of the inner-surface temperature from a polynomial-chaos surrogate,
+        per parameter and per group, for designs without a Saltelli structure (else ``None``).
     """
 
     inner_quantiles: QuantileEstimate
@@ -59,6 +63,8 @@ class ScenarioAnalysis:
     group_ranking: dict[str, list[RankedIndex]]
     rank_correlation: np.ndarray
     nonconverged: int
+    surrogate: SurrogateIndices | None = None
+    surrogate_groups: SurrogateIndices | None = None
 
 
 @dataclass(frozen=True)
@@ -125,9 +131,11 @@ def analyse(study, propagation: Propagation) -> StudyAnalysis:
     notes: list[str] = []
     if a.method != "sobol":
         notes.append(
-            f"method = {a.method}: percentiles, exceedance and rank correlations only; Sobol "
-            "indices need method = \"sobol\" (a Saltelli design). Rank correlations screen for "
-            "monotone influence but do not apportion variance or show interactions."
+            f"method = {a.method}: percentiles and exceedance come straight from the samples; "
+            "Sobol indices cannot be estimated from them directly (that needs method = "
+            "\"sobol\", a Saltelli design). The indices shown are from a polynomial-chaos "
+            "surrogate fitted to the samples: trust them only when its leave-one-out Q2 is "
+            "close to 1; rank correlations are a screening measure only."
         )
     result = []
     n_s = propagation.outputs["converged"].shape[0]
@@ -163,6 +171,21 @@ def analyse(study, propagation: Propagation) -> StudyAnalysis:
                 ranking[o] = rank(ind, ci_threshold=a.index_ci_threshold)
                 if grp is not None:
                     group_ranking[o] = rank(grp, ci_threshold=a.index_ci_threshold)
+        surrogate = surrogate_groups = None
+        if a.method != "sobol" and names:
+            unit = design.unit[rows]
+            surrogate = surrogate_indices(unit, y[rows], names=names,
+                                          n_bootstrap=a.bootstrap, confidence=a.confidence,
+                                          seed=a.seed)
+            surrogate_groups = surrogate_indices(unit, y[rows], names=group_names,
+                                                 groups=parameter_groups(study)[1],
+                                                 n_bootstrap=a.bootstrap,
+                                                 confidence=a.confidence, seed=a.seed)
+            if surrogate is not None:
+                ranking["inner_surface_temperature"] = rank(
+                    surrogate, ci_threshold=a.index_ci_threshold)
+                group_ranking["inner_surface_temperature"] = rank(
+                    surrogate_groups, ci_threshold=a.index_ci_threshold)
         result.append(
             ScenarioAnalysis(
                 inner_quantiles=inner_q,
@@ -173,6 +196,8 @@ def analyse(study, propagation: Propagation) -> StudyAnalysis:
                 group_ranking=group_ranking,
                 rank_correlation=_rank_correlation(propagation.inputs[rows], y[rows]),
                 nonconverged=int(np.sum(~propagation.outputs["converged"][s])),
+                surrogate=surrogate,
+                surrogate_groups=surrogate_groups,
             )
         )
     return StudyAnalysis(result, probabilities, outputs, tuple(group_names), notes)

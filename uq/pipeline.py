@@ -139,8 +139,15 @@ def summary_text(result: StudyResult) -> str:
         )
         ranking = sc.ranking.get("inner_surface_temperature")
         if ranking:
-            lines.append("most influential parameters (total Sobol index ± CI half-width; "
-                         "first-order):")
+            if sc.surrogate is not None:
+                lines.append(
+                    f"most influential parameters (total Sobol index from a polynomial-chaos "
+                    f"surrogate, order {sc.surrogate.order}, leave-one-out Q2 = "
+                    f"{sc.surrogate.q2:.3f}; ± bootstrap CI half-width; first-order):"
+                )
+            else:
+                lines.append("most influential parameters (total Sobol index ± CI half-width; "
+                             "first-order):")
             for r, item in enumerate(ranking[:TOP_COUNT], start=1):
                 flag = "" if item.converged else "   (unconverged)"
                 lines.append(
@@ -159,9 +166,10 @@ def summary_text(result: StudyResult) -> str:
                 need = max(i.suggested_base_samples or 0 for i in unconv)
                 lines.append(
                     f"  {len(unconv)} index interval(s) wider than ±{a.index_ci_threshold:g}: "
-                    f"rerun with --samples {need} or more to settle the ranking"
+                    f"rerun with --samples {need} or more to settle the ranking (the "
+                    "bootstrap intervals are conservative on quasi-random designs)"
                 )
-        else:
+        if not ranking or sc.surrogate is not None:
             names = [p.name for p in study.parameters]
             order = np.argsort(-np.abs(np.nan_to_num(sc.rank_correlation)))
             if names:

@@ -212,8 +212,8 @@ def rank(indices: SobolIndices, *, ci_threshold: float = 0.05) -> list[RankedInd
 
     Parameters
     ----------
-    indices : SobolIndices
-        Result of :func:`sobol_indices`.
+    indices : SobolIndices or uq.surrogate.SurrogateIndices
+        Result of :func:`sobol_indices` (or of the PCE surrogate).
     ci_threshold : float
         Largest acceptable confidence half-width, > 0 [-].
 
@@ -226,7 +226,10 @@ def rank(indices: SobolIndices, *, ci_threshold: float = 0.05) -> list[RankedInd
     """
     if not (math.isfinite(ci_threshold) and ci_threshold > 0.0):
         raise ValueError(f"ci_threshold must be positive, got {ci_threshold}")
-    n_design = indices.base_samples_used + indices.dropped_rows
+    if hasattr(indices, "base_samples_used"):
+        n_design = indices.base_samples_used + indices.dropped_rows
+    else:  # surrogate indices (uq.surrogate.SurrogateIndices): scale the sample count
+        n_design = indices.samples
     out = []
     for k, name in enumerate(indices.names):
         s1, s1c = float(indices.first[k]), float(indices.first_ci[k])

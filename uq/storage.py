@@ -189,6 +189,8 @@ def to_dataset(study, propagation: Propagation, analysis: StudyAnalysis) -> xr.D
     )
     if a.method == "sobol" and params:
         _add_indices(data, sa, outputs, params, group_names, sd, per, a)
+    if any(sc.surrogate is not None for sc in sa):
+        _add_surrogate(data, sa, params, group_names, sd, per, a)
     attrs = {
         "title": study.title,
         "config_source": str(study.source),
@@ -277,6 +279,38 @@ def _add_indices(data, sa, outputs, params, group_names, sd, per, a) -> None:
     data["sobol_rows_dropped"] = _var((*sd, "output"), per(dropped), "1",
                                       "base rows dropped from the Sobol estimators because an "
                                       "evaluation in them did not converge")
+
+
+def _add_surrogate(data, sa, params, group_names, sd, per, a) -> None:
+    n_p, n_g = len(params), len(group_names)
+
+    def table(which: str, attr: str, size: int):
+        arr = np.full((len(sa), size), np.nan)
+        for s, sc in enumerate(sa):
+            ind = getattr(sc, which)
+            if ind is not None:
+                arr[s] = getattr(ind, attr)
+        return per(arr)
+
+    for which, dim, size, prefix, who in (("surrogate", "parameter", n_p, "pce", "parameter"),
+                                          ("surrogate_groups", "group", n_g, "pce_group",
+                                           "layer group")):
+        for attr, long in (("first", "first-order Sobol index"), ("total", "total Sobol index")):
+            data[f"{prefix}_{attr}"] = _var(
+                (*sd, dim), table(which, attr, size), "1",
+                f"{long} per {who} of the inner-surface temperature, from a polynomial-chaos "
+                "surrogate",
+            )
+            data[f"{prefix}_{attr}_ci"] = _var(
+                (*sd, dim), table(which, f"{attr}_ci", size), "1",
+                f"half-width of the bootstrap interval of the surrogate {long}",
+                confidence=a.confidence,
+            )
+    q2 = per(np.array([sc.surrogate.q2 if sc.surrogate else np.nan for sc in sa]))
+    order = per(np.array([sc.surrogate.order if sc.surrogate else 0 for sc in sa]))
+    data["pce_q2"] = _var(sd, q2, "1", "leave-one-out coefficient of determination of the "
+                          "polynomial-chaos surrogate (1 = perfect)")
+    data["pce_order"] = _var(sd, order, "1", "total order of the polynomial-chaos surrogate")
 
 
 def _nominal_thickness(study, out) -> np.ndarray:
