@@ -398,7 +398,13 @@ def _solve_chunk(
 
     # Starting field: a ramp from the hot temperature (when prescribed) to the cold one.
     t = np.empty((nodes, n))
-    t_hot = _full(hot_side.temperature, n) if hot_fixed else t_cold
+    if hot_fixed:
+        t_hot = _full(hot_side.temperature, n)
+    elif isinstance(hot_side, HotEnvironment):
+        t_hot = _adiabatic_face_temperature(t_cold, **hot_kw)
+        t_hot = t_cold + 0.5 * (t_hot - t_cold)
+    else:
+        t_hot = t_cold
     frac = np.linspace(0.0, 1.0, nodes)[:, None]
     t[:] = t_hot + (t_cold - t_hot) * frac
     t[0], t[-1] = t_hot, t_cold  # prescribed faces exactly, not to within rounding of the ramp
@@ -527,6 +533,15 @@ def _solve_chunk(
         element_layers=tuple(el.layer for el in elements),
         inner_surface_index=inner,
     )
+
+
+def _adiabatic_face_temperature(t_start, **hot_kw) -> np.ndarray:
+    """Exposed-face temperature with no heat into the assembly, q_in(T) = 0 (B.1)."""
+    t = np.maximum(np.asarray(t_start, dtype=float), np.asarray(hot_kw["gas_temperature"]))
+    for _ in range(8):
+        q, dq = hot_environment_flux(t, **hot_kw)
+        t = np.maximum(t - q / dq, 0.5 * t)
+    return t
 
 
 def _thomas(a: np.ndarray, b: np.ndarray, c: np.ndarray, d: np.ndarray) -> np.ndarray:
