@@ -382,7 +382,8 @@ def test_duplicate_scenario_level():
 
 
 def test_sections_registry_order():
-    assert list(SECTIONS) == ["study", "model", "hot_side", "layer", "cold_side", "scenarios"]
+    assert list(SECTIONS) == ["study", "model", "hot_side", "layer", "cold_side", "scenarios",
+                             "tolerances"]
 
 
 def test_every_bad_config_is_labelled():
