@@ -229,6 +229,32 @@ def kinematic_viscosity(temperature: ArrayLike, *, check_range: bool = True) -> 
     return viscosity(t, check_range=False) / density(t, check_range=False)
 
 
+def rayleigh_property_group(temperature: np.ndarray) -> np.ndarray:
+    """The property group ``T nu alpha`` of the Rayleigh number of an ideal gas.
+
+    With ``beta = 1/T``, ``Ra = g dT L^3 / (T nu alpha)``; ``nu = eta/rho`` and
+    ``alpha = k/(rho cp)`` come from :func:`viscosity`, :func:`thermal_conductivity`,
+    :func:`density` and :func:`heat_capacity`, with the viscosity evaluated once. No range check.
+
+    Parameters
+    ----------
+    temperature
+        Air temperature [K].
+
+    Returns
+    -------
+    numpy.ndarray
+        ``T nu alpha`` [K m4 s-2].
+    """
+    t = np.asarray(temperature, dtype=float)
+    eta0 = viscosity(t, check_range=False) * 1e6  # [uPa s]
+    tau = _T_CRITICAL / t
+    k = (_N1 * eta0 + _N2 * tau**_T2 + _N3 * tau**_T3) * 1e-3
+    rho = STANDARD_ATMOSPHERE * MOLAR_MASS / (GAS_CONSTANT * t)
+    cp = np.polyval(_CP_POLY, t / 1000.0)
+    return t * (eta0 * 1e-6 / rho) * (k / (rho * cp))
+
+
 def thermal_conductivity_with_slope(temperature: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Thermal conductivity and its temperature derivative, for Newton solves.
 

@@ -72,10 +72,8 @@ def rayleigh_number(
     t1 = np.asarray(hot_face_temperature, dtype=float)
     t2 = np.asarray(cold_face_temperature, dtype=float)
     tm = 0.5 * (t1 + t2)
-    kw = {"check_range": False}
-    nu = air.kinematic_viscosity(tm, **kw)
-    alpha = air.thermal_diffusivity(tm, **kw)
-    return STANDARD_GRAVITY * np.abs(t1 - t2) * np.asarray(gap_width) ** 3 / (tm * nu * alpha)
+    group = air.rayleigh_property_group(tm)  # T nu alpha
+    return STANDARD_GRAVITY * np.abs(t1 - t2) * np.asarray(gap_width) ** 3 / group
 
 
 def nusselt_vertical(rayleigh: ArrayLike, aspect_ratio: ArrayLike) -> np.ndarray:
