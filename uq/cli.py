@@ -15,7 +15,7 @@ import argparse
 import sys
 import warnings
 from collections.abc import Callable, Sequence
-from dataclasses import replace
+from dataclasses import asdict, replace
 from pathlib import Path
 
 import numpy as np
@@ -27,6 +27,8 @@ from uq.cautions import cautions_text
 from uq.config import load_study, require_runnable, stack_key_path
 from uq.errors import ConfigError
 from uq.pipeline import default_output_dir, run_study, summary_text
+from uq.report import write_report
+from uq.storage import read_results
 from uq.study import Study
 from uq.targets import parse_target
 from uq.tolerance_io import manufacturing_table, tolerance_text, write_tolerance_csv
@@ -306,6 +308,72 @@ def cmd_run(args: argparse.Namespace) -> int:
         print(cautions_text())
         return 1
     print(summary_text(result))
+    if not args.no_report:
+        rows = None
+        if study.tolerances is not None:
+            if not args.quiet and sys.stderr.isatty():
+                print(f"{PROG}: tolerance feedback for the report ([tolerances] in the "
+                      "config) ...", file=sys.stderr)
+            rows = manufacturing_table(run_tolerances(result.study), result.study)
+        print(_write_report(result.dataset, out_dir, rows))
+    return 0
+
+
+def _write_report(ds, out_dir: Path, rows) -> str:
+    """Write the report (and the tolerance table, when given); return the line to print."""
+    files = write_report(ds, out_dir, tolerance_table=None if rows is None else
+                         [asdict(r) for r in rows])
+    if rows is not None:  # the canonical tolerance CSV, cautions first
+        write_tolerance_csv(rows, out_dir / "tolerances.csv")
+    return f"report: {files.html}  (summary: {files.markdown.name}; figures and CSV tables in " \
+           f"{out_dir})"
+
+
+# ----------------------------------------------------------------------------------------------
+# report
+# ----------------------------------------------------------------------------------------------
+
+
+def _add_report(subparsers) -> None:
+    p = subparsers.add_parser(
+        "report",
+        help="write the HTML report, Markdown summary, figures and CSV tables of a results.nc",
+        description="Write the report of a finished study (plyrisk run does this by default): "
+        "report.html (self-contained), summary.md, figures/*.png|svg and CSV tables.",
+    )
+    p.add_argument("results", help="a results.nc written by plyrisk run")
+    p.add_argument("--out", metavar="DIR", help="output folder (default: the folder of the "
+                   "results file)")
+    p.set_defaults(func=cmd_report)
+
+
+def cmd_report(args: argparse.Namespace) -> int:
+    """Run ``plyrisk report``: the report of a stored results dataset.
+
+    Parameters
+    ----------
+    args
+        Parsed arguments [-].
+
+    Returns
+    -------
+    int
+        0 on success [-].
+    """
+    path = Path(args.results)
+    if not path.is_file():
+        raise UsageError(f"{path}: no such results file")
+    try:
+        ds = read_results(path)
+    except (OSError, ValueError) as err:
+        raise UsageError(f"{path}: not a readable NetCDF results file ({err})") from None
+    out_dir = Path(args.out) if args.out else path.parent
+    try:
+        line = _write_report(ds, out_dir, None)
+    except ValueError as err:
+        raise UsageError(f"{path}: {err}") from None
+    print(line)
+    print(cautions_text())
     return 0
 
 
@@ -366,8 +434,12 @@ def cmd_tolerances(args: argparse.Namespace) -> int:
         progress=(lambda stage: print(f"{PROG}: {stage} ...", file=sys.stderr)) if show
         else None)
     out_dir = Path(args.out) if args.out else default_output_dir(args.config)
-    path = write_tolerance_csv(manufacturing_table(report, study), out_dir / "tolerances.csv")
+    rows = manufacturing_table(report, study)
+    path = write_tolerance_csv(rows, out_dir / "tolerances.csv")
     print(tolerance_text(report, study, csv_path=path))
+    results = out_dir / "results.nc"
+    if results.is_file():  # a study run already in the folder: add the table to its report
+        print(_write_report(read_results(results), out_dir, rows))
     return 0
 
 
@@ -375,7 +447,7 @@ def cmd_tolerances(args: argparse.Namespace) -> int:
 # Entry point
 # ----------------------------------------------------------------------------------------------
 
-VERBS: tuple[Callable, ...] = (_add_check, _add_run, _add_tolerances)
+VERBS: tuple[Callable, ...] = (_add_check, _add_run, _add_report, _add_tolerances)
 """Adders of the subcommands, in help order."""
 
 
