@@ -53,6 +53,10 @@ class ScenarioAnalysis:
     surrogate, surrogate_groups
         Sobol indices of the inner-surface temperature from a polynomial-chaos surrogate,
         per parameter and per group, for designs without a Saltelli structure (else ``None``).
+    onset_samples
+        Samples with a gap past the onset of natural convection [-].
+    air_range_samples
+        Samples with a gap mean temperature outside the air-property range [-].
     """
 
     inner_quantiles: QuantileEstimate
@@ -65,6 +69,8 @@ class ScenarioAnalysis:
     nonconverged: int
     surrogate: SurrogateIndices | None = None
     surrogate_groups: SurrogateIndices | None = None
+    onset_samples: int = 0
+    air_range_samples: int = 0
 
 
 @dataclass(frozen=True)
@@ -198,6 +204,9 @@ def analyse(study, propagation: Propagation) -> StudyAnalysis:
                 nonconverged=int(np.sum(~propagation.outputs["converged"][s])),
                 surrogate=surrogate,
                 surrogate_groups=surrogate_groups,
+                onset_samples=int(np.sum(np.any(
+                    propagation.outputs["convection_onset"][s], axis=1))),
+                air_range_samples=int(np.sum(propagation.outputs["air_range_exceeded"][s])),
             )
         )
     return StudyAnalysis(result, probabilities, outputs, tuple(group_names), notes)

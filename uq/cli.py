@@ -263,6 +263,8 @@ def _add_run(subparsers) -> None:
     p.add_argument("--seed", metavar="S", type=int, help="seed (overrides [study] seed)")
     p.add_argument("--chunk-size", metavar="N", type=int, help="samples per evaluation chunk "
                    "(memory bound; results do not depend on it)")
+    p.add_argument("--workers", metavar="N", type=int, default=1, help="processes solving "
+                   "chunks in parallel (default 1; results do not depend on it)")
     p.add_argument("--no-report", action="store_true", help="write results.nc only")
     p.add_argument("--quiet", action="store_true", help="no progress bar")
     p.set_defaults(func=cmd_run)
@@ -281,6 +283,8 @@ def _check_overrides(study: Study, args: argparse.Namespace) -> None:
         raise UsageError(f"--seed must be zero or positive, got {args.seed}")
     if args.chunk_size is not None and args.chunk_size < 1:
         raise UsageError(f"--chunk-size must be a positive integer, got {args.chunk_size}")
+    if args.workers < 1:
+        raise UsageError(f"--workers must be a positive integer, got {args.workers}")
 
 
 def cmd_run(args: argparse.Namespace) -> int:
@@ -302,7 +306,7 @@ def cmd_run(args: argparse.Namespace) -> int:
     out_dir = Path(args.out) if args.out else default_output_dir(args.config)
     try:
         result = run_study(study, out_dir=out_dir, samples=args.samples, seed=args.seed,
-                           chunk_size=args.chunk_size, quiet=args.quiet)
+                           chunk_size=args.chunk_size, quiet=args.quiet, workers=args.workers)
     except AnalysisError as err:
         print(f"{PROG}: {err}", file=sys.stderr)
         print(cautions_text())

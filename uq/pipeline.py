@@ -42,6 +42,7 @@ def run_study(
     seed: int | None = None,
     chunk_size: int | None = None,
     quiet: bool = False,
+    workers: int = 1,
 ) -> StudyResult:
     """Propagate, analyse and (when ``out_dir`` is given) write ``out_dir/results.nc``.
 
@@ -59,6 +60,8 @@ def run_study(
         Samples per evaluation chunk overriding the config [-].
     quiet
         No progress bar [-].
+    workers
+        Processes solving chunks in parallel [-]; results do not depend on it.
 
     Returns
     -------
@@ -73,7 +76,7 @@ def run_study(
         if seed is not None:
             changes["seed"] = int(seed)
         study = replace(study, analysis=replace(study.analysis, **changes))
-    prop = propagate(study, chunk_size=chunk_size, quiet=quiet)
+    prop = propagate(study, chunk_size=chunk_size, quiet=quiet, workers=workers)
     analysis = analyse(study, prop)
     ds = to_dataset(study, prop, analysis)
     path = None
@@ -177,6 +180,19 @@ def summary_text(result: StudyResult) -> str:
                              "only; Sobol indices need method = \"sobol\"):")
                 for r, j in enumerate(order[:TOP_COUNT], start=1):
                     lines.append(f"  {r}. {names[j]:<32} {sc.rank_correlation[j]:+.3f}")
+        if sc.onset_samples:
+            lines.append(
+                f"WARNING: {sc.onset_samples} of {n_eval} samples have a gap past the onset of "
+                "natural convection"
+                + ("; still-air conduction underestimates the heat flow there, so those "
+                   "temperatures are not conservative — consider [model] convection = true"
+                   if not study.model.convection else " (convection correlations applied)")
+            )
+        if sc.air_range_samples:
+            lines.append(
+                f"note: {sc.air_range_samples} samples have a gap mean temperature outside "
+                "250–1500 K, where the air properties are extrapolated"
+            )
         lines.append(
             f"non-converged samples: {sc.nonconverged} of {n_eval}"
             + (" (excluded from the statistics; see 'converged' in the dataset)"

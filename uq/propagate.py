@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import sys
 from collections.abc import Callable, Sequence
+from concurrent.futures import ProcessPoolExecutor, as_completed
 from dataclasses import dataclass
 
 import numpy as np
@@ -139,12 +140,19 @@ def scenario_count(study) -> int:
     return 1 if study.scenarios is None else len(study.scenarios.values)
 
 
+def _evaluate_block(study, block: np.ndarray) -> list[NetworkSolution]:
+    """Solve one chunk of samples for every scenario (runs in a worker process too)."""
+    scenarios = [None] if study.scenarios is None else range(scenario_count(study))
+    return [_solve(study, block, scenario) for scenario in scenarios]
+
+
 def evaluate(
     study,
     values: np.ndarray,
     *,
     chunk_size: int | None = None,
     progress: Callable[[int], None] | None = None,
+    workers: int = 1,
 ) -> Outputs:
     """Evaluate the network for every sample and every scenario, in chunks of bounded memory.
 
@@ -158,6 +166,9 @@ def evaluate(
         Samples per chunk [-]; default from the study. Results do not depend on it.
     progress
         Called with the number of samples finished after each chunk.
+    workers
+        Processes solving chunks in parallel [-]; 1 solves in this process. Results do not
+        depend on it: every sample is solved independently of the others.
 
     Returns
     -------
@@ -168,31 +179,44 @@ def evaluate(
     chunk = int(chunk_size or study.analysis.chunk_size)
     if chunk < 1:
         raise ValueError(f"chunk_size must be at least 1, got {chunk}")
+    if int(workers) < 1:
+        raise ValueError(f"workers must be at least 1, got {workers}")
     n_s = scenario_count(study)
-    scenarios = [None] if study.scenarios is None else list(range(n_s))
+    bounds = [(start, min(start + chunk, n)) for start in range(0, max(n, 1), chunk)]
     store: dict[str, np.ndarray] = {}
-    meta = None
-    for start in range(0, max(n, 1), chunk):
-        stop = min(start + chunk, n)
-        block = values[start:stop]
-        for s_index, scenario in enumerate(scenarios):
-            sol = _solve(study, block, scenario)
-            if meta is None:
-                meta = sol
-                for name in OUTPUT_FIELDS:
-                    v = getattr(sol, name)
-                    store[name] = np.empty((n_s, n, *v.shape[1:]), dtype=v.dtype)
+    meta: list[NetworkSolution] = []
+
+    def keep(start: int, stop: int, solutions: list[NetworkSolution]) -> None:
+        if not meta:
+            meta.append(solutions[0])
+            for name in OUTPUT_FIELDS:
+                v = getattr(solutions[0], name)
+                store[name] = np.empty((n_s, n, *v.shape[1:]), dtype=v.dtype)
+        for s_index, sol in enumerate(solutions):
             for name in OUTPUT_FIELDS:
                 store[name][s_index, start:stop] = getattr(sol, name)
         if progress is not None:
             progress(stop - start)
+
+    if int(workers) == 1 or len(bounds) == 1:
+        for start, stop in bounds:
+            keep(start, stop, _evaluate_block(study, values[start:stop]))
+    else:
+        with ProcessPoolExecutor(max_workers=int(workers)) as pool:
+            futures = {
+                pool.submit(_evaluate_block, study, values[start:stop]): (start, stop)
+                for start, stop in bounds
+            }
+            for future in as_completed(futures):
+                keep(*futures[future], future.result())
+    first = meta[0]
     return Outputs(
         fields=store,
-        interface_names=meta.interface_names,
-        element_names=meta.element_names,
-        element_kinds=meta.element_kinds,
-        element_layers=meta.element_layers,
-        inner_surface_index=meta.inner_surface_index,
+        interface_names=first.interface_names,
+        element_names=first.element_names,
+        element_kinds=first.element_kinds,
+        element_layers=first.element_layers,
+        inner_surface_index=first.inner_surface_index,
     )
 
 
@@ -248,6 +272,7 @@ def propagate(
     seed: int | None = None,
     chunk_size: int | None = None,
     quiet: bool = False,
+    workers: int = 1,
 ) -> Propagation:
     """Draw the design, map it to inputs and evaluate the model.
 
@@ -263,6 +288,8 @@ def propagate(
         Samples per chunk overriding the config [-].
     quiet
         Suppress the progress bar (it is shown only on a terminal anyway) [-].
+    workers
+        Processes solving chunks in parallel [-]; results do not depend on it.
 
     Returns
     -------
@@ -275,8 +302,9 @@ def propagate(
         from tqdm import tqdm
 
         bar = tqdm(total=len(inputs), unit="sample", desc="solving", file=sys.stderr)
-        outputs = evaluate(study, inputs, chunk_size=chunk_size, progress=bar.update)
+        outputs = evaluate(study, inputs, chunk_size=chunk_size, progress=bar.update,
+                           workers=workers)
         bar.close()
     else:
-        outputs = evaluate(study, inputs, chunk_size=chunk_size)
+        outputs = evaluate(study, inputs, chunk_size=chunk_size, workers=workers)
     return Propagation(design=design, inputs=inputs, outputs=outputs)

@@ -88,3 +88,37 @@ def test_missing_config_file(capsys, tmp_path):
     _, err = capsys.readouterr()
     assert code == 2
     assert "nope.toml" in one_line(err)
+
+
+def test_summary_warns_when_a_gap_passes_the_onset_of_convection():
+    from uq.config import loads_study
+    from uq.pipeline import run_study, summary_text
+
+    from .study_texts import panel
+
+    # A 20 mm vertical gap with tens of kelvin across it is far past the onset (Ra >> 1e3).
+    study = loads_study(panel(samples=16, gap_width='{ uniform = ["18 mm", "22 mm"] }'))
+    result = run_study(study, quiet=True)
+    assert result.analysis.scenarios[0].onset_samples > 0
+    text = summary_text(result)
+    assert "past the onset of natural convection" in text
+    assert "not conservative" in text
+
+
+def test_report_verb_rewrites_the_report_of_a_results_file(demo_run, tmp_path, capsys):
+    _, _, out = demo_run
+    assert (out / "report.html").is_file() and (out / "summary.md").is_file()
+    assert main(["report", str(out / "results.nc"), "--out", str(tmp_path)]) == 0
+    text = capsys.readouterr().out
+    assert "report:" in text and "CAUTIONS" in text
+    for name in ("report.html", "summary.md", "quantiles.csv", "indices.csv", "ranking.csv"):
+        assert (tmp_path / name).stat().st_size > 0, name
+
+
+def test_report_verb_on_a_missing_or_foreign_file(capsys, tmp_path):
+    assert main(["report", str(tmp_path / "none.nc")]) == 2
+    assert "no such results file" in one_line(capsys.readouterr().err)
+    bogus = tmp_path / "bogus.nc"
+    bogus.write_text("not netcdf")
+    assert main(["report", str(bogus)]) == 2
+    assert "not a readable NetCDF results file" in one_line(capsys.readouterr().err)

@@ -123,3 +123,17 @@ def test_a_study_where_nothing_converges_says_so():
     study = loads_study(panel(**UNCERTAIN, samples=16, extra="[model]\nmax_iterations = 1"))
     with pytest.raises(AnalysisError, match="no sample converged.*max_iterations"):
         analyse(study, propagate(study, quiet=True))
+
+
+def test_identical_results_whatever_the_number_of_workers():
+    study = loads_study(panel(**UNCERTAIN, samples=32))
+    one = propagate(study, chunk_size=50, quiet=True)
+    two = propagate(study, chunk_size=23, quiet=True, workers=2)
+    for name, value in one.outputs.fields.items():
+        assert np.array_equal(value, two.outputs.fields[name], equal_nan=True), name
+
+
+def test_bad_worker_count_is_rejected():
+    study = loads_study(panel(**UNCERTAIN, samples=8))
+    with pytest.raises(ValueError, match="workers must be at least 1, got 0"):
+        evaluate(study, np.zeros((0, 3)), workers=0)
