@@ -14,6 +14,11 @@ For a series network that gives, under a fixed exposure and a fixed cold side:
   temperature.
 
 The solver stops within 1e-6 K of the solution, so orderings are checked to 2e-6 K.
+
+Source of the orderings: common practice — monotonicity of steady series conduction networks
+with monotone element laws (the comparison principle for steady heat conduction); the
+emissivity → 0 limit is Fourier's law plus the still-air conduction of each gap (common
+practice).
 """
 
 from __future__ import annotations
