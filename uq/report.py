@@ -12,33 +12,42 @@
 
 The report re-reads the study from ``attrs["config_text"]`` (:func:`uq.config.loads_study`) for
 the stack and the input distributions in the user's units. What each section holds is
-described in ``docs/report.md``.
+described in ``docs/report.md``. This module assembles the HTML and Markdown; the display tables
+are built by :mod:`uq.report_tables`, the CSV files written by :mod:`uq.report_csv`.
 """
 
 from __future__ import annotations
 
 import base64
-import csv
 import html
-import math
-import tomllib
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass, field, fields
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-import numpy as np
 import xarray as xr
 
 from uq import figures as fg
 from uq.cautions import CAUTIONS
 from uq.config import loads_study
-from uq.storage import scenario_slices
-from uq.units import QUANTITIES, TEMPERATURE, format_value
+from uq.report_csv import write_csv, write_csv_tables
+from uq.report_tables import (
+    Table,
+    cell_text,
+    convergence_summary,
+    exposure_text,
+    headline_table,
+    nonconverged_table,
+    provenance_table,
+    quantile_note,
+    quantile_tables,
+    ranking_tables,
+    scenario_values,
+    stack_tables,
+)
 
 __all__ = ["ReportFigure", "ReportFiles", "Table", "report_figures", "write_report"]
 
-PRIMARY = fg.PRIMARY
 TOP_COUNT = 5
 """Parameters listed in the Markdown summary's ranking [-]."""
 _REQUIRED = ("inner_surface_temperature", "interface_temperature_quantile",
@@ -78,66 +87,6 @@ class ReportFigure:
     figure: Any
 
 
-@dataclass(frozen=True)
-class Table:
-    """A table of display text, rendered to HTML and Markdown alike."""
-
-    header: list[str]
-    rows: list[list[str]]
-    caption: str = ""
-
-
-# ----------------------------------------------------------------------------------------------
-# Formatting
-# ----------------------------------------------------------------------------------------------
-
-
-def _t(ds: xr.Dataset, kelvin: float) -> str:
-    return fg.format_temperature(ds, float(kelvin))
-
-
-def _pct(p: float) -> str:
-    return fg.format_percent(float(p))
-
-
-def _idx(v: float, ci: float | None = None) -> str:
-    if not np.isfinite(v):
-        return "n/a"
-    return f"{v:.3f}" + (f" ± {ci:.3f}" if ci is not None and np.isfinite(ci) else "")
-
-
-def _cell(v: Any) -> str:
-    if isinstance(v, bool | np.bool_):
-        return "yes" if v else "no"
-    if isinstance(v, float | np.floating):
-        return "" if math.isnan(v) else f"{float(v):.4g}"
-    return "" if v is None else str(v)
-
-
-def _csv(v: Any) -> str:
-    if isinstance(v, bool | np.bool_):
-        return "true" if v else "false"
-    if isinstance(v, int | np.integer):
-        return str(int(v))
-    if isinstance(v, float | np.floating):
-        return "" if not np.isfinite(v) else f"{float(v):.10g}"
-    return "" if v is None else str(v)
-
-
-def _scenario_values(ds: xr.Dataset) -> list[tuple[int | None, str, xr.Dataset]]:
-    out = []
-    for i, (label, one) in enumerate(scenario_slices(ds)):
-        out.append((i if "scenario" in ds.dims else None, label, one))
-    return out
-
-
-def _exposure(ds: xr.Dataset, label: str) -> str:
-    if not label:
-        return "as configured"
-    quantity = str(ds.attrs.get("scenario_quantity", "exposure")).replace("_", " ")
-    return f"{quantity} = {fg.pretty_unit(label)}"
-
-
 # ----------------------------------------------------------------------------------------------
 # Figures
 # ----------------------------------------------------------------------------------------------
@@ -157,9 +106,9 @@ def report_figures(ds: xr.Dataset) -> list[ReportFigure]:
     """
     sobol = "sobol_total" in ds
     out: list[ReportFigure] = []
-    for i, label, _ in _scenario_values(ds):
+    for i, label, _ in scenario_values(ds):
         sfx = "" if i is None else f"_{i + 1}"
-        at = f" — {_exposure(ds, label)}" if label else ""
+        at = f" — {exposure_text(ds, label)}" if label else ""
         out.append(ReportFigure(
             f"temperature_profile{sfx}", f"Temperature through the assembly{at}",
             "Median and 5–95 % / 1–99 % bands of each face temperature, from the exposed face "
@@ -236,7 +185,7 @@ def _save(figs: list[ReportFigure], folder: Path) -> tuple[list[Path], dict[str,
 
 
 # ----------------------------------------------------------------------------------------------
-# Tables (display)
+# Inputs: the stored study and the tolerance table
 # ----------------------------------------------------------------------------------------------
 
 
@@ -249,286 +198,6 @@ def _study(ds: xr.Dataset):
         return loads_study(str(text), source=str(ds.attrs.get("config_source", "<results>"))), ""
     except Exception as err:  # a newer or older config schema: report it, never fail the report
         return None, f"{type(err).__name__}: {err}"
-
-
-def _stack_tables(study, ds: xr.Dataset) -> list[Table]:
-    raw = tomllib.loads(study.text)
-    by_target = {p.target: p for p in study.parameters}
-    unit = study.limit_unit or "K"
-    swept = study.scenarios.quantity if study.scenarios is not None else None
-
-    def rows_of(obj, where: tuple, given: Mapping) -> list[list[str]]:
-        rows = []
-        keys = [f.name for f in fields(obj) if f.name != "name"]
-        if "emissivity" in given and "emissivity_hot" in keys:  # a solid's shorthand
-            keys = [k for k in keys if k not in ("emissivity_hot", "emissivity_cold")]
-            keys.insert(keys.index("contact_resistance") if "contact_resistance" in keys
-                        else len(keys), "emissivity")
-        for key in keys:
-            p = by_target.get((*where, key))
-            if p is not None:
-                rows.append([key, p.format(p.distribution.nominal), p.describe(),
-                             p.truncation()])
-                continue
-            if key in given:
-                shown = given[key] if isinstance(given[key], str) else _cell(given[key])
-                note = ""
-                if where == ("hot_side",) and key == swept:
-                    note = "swept: " + ", ".join(study.scenarios.labels)
-                rows.append([key, shown, note or "fixed", ""])
-                continue
-            value = getattr(obj, key)
-            if value is None:
-                continue
-            if isinstance(value, str):
-                rows.append([key, value, "default", ""])
-                continue
-            spec = QUANTITIES.get(key)
-            shown = (format_value(float(value), unit, TEMPERATURE) if spec is TEMPERATURE
-                     else format_value(float(value), spec.si_unit, spec) if spec else str(value))
-            rows.append([key, shown, "default", ""])
-        return rows
-
-    header = ["element", "kind", "quantity", "nominal", "uncertainty", "truncation"]
-    layer_rows = []
-    widths = dict(zip([str(n) for n in ds["layer"].values],
-                      np.asarray(ds["layer_nominal_thickness"].values, dtype=float),
-                      strict=True))
-    for i, layer in enumerate(study.layers):
-        given = raw.get("layer", [{}] * (i + 1))[i]
-        kind = given.get("kind", type(layer).__name__.lower())
-        first = True
-        for r in rows_of(layer, ("layer", i), given):
-            layer_rows.append([layer.name if first else "", kind if first else "", *r])
-            first = False
-        if f"{layer.name} contact" in widths:
-            layer_rows.append(["", "", "(contact to the next layer: no width)", "", "", ""])
-    sides = []
-    for side in ("hot_side", "cold_side"):
-        obj = getattr(study, side)
-        given = raw.get(side, {})
-        rows = [[side.replace("_", " ") if j == 0 else "", obj.kind if j == 0 else "", *r]
-                for j, r in enumerate(rows_of(obj, (side,), given))]
-        sides.append(rows)
-    return [
-        Table(header, sides[0], "The exposure (hot side)"),
-        Table(header, layer_rows, "The assembly, exposed side first"),
-        Table(header, sides[1], "The cold side"),
-    ]
-
-
-def _headline(ds: xr.Dataset) -> tuple[Table, list[str]]:
-    rows, verdicts = [], []
-    limit = float(ds.attrs["limit"])
-    for _, label, one in _scenario_values(ds):
-        q = fg.select_quantile(one["inner_surface_temperature_quantile"], 0.95).item()
-        lo = fg.select_quantile(one["inner_surface_temperature_quantile_lower"], 0.95).item()
-        hi = fg.select_quantile(one["inner_surface_temperature_quantile_upper"], 0.95).item()
-        e = [float(one[v].item()) for v in ("exceedance_probability",
-                                            "exceedance_probability_lower",
-                                            "exceedance_probability_upper")]
-        rows.append([_exposure(ds, label), _t(ds, q), f"[{_t(ds, lo)}, {_t(ds, hi)}]",
-                     _pct(e[0]), f"[{_pct(e[1])}, {_pct(e[2])}]",
-                     str(int(one["samples_used"].item())),
-                     str(int(one["nonconverged_count"].item()))])
-        where = f"At {_exposure(ds, label)}, " if label else ""
-        if not np.isfinite(q):
-            verdicts.append(f"{where}P95 is not available (no converged samples).")
-        elif not (np.isfinite(lo) and np.isfinite(hi)):
-            side = "below" if q < limit else "at or above"
-            verdicts.append(f"{where}P95 ({_t(ds, q)}) is {side} the limit ({_t(ds, limit)}), "
-                            "but the samples are too few for a confidence interval on P95: "
-                            "run more samples before relying on it.")
-        elif hi < limit:
-            verdicts.append(f"{where}P95 ({_t(ds, q)}) is below the limit ({_t(ds, limit)}), "
-                            "with its whole confidence interval.")
-        elif lo > limit:
-            verdicts.append(f"{where}P95 ({_t(ds, q)}) is above the limit ({_t(ds, limit)}), "
-                            "with its whole confidence interval.")
-        else:
-            verdicts.append(f"{where}{'the' if where else 'The'} limit ({_t(ds, limit)}) "
-                            "lies inside the confidence "
-                            f"interval of P95 ({_t(ds, q)}): these samples cannot tell whether "
-                            "P95 is above or below it; more samples narrow the interval.")
-    conf = f"{100 * float(ds.attrs.get('confidence', math.nan)):g} %"
-    header = ["exposure", "P95", f"P95 {conf} interval", f"P(T > {_t(ds, limit)})",
-              f"{conf} interval", "independent samples used", "evaluations not converged"]
-    method = ds["exceedance_probability"].attrs.get("method")
-    return Table(header, rows, "Inner-surface temperature: P95 and the probability of "
-                 "exceeding the limit" + (f" ({method} interval)" if method else "")), verdicts
-
-
-def _quantile_tables(ds: xr.Dataset) -> list[Table]:
-    out = []
-    for _, label, one in _scenario_values(ds):
-        rows = []
-        for k, p in enumerate(np.asarray(one["quantile"].values, dtype=float)):
-            rows.append([f"P{100 * p:g}",
-                         _t(ds, one["inner_surface_temperature_quantile"].values[k]),
-                         f"[{_t(ds, one['inner_surface_temperature_quantile_lower'].values[k])}, "
-                         f"{_t(ds, one['inner_surface_temperature_quantile_upper'].values[k])}]"])
-        out.append(Table(["percentile", "inner-surface temperature", "confidence interval"],
-                         rows, _exposure(ds, label) if label else ""))
-    return out
-
-
-def _quantile_note(ds: xr.Dataset) -> str:
-    conf = 100 * float(ds.attrs.get("confidence", math.nan))
-    return (f"Intervals: {conf:g} % confidence intervals from order statistics; n/a where the "
-            "samples are too few to bound a tail percentile on that side.")
-
-
-_KEYS = ("first", "first_ci", "total", "total_ci")
-
-
-def _ranks(total: np.ndarray) -> np.ndarray:
-    order = np.argsort(-np.nan_to_num(np.asarray(total, dtype=float), nan=-np.inf),
-                       kind="stable")
-    r = np.empty(order.size, dtype=int)
-    r[order] = np.arange(1, order.size + 1)
-    return r
-
-
-@dataclass(frozen=True)
-class _IndexSet:
-    """The Sobol indices of one exposure and output, from the Saltelli estimators or the
-    polynomial-chaos surrogate; ``*_converged`` is ``None`` when no flag exists."""
-
-    output: str
-    estimator: str
-    p: dict
-    g: dict
-    p_rank: np.ndarray
-    g_rank: np.ndarray
-    p_converged: np.ndarray | None
-    g_converged: np.ndarray | None
-
-
-def _index_sets(one: xr.Dataset) -> list[_IndexSet]:
-    if "sobol_total" in one:
-        out = []
-        for o in [str(v) for v in one["output"].values]:
-            s = one.sel(output=o)
-            out.append(_IndexSet(
-                o, "saltelli", {k: s[f"sobol_{k}"].values for k in _KEYS},
-                {k: s[f"sobol_group_{k}"].values for k in _KEYS}, s["parameter_rank"].values,
-                s["group_rank"].values, s["index_converged"].values,
-                s["group_index_converged"].values))
-        return out
-    if "pce_total" in one:
-        p = {k: one[f"pce_{k}"].values for k in _KEYS}
-        g = {k: one[f"pce_group_{k}"].values for k in _KEYS}
-        return [_IndexSet(PRIMARY, "pce_surrogate", p, g, _ranks(p["total"]),
-                          _ranks(g["total"]), None, None)]
-    return []
-
-
-def _status(conv: np.ndarray | None, j: int) -> str:
-    if conv is None:
-        return "surrogate"
-    return "converged" if conv[j] else "UNCONVERGED"
-
-
-def _fit(one: xr.Dataset) -> str:
-    q2 = float(one["pce_q2"].item())
-    if not np.isfinite(q2):
-        return "no surrogate could be fitted"
-    return f"polynomial-chaos surrogate, order {int(one['pce_order'].item())}, Q2 = {q2:.3f}"
-
-
-def _ranking_tables(ds: xr.Dataset) -> list[Table]:
-    out = []
-    for _, label, one in _scenario_values(ds):
-        suffix = f" — {_exposure(ds, label)}" if label else ""
-        for ix in _index_sets(one):
-            if ix.output != PRIMARY:
-                continue
-            how = ("" if ix.estimator == "saltelli" else f" from a {_fit(one)}")
-            names = [str(n) for n in one["parameter"].values]
-            rows = [[str(int(ix.p_rank[j])), names[j],
-                     str(one["parameter_group"].values[j]).replace("_", " "),
-                     _idx(float(ix.p["total"][j]), float(ix.p["total_ci"][j])),
-                     _idx(float(ix.p["first"][j]), float(ix.p["first_ci"][j])),
-                     _status(ix.p_converged, j)]
-                    for j in np.argsort(ix.p_rank, kind="stable")]
-            out.append(Table(["rank", "parameter", "layer", "total index ± CI",
-                              "first-order index ± CI", "status"], rows,
-                             f"Parameters by total Sobol index{how}{suffix}"))
-            groups = [str(g).replace("_", " ") for g in one["group"].values]
-            rows = [[str(int(ix.g_rank[j])), groups[j],
-                     _idx(float(ix.g["total"][j]), float(ix.g["total_ci"][j])),
-                     _idx(float(ix.g["first"][j]), float(ix.g["first_ci"][j])),
-                     _status(ix.g_converged, j)]
-                    for j in np.argsort(ix.g_rank, kind="stable")]
-            out.append(Table(["rank", "layer", "total index ± CI", "first-order index ± CI",
-                              "status"], rows,
-                             f"Layers by grouped total Sobol index{how}{suffix}"))
-        if "sobol_total" not in one:
-            rho = np.asarray(one["rank_correlation"].values, dtype=float)
-            order = np.argsort(-np.nan_to_num(np.abs(rho), nan=-1.0), kind="stable")
-            names = [str(n) for n in one["parameter"].values]
-            out.append(Table(
-                ["rank", "parameter", "layer", "Spearman ρ"],
-                [[str(r), names[j], str(one["parameter_group"].values[j]).replace("_", " "),
-                  "n/a" if not np.isfinite(rho[j]) else f"{rho[j]:+.3f}"]
-                 for r, j in enumerate(order, start=1)],
-                f"Screening only: parameters by |rank correlation|{suffix}"))
-    return out
-
-
-def _convergence(ds: xr.Dataset) -> tuple[list[str], Table | None]:
-    if "sobol_total" not in ds:
-        if "pce_total" not in ds:
-            return [f"No Sobol indices were computed (method = {ds.attrs.get('method')}), so "
-                    "there is no index convergence to report."], None
-        rows = [[_exposure(ds, label) if label else "—", str(int(one["pce_order"].item())),
-                 _cell(float(one["pce_q2"].item()))] for _, label, one in _scenario_values(ds)]
-        return [f"The indices of this {ds.attrs.get('method')} study come from a "
-                "polynomial-chaos surrogate fitted to the samples, with bootstrap intervals. "
-                "They are only as good as the fit: the leave-one-out Q2 below should be close "
-                "to 1. A Sobol design (method = \"sobol\") estimates them without a "
-                "surrogate."], Table(["exposure", "surrogate order", "leave-one-out Q2"], rows)
-    thr = ds["index_converged"].attrs.get("threshold")
-    rows = []
-    for _, label, one in _scenario_values(ds):
-        for ix in _index_sets(one):
-            s = one.sel(output=ix.output)
-            bad_p = [str(n) for n, c in zip(one["parameter"].values, ix.p_converged,
-                                            strict=True) if not c]
-            bad_g = [str(n).replace("_", " ") for n, c in
-                     zip(one["group"].values, ix.g_converged, strict=True) if not c]
-            need = int(s["suggested_base_samples"].item())
-            rows.append([_exposure(ds, label) if label else "—", ix.output.replace("_", " "),
-                         ", ".join(bad_p) or "none", ", ".join(bad_g) or "none",
-                         str(need) if need else "— (converged)",
-                         str(int(s["sobol_rows_dropped"].item()))])
-    text = [f"An index counts as converged when both its confidence half-widths are below "
-            f"{thr:g}. Unconverged indices are hatched in the figures; their ranking is not "
-            f"settled. The study used {ds.attrs.get('base_samples')} base samples; the "
-            "suggested count would narrow every interval below the threshold (set samples in "
-            "[study], or rerun with --samples)." if thr is not None else
-            "Convergence threshold not stored in the dataset."]
-    return text, Table(["exposure", "output", "unconverged parameters", "unconverged layers",
-                        "suggested base samples", "base rows dropped"], rows)
-
-
-def _nonconverged(ds: xr.Dataset) -> Table:
-    rows = []
-    layers = [str(n) for n in ds["layer"].values]
-    gaps = [j for j, k in enumerate(ds["layer_kind"].values) if str(k) == "gap"]
-    conv_on = bool(int(ds.attrs.get("convection", 0)))
-    for _, label, one in _scenario_values(ds):
-        n = one.sizes["sample"]
-        onset = np.asarray(one["convection_onset"].values, dtype=bool)
-        past = "; ".join(f"{layers[j]}: {int(onset[:, j].sum())}" for j in gaps) or "no gaps"
-        rows.append([_exposure(ds, label) if label else "—", str(n),
-                     str(int(one["nonconverged_count"].item())),
-                     str(int(np.asarray(one["air_range_exceeded"].values, dtype=bool).sum())),
-                     past + ("" if conv_on or not gaps else
-                             " (convection is off: these gaps break the still-air assumption)"
-                             if onset[:, gaps].any() else "")])
-    return Table(["exposure", "evaluations", "not converged (excluded)",
-                  "gap air outside 250–1500 K", "samples past convection onset, per gap"], rows)
 
 
 def _tolerance_table(table) -> tuple[list[str], list[dict]]:
@@ -548,23 +217,6 @@ def _tolerance_table(table) -> tuple[list[str], list[dict]]:
         return columns, [{str(k): v for k, v in r.items()} for r in records]
     raise ValueError(f"tolerance_table must be a pandas DataFrame, a list of dicts or None, got "
                      f"{type(table).__name__}")
-
-
-def _provenance(ds: xr.Dataset) -> Table:
-    a = ds.attrs
-    rows = [["config file", str(a.get("config_source", ""))],
-            ["method", str(a.get("method", ""))], ["seed", str(a.get("seed", ""))],
-            ["base samples", str(a.get("base_samples", ""))],
-            ["model evaluations", f"{a.get('evaluations', '')}"
-             + (f" per exposure × {ds.sizes['scenario']} exposures"
-                if "scenario" in ds.dims else "")],
-            ["uncertain parameters", str(a.get("parameters", ""))],
-            ["confidence level", f"{100 * float(a.get('confidence', math.nan)):g} %"],
-            ["gap radiation", str(a.get("radiation", ""))],
-            ["gap convection", "on" if int(a.get("convection", 0)) else "off"]]
-    rows += [[f"{k.removeprefix('version_')} version", str(v)] for k, v in a.items()
-             if k.startswith("version_")]
-    return Table(["item", "value"], rows)
 
 
 NO_SOBOL = ("Without a Sobol design (method = \"sobol\") the Sobol indices, where shown, come "
@@ -590,86 +242,6 @@ ASSUMPTIONS = (
     "derived for independent draws, are then approximate).",
 )
 """The model's assumptions and limits, listed in every report."""
-
-
-# ----------------------------------------------------------------------------------------------
-# CSV tables
-# ----------------------------------------------------------------------------------------------
-
-
-def _write_csv(path: Path, header: list[str], rows: list[list[Any]]) -> Path:
-    with path.open("w", newline="", encoding="utf-8") as fh:
-        w = csv.writer(fh)
-        w.writerow(header)
-        w.writerows([[_csv(v) for v in r] for r in rows])
-    return path
-
-
-def _csv_tables(ds: xr.Dataset, out: Path) -> list[Path]:
-    unit = fg.temperature_unit(ds)
-    quant, ind, grp, rank = [], [], [], []
-
-    def shown(v) -> float:
-        return float(fg.to_display_temperature(ds, v))
-
-    for _, label, one in _scenario_values(ds):
-        probs = np.asarray(one["quantile"].values, dtype=float)
-        for k, p in enumerate(probs):
-            quant.append([label, PRIMARY, "", p,
-                          *(shown(one[f"inner_surface_temperature_quantile{s}"].values[k])
-                            for s in ("", "_lower", "_upper")), unit])
-        for f, face in enumerate(str(v) for v in one["interface"].values):
-            for k, p in enumerate(probs):
-                quant.append([label, "interface_temperature", face, p,
-                              *(shown(one[f"interface_temperature_quantile{s}"].values[f, k])
-                                for s in ("", "_lower", "_upper")), unit])
-        names = [str(n) for n in one["parameter"].values]
-        groups = [str(g) for g in one["group"].values]
-        rho = np.asarray(one["rank_correlation"].values, dtype=float)
-        sets = _index_sets(one)
-        for ix in sets:
-            pc, gc = ix.p_converged, ix.g_converged
-            for j, name in enumerate(names):
-                ind.append([label, ix.output, name, str(one["parameter_group"].values[j]),
-                            str(one["parameter_unit"].values[j]),
-                            *(float(ix.p[k][j]) for k in _KEYS), int(ix.p_rank[j]),
-                            None if pc is None else bool(pc[j]),
-                            rho[j] if ix.output == PRIMARY else None, ix.estimator])
-                rank.append([label, ix.output, "parameter", int(ix.p_rank[j]), name,
-                             f"total_sobol_index_{ix.estimator}", float(ix.p["total"][j]),
-                             float(ix.p["total_ci"][j]), None if pc is None else bool(pc[j])])
-            for j, g in enumerate(groups):
-                grp.append([label, ix.output, g, *(float(ix.g[k][j]) for k in _KEYS),
-                            int(ix.g_rank[j]), None if gc is None else bool(gc[j]),
-                            ix.estimator])
-                rank.append([label, ix.output, "layer", int(ix.g_rank[j]), g,
-                             f"total_sobol_index_{ix.estimator}", float(ix.g["total"][j]),
-                             float(ix.g["total_ci"][j]), None if gc is None else bool(gc[j])])
-        if not sets:
-            for j, name in enumerate(names):
-                ind.append([label, PRIMARY, name, str(one["parameter_group"].values[j]),
-                            str(one["parameter_unit"].values[j]), *([None] * 6), rho[j], ""])
-        if "sobol_total" not in one:
-            for r, j in enumerate(np.argsort(-np.nan_to_num(np.abs(rho), nan=-1.0),
-                                             kind="stable"), start=1):
-                rank.append([label, PRIMARY, "parameter", r, names[j],
-                             "spearman_rank_correlation", rho[j], None, None])
-    first_seen: dict[tuple, int] = {}
-    for r in rank:
-        first_seen.setdefault((r[0], r[1], r[2], r[5]), len(first_seen))
-    rank.sort(key=lambda r: (first_seen[(r[0], r[1], r[2], r[5])], r[3]))
-    return [
-        _write_csv(out / "quantiles.csv", ["scenario", "quantity", "interface", "probability",
-                                           "estimate", "lower", "upper", "unit"], quant),
-        _write_csv(out / "indices.csv", ["scenario", "output", "parameter", "group", "unit",
-                                         "first", "first_ci", "total", "total_ci", "rank",
-                                         "converged", "rank_correlation", "estimator"], ind),
-        _write_csv(out / "group_indices.csv", ["scenario", "output", "group", "first",
-                                               "first_ci", "total", "total_ci", "rank",
-                                               "converged", "estimator"], grp),
-        _write_csv(out / "ranking.csv", ["scenario", "output", "kind", "rank", "name", "measure",
-                                         "value", "ci", "converged"], rank),
-    ]
 
 
 # ----------------------------------------------------------------------------------------------
@@ -769,16 +341,16 @@ def write_report(
     out.mkdir(parents=True, exist_ok=True)
     figs = report_figures(ds)
     fig_paths, embedded = _save(figs, out / "figures")
-    tables = _csv_tables(ds, out)
+    tables = write_csv_tables(ds, out)
     if tol is not None:
         columns, records = tol
-        tables.append(_write_csv(out / "tolerances.csv", columns,
-                                 [[r.get(c) for c in columns] for r in records]))
+        tables.append(write_csv(out / "tolerances.csv", columns,
+                                [[r.get(c) for c in columns] for r in records]))
     study, why = _study(ds)
-    headline, verdicts = _headline(ds)
+    headline, verdicts = headline_table(ds)
     crossing = fg.limit_crossing(ds) if "scenario" in ds.dims else None
-    conv_text, conv_table = _convergence(ds)
-    ranking = _ranking_tables(ds)
+    conv_text, conv_table = convergence_summary(ds)
+    ranking = ranking_tables(ds)
     title = str(ds.attrs.get("title", "plyrisk study"))
     notes = [n for n in str(ds.attrs.get("notes", "")).split("\n") if n.strip()]
 
@@ -797,16 +369,16 @@ def write_report(
                  "interpolation between swept levels)</p>")
     h.append("<h2>What was studied</h2>")
     if study is not None:
-        h += [_html_table(t) for t in _stack_tables(study, ds)]
+        h += [_html_table(t) for t in stack_tables(study, ds)]
     else:
         h.append(f"<p>The stored config could not be re-read by this version of plyrisk "
                  f"({_esc(why)}); the stack table is left out. The config text is under "
                  "Provenance.</p>")
-    h.append(f"<p>Limit of the inner-surface temperature: {_esc(_t(ds, ds.attrs['limit']))}."
-             "</p>")
+    h.append("<p>Limit of the inner-surface temperature: "
+             f"{_esc(fg.format_temperature(ds, float(ds.attrs['limit'])))}.</p>")
     h.append("<h2>Percentiles of the inner-surface temperature</h2>")
-    h += [_html_table(t) for t in _quantile_tables(ds)]
-    h.append(f"<p>{_esc(_quantile_note(ds))}</p>")
+    h += [_html_table(t) for t in quantile_tables(ds)]
+    h.append(f"<p>{_esc(quantile_note(ds))}</p>")
     h.append("<h2>Ranking: which inputs and layers matter</h2>")
     if "sobol_total" not in ds:
         h.append(f"<p>{_esc(NO_SOBOL)}</p>")
@@ -819,7 +391,7 @@ def write_report(
     if tol is not None:
         columns, records = tol
         h.append("<h2>Tolerance recommendations</h2>")
-        h.append(_html_table(Table(columns, [[_cell(r.get(c)) for c in columns]
+        h.append(_html_table(Table(columns, [[cell_text(r.get(c)) for c in columns]
                                              for r in records])) if records else
                  "<p>The tolerance table has no rows.</p>")
     h.append("<h2>Convergence of the indices</h2>")
@@ -829,12 +401,12 @@ def write_report(
     h += ["<h2>Samples that did not converge</h2>",
           "<p>Samples whose solve did not converge to a physically valid solution are excluded "
           "from every statistic and counted here; nothing is clipped.</p>",
-          _html_table(_nonconverged(ds))]
+          _html_table(nonconverged_table(ds))]
     h.append("<h2>Assumptions and limits of the model</h2><ul>"
              + "".join(f"<li>{_esc(a)}</li>" for a in ASSUMPTIONS)
              + "".join(f"<li>{_esc(n)}</li>" for n in notes) + "</ul>")
     h.append(_cautions_html())
-    h += ["<h2>Provenance</h2>", _html_table(_provenance(ds)),
+    h += ["<h2>Provenance</h2>", _html_table(provenance_table(ds)),
           "<h3>Config text</h3>", f"<pre>{_esc(ds.attrs.get('config_text', ''))}</pre>",
           "</body>", "</html>"]
     html_path = out / "report.html"
@@ -853,11 +425,11 @@ def write_report(
     m += ["## Convergence", "", *conv_text, ""]
     if conv_table is not None:
         m += [_md_table(conv_table), ""]
-    m += ["## Samples that did not converge", "", _md_table(_nonconverged(ds)), ""]
+    m += ["## Samples that did not converge", "", _md_table(nonconverged_table(ds)), ""]
     if notes:
         m += ["## Notes", "", *[f"- {n}" for n in notes], ""]
     m += ["## Files", "", *[f"- `{p.relative_to(out).as_posix()}`" for p in fig_paths + tables],
-          "", "## Provenance", "", _md_table(_provenance(ds)), "", _cautions_md(), ""]
+          "", "## Provenance", "", _md_table(provenance_table(ds)), "", _cautions_md(), ""]
     md_path = out / "summary.md"
     md_path.write_text("\n".join(m), encoding="utf-8")
     return ReportFiles(html_path, md_path, fig_paths, tables)
