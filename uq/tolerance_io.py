@@ -16,6 +16,7 @@ from pathlib import Path
 
 from uq.cautions import cautions_text
 from uq.study import Parameter, Study
+from uq.text import text_table
 from uq.tolerances import Outcome, ToleranceReport
 from uq.units import TEMPERATURE, from_si
 
@@ -161,17 +162,6 @@ def write_tolerance_csv(rows: Sequence[ManufacturingRow], path: str | Path) -> P
 # ----------------------------------------------------------------------------------------------
 
 
-def _table(header: Sequence[str], rows: Sequence[Sequence[str]]) -> list[str]:
-    cols = list(zip(header, *rows, strict=True))
-    widths = [max(len(str(c)) for c in col) for col in cols]
-
-    def line(cells) -> str:
-        return "  " + "  ".join(str(c).ljust(w) for c, w in zip(cells, widths, strict=True))
-
-    return [line(header).rstrip(), line("-" * w for w in widths).rstrip()] + [
-        line(r).rstrip() for r in rows]
-
-
 def _pct(p: float) -> str:
     return "n/a" if not math.isfinite(p) else f"{100 * p:.3g} %"
 
@@ -249,7 +239,7 @@ def tolerance_text(report: ToleranceReport, study: Study, *,
                      _pct(w.halved.worst_exceedance), _pct(w.nominal.worst_exceedance),
                      _pct(w.variance_share)])
     out += ["", "What-if: one parameter tightened, the others as specified (worst exposure)"]
-    out += _table(["parameter", f"{label} halved", "change", f"{label} at nominal", "change",
+    out += text_table(["parameter", f"{label} halved", "change", f"{label} at nominal", "change",
                    "P(exceed) halved", "P(exceed) at nominal", "variance share"], rows)
     s = base.scenario
     half = 0.5 * (base.quantile_upper[s] - base.quantile_lower[s])
@@ -270,13 +260,13 @@ def tolerance_text(report: ToleranceReport, study: Study, *,
             note = (note + "; " if note else "") + "metric not monotone in the spread"
         rows.append([p.name, f"{a.factor:.3g}x" if math.isfinite(a.factor) else "-", spec,
                      note])
-    out += _table(["parameter", "factor", "allowable spec", "note"], rows)
+    out += text_table(["parameter", "factor", "allowable spec", "note"], rows)
     out += [""] + _allocation_lines(report, study)
     if report.nominal_shift is not None:
         out += [""] + _shift_lines(report, study)
     out += ["", "For manufacturing"]
     table = manufacturing_table(report, study)
-    out += _table(["parameter", "layer", "current spec", "variance share",
+    out += text_table(["parameter", "layer", "current spec", "variance share",
                    f"{label} if halved", "recommended", "target"],
                   [[r.parameter, r.layer, r.current_spec, _pct(r.variance_share),
                     f"{r.quantile_if_halved:.4g} {r.temperature_unit}", r.recommended_spec,
@@ -305,7 +295,7 @@ def _allocation_lines(report: ToleranceReport, study: Study) -> list[str]:
         factor = "-" if a.status == "infeasible" else f"{a.factors[j]:.3g}x"
         rows.append([p.name, f"{a.weights[j]:.3g}", factor,
                      _recommended(p, float(a.factors[j]), a.status, p.name in a.kept)])
-    out += _table(["parameter", "cost weight", "factor", "recommended spec"], rows)
+    out += text_table(["parameter", "cost weight", "factor", "recommended spec"], rows)
     if a.kept:
         out.append(f"  kept at the current spread (not a manufacturing tolerance): "
                    f"{', '.join(a.kept)}")
