@@ -138,8 +138,8 @@ def test_slab_between_two_temperatures_follows_fourier(capsys, tmp_path):
     path.write_text(SLAB)
     code, out, err = run_check(capsys, path)
     assert code == 0, err
-    # Source: Fourier's law for a plane wall, q = k (T1 - T2) / L (Incropera et al.,
-    # Fundamentals of Heat and Mass Transfer, 6th ed., eq. 3.4): 0.05 * 80 / 0.010 = 400 W/m2,
+    # Source: Fourier's law for a plane wall, q = k (T1 - T2) / L (J. Fourier, Theorie
+    # analytique de la chaleur, 1822; common practice): 0.05 * 80 / 0.010 = 400 W/m2,
     # R = L / k = 0.2 m2 K/W.
     assert re.search(r"^Heat flux: 400 W/m\^2$", out, re.M)
     assert re.search(r"^  slab +solid +0\.2 +80 degC +100\.0", out, re.M)
@@ -199,8 +199,9 @@ def test_convection_onset_is_noted_when_convection_is_off(capsys, tmp_path):
     line = next(x for x in out.splitlines() if x.startswith("  wide gap"))
     assert "past convection onset; convection is off" in line
     ra = float(line.split("past convection onset")[0].split()[-1])
-    # Source: in a vertical cavity heat crosses by conduction alone below Ra ~ 1e3 (Incropera
-    # et al., Fundamentals of Heat and Mass Transfer, 6th ed., sec. 9.8) (from memory).
+    # Source: in a vertical air layer heat crosses by conduction alone below Ra ~ 1e3
+    # (ElSherbiny, Raithby & Hollands 1982, J. Heat Transfer 104, conduction regime)
+    # (from memory).
     assert ra > 1e3
 
 
