@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 
 import numpy as np
@@ -68,8 +68,6 @@ def run_study(
     StudyResult
     """
     if samples is not None or seed is not None:
-        from dataclasses import replace
-
         changes = {}
         if samples is not None:
             changes["samples"] = int(samples)
