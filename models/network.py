@@ -308,32 +308,43 @@ def solve_network(
     if validate:
         validate_stack(layers, hot_side, cold_side)
     n = _sample_count(*layers, hot_side, cold_side)
-    solution = None
-    arrays: dict[str, np.ndarray] = {}
+    elements = _build_elements(layers, cold_side)
+    m = len(elements)
+    out = {  # every chunk writes its rows straight into these
+        "interface_temperature": np.empty((n, m + 1)),
+        "heat_flux": np.empty(n),
+        "inner_surface_temperature": np.empty(n),
+        "layer_resistance": np.empty((n, m)),
+        "layer_temperature_drop": np.empty((n, m)),
+        "radiative_share": np.empty((n, m)),
+        "rayleigh_number": np.empty((n, m)),
+        "convection_onset": np.empty((n, m), dtype=bool),
+        "converged": np.empty(n, dtype=bool),
+        "iterations": np.empty(n, dtype=np.int64),
+        "air_range_exceeded": np.empty(n, dtype=bool),
+    }
+    inner = m
     for start in range(0, n, int(chunk_size)):
         sl = slice(start, min(start + int(chunk_size), n))
-        part = _solve_chunk(
+        inner = _solve_chunk(
             [_slice(layer, sl, n) for layer in layers],
             _slice(hot_side, sl, n),
             _slice(cold_side, sl, n),
             sl.stop - sl.start,
+            {name: array[sl] for name, array in out.items()},
             radiation=radiation,
             convection_enabled=convection_enabled,
             tolerance=float(tolerance),
             max_iterations=int(max_iterations),
         )
-        if solution is None:
-            solution = part
-            if sl.stop == n:
-                break
-            for f in fields(NetworkSolution):
-                v = getattr(part, f.name)
-                if isinstance(v, np.ndarray):
-                    arrays[f.name] = np.empty((n, *v.shape[1:]), dtype=v.dtype)
-        for name, out in arrays.items():
-            out[sl] = getattr(part, name)
-    if arrays:
-        solution = replace(solution, **arrays)
+    solution = NetworkSolution(
+        **out,
+        interface_names=_interface_names(elements, cold_side),
+        element_names=tuple(el.name for el in elements),
+        element_kinds=tuple(el.kind for el in elements),
+        element_layers=tuple(el.layer for el in elements),
+        inner_surface_index=inner,
+    )
     if np.any(solution.air_range_exceeded):
         warnings.warn(
             "gap mean temperatures outside 250–1500 K in some samples: air properties are "
@@ -353,12 +364,14 @@ def _solve_chunk(
     hot_side: HotSide,
     cold_side: ColdSide,
     n: int,
+    out: dict[str, np.ndarray],
     *,
     radiation: str,
     convection_enabled: bool,
     tolerance: float,
     max_iterations: int,
-) -> NetworkSolution:
+) -> int:
+    """Solve one chunk of samples; write its rows into ``out``; return the inner-face index."""
     elements = _build_elements(layers, cold_side)
     m = len(elements)
     nodes = m + 1
@@ -511,29 +524,23 @@ def _solve_chunk(
         else:
             inner = nodes - 1
 
-    def masked(x: np.ndarray) -> np.ndarray:
-        x = np.array(x.T, dtype=float)
-        x[~valid] = np.nan
-        return x
+    def put(name: str, x: np.ndarray) -> None:  # (m, n) or (n,) working array → (n, ...) rows
+        dst = out[name]
+        dst[...] = x.T
+        dst[~valid] = np.nan
 
-    return NetworkSolution(
-        interface_temperature=masked(t),
-        heat_flux=masked(q_el[:1])[:, 0],
-        inner_surface_temperature=masked(t[inner : inner + 1])[:, 0],
-        layer_resistance=masked(resistance),
-        layer_temperature_drop=masked(drop),
-        radiative_share=masked(rad_share),
-        rayleigh_number=masked(rayleigh),
-        convection_onset=onset.T & valid[:, None],
-        converged=valid,
-        iterations=iterations,
-        air_range_exceeded=range_out & valid,
-        interface_names=_interface_names(elements, cold_side),
-        element_names=tuple(el.name for el in elements),
-        element_kinds=tuple(el.kind for el in elements),
-        element_layers=tuple(el.layer for el in elements),
-        inner_surface_index=inner,
-    )
+    put("interface_temperature", t)
+    put("heat_flux", q_el[0])
+    put("inner_surface_temperature", t[inner])
+    put("layer_resistance", resistance)
+    put("layer_temperature_drop", drop)
+    put("radiative_share", rad_share)
+    put("rayleigh_number", rayleigh)
+    out["convection_onset"][...] = onset.T & valid[:, None]
+    out["converged"][...] = valid
+    out["iterations"][...] = iterations
+    out["air_range_exceeded"][...] = range_out & valid
+    return inner
 
 
 def _adiabatic_face_temperature(t_start, **hot_kw) -> np.ndarray:
