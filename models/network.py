@@ -492,9 +492,18 @@ def _solve_chunk(
         valid = converged & np.all(np.isfinite(t), axis=0) & np.all(t > 0, axis=0)
         for j, el in enumerate(elements):
             ta, tb = t[j], t[j + 1]
-            q, dqa, _ = _element_flux(el, ta, tb, gap=gaps[j], **kw)
+            if el.kind == "gap":
+                parts = gap_heat_flow_parts(ta, tb, radiation=radiation, convection_enabled=(
+                    convection_enabled), **el.params)
+                q = parts.total
+            else:
+                q = _element_flux(el, ta, tb, **kw)[0]
             q_el[j] = q
-            resistance[j] = np.where(np.abs(drop[j]) > 1e-12 * ta, drop[j] / q, 1.0 / dqa)
+            resistance[j] = drop[j] / q
+            flat = np.abs(drop[j]) <= 1e-12 * ta  # no drop: the resistance is 1 / (dq/dTa)
+            if flat.any():
+                dqa = _element_flux(el, ta, tb, gap=gaps[j], **kw)[1]
+                resistance[j][flat] = 1.0 / dqa[flat]
             if el.kind == "solid":
                 p = el.params
                 for face in (ta, tb):  # k(T) must stay positive across the slab
@@ -503,8 +512,6 @@ def _solve_chunk(
                     )
                     valid &= k_face > 0
             if el.kind == "gap":
-                parts = gap_heat_flow_parts(ta, tb, radiation=radiation, convection_enabled=(
-                    convection_enabled), **el.params)
                 rad_share[j] = parts.radiation / parts.total
                 rayleigh[j] = parts.rayleigh
                 onset[j] = parts.onset
@@ -568,14 +575,18 @@ def _thomas(a: np.ndarray, b: np.ndarray, c: np.ndarray, d: np.ndarray) -> np.nd
     nodes = b.shape[0]
     cp = np.empty_like(b)
     dp = np.empty_like(b)
-    cp[0] = c[0] / b[0]
-    dp[0] = d[0] / b[0]
+    denom = np.empty_like(b[0])
+    np.divide(c[0], b[0], out=cp[0])
+    np.divide(d[0], b[0], out=dp[0])
     for j in range(1, nodes):
-        denom = b[j] - a[j] * cp[j - 1]
-        cp[j] = c[j] / denom
-        dp[j] = (d[j] - a[j] * dp[j - 1]) / denom
-    x = np.empty_like(b)
-    x[-1] = dp[-1]
+        np.multiply(a[j], cp[j - 1], out=denom)
+        np.subtract(b[j], denom, out=denom)
+        np.divide(c[j], denom, out=cp[j])
+        np.multiply(a[j], dp[j - 1], out=dp[j])
+        np.subtract(d[j], dp[j], out=dp[j])
+        np.divide(dp[j], denom, out=dp[j])
+    x = dp  # back substitution in place: x_j = dp_j - cp_j x_{j+1}
     for j in range(nodes - 2, -1, -1):
-        x[j] = dp[j] - cp[j] * x[j + 1]
+        np.multiply(cp[j], x[j + 1], out=cp[j])
+        np.subtract(x[j], cp[j], out=x[j])
     return x
