@@ -9,8 +9,9 @@ with ``q_{-1}`` the net flux delivered by the hot-side boundary and ``q_M`` the 
 cold-side boundary; faces held at a prescribed temperature have ``F_j = T_j - T_fixed``. The
 Jacobian of (N.1) is tridiagonal, so each Newton step is one Thomas sweep, vectorized over all
 samples. Steps are damped so that no face temperature changes by more than half its value in
-one iteration (N.3). A sample is converged when its Newton step, or the a posteriori bound on
-the error left after that step (N.2), is below the tolerance; it is then frozen, so every
+one iteration (N.3); the start is the series network with every element linearized (N.4). A
+sample is converged when its Newton step, or the a posteriori bound on the error left after
+that step (N.2), is below the tolerance; it is then frozen, so every
 sample's result is independent of which other samples share its chunk.
 """
 
@@ -409,25 +410,22 @@ def _solve_chunk(
     hot_fixed = isinstance(hot_side, HotTemperature)
     cold_fixed = not isinstance(cold_side, ColdEnvironment)
 
-    # Starting field: a ramp from the hot temperature (when prescribed) to the cold one.
-    t = np.empty((nodes, n))
-    if hot_fixed:
-        t_hot = _full(hot_side.temperature, n)
-    elif isinstance(hot_side, HotEnvironment):
-        t_hot = _adiabatic_face_temperature(t_cold, **hot_kw)
-        t_hot = t_cold + 0.5 * (t_hot - t_cold)
-    else:
-        t_hot = t_cold
-    frac = np.linspace(0.0, 1.0, nodes)[:, None]
-    t[:] = t_hot + (t_cold - t_hot) * frac
-    t[0], t[-1] = t_hot, t_cold  # prescribed faces exactly, not to within rounding of the ramp
+    # Starting field (N.4): the series network with radiation linearized at a mean temperature.
+    gaps = [_gap_constants(el) if el.kind == "gap" else None for el in elements]
+    t = _starting_field(
+        elements, gaps, n,
+        t_hot=_full(hot_side.temperature, n) if hot_fixed else None,
+        heat_flux=_full(hot_side.heat_flux, n) if isinstance(hot_side, HotFlux) else None,
+        hot_kw=hot_kw if isinstance(hot_side, HotEnvironment) else None,
+        t_cold=t_cold,
+        cold_kw=None if cold_fixed else cold_kw,
+    )
 
     active = np.ones(n, dtype=bool)
     converged = np.zeros(n, dtype=bool)
     iterations = np.zeros(n, dtype=np.int64)
     previous = np.full(n, np.nan)  # no previous step yet: (N.2) needs two
     kw = {"radiation": radiation, "convection_enabled": convection_enabled}
-    gaps = [_gap_constants(el) if el.kind == "gap" else None for el in elements]
 
     a = np.zeros((nodes, n))  # sub-diagonal   dF_j/dT_{j-1}
     b = np.empty((nodes, n))  # diagonal       dF_j/dT_j
@@ -550,13 +548,67 @@ def _solve_chunk(
     return inner
 
 
-def _adiabatic_face_temperature(t_start, **hot_kw) -> np.ndarray:
-    """Exposed-face temperature with no heat into the assembly, q_in(T) = 0 (B.1)."""
-    t = np.maximum(np.asarray(t_start, dtype=float), np.asarray(hot_kw["gas_temperature"]))
-    for _ in range(4):  # a rough estimate is enough for a starting field
-        q, dq = hot_environment_flux(t, **hot_kw)
-        t = np.maximum(t - q / dq, 0.5 * t)
-    return t
+def _starting_field(
+    elements: list[_Element],
+    gaps: list,
+    n: int,
+    *,
+    t_hot: np.ndarray | None,
+    heat_flux: np.ndarray | None,
+    hot_kw: dict | None,
+    t_cold: np.ndarray,
+    cold_kw: dict | None,
+) -> np.ndarray:
+    """Face temperatures of the network with every element linearized (N.4).
+
+    Solids at their reference conductivity, gaps as still-air conduction plus linearized
+    radiation ``4 eps_eff sigma T_m^3`` at one mean temperature, a cold environment as
+    ``h + 4 eps sigma T_a^3``; the hot-side balance is solved for the exposed face, then the faces
+    follow the series resistances. Two passes refine the mean temperature. Only a start for the
+    Newton iteration: it need not be accurate, only close.
+    """
+    if t_hot is not None:
+        t0 = t_hot
+    elif hot_kw is not None:
+        t0 = np.maximum(t_cold, np.asarray(hot_kw["gas_temperature"], dtype=float)) + 50.0
+    else:
+        t0 = t_cold + 50.0
+    resist = np.empty((len(elements), n))
+    for _ in range(2):
+        tm = 0.5 * (t0 + t_cold)
+        for j, (el, gap) in enumerate(zip(elements, gaps, strict=True)):
+            p = el.params
+            if el.kind == "solid":
+                resist[j] = np.asarray(p["thickness"]) / np.asarray(p["conductivity"])
+            elif el.kind == "contact":
+                resist[j] = p["contact_resistance"]
+            else:
+                h = air.thermal_conductivity(tm, check_range=False) * gap["inverse_width"]
+                resist[j] = 1.0 / (h + 4.0 * gap["radiative_factor"] * tm**3)
+        r_total = resist.sum(axis=0)
+        if cold_kw is not None:
+            ta = np.asarray(cold_kw["ambient_temperature"], dtype=float)
+            r_total = r_total + 1.0 / (
+                cold_kw["convection_coefficient"]
+                + 4.0 * np.asarray(cold_kw["emissivity"]) * SIGMA * ta**3
+            )
+        if t_hot is not None:
+            q = (t0 - t_cold) / r_total
+        elif heat_flux is not None:
+            q = heat_flux
+            t0 = t_cold + q * r_total
+        else:  # q_in(T0) = (T0 - T_cold) / R, a few Newton steps (B.1)
+            for _ in range(4):
+                q_in, dq_in = hot_environment_flux(t0, **hot_kw)
+                f = q_in - (t0 - t_cold) / r_total
+                t0 = np.maximum(t0 - f / (dq_in - 1.0 / r_total), 0.5 * t0)
+            q = (t0 - t_cold) / r_total
+    t = np.empty((len(elements) + 1, n))
+    t[0] = t0
+    t[1:] = t0 - q * np.cumsum(resist, axis=0)
+    if cold_kw is None:
+        t[-1] = t_cold  # a prescribed cold face exactly
+    return np.maximum(t, 0.5 * np.minimum(t0, t_cold))
 
 
 def _thomas(a: np.ndarray, b: np.ndarray, c: np.ndarray, d: np.ndarray) -> np.ndarray:
