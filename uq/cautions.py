@@ -7,10 +7,12 @@ import textwrap
 CAUTIONS = (
     "Engineering estimates only. These results are not a substitute for certification "
     "testing to the applicable standards by accredited laboratories.",
-    "Defer to local codes and to qualified professional practice in every safety decision.",
-    "Model limits: steady state; dry fabrics; no compression; no degradation, charring or "
-    "melting; no moisture or sweat; still air in gaps unless convection is enabled; grey, "
-    "diffuse surfaces; one-dimensional heat flow.",
+    "Defer to the applicable standards, local codes and qualified professional practice in "
+    "every safety decision.",
+    "Model limits: steady state (no exposure duration, no heat storage, no burn-injury "
+    "integral); dry fabrics; no compression; no degradation, charring or melting; no moisture "
+    "or sweat; still air in gaps unless convection is enabled; grey, diffuse, opaque surfaces; "
+    "one-dimensional heat flow; dry-air properties checked for 250-1500 K only.",
 )
 """The cautions, one sentence group per item."""
 

@@ -43,6 +43,10 @@ def check_text(study: Study) -> tuple[str, bool]:
         notes.append("the cold side prescribes the innermost face's temperature, so the "
                      "inner-surface temperature is fixed; use a cold side of kind 'surface' or "
                      "'environment' to study it, or analyse other outputs")
+    flux = solution.heat_flux[0]
+    if np.isfinite(flux) and flux < 0:
+        notes.append("the heat flows from the cold side toward the exposed face (negative heat "
+                     "flux): check the exposure and the cold-side temperatures")
     out: list[str] = [f"Study: {study.title}", f"Config: {study.source}", ""]
     out += _analysis_lines(study)
     out += [""] + _parameter_lines(study)

@@ -20,15 +20,15 @@ from pathlib import Path
 from uq.analysis import AnalysisError
 from uq.cautions import cautions_text
 from uq.check_text import check_text
-from uq.config import load_study, require_runnable
+from uq.config import MIN_SAMPLES, load_study, require_runnable
 from uq.errors import ConfigError
-from uq.pipeline import default_output_dir, run_study, summary_text
+from uq.pipeline import check_memory, default_output_dir, run_study, summary_text
 from uq.report import write_report
 from uq.storage import read_results
 from uq.study import Study
 from uq.targets import parse_target
 from uq.tolerance_io import manufacturing_table, tolerance_text, write_tolerance_csv
-from uq.tolerances import run_tolerances
+from uq.tolerances import run_tolerances, settings_for_study
 
 PROG = "plyrisk"
 
@@ -107,8 +107,8 @@ def _add_run(subparsers) -> None:
 def _check_overrides(study: Study, args: argparse.Namespace) -> None:
     n = args.samples
     if n is not None:
-        if n < 1:
-            raise UsageError(f"--samples must be a positive integer, got {n}")
+        if n < MIN_SAMPLES:
+            raise UsageError(f"--samples must be at least {MIN_SAMPLES}, got {n}")
         if study.analysis.method == "sobol" and n & (n - 1):
             lo = 1 << (n.bit_length() - 1)
             raise UsageError(f"--samples {n}: method = sobol needs a power of two "
@@ -119,6 +119,23 @@ def _check_overrides(study: Study, args: argparse.Namespace) -> None:
         raise UsageError(f"--chunk-size must be a positive integer, got {args.chunk_size}")
     if args.workers < 1:
         raise UsageError(f"--workers must be a positive integer, got {args.workers}")
+    try:
+        check_memory(study, n)
+    except ValueError as err:
+        where = "--samples" if n is not None else f"{study.source}: study.samples"
+        raise UsageError(f"{where}: {err}") from None
+
+
+def _check_out(out_dir: Path, what: str) -> None:
+    """One-line error now, not a traceback later, when the output folder cannot be written."""
+    try:
+        out_dir.mkdir(parents=True, exist_ok=True)
+        probe = out_dir / ".plyrisk-write-test"
+        probe.touch()
+        probe.unlink()
+    except OSError as err:
+        raise UsageError(f"{what} {out_dir}: cannot write there "
+                         f"({err.strerror or err})") from None
 
 
 def cmd_run(args: argparse.Namespace) -> int:
@@ -138,6 +155,12 @@ def cmd_run(args: argparse.Namespace) -> int:
     require_runnable(study)
     _check_overrides(study, args)
     out_dir = Path(args.out) if args.out else default_output_dir(args.config)
+    _check_out(out_dir, "--out" if args.out else "output folder")
+    if study.tolerances is not None and not args.no_report:
+        try:
+            settings_for_study(study)
+        except ValueError as err:
+            raise UsageError(f"{study.source}: tolerances: {err}") from None
     try:
         result = run_study(study, out_dir=out_dir, samples=args.samples, seed=args.seed,
                            chunk_size=args.chunk_size, quiet=args.quiet, workers=args.workers)
@@ -206,10 +229,11 @@ def cmd_report(args: argparse.Namespace) -> int:
     except (OSError, ValueError) as err:
         raise UsageError(f"{path}: not a readable NetCDF results file ({err})") from None
     out_dir = Path(args.out) if args.out else path.parent
+    _check_out(out_dir, "--out" if args.out else "output folder")
     try:
         line = _write_report(ds, out_dir, None)
-    except ValueError as err:
-        raise UsageError(f"{path}: {err}") from None
+    except (KeyError, TypeError, ValueError) as err:
+        raise UsageError(f"{path}: not a complete plyrisk results file ({err})") from None
     print(line)
     print(cautions_text())
     return 0
@@ -266,18 +290,28 @@ def cmd_tolerances(args: argparse.Namespace) -> int:
             parse_target(args.target)
         except ValueError as err:
             raise UsageError(f"--target: {err}") from None
+    out_dir = Path(args.out) if args.out else default_output_dir(args.config)
+    _check_out(out_dir, "--out" if args.out else "output folder")
+    try:
+        settings_for_study(study, target=args.target, samples=args.samples, seed=args.seed)
+    except ValueError as err:
+        where = "--samples" if args.samples is not None else f"{study.source}: tolerances"
+        raise UsageError(f"{where}: {err}") from None
     show = not args.quiet and sys.stderr.isatty()
     report = run_tolerances(
         study, target=args.target, samples=args.samples, seed=args.seed,
         progress=(lambda stage: print(f"{PROG}: {stage} ...", file=sys.stderr)) if show
         else None)
-    out_dir = Path(args.out) if args.out else default_output_dir(args.config)
     rows = manufacturing_table(report, study)
     path = write_tolerance_csv(rows, out_dir / "tolerances.csv")
     print(tolerance_text(report, study, csv_path=path))
     results = out_dir / "results.nc"
     if results.is_file():  # a study run already in the folder: add the table to its report
-        print(_write_report(read_results(results), out_dir, rows))
+        try:
+            print(_write_report(read_results(results), out_dir, rows))
+        except (OSError, KeyError, TypeError, ValueError) as err:
+            print(f"{PROG}: note: {results} was left as it is: not a readable results file of "
+                  f"this study ({err})", file=sys.stderr)
     return 0
 
 

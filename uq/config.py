@@ -173,8 +173,12 @@ def _parse_study_section(ctx: Context, raw: Any, parsed: dict) -> dict:
     return {"title": title, "analysis": Analysis(**kw), "limit_unit": limit.unit}
 
 
+MIN_SAMPLES = 8
+"""Fewest samples (Sobol: base rows) a study may ask for: fewer give no usable interval [-]."""
+
+
 def _samples(ctx: Context, raw: Any, method: str) -> int:
-    n = cv.integer(ctx, raw, "study.samples", minimum=1)
+    n = cv.integer(ctx, raw, "study.samples", minimum=MIN_SAMPLES)
     if method == "sobol" and n & (n - 1):
         low = 1 << (n.bit_length() - 1)
         raise ctx.error("study.samples", f"must be a power of 2 for method = 'sobol' (the "
@@ -308,9 +312,9 @@ def _parse_layers(ctx: Context, raw: Any, parsed: dict) -> dict:
             if key not in t:
                 raise ctx.error(path, f"missing key {key!r}")
         name = cv.string(ctx, t["name"], f"{path}.name")
-        if "." in name or name in RESERVED_NAMES:
+        if "." in name or "|" in name or name in RESERVED_NAMES:
             raise ctx.error(f"{path}.name", f"{name!r} is not allowed: names may not contain "
-                            f"'.' nor be {' or '.join(RESERVED_NAMES)}")
+                            f"'.' or '|' nor be {' or '.join(RESERVED_NAMES)}")
         if name in seen:
             raise ctx.error(f"{path}.name", f"duplicate layer name {name!r} (also layer"
                             f"[{seen[name]}]); names must be unique")

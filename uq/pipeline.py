@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import os
+import warnings
 from dataclasses import dataclass, replace
 from pathlib import Path
 
@@ -27,6 +29,64 @@ class StudyResult:
     analysis: StudyAnalysis
     dataset: xr.Dataset
     path: Path | None
+    warnings: tuple[str, ...] = ()
+
+
+MEMORY_SHARE = 0.7
+"""Largest share of this machine's memory a study may plan to use [-]."""
+
+
+def memory_estimate(study, samples: int | None = None) -> int:
+    """Bytes a run will hold at its peak: the design, the inputs and every output [B].
+
+    Parameters
+    ----------
+    study
+        The parsed study.
+    samples
+        Base sample count overriding the config [-].
+
+    Returns
+    -------
+    int
+        Estimated peak memory [B] (with a 50 % margin for the analysis and the dataset).
+    """
+    from models.network import interface_names
+    from uq.propagate import parameter_groups, scenario_count
+
+    n = int(samples if samples is not None else study.analysis.samples)
+    d = len(study.parameters)
+    if study.analysis.method == "sobol":
+        groups = [g for g in parameter_groups(study)[1] if len(g) > 1]
+        rows = n * (d + len(groups) + 2)
+    else:
+        rows = n
+    faces = len(interface_names(study.layers, study.cold_side))
+    per_row = 16 * d + scenario_count(study) * 8 * (6 * faces + 4)
+    return int(1.5 * rows * per_row)
+
+
+def check_memory(study, samples: int | None = None) -> None:
+    """Raise ``ValueError`` when a run would not fit in this machine's memory.
+
+    Parameters
+    ----------
+    study
+        The parsed study.
+    samples
+        Base sample count overriding the config [-].
+    """
+    need = memory_estimate(study, samples)
+    try:
+        have = os.sysconf("SC_PHYS_PAGES") * os.sysconf("SC_PAGE_SIZE")
+    except (ValueError, OSError, AttributeError):  # not available: do not guess
+        return
+    if need > MEMORY_SHARE * have:
+        n = samples if samples is not None else study.analysis.samples
+        raise ValueError(
+            f"{n} samples need about {need / 2**30:.1f} GiB of memory and this machine has "
+            f"{have / 2**30:.1f} GiB; use fewer samples"
+        )
 
 
 def default_output_dir(config_path: str | Path) -> Path:
@@ -74,13 +134,17 @@ def run_study(
         if seed is not None:
             changes["seed"] = int(seed)
         study = replace(study, analysis=replace(study.analysis, **changes))
-    prop = propagate(study, chunk_size=chunk_size, quiet=quiet, workers=workers)
-    analysis = analyse(study, prop)
+    with warnings.catch_warnings(record=True) as caught:  # reported in the summary, once each
+        warnings.simplefilter("always")
+        prop = propagate(study, chunk_size=chunk_size, quiet=quiet, workers=workers)
+        analysis = analyse(study, prop)
+    messages = tuple(dict.fromkeys(" ".join(str(w.message).split()) for w in caught))
     ds = to_dataset(study, prop, analysis)
+    ds.attrs["warnings"] = "\n".join(messages)
     path = None
     if out_dir is not None:
         path = write_results(ds, Path(out_dir) / "results.nc")
-    return StudyResult(study, prop, analysis, ds, path)
+    return StudyResult(study, prop, analysis, ds, path, messages)
 
 
 def _t(study, kelvin: float) -> str:
@@ -138,6 +202,13 @@ def summary_text(result: StudyResult) -> str:
             f"  P(inner surface > {lim}) = {_pct(e.probability)}   [{_pct(e.lower)}, "
             f"{_pct(e.upper)}]  ({e.method}; {e.count} of {e.n} samples above)"
         )
+        left_out = int(prop.design.independent_rows().size) - e.n
+        if left_out > 0:
+            worst = (e.count + left_out) / (e.n + left_out)
+            lines.append(
+                f"  {left_out} non-converged samples are left out above; counting them as "
+                f"exceeding, P(inner surface > {lim}) = {_pct(worst)}"
+            )
         ranking = sc.ranking.get("inner_surface_temperature")
         if ranking:
             if sc.surrogate is not None:
@@ -167,8 +238,9 @@ def summary_text(result: StudyResult) -> str:
                 need = max(i.suggested_base_samples or 0 for i in unconv)
                 lines.append(
                     f"  {len(unconv)} index interval(s) wider than ±{a.index_ci_threshold:g}: "
-                    f"rerun with --samples {need} or more to settle the ranking (the "
-                    "bootstrap intervals are conservative on quasi-random designs)"
+                    f"rerun with --samples {need} or more to settle the ranking (on "
+                    "scrambled Sobol' designs the bootstrap intervals can be wider than the "
+                    "actual error)"
                 )
         if not ranking or sc.surrogate is not None:
             names = [p.name for p in study.parameters]
@@ -196,7 +268,13 @@ def summary_text(result: StudyResult) -> str:
             + (" (excluded from the statistics; see 'converged' in the dataset)"
                if sc.nonconverged else "")
         )
-    for note in an.notes:
+    if study.model.radiation == "linearized":
+        lines.append("")
+        lines.append(
+            "note: radiation = \"linearized\" (4 eps sigma Tm^3) always carries less heat across "
+            "a gap than the exact form, so it predicts a cooler inner surface: not conservative"
+        )
+    for note in (*an.notes, *result.warnings):
         lines.append("")
         lines.append(f"note: {note}")
     if result.path is not None:

@@ -7,7 +7,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -22,6 +22,9 @@ from uq.tolerance_core import (
     largest_meeting,
 )
 from uq.tolerance_whatif import WhatIfStudy, run_what_if
+
+VERIFICATION_SCALE = 4
+"""The verification design is this many times larger than the search design [-]."""
 
 __all__ = ["Allocation", "Verification", "allocate", "verification_seed", "verify"]
 
@@ -47,10 +50,10 @@ class Verification:
     met_estimate, met_bound
         Whether the point estimate / the upper confidence bound meets the bound [-].
     met
-        The verdict: the independent point estimate meets the bound (``met_estimate``). With
-        ``basis = "bound"`` the allocation was sized so that the calibration run's upper
-        confidence bound meets it, so the independent estimate then meets it with about the
-        one-sided confidence level; ``met_bound`` is the stricter check of the new run alone [-].
+        The verdict, by the same rule as the search: with ``basis = "bound"`` (the default) the
+        new run's upper confidence bound meets the bound (``met_bound``); with
+        ``basis = "estimate"`` its point estimate does (``met_estimate``). The new design is
+        ``VERIFICATION_SCALE`` times larger than the search's [-].
     """
 
     seed: int
@@ -221,6 +224,9 @@ def verify(problem: ToleranceProblem, settings: ToleranceSettings, factors: Sequ
     if factors.shape != (len(problem.names),):
         raise ValueError(f"need one factor per parameter ({len(problem.names)}), got shape "
                          f"{factors.shape}")
+    # A design VERIFICATION_SCALE times larger than the search's, so that the new run's own
+    # confidence interval is narrower than the one the allocation was sized on.
+    settings = replace(settings, samples=VERIFICATION_SCALE * settings.samples)
     run = Runner(problem, settings, seed=seed)
     out = run.outcome({j: d.with_spread(float(factors[j]))
                        for j, d in enumerate(problem.distributions) if factors[j] != 1.0})
@@ -230,5 +236,6 @@ def verify(problem: ToleranceProblem, settings: ToleranceSettings, factors: Sequ
     else:
         value, lower, upper = out.exceedance[s], out.exceedance_lower[s], out.exceedance_upper[s]
     est, bnd = bool(value <= run.bound), bool(upper <= run.bound)
+    verdict = bnd if settings.basis == "bound" else est  # the same rule as the search
     return Verification(run.seed, settings.samples, out, float(value), float(lower),
-                        float(upper), est, bnd, est)
+                        float(upper), est, bnd, verdict)

@@ -243,7 +243,9 @@ def tolerance_text(report: ToleranceReport, study: Study, *,
                    "P(exceed) halved", "P(exceed) at nominal", "variance share"], rows)
     s = base.scenario
     half = 0.5 * (base.quantile_upper[s] - base.quantile_lower[s])
-    out.append(f"  (baseline {label} CI half-width about {_t(study, half, difference=True)[1:]};"
+    half_text = (_t(study, half, difference=True).lstrip("+") if math.isfinite(half)
+                 else "n/a (too few samples for this percentile's interval)")
+    out.append(f"  (baseline {label} CI half-width about {half_text};"
                " the changes share the design (common random numbers) and are far more "
                "precise than that)")
     out += ["", "Allowable spread: each parameter alone, the others as specified"]
@@ -301,7 +303,12 @@ def _allocation_lines(report: ToleranceReport, study: Study) -> list[str]:
                    f"{', '.join(a.kept)}")
     v = a.verification
     t = st.target
-    verdict = "MET" if v.met else "NOT MET"
+    if v.met:
+        verdict = "MET"
+    elif v.met_estimate:
+        verdict = "NOT VERIFIED (the point estimate meets, but not with confidence)"
+    else:
+        verdict = "NOT MET"
     out += [f"  Independent verification (new seed {v.seed}, {v.samples} samples"
             f"{_exposure(study, v.outcome)}): {t.label} = {_metric(report, study, v.value)} "
             f"[{_metric(report, study, v.lower)}, {_metric(report, study, v.upper)}] "

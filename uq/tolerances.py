@@ -30,6 +30,7 @@ shift), this module (everything together, the study wrapper) and :mod:`uq.tolera
 
 from __future__ import annotations
 
+import math
 from collections.abc import Callable
 from dataclasses import dataclass, replace
 from typing import TYPE_CHECKING
@@ -200,7 +201,34 @@ def settings_for_study(study: Study, *, target: str | None = None, samples: int 
         changes["seed"] = int(study.analysis.seed)
     if base.confidence is None:
         changes["confidence"] = float(study.analysis.confidence)
-    return replace(base, **changes)
+    settings = replace(base, **changes)
+    check_sample_size(settings)
+    return settings
+
+
+def check_sample_size(settings: ToleranceSettings) -> None:
+    """Raise ``ValueError`` when the design is too small to bound the target's percentile.
+
+    The upper order-statistic bound of the ``p`` quantile at two-sided confidence ``c`` exists
+    only when ``1 - p^n >= 1 - (1 - c)/2``, i.e. ``n >= ln((1 - c)/2) / ln p`` (distribution-free;
+    common practice, e.g. Hahn & Meeker 1991, Statistical Intervals, from memory). Searches on the
+    bound (``basis = "bound"``) cannot judge the target below that size.
+
+    Parameters
+    ----------
+    settings
+        Resolved settings [-].
+    """
+    t = settings.target
+    if settings.basis != "bound" or t.kind != "quantile":
+        return
+    alpha = 1.0 - settings.level
+    need = math.ceil(math.log(alpha / 2.0) / math.log(t.probability))
+    if settings.samples < need:
+        raise ValueError(
+            f"samples = {settings.samples} is too small to bound {t.label} at "
+            f"{100 * settings.level:g} % confidence; need at least {need}"
+        )
 
 
 def run_tolerances(study: Study, *, target: str | None = None, samples: int | None = None,

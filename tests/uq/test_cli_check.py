@@ -128,7 +128,8 @@ def test_cautions_cover_the_rules():
     for phrase in ("engineering estimates only", "certification testing", "accredited "
                    "laboratories", "local codes", "steady state", "dry fabrics",
                    "no compression", "no degradation", "no moisture", "still air in gaps",
-                   "grey", "one-dimensional"):
+                   "grey", "one-dimensional", "applicable standards", "burn-injury",
+                   "opaque", "250-1500 k"):
         assert phrase in " ".join(text.split()), phrase
     assert len(CAUTIONS) == 3
 

@@ -71,7 +71,8 @@ def test_bad_configs_exit_2_with_one_line(capsys, path):
     ("argv", "match"),
     [
         (["--samples", "100"], r"--samples 100: method = sobol needs a power of two \(e.g. 64"),
-        (["--samples", "0"], r"--samples must be a positive integer, got 0"),
+        (["--samples", "0"], r"--samples must be at least 8, got 0"),
+        (["--samples", "1099511627776"], r"--samples: 1099511627776 samples need about .* GiB"),
         (["--seed", "-1"], r"--seed must be zero or positive, got -1"),
         (["--samples", "many"], r"argument --samples: invalid int value: 'many'"),
     ],
@@ -122,3 +123,19 @@ def test_report_verb_on_a_missing_or_foreign_file(capsys, tmp_path):
     bogus.write_text("not netcdf")
     assert main(["report", str(bogus)]) == 2
     assert "not a readable NetCDF results file" in one_line(capsys.readouterr().err)
+
+
+def test_unwritable_output_folder_is_one_line(capsys):
+    code = main(["run", str(SMALL), "--out", "/proc/plyrisk-cannot-write", "--quiet"])
+    assert code == 2
+    assert "--out /proc/plyrisk-cannot-write: cannot write there" in one_line(
+        capsys.readouterr().err)
+
+
+def test_incomplete_results_file_is_one_line(demo_run, tmp_path, capsys):
+    _, _, out = demo_run
+    ds = xr.open_dataset(out / "results.nc").load()
+    broken = tmp_path / "broken.nc"
+    ds.drop_vars(["input"]).to_netcdf(broken)
+    assert main(["report", str(broken), "--out", str(tmp_path)]) == 2
+    assert "not a complete plyrisk results file" in one_line(capsys.readouterr().err)

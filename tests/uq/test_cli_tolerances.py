@@ -186,3 +186,14 @@ def test_manufacturing_table_and_csv(tmp_path):
     table = read_table(path)
     assert [r["parameter"] for r in table] == [r.parameter for r in rows]
     assert float(table[-1]["variance_share"]) == 0.9
+
+
+def test_too_few_samples_for_the_percentile_is_one_line(capsys, tmp_path):
+    # Source: the distribution-free upper bound of the p-quantile needs n >= ln(alpha/2)/ln(p);
+    # for p = 0.999 and 90 % confidence that is 2995 (common practice).
+    code = main(["tolerances", str(DEMO), "--target", "P99.9 <= limit", "--samples", "32",
+                 "--out", str(tmp_path), "--quiet"])
+    err = capsys.readouterr().err.strip().splitlines()
+    assert code == 2 and len(err) == 1
+    assert "--samples: samples = 32 is too small to bound P99.9 at 90 % confidence; need at " \
+           "least 2995" in err[0]

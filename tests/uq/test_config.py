@@ -116,7 +116,7 @@ def test_error_message_format():
          r"study\.lhs_optimization: unknown lhs_optimization 'annealing'"),
         ("seed = 1", "seed = -1", r"study\.seed: must be at least 0, got -1"),
         ("seed = 1", "seed = 1.5", r"study\.seed: expected a whole number >= 0, got 1\.5"),
-        ("samples = 64", "samples = 0", r"study\.samples: must be at least 1, got 0"),
+        ("samples = 64", "samples = 0", r"study\.samples: must be at least 8, got 0"),
         ('limit = "44 degC"', "limit = 44", r"study\.limit: a bare number needs a unit"),
         ('limit = "44 degC"', 'limit = "44 degC"\npercentiles = [95, 5]',
          r"study\.percentiles: must be strictly increasing"),
