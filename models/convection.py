@@ -239,7 +239,17 @@ def convection_onset(
 
 
 def warn_outside_range(rayleigh: np.ndarray, *, orientation: str, aspect_ratio) -> None:
-    """Warn (once per message) when a correlation is used outside its validity range."""
+    """Warn (once per message) when a correlation is used outside its validity range.
+
+    Parameters
+    ----------
+    rayleigh
+        Rayleigh numbers where the correlation was applied [-].
+    orientation
+        ``"vertical"``, ``"horizontal-up"`` or ``"horizontal-down"`` [-].
+    aspect_ratio
+        Gap height over width at the same samples [-].
+    """
     ra = np.asarray(rayleigh)
     if orientation == "vertical":
         lo, hi = VERTICAL_RANGE["rayleigh"]

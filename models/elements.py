@@ -216,7 +216,7 @@ def gap_kernel(
     aspect_ratio
         Gap height over width [-].
     radiation, convection_enabled, orientation
-        As for :func:`gap_heat_flux`.
+        As for :func:`gap_heat_flux`. [-]
 
     Returns
     -------

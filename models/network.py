@@ -169,9 +169,9 @@ def interface_names(layers: Sequence[Element], cold_side: ColdSide) -> tuple[str
     Parameters
     ----------
     layers
-        Solids and gaps, hot side first.
+        Solids and gaps, hot side first. [-]
     cold_side
-        The cold-side boundary (a :class:`~models.boundary.ColdSurface` adds the skin face).
+        The cold-side boundary (a :class:`~models.boundary.ColdSurface` adds the skin face). [-]
 
     Returns
     -------
@@ -266,13 +266,13 @@ def solve_network(
     Parameters
     ----------
     layers
-        Solids and gaps, hot (exposed) side first; numeric fields scalars or ``(n,)`` arrays.
+        Solids and gaps, hot (exposed) side first; numeric fields scalars or ``(n,)`` arrays. [-]
     hot_side
         Boundary condition of the exposed face (:class:`models.boundary.HotFlux`,
-        :class:`~models.boundary.HotTemperature` or :class:`~models.boundary.HotEnvironment`).
+        :class:`~models.boundary.HotTemperature` or :class:`~models.boundary.HotEnvironment`). [-]
     cold_side
         Boundary condition on the wearer side (:class:`models.boundary.ColdTemperature`,
-        :class:`~models.boundary.ColdSurface` or :class:`~models.boundary.ColdEnvironment`).
+        :class:`~models.boundary.ColdSurface` or :class:`~models.boundary.ColdEnvironment`). [-]
     radiation
         Gap radiation: ``"exact"`` (``sigma (T1^4 - T2^4)``) or ``"linearized"`` [-].
     convection_enabled

@@ -132,6 +132,15 @@ class StackError(ValueError):
 def validate_stack(layers, hot_side, cold_side) -> None:
     """Check every element and boundary and the arrangement of the stack.
 
+    Parameters
+    ----------
+    layers
+        Solids and gaps, hot (exposed) side first [-].
+    hot_side
+        The exposed-face boundary condition [-].
+    cold_side
+        The wearer-side boundary condition [-].
+
     Raises
     ------
     StackError
@@ -198,7 +207,17 @@ def validate_stack(layers, hot_side, cold_side) -> None:
 
 
 def numeric_fields(element: object) -> list[str]:
-    """Names of the numeric (possibly uncertain) fields of an element or boundary [-]."""
+    """Names of the numeric (possibly uncertain) fields of an element or boundary.
+
+    Parameters
+    ----------
+    element
+        A :class:`Solid`, :class:`Gap` or boundary dataclass [-].
+
+    Returns
+    -------
+    list of str
+    """
     return [f.name for f in fields(element) if f.name not in ("name", "orientation")]
 
 
@@ -236,7 +255,15 @@ def _emissivity(obj: object, quantity: str) -> None:
 
 
 def check_temperature(obj: object, quantity: str) -> None:
-    """Raise ``ValueError`` when a temperature is at or below 0 K or not finite."""
+    """Raise ``ValueError`` when a temperature is at or below 0 K or not finite.
+
+    Parameters
+    ----------
+    obj
+        The element or boundary holding the value [-].
+    quantity
+        Name of the field to check [-].
+    """
     v = _values(obj, quantity)
     bad = ~(v > 0) | ~np.isfinite(v)
     if np.any(bad):
@@ -247,7 +274,15 @@ def check_temperature(obj: object, quantity: str) -> None:
 
 
 def check_nonnegative(obj: object, quantity: str) -> None:
-    """Raise ``ValueError`` when a quantity is negative or not finite."""
+    """Raise ``ValueError`` when a quantity is negative or not finite.
+
+    Parameters
+    ----------
+    obj
+        The element or boundary holding the value [-].
+    quantity
+        Name of the field to check [-].
+    """
     v = _values(obj, quantity)
     bad = ~(v >= 0) | ~np.isfinite(v)
     if np.any(bad):

@@ -90,7 +90,7 @@ def output_values(propagation: Propagation, output: str, scenario: int) -> np.nd
     Parameters
     ----------
     propagation
-        The propagated study.
+        The propagated study. [-]
     output
         Output name [-].
     scenario
@@ -118,9 +118,9 @@ def analyse(study, propagation: Propagation) -> StudyAnalysis:
     Parameters
     ----------
     study
-        The parsed study (:class:`uq.config.Study`).
+        The parsed study (:class:`uq.config.Study`). [-]
     propagation
-        Its propagation.
+        Its propagation. [-]
 
     Returns
     -------

@@ -526,7 +526,7 @@ def make_distribution(kind: str, params: Mapping[str, float], *,
     Parameters
     ----------
     kind : str
-        Distribution kind, one of :data:`KINDS`.
+        Distribution kind, one of :data:`KINDS`. [-]
     params : mapping of str to float
         Parameter set [SI], see the module docstring.
     bounds : Bounds

@@ -42,7 +42,7 @@ def memory_estimate(study, samples: int | None = None) -> int:
     Parameters
     ----------
     study
-        The parsed study.
+        The parsed study. [-]
     samples
         Base sample count overriding the config [-].
 
@@ -72,7 +72,7 @@ def check_memory(study, samples: int | None = None) -> None:
     Parameters
     ----------
     study
-        The parsed study.
+        The parsed study. [-]
     samples
         Base sample count overriding the config [-].
     """
@@ -109,7 +109,7 @@ def run_study(
     Parameters
     ----------
     study
-        The parsed study (:class:`uq.config.Study`).
+        The parsed study (:class:`uq.config.Study`). [-]
     out_dir
         Output folder, or ``None`` to keep the results in memory only [-].
     samples
@@ -166,7 +166,7 @@ def summary_text(result: StudyResult) -> str:
     Parameters
     ----------
     result
-        A finished run.
+        A finished run. [-]
 
     Returns
     -------

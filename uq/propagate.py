@@ -90,7 +90,7 @@ def unit_to_inputs(parameters: Sequence, unit: np.ndarray) -> np.ndarray:
     Parameters
     ----------
     parameters
-        Uncertain parameters (each with a ``distribution``), one per column.
+        Uncertain parameters (each with a ``distribution``), one per column. [-]
     unit
         Points in the open unit cube, shape ``(n, d)`` [-].
 
@@ -112,12 +112,12 @@ def model_objects(study, values: np.ndarray | None = None, *, scenario: int | No
     Parameters
     ----------
     study
-        The parsed study (:class:`uq.config.Study`).
+        The parsed study (:class:`uq.config.Study`). [-]
     values
         Input values, shape ``(n, d)`` in the order of ``study.parameters`` (SI); ``None`` for
-        the nominal stack.
+        the nominal stack. [SI]
     scenario
-        Index of the swept exposure to apply, or ``None``.
+        Index of the swept exposure to apply, or ``None``. [-]
 
     Returns
     -------
@@ -159,13 +159,13 @@ def evaluate(
     Parameters
     ----------
     study
-        The parsed study.
+        The parsed study. [-]
     values
-        Input values, shape ``(n, d)`` (SI).
+        Input values, shape ``(n, d)`` (SI). [SI]
     chunk_size
         Samples per chunk [-]; default from the study. Results do not depend on it.
     progress
-        Called with the number of samples finished after each chunk.
+        Called with the number of samples finished after each chunk. [-]
     workers
         Processes solving chunks in parallel [-]; 1 solves in this process. Results do not
         depend on it: every sample is solved independently of the others.
@@ -231,7 +231,7 @@ def study_design(study, *, samples: int | None = None, seed: int | None = None) 
     Parameters
     ----------
     study
-        The parsed study.
+        The parsed study. [-]
     samples
         Base sample count overriding the config [-].
     seed
@@ -279,7 +279,7 @@ def propagate(
     Parameters
     ----------
     study
-        The parsed study.
+        The parsed study. [-]
     samples
         Base sample count overriding the config [-].
     seed

@@ -191,7 +191,7 @@ def latin_hypercube_design(n: int, n_params: int, *, seed: int,
     seed : int
         Seed of ``numpy.random.default_rng`` (non-negative) [-].
     optimization : {None, "random-cd", "lloyd"}
-        Optional scipy optimization of the point set; ``"lloyd"`` needs d >= 2.
+        Optional scipy optimization of the point set; ``"lloyd"`` needs d >= 2. [-]
 
     Returns
     -------
@@ -244,7 +244,7 @@ def make_design(method: str, samples: int, n_params: int, *, seed: int,
     Parameters
     ----------
     method : {"sobol", "lhs", "random"}
-        Design method.
+        Design method. [-]
     samples : int
         Base rows N for ``sobol`` (a power of 2), number of rows otherwise [-].
     n_params : int
@@ -254,7 +254,7 @@ def make_design(method: str, samples: int, n_params: int, *, seed: int,
     groups : sequence of sequence of int
         Parameter groups, ``sobol`` only [-].
     optimization : {None, "random-cd", "lloyd"}
-        Latin hypercube optimization, ``lhs`` only.
+        Latin hypercube optimization, ``lhs`` only. [-]
 
     Returns
     -------

@@ -102,11 +102,11 @@ def sobol_indices(y: np.ndarray, design: Design, *, names: Sequence[str],
     y : array_like
         Output per design row, shape (n_rows,), NaN where the model did not converge [any].
     design : Design
-        The ``sobol`` design the output was evaluated on.
+        The ``sobol`` design the output was evaluated on. [-]
     names : sequence of str
-        One name per parameter.
+        One name per parameter. [-]
     group_names : sequence of str
-        One name per design group; defaults to the member names joined with ``+``.
+        One name per design group; defaults to the member names joined with ``+``. [-]
     n_bootstrap : int
         Bootstrap resamples for the half-widths, >= 2 [-].
     confidence : float
@@ -213,7 +213,7 @@ def rank(indices: SobolIndices, *, ci_threshold: float = 0.05) -> list[RankedInd
     Parameters
     ----------
     indices : SobolIndices or uq.surrogate.SurrogateIndices
-        Result of :func:`sobol_indices` (or of the PCE surrogate).
+        Result of :func:`sobol_indices` (or of the PCE surrogate). [-]
     ci_threshold : float
         Largest acceptable confidence half-width, > 0 [-].
 

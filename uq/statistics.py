@@ -178,7 +178,7 @@ def exceedance(y: np.ndarray, limit: float, *, confidence: float = 0.95,
     confidence : float
         Two-sided confidence level in (0, 1) [-].
     method : {"wilson", "clopper-pearson"}
-        Interval method (``scipy.stats.binomtest(...).proportion_ci``).
+        Interval method (``scipy.stats.binomtest(...).proportion_ci``). [-]
 
     Returns
     -------

@@ -47,11 +47,11 @@ def to_dataset(study, propagation: Propagation, analysis: StudyAnalysis) -> xr.D
     Parameters
     ----------
     study
-        The parsed study (:class:`uq.config.Study`).
+        The parsed study (:class:`uq.config.Study`). [-]
     propagation
-        Design, inputs and outputs.
+        Design, inputs and outputs. [-]
     analysis
-        Percentiles, exceedance, indices and rankings.
+        Percentiles, exceedance, indices and rankings. [-]
 
     Returns
     -------
@@ -359,7 +359,7 @@ def write_results(ds: xr.Dataset, path: str | Path) -> Path:
     Parameters
     ----------
     ds
-        Results dataset.
+        Results dataset. [-]
     path
         Target file [-].
 

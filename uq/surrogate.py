@@ -146,7 +146,7 @@ def surrogate_indices(
     names
         One name per entry of ``groups`` (per parameter when ``groups`` is ``None``) [-].
     groups
-        Parameter indices per group, for grouped indices; ``None`` for one group per parameter.
+        Parameter indices per group, for grouped indices; ``None`` for one group per parameter. [-]
     order
         Total order of the expansion; ``None`` chooses it from the sample count [-].
     n_bootstrap
