@@ -15,6 +15,7 @@ from typing import Any
 
 import numpy as np
 
+from uq import distributions
 from uq.distributions import Bounds, Distribution, make_distribution
 from uq.errors import ConfigError
 from uq.units import DIMENSIONLESS, Parsed, QuantitySpec, UnitError, parse_value
@@ -164,19 +165,8 @@ ROLES = {
     "gsd": "gsd", "cv": "positive", "a": "positive", "b": "positive", "coverage": "positive",
 }  # fmt: skip
 
-FORMS: dict[str, tuple[tuple[tuple[str, ...], tuple[str, ...]], ...]] = {
-    # kind: alternatives of (required keys, optional keys)
-    "normal": ((("mean", "sd"), ()),),
-    "truncnormal": ((("mean", "sd"), ("low", "high")),),
-    "lognormal": ((("median", "gsd"), ()), (("mean", "cv"), ())),
-    "uniform": ((("low", "high"), ()),),
-    "triangular": ((("low", "mode", "high"), ()),),
-    "beta": ((("mean", "sd"), ("low", "high")), (("a", "b"), ("low", "high"))),
-    "tolerance": (
-        (("nominal", "tolerance"), ("coverage",)),
-        (("nominal", "upper", "lower"), ("coverage",)),
-    ),
-}
+FORMS = {kind: forms for kind, forms in distributions.FORMS.items() if kind != "fixed"}
+"""Distribution forms a config may write (a fixed value is written as a plain value)."""
 LIST_FORMS = ("uniform", "triangular")
 DISTRIBUTIONS = tuple(k for k in FORMS if k != "tolerance")
 """Distribution names of a ``{name = ...}`` table; the tolerance form has no name."""

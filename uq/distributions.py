@@ -68,8 +68,7 @@ __all__ = ["KINDS", "Bounds", "Distribution", "make_distribution"]
 KINDS = ("normal", "truncnormal", "lognormal", "uniform", "triangular", "beta", "tolerance",
          "fixed")
 
-# Accepted parameter sets per kind: (required names, optional names).
-_FORMS: dict[str, tuple[tuple[tuple[str, ...], tuple[str, ...]], ...]] = {
+FORMS: dict[str, tuple[tuple[tuple[str, ...], tuple[str, ...]], ...]] = {
     "normal": ((("mean", "sd"), ()),),
     "truncnormal": ((("mean", "sd"), ("low", "high")),),
     "lognormal": ((("median", "gsd"), ()), (("mean", "cv"), ())),
@@ -80,6 +79,7 @@ _FORMS: dict[str, tuple[tuple[tuple[str, ...], tuple[str, ...]], ...]] = {
                   (("nominal", "upper", "lower"), ("coverage",))),
     "fixed": ((("value",), ()),),
 }
+"""Accepted parameter sets per kind: alternatives of (required names, optional names)."""
 _MAY_BE_INFINITE = {("truncnormal", "low"), ("truncnormal", "high")}
 
 
@@ -145,16 +145,16 @@ def _norm_mass(lo: float, hi: float) -> float:
 
 
 def _check_params(kind: str, params: Mapping[str, Any]) -> dict[str, float]:
-    if kind not in _FORMS:
+    if kind not in FORMS:
         raise ValueError(f"unknown distribution {kind!r}; valid: {', '.join(KINDS)}")
     given = set(params)
-    for required, optional in _FORMS[kind]:
+    for required, optional in FORMS[kind]:
         if set(required) <= given <= set(required) | set(optional):
             break
     else:
         forms = " or ".join(
             "{" + ", ".join(list(req) + [f"{o}?" for o in opt]) + "}"
-            for req, opt in _FORMS[kind])
+            for req, opt in FORMS[kind])
         raise ValueError(f"{kind} takes {forms}; got {{{', '.join(sorted(given))}}}")
     out: dict[str, float] = {}
     for name, raw in params.items():
