@@ -246,13 +246,32 @@ def rayleigh_property_group(temperature: np.ndarray) -> np.ndarray:
     numpy.ndarray
         ``T nu alpha`` [K m4 s-2].
     """
+    return conductivity_and_rayleigh_group(temperature)[1]
+
+
+def conductivity_and_rayleigh_group(temperature: ArrayLike) -> tuple[np.ndarray, np.ndarray]:
+    """Thermal conductivity and the Rayleigh property group ``T nu alpha``, sharing one viscosity.
+
+    The same models as :func:`thermal_conductivity` and :func:`rayleigh_property_group`; no
+    range check.
+
+    Parameters
+    ----------
+    temperature
+        Air temperature [K].
+
+    Returns
+    -------
+    k, group
+        Thermal conductivity [W m-1 K-1] and ``T nu alpha`` [K m4 s-2].
+    """
     t = np.asarray(temperature, dtype=float)
     eta0 = viscosity(t, check_range=False) * 1e6  # [uPa s]
-    tau = _T_CRITICAL / t
-    k = (_N1 * eta0 + _N2 * tau**_T2 + _N3 * tau**_T3) * 1e-3
+    ln_tau = np.log(_T_CRITICAL / t)
+    k = (_N1 * eta0 + _N2 * np.exp(_T2 * ln_tau) + _N3 * np.exp(_T3 * ln_tau)) * 1e-3
     rho = STANDARD_ATMOSPHERE * MOLAR_MASS / (GAS_CONSTANT * t)
     cp = np.polyval(_CP_POLY, t / 1000.0)
-    return t * (eta0 * 1e-6 / rho) * (k / (rho * cp))
+    return k, t * (eta0 * 1e-6 / rho) * (k / (rho * cp))
 
 
 def thermal_conductivity_with_slope(temperature: np.ndarray) -> tuple[np.ndarray, np.ndarray]:

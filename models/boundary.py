@@ -218,10 +218,12 @@ def hot_environment_flux(
     T = face_temperature
     eps = emissivity
     h = convection_coefficient
-    q = eps * incident_flux + h * (gas_temperature - T) - eps * SIGMA * (
-        T**4 - np.asarray(surroundings_temperature) ** 4
+    t3 = T * T * T
+    es = eps * SIGMA
+    q = eps * incident_flux + h * (gas_temperature - T) - es * (
+        t3 * T - np.asarray(surroundings_temperature) ** 4
     )
-    dq = -h - 4.0 * eps * SIGMA * T**3
+    dq = -h - 4.0 * es * t3
     return q, dq
 
 

@@ -24,10 +24,12 @@ References
 
 from __future__ import annotations
 
+import functools
 import warnings
 
 import numpy as np
 from numpy.typing import ArrayLike
+from scipy import optimize
 from scipy.constants import g as STANDARD_GRAVITY
 
 from models import air
@@ -230,12 +232,28 @@ def convection_onset(
     if orientation == "horizontal-up":
         return ra > CRITICAL_RAYLEIGH_HORIZONTAL
     if orientation == "vertical":
-        return nusselt_vertical(ra, aspect_ratio) > 1.0 + VERTICAL_ONSET_EXCESS
+        # each term of [ERH1982] is increasing in Ra: compare Ra with where each reaches the
+        # onset value, the same test as nusselt_vertical(...) > 1 + excess, without powers
+        ra1, ra2, r3 = _vertical_onset_thresholds()
+        return (ra > ra1) | (ra > ra2) | (ra > r3 * np.asarray(aspect_ratio))
     if orientation == "horizontal-down":
         return np.zeros(ra.shape, dtype=bool)
     raise ValueError(
         f"orientation {orientation!r} is not one of vertical, horizontal-up, horizontal-down"
     )
+
+
+@functools.cache
+def _vertical_onset_thresholds() -> tuple[float, float, float]:
+    """Where Nu1, Nu2 and Nu3 of [ERH1982] reach ``1 + VERTICAL_ONSET_EXCESS`` (Ra, Ra, Ra/A)."""
+    target = 1.0 + VERTICAL_ONSET_EXCESS
+    ra1 = (target / 0.0605) ** 3
+    ra2 = optimize.brentq(
+        lambda x: np.cbrt(1.0 + (0.104 * x**0.293 / (1.0 + (6310.0 / x) ** 1.36)) ** 3) - target,
+        1.0, 1e9, xtol=1e-9, rtol=1e-14,
+    )
+    r3 = (target / 0.242) ** (1.0 / 0.272)
+    return float(ra1), float(ra2), float(r3)
 
 
 def warn_outside_range(rayleigh: np.ndarray, *, orientation: str, aspect_ratio) -> None:

@@ -12,6 +12,7 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import ArrayLike
 from scipy.constants import Stefan_Boltzmann as SIGMA
+from scipy.constants import g as STANDARD_GRAVITY
 
 from models import air, convection
 
@@ -280,13 +281,15 @@ def gap_heat_flow_parts(
     ta, tb = hot_face_temperature, cold_face_temperature
     dt = ta - tb
     tm = 0.5 * (ta + tb)
-    ra = convection.rayleigh_number(ta, tb, gap_width)
-    aspect = np.asarray(gap_height) / np.asarray(gap_width)
+    width = np.asarray(gap_width, dtype=float)
+    k, group = air.conductivity_and_rayleigh_group(tm)
+    ra = STANDARD_GRAVITY * np.abs(dt) * width**3 / group  # as convection.rayleigh_number
+    aspect = np.asarray(gap_height) / width
     if convection_enabled:
         nu = convection.nusselt(ra, orientation=orientation, aspect_ratio=aspect)
     else:
         nu = np.ones_like(ra)
-    cond = nu * air.thermal_conductivity(tm, check_range=False) / gap_width * dt
+    cond = nu * k / width * dt
     es = effective_emissivity(emissivity_hot_face, emissivity_cold_face) * SIGMA
     if radiation == "exact":
         rad = es * (ta**4 - tb**4)

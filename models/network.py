@@ -548,6 +548,10 @@ def _solve_chunk(
     return inner
 
 
+PASSES = 2
+"""Passes of the linearized network that give the Newton start (N.4) [-]."""
+
+
 def _starting_field(
     elements: list[_Element],
     gaps: list,
@@ -574,12 +578,16 @@ def _starting_field(
     else:
         t0 = t_cold + 50.0
     resist = np.empty((len(elements), n))
-    for _ in range(2):
-        tm = 0.5 * (t0 + t_cold)
+    # faces of the previous pass: a linear ramp at first, then the linearized network itself
+    faces = t0 + (t_cold - t0) * np.linspace(0.0, 1.0, len(elements) + 1)[:, None]
+    first = True
+    for _ in range(PASSES):
         for j, (el, gap) in enumerate(zip(elements, gaps, strict=True)):
             p = el.params
+            tm = 0.5 * (faces[j] + faces[j + 1])
             if el.kind == "solid":
-                resist[j] = np.asarray(p["thickness"]) / np.asarray(p["conductivity"])
+                k = p["conductivity"] + p["conductivity_slope"] * (tm - p["reference_temperature"])
+                resist[j] = np.asarray(p["thickness"]) / np.maximum(k, 0.1 * p["conductivity"])
             elif el.kind == "contact":
                 resist[j] = p["contact_resistance"]
             else:
@@ -597,15 +605,18 @@ def _starting_field(
         elif heat_flux is not None:
             q = heat_flux
             t0 = t_cold + q * r_total
-        else:  # q_in(T0) = (T0 - T_cold) / R, a few Newton steps (B.1)
-            for _ in range(4):
+        else:  # q_in(T0) = (T0 - T_cold) / R, a few Newton steps (B.1); fewer once close
+            for _ in range(4 if first else 2):
                 q_in, dq_in = hot_environment_flux(t0, **hot_kw)
                 f = q_in - (t0 - t_cold) / r_total
                 t0 = np.maximum(t0 - f / (dq_in - 1.0 / r_total), 0.5 * t0)
             q = (t0 - t_cold) / r_total
-    t = np.empty((len(elements) + 1, n))
-    t[0] = t0
-    t[1:] = t0 - q * np.cumsum(resist, axis=0)
+        faces = np.empty((len(elements) + 1, n))
+        faces[0] = t0
+        for j in range(len(elements)):
+            faces[j + 1] = faces[j] - q * resist[j]
+        first = False
+    t = faces
     if cold_kw is None:
         t[-1] = t_cold  # a prescribed cold face exactly
     return np.maximum(t, 0.5 * np.minimum(t0, t_cold))
