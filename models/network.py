@@ -565,11 +565,37 @@ def _starting_field(
 ) -> np.ndarray:
     """Face temperatures of the network with every element linearized (N.4).
 
-    Solids at their reference conductivity, gaps as still-air conduction plus linearized
-    radiation ``4 eps_eff sigma T_m^3`` at one mean temperature, a cold environment as
+    Solids at their conductivity at the element's mean temperature, gaps as still-air
+    conduction plus linearized radiation ``4 eps_eff sigma T_m^3``, a cold environment as
     ``h + 4 eps sigma T_a^3``; the hot-side balance is solved for the exposed face, then the faces
-    follow the series resistances. Two passes refine the mean temperature. Only a start for the
-    Newton iteration: it need not be accurate, only close.
+    follow the series resistances. The element temperatures come from a ramp, then from the
+    previous pass (``PASSES`` in all). Only a start for the Newton iteration: it need not be
+    accurate, only close.
+
+    Parameters
+    ----------
+    elements
+        Network elements, hot side first [-].
+    gaps
+        Per element, the precomputed gap constants or ``None`` [-].
+    n
+        Samples in the chunk [-].
+    t_hot
+        Prescribed exposed-face temperature, or ``None`` [K].
+    heat_flux
+        Prescribed net flux into the exposed face, or ``None`` [W m-2].
+    hot_kw
+        Keyword arguments of :func:`models.boundary.hot_environment_flux`, or ``None`` [-].
+    t_cold
+        Cold-side (or ambient) temperature [K].
+    cold_kw
+        Keyword arguments of :func:`models.boundary.cold_environment_flux`, or ``None`` for a
+        prescribed cold face [-].
+
+    Returns
+    -------
+    numpy.ndarray
+        Starting face temperatures, shape ``(M + 1, n)`` [K].
     """
     if t_hot is not None:
         t0 = t_hot
