@@ -110,9 +110,13 @@ def thermal_conductivity(temperature: ArrayLike, *, check_range: bool = True) ->
     t = np.asarray(temperature, dtype=float)
     if check_range:
         _warn_range(t, "thermal conductivity")
-    eta0 = viscosity(t, check_range=False) * 1e6
-    tau = _T_CRITICAL / t
-    return (_N1 * eta0 + _N2 * tau**_T2 + _N3 * tau**_T3) * 1e-3
+    return _dilute_conductivity(t, viscosity(t, check_range=False) * 1e6)
+
+
+def _dilute_conductivity(t: np.ndarray, eta0: np.ndarray) -> np.ndarray:
+    # [LJ2004] Eq. (5): lambda0 = N1 eta0 + N2 tau^t2 + N3 tau^t3 [mW m-1 K-1], eta0 in uPa s
+    ln_tau = np.log(_T_CRITICAL / t)
+    return (_N1 * eta0 + _N2 * np.exp(_T2 * ln_tau) + _N3 * np.exp(_T3 * ln_tau)) * 1e-3
 
 
 def density(
@@ -267,8 +271,7 @@ def conductivity_and_rayleigh_group(temperature: ArrayLike) -> tuple[np.ndarray,
     """
     t = np.asarray(temperature, dtype=float)
     eta0 = viscosity(t, check_range=False) * 1e6  # [uPa s]
-    ln_tau = np.log(_T_CRITICAL / t)
-    k = (_N1 * eta0 + _N2 * np.exp(_T2 * ln_tau) + _N3 * np.exp(_T3 * ln_tau)) * 1e-3
+    k = _dilute_conductivity(t, eta0)
     rho = STANDARD_ATMOSPHERE * MOLAR_MASS / (GAS_CONSTANT * t)
     cp = np.polyval(_CP_POLY, t / 1000.0)
     return k, t * (eta0 * 1e-6 / rho) * (k / (rho * cp))

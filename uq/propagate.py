@@ -225,17 +225,14 @@ def nominal_solution(study, *, scenario: int | None = None) -> NetworkSolution:
     return _solve(study, None, scenario)
 
 
-def study_design(study, *, samples: int | None = None, seed: int | None = None) -> Design:
+def study_design(study) -> Design:
     """The unit-hypercube design of a study, with per-layer groups for the Sobol design.
 
     Parameters
     ----------
     study
-        The parsed study. [-]
-    samples
-        Base sample count overriding the config [-].
-    seed
-        Seed overriding the config [-].
+        The parsed study; overrides of the sample count or seed belong in its ``analysis``
+        (see :func:`uq.pipeline.run_study`), so that the design and the analysis agree [-].
 
     Returns
     -------
@@ -245,9 +242,9 @@ def study_design(study, *, samples: int | None = None, seed: int | None = None) 
     groups = parameter_groups(study)[1]
     return make_design(
         a.method,
-        int(samples if samples is not None else a.samples),
+        int(a.samples),
         len(study.parameters),
-        seed=int(seed if seed is not None else a.seed),
+        seed=int(a.seed),
         groups=groups if a.method == "sobol" else (),
         optimization=a.lhs_optimization if a.method == "lhs" else None,
     )
@@ -268,8 +265,6 @@ def parameter_groups(study) -> tuple[list[str], list[tuple[int, ...]]]:
 def propagate(
     study,
     *,
-    samples: int | None = None,
-    seed: int | None = None,
     chunk_size: int | None = None,
     quiet: bool = False,
     workers: int = 1,
@@ -279,11 +274,7 @@ def propagate(
     Parameters
     ----------
     study
-        The parsed study. [-]
-    samples
-        Base sample count overriding the config [-].
-    seed
-        Seed overriding the config [-].
+        The parsed study (sample count and seed from its ``analysis``) [-].
     chunk_size
         Samples per chunk overriding the config [-].
     quiet
@@ -295,7 +286,7 @@ def propagate(
     -------
     Propagation
     """
-    design = study_design(study, samples=samples, seed=seed)
+    design = study_design(study)
     inputs = unit_to_inputs(study.parameters, design.unit)
     show = not quiet and sys.stderr.isatty()
     if show:
