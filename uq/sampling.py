@@ -19,7 +19,14 @@ maps each column to an input. Three methods:
     Latin hypercube, ``scipy.stats.qmc.LatinHypercube(rng=numpy.random.default_rng(seed))``,
     optionally optimized (``"random-cd"`` or ``"lloyd"``).
 ``random``
-    Plain Monte Carlo, ``numpy.random.default_rng(seed).random``.
+    Plain Monte Carlo in fixed blocks of ``RANDOM_BLOCK_ROWS`` rows: block k is drawn by
+    ``numpy.random.default_rng(numpy.random.SeedSequence(seed, spawn_key=(k,))).random``, so
+    any row range can be drawn on its own (by a worker, for one chunk) with the same values.
+
+A :class:`DesignPlan` describes a design by its method, size and seed; :meth:`DesignPlan.rows`
+draws any range of its rows alone (Sobol' rows through ``fast_forward``, random rows from their
+block's spawned seed), bit-identical to the same rows of the whole design. Latin hypercubes
+couple all rows (a permutation per column), so they are drawn whole.
 
 All coordinates lie strictly inside (0, 1): the generators can return exactly 0.0 (and an
 optimized Latin hypercube could return 1.0) with vanishing probability; such values are
@@ -30,16 +37,19 @@ the others), which changes nothing else. The same seed gives bit-identical desig
 from __future__ import annotations
 
 import operator
+import warnings
 from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
 from scipy.stats import qmc
 
-__all__ = ["METHODS", "Design", "latin_hypercube_design", "make_design", "random_design",
-           "sobol_design"]
+__all__ = ["METHODS", "RANDOM_BLOCK_ROWS", "Design", "DesignPlan", "latin_hypercube_design",
+           "make_design", "random_design", "sobol_design"]
 
 METHODS = ("sobol", "lhs", "random")
+RANDOM_BLOCK_ROWS = 2**16
+"""Rows per independently seeded block of a random design [-]."""
 LHS_OPTIMIZATIONS = (None, "random-cd", "lloyd")
 _SOBOL_EDGE = 2.0**-31   # half the grid step of scipy's 30-bit Sobol' points
 _FLOAT_EDGE = 2.0**-54   # half the grid step of 53-bit uniform doubles
@@ -136,7 +146,7 @@ def _check_groups(groups: Sequence[Sequence[int]], n_params: int) -> tuple[tuple
 
 
 def sobol_design(base_samples: int, n_params: int, *, seed: int,
-                 groups: Sequence[Sequence[int]] = ()) -> Design:
+                 groups: Sequence[Sequence[int]] = (), start: int = 0) -> Design:
     """Saltelli cross-sampled design from a scrambled Sobol' sequence.
 
     Parameters
@@ -149,6 +159,10 @@ def sobol_design(base_samples: int, n_params: int, *, seed: int,
         Seed of the scrambling (non-negative) [-].
     groups : sequence of sequence of int
         Disjoint parameter index groups (e.g. layers) whose joint indices are wanted [-].
+    start : int
+        First base row: the design of base rows ``[start, start + base_samples)`` of the same
+        scrambled sequence (``fast_forward``), e.g. to double a design while reusing the runs
+        of its first half; a multiple of ``base_samples`` keeps the balance of the points [-].
 
     Returns
     -------
@@ -162,12 +176,30 @@ def sobol_design(base_samples: int, n_params: int, *, seed: int,
         low = 1 << (n.bit_length() - 1)
         raise ValueError(f"base_samples must be a power of 2 for a Sobol' design, got {n}; "
                          f"nearest: {low} or {2 * low}")
+    start = _count("start", start, minimum=0)
     grp = _check_groups(groups, d)
-    base = qmc.Sobol(d=2 * d, scramble=True, seed=seed).random(n)
-    a, b = base[:, :d], base[:, d:]
+    unit, codes = _saltelli_rows(start, n, d, seed, grp)
+    return Design(unit, codes, "sobol", n, grp)
+
+
+def _saltelli_blocks(d: int, grp: tuple[tuple[int, ...], ...]) -> list[tuple[int, tuple]]:
+    """(block code, columns taken from B) for the rows of one base row, in design order."""
     crossed = [(g, m) for g, m in enumerate(grp) if len(m) > 1]
     blocks = [(0, ())] + [(2 + j, (j,)) for j in range(d)]
-    blocks += [(2 + d + g, m) for g, m in crossed] + [(1, tuple(range(d)))]
+    return blocks + [(2 + d + g, m) for g, m in crossed] + [(1, tuple(range(d)))]
+
+
+def _saltelli_rows(start: int, n: int, d: int, seed: int,
+                   grp: tuple[tuple[int, ...], ...]) -> tuple[np.ndarray, np.ndarray]:
+    """Unit rows and block codes of base rows ``[start, start + n)`` of a Saltelli design."""
+    engine = qmc.Sobol(d=2 * d, scramble=True, seed=seed)
+    if start:
+        engine.fast_forward(start)
+    with warnings.catch_warnings():  # a piece of the sequence need not be a power of 2 long
+        warnings.filterwarnings("ignore", message=".*balance properties.*")
+        base = engine.random(n)
+    a, b = base[:, :d], base[:, d:]
+    blocks = _saltelli_blocks(d, grp)
     step = len(blocks)
     unit = np.empty((n, step, d))
     for k, (_, cols) in enumerate(blocks):
@@ -175,7 +207,7 @@ def sobol_design(base_samples: int, n_params: int, *, seed: int,
         unit[:, k, list(cols)] = b[:, list(cols)]
     codes = np.tile(np.array([c for c, _ in blocks], dtype=np.int64), n)
     codes.setflags(write=False)
-    return Design(_open(unit.reshape(n * step, d), _SOBOL_EDGE), codes, "sobol", n, grp)
+    return _open(unit.reshape(n * step, d), _SOBOL_EDGE), codes
 
 
 def latin_hypercube_design(n: int, n_params: int, *, seed: int,
@@ -227,7 +259,22 @@ def random_design(n: int, n_params: int, *, seed: int) -> Design:
     """
     n = _count("samples", n)
     d = _count("n_params", n_params)
-    return _plain(np.random.default_rng(_seed(seed)).random((n, d)), "random")
+    return _plain(_random_rows(0, n, d, _seed(seed)), "random")
+
+
+def _random_rows(start: int, stop: int, d: int, seed: int) -> np.ndarray:
+    """Rows ``[start, stop)`` of a random design: each block of ``RANDOM_BLOCK_ROWS`` rows from
+    its own spawned seed, so a piece is drawn without drawing what comes before it."""
+    out = np.empty((stop - start, d))
+    k = start // RANDOM_BLOCK_ROWS
+    while k * RANDOM_BLOCK_ROWS < stop:
+        lo = max(start - k * RANDOM_BLOCK_ROWS, 0)
+        hi = min(stop - k * RANDOM_BLOCK_ROWS, RANDOM_BLOCK_ROWS)
+        rng = np.random.default_rng(np.random.SeedSequence(seed, spawn_key=(k,)))
+        out[k * RANDOM_BLOCK_ROWS + lo - start:k * RANDOM_BLOCK_ROWS + hi - start] = \
+            rng.random((hi, d))[lo:]
+        k += 1
+    return out
 
 
 def _plain(x: np.ndarray, method: str) -> Design:
@@ -271,3 +318,88 @@ def make_design(method: str, samples: int, n_params: int, *, seed: int,
     if method == "lhs":
         return latin_hypercube_design(samples, n_params, seed=seed, optimization=optimization)
     return random_design(samples, n_params, seed=seed)
+
+
+@dataclass(frozen=True)
+class DesignPlan:
+    """A design described by its method, size and seed, drawn whole or a row range at a time.
+
+    Attributes
+    ----------
+    method : {"sobol", "lhs", "random"}
+        Design method. [-]
+    samples : int
+        Base rows N for ``sobol``, number of rows otherwise [-].
+    n_params : int
+        Number of parameters d [-].
+    seed : int
+        Non-negative seed [-].
+    groups : tuple of tuple of int
+        Parameter groups, ``sobol`` only [-].
+    optimization : {None, "random-cd", "lloyd"}
+        Latin hypercube optimization, ``lhs`` only [-].
+    """
+
+    method: str
+    samples: int
+    n_params: int
+    seed: int
+    groups: tuple[tuple[int, ...], ...] = ()
+    optimization: str | None = None
+
+    def __post_init__(self) -> None:
+        if self.method not in METHODS:
+            raise ValueError(f"unknown design method {self.method!r}; valid: "
+                             f"{', '.join(METHODS)}")
+        object.__setattr__(self, "groups", _check_groups(self.groups, self.n_params))
+
+    @property
+    def rows_per_base(self) -> int:
+        """Design rows per base row: d + 2 + G2 for ``sobol``, 1 otherwise [-]."""
+        if self.method != "sobol":
+            return 1
+        return len(_saltelli_blocks(self.n_params, self.groups))
+
+    @property
+    def n_rows(self) -> int:
+        """Number of rows (model evaluations) of the whole design [-]."""
+        return int(self.samples) * self.rows_per_base
+
+    @property
+    def drawn_in_pieces(self) -> bool:
+        """Whether :meth:`rows` draws a range without drawing the whole design [-]."""
+        return self.method in ("sobol", "random")
+
+    def design(self) -> Design:
+        """The whole design (see :func:`make_design`)."""
+        return make_design(self.method, self.samples, self.n_params, seed=self.seed,
+                           groups=self.groups, optimization=self.optimization)
+
+    def rows(self, start: int, stop: int) -> tuple[np.ndarray, np.ndarray]:
+        """Unit coordinates and block codes of rows ``[start, stop)``.
+
+        Parameters
+        ----------
+        start, stop : int
+            Row range, ``0 <= start <= stop <= n_rows`` [-].
+
+        Returns
+        -------
+        unit, block : numpy.ndarray
+            Shapes ``(stop - start, d)`` and ``(stop - start,)``; bit-identical to the same rows
+            of :meth:`design`.
+        """
+        if not 0 <= start <= stop <= self.n_rows:
+            raise ValueError(f"row range [{start}, {stop}) is outside the design's "
+                             f"{self.n_rows} rows")
+        d = self.n_params
+        if self.method == "sobol":
+            step = self.rows_per_base
+            first, last = start // step, -(-stop // step)
+            unit, codes = _saltelli_rows(first, last - first, d, _seed(self.seed), self.groups)
+            cut = slice(start - first * step, stop - first * step)
+            return unit[cut], codes[cut]
+        codes = np.zeros(stop - start, dtype=np.int64)
+        if self.method == "random":
+            return _open(_random_rows(start, stop, d, _seed(self.seed)), _FLOAT_EDGE), codes
+        return self.design().unit[start:stop], codes

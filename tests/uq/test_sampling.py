@@ -6,6 +6,8 @@ from SALib.sample import sobol as salib_sobol
 from scipy.stats import qmc
 
 from uq.sampling import (
+    RANDOM_BLOCK_ROWS,
+    DesignPlan,
     latin_hypercube_design,
     make_design,
     random_design,
@@ -102,7 +104,8 @@ def test_lhs_matches_scipy_and_is_latin():
 
 def test_random_matches_numpy_generator():
     design = random_design(30, 2, seed=8)
-    ref = np.random.default_rng(8).random((30, 2))  # Source: numpy.random.Generator
+    # Source: numpy.random.SeedSequence spawn keys (the first block of the design is key 0)
+    ref = np.random.default_rng(np.random.SeedSequence(8, spawn_key=(0,))).random((30, 2))
     np.testing.assert_array_equal(design.unit, ref)
     np.testing.assert_array_equal(design.block, np.zeros(30))
 
@@ -135,3 +138,35 @@ def test_random_matches_numpy_generator():
 def test_validators(call, match):
     with pytest.raises(ValueError, match=match):
         call()
+
+
+@pytest.mark.parametrize(("method", "samples", "groups"), [
+    ("sobol", 64, ((0, 1), (2, 3))),
+    ("sobol", 32, ()),
+    ("random", 2 * RANDOM_BLOCK_ROWS + 5, ()),
+    ("lhs", 50, ()),
+])
+def test_plan_rows_equal_the_same_rows_of_the_whole_design(method, samples, groups):
+    plan = DesignPlan(method, samples, 4, 21, groups=groups)
+    whole = plan.design()
+    assert plan.n_rows == whole.n_rows
+    n = plan.n_rows
+    for start, stop in ((0, n), (0, 1), (3, 17), (n // 3, n // 2 + 1), (n - 7, n), (n, n)):
+        unit, block = plan.rows(start, stop)
+        np.testing.assert_array_equal(unit, whole.unit[start:stop])
+        np.testing.assert_array_equal(block, whole.block[start:stop])
+
+
+def test_sobol_start_extends_the_same_sequence():
+    first = sobol_design(64, 3, seed=5, groups=((0, 1),))
+    second = sobol_design(64, 3, seed=5, groups=((0, 1),), start=64)
+    doubled = sobol_design(128, 3, seed=5, groups=((0, 1),))
+    np.testing.assert_array_equal(np.vstack([first.unit, second.unit]), doubled.unit)
+
+
+def test_plan_rejects_a_range_outside_the_design():
+    plan = DesignPlan("random", 10, 2, 0)
+    with pytest.raises(ValueError, match=r"row range \[5, 11\) is outside the design's 10 rows"):
+        plan.rows(5, 11)
+    with pytest.raises(ValueError, match="unknown design method 'halton'; valid: sobol, lhs"):
+        DesignPlan("halton", 10, 2, 0)
