@@ -112,6 +112,34 @@ def output_values(propagation: Propagation, output: str, scenario: int) -> np.nd
     )
 
 
+def output_column(reader, output: str, scenario: int, start: int, stop: int) -> np.ndarray:
+    """Rows ``[start, stop)`` of one scalar output of a store (:class:`uq.store.StoreReader`).
+
+    Parameters
+    ----------
+    reader
+        The store [-].
+    output
+        ``inner_surface_temperature``, ``heat_flux`` or a face name [-].
+    scenario
+        Scenario index [-].
+    start, stop
+        Row range [-].
+
+    Returns
+    -------
+    numpy.ndarray
+        Shape ``(stop - start,)``, SI.
+    """
+    if output in ("inner_surface_temperature", "heat_flux"):
+        return reader.read(output, start, stop)[scenario]
+    faces = list(reader.group.attrs["interface_names"])
+    if output in faces:
+        return reader.read("interface_temperature", start, stop)[scenario][:, faces.index(output)]
+    raise ValueError(f"output {output!r} is not one of inner_surface_temperature, heat_flux, "
+                     + ", ".join(faces))
+
+
 def analyse(study, propagation: Propagation) -> StudyAnalysis:
     """Percentiles, exceedance, Sobol indices and rankings for every scenario.
 

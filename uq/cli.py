@@ -20,11 +20,13 @@ from pathlib import Path
 from uq.analysis import AnalysisError
 from uq.cautions import cautions_text
 from uq.check_text import check_text
+from uq.compute import SchedulerError
 from uq.config import MIN_SAMPLES, load_study, require_runnable
 from uq.errors import ConfigError
 from uq.pipeline import check_memory, default_output_dir, run_study, summary_text
 from uq.report import write_report
 from uq.storage import read_results
+from uq.store import StoreError
 from uq.study import Study
 from uq.targets import parse_target
 from uq.tolerance_io import manufacturing_table, tolerance_text, write_tolerance_csv
@@ -97,8 +99,16 @@ def _add_run(subparsers) -> None:
     p.add_argument("--seed", metavar="S", type=int, help="seed (overrides [study] seed)")
     p.add_argument("--chunk-size", metavar="N", type=int, help="samples per evaluation chunk "
                    "(memory bound; results do not depend on it)")
-    p.add_argument("--workers", metavar="N", type=int, default=1, help="processes solving "
-                   "chunks in parallel (default 1; results do not depend on it)")
+    p.add_argument("--workers", metavar="N", type=int, help="solve on a local dask cluster "
+                   "of N worker processes (default [compute] workers, else 1 = in this "
+                   "process; results do not depend on it)")
+    p.add_argument("--scheduler", metavar="ADDRESS", help="solve on an existing dask "
+                   "scheduler, e.g. tcp://10.0.0.5:8786 (default [compute] scheduler)")
+    p.add_argument("--store", metavar="DIR", help="stream per-sample results to this Zarr "
+                   "store (out of core; default [compute] store); results.nc keeps the "
+                   "analysis")
+    p.add_argument("--resume", action="store_true", help="with --store: keep the chunks an "
+                   "interrupted run of the same study already stored")
     p.add_argument("--no-report", action="store_true", help="write results.nc only")
     p.add_argument("--quiet", action="store_true", help="no progress bar")
     p.set_defaults(func=cmd_run)
@@ -117,8 +127,12 @@ def _check_overrides(study: Study, args: argparse.Namespace) -> None:
         raise UsageError(f"--seed must be zero or positive, got {args.seed}")
     if args.chunk_size is not None and args.chunk_size < 1:
         raise UsageError(f"--chunk-size must be a positive integer, got {args.chunk_size}")
-    if args.workers < 1:
+    if args.workers is not None and args.workers < 1:
         raise UsageError(f"--workers must be a positive integer, got {args.workers}")
+    if args.resume and not (args.store or study.compute.store):
+        raise UsageError("--resume needs a store: give --store DIR (or [compute] store)")
+    if args.store or study.compute.store:
+        return  # out of core: memory stays bounded by the chunk size
     try:
         check_memory(study, n)
     except ValueError as err:
@@ -163,7 +177,12 @@ def cmd_run(args: argparse.Namespace) -> int:
             raise UsageError(f"{study.source}: tolerances: {err}") from None
     try:
         result = run_study(study, out_dir=out_dir, samples=args.samples, seed=args.seed,
-                           chunk_size=args.chunk_size, quiet=args.quiet, workers=args.workers)
+                           chunk_size=args.chunk_size, quiet=args.quiet,
+                           workers=args.workers or study.compute.workers,
+                           scheduler=args.scheduler or study.compute.scheduler,
+                           store=args.store or study.compute.store, resume=args.resume)
+    except (SchedulerError, StoreError) as err:
+        raise UsageError(str(err)) from None
     except AnalysisError as err:
         print(f"{PROG}: {err}", file=sys.stderr)
         print(cautions_text())

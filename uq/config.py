@@ -29,7 +29,15 @@ from models.stack import GAP_ORIENTATIONS, Gap, Solid, StackError, validate_stac
 from uq import config_values as cv
 from uq.config_values import Context, join, show, suggest
 from uq.errors import ConfigError
-from uq.study import Analysis, ModelOptions, Parameter, Scenarios, Study, assemble
+from uq.study import (
+    Analysis,
+    ComputeOptions,
+    ModelOptions,
+    Parameter,
+    Scenarios,
+    Study,
+    assemble,
+)
 from uq.targets import parse_target
 from uq.tolerance_core import BASES, ToleranceSettings
 from uq.tolerance_core import METHODS as TOLERANCE_METHODS
@@ -464,6 +472,33 @@ def _nominal_range(ctx: Context, raw: Any, name: str | None,
     return lo.si, hi.si
 
 
+# ----------------------------------------------------------------------------------------------
+# [compute]
+# ----------------------------------------------------------------------------------------------
+
+_COMPUTE_KEYS = ("workers", "scheduler", "store")
+
+
+def _parse_compute(ctx: Context, raw: Any, parsed: dict) -> dict:
+    """The optional ``[compute]`` section: where chunks are solved and stored."""
+    if raw is None:
+        return {}
+    t = cv.table(ctx, raw, "compute", "[compute]")
+    cv.check_keys(ctx, t, "compute", _COMPUTE_KEYS)
+    kw: dict[str, Any] = {}
+    if "workers" in t:
+        kw["workers"] = cv.integer(ctx, t["workers"], "compute.workers", minimum=1)
+    if "scheduler" in t:
+        address = cv.string(ctx, t["scheduler"], "compute.scheduler")
+        if not re.fullmatch(r"(tcp|tls|inproc|ucx|ws|wss)://\S+|[\w.\-]+:\d+", address):
+            raise ctx.error("compute.scheduler", f"expected a scheduler address such as "
+                            f"'tcp://10.0.0.5:8786', got {address!r}")
+        kw["scheduler"] = address
+    if "store" in t:
+        kw["store"] = cv.string(ctx, t["store"], "compute.store")
+    return {"compute": ComputeOptions(**kw)}
+
+
 SECTIONS: dict[str, Parser] = {
     "study": _parse_study_section,
     "model": _parse_model_section,
@@ -472,6 +507,7 @@ SECTIONS: dict[str, Parser] = {
     "cold_side": _side_parser("cold_side", COLD_SIDE_KINDS),
     "scenarios": _parse_scenarios,
     "tolerances": _parse_tolerances,
+    "compute": _parse_compute,
 }
 """Top-level sections in parse order: name → parser returning :class:`Study` fields."""
 

@@ -13,7 +13,7 @@ import xarray as xr
 from uq.analysis import StudyAnalysis, analyse
 from uq.cautions import cautions_text
 from uq.propagate import Propagation, propagate
-from uq.storage import to_dataset, write_results
+from uq.storage import to_dataset, write_results, write_store_analysis
 from uq.units import TEMPERATURE, from_si
 
 TOP_COUNT = 5
@@ -103,6 +103,9 @@ def run_study(
     chunk_size: int | None = None,
     quiet: bool = False,
     workers: int = 1,
+    scheduler: str | None = None,
+    store: str | Path | None = None,
+    resume: bool = False,
 ) -> StudyResult:
     """Propagate, analyse and (when ``out_dir`` is given) write ``out_dir/results.nc``.
 
@@ -121,7 +124,14 @@ def run_study(
     quiet
         No progress bar [-].
     workers
-        Processes solving chunks in parallel [-]; results do not depend on it.
+        Worker processes of a local dask cluster [-]; results do not depend on it.
+    scheduler
+        Address of an existing dask scheduler to solve on [-]; results do not depend on it.
+    store
+        Zarr store folder to stream the per-sample results to (out of core); the analysis
+        reads them from there and is added to it [-].
+    resume
+        Keep the chunks an interrupted run already put in ``store`` [-].
 
     Returns
     -------
@@ -136,15 +146,46 @@ def run_study(
         study = replace(study, analysis=replace(study.analysis, **changes))
     with warnings.catch_warnings(record=True) as caught:  # reported in the summary, once each
         warnings.simplefilter("always")
-        prop = propagate(study, chunk_size=chunk_size, quiet=quiet, workers=workers)
-        analysis = analyse(study, prop)
+        if store is None:
+            prop = propagate(study, chunk_size=chunk_size, quiet=quiet, workers=workers,
+                             scheduler=scheduler)
+            analysis = analyse(study, prop)
+        else:
+            prop, analysis, reader = _run_to_store(study, store, chunk_size=chunk_size,
+                                                   resume=resume, workers=workers,
+                                                   scheduler=scheduler, quiet=quiet)
     messages = tuple(dict.fromkeys(" ".join(str(w.message).split()) for w in caught))
     ds = to_dataset(study, prop, analysis)
+    if store is not None:
+        ds.attrs["sample_store"] = str(store)
+        if prop.inputs.shape[0] < reader.n_rows:  # analysed in passes; the file has a part
+            ds.attrs["sample_rows_in_file"] = int(prop.inputs.shape[0])
+            ds.attrs["evaluations"] = int(reader.n_rows)
+            ds.attrs["base_samples"] = int(study.analysis.samples)
+        write_store_analysis(ds, store)
     ds.attrs["warnings"] = "\n".join(messages)
     path = None
     if out_dir is not None:
         path = write_results(ds, Path(out_dir) / "results.nc")
     return StudyResult(study, prop, analysis, ds, path, messages)
+
+
+def _run_to_store(study, store, *, chunk_size, resume, workers, scheduler, quiet):
+    """Solve into the store, then analyse: loaded whole when small, in passes when large."""
+    from uq import streaming
+    from uq.store import load_propagation, solve_to_store
+
+    reader = solve_to_store(study, store, chunk_size=chunk_size, resume=resume,
+                            workers=workers, scheduler=scheduler, quiet=quiet)
+    if reader.n_rows <= streaming.STREAM_ROWS:
+        prop = load_propagation(study, reader)
+        return prop, analyse(study, prop), reader
+    analysis = streaming.stream_analyse(study, reader)
+    return load_propagation(study, reader, stop=FILE_SAMPLE_ROWS), analysis, reader
+
+
+FILE_SAMPLE_ROWS = 2**18
+"""Leading rows of a store analysed in passes that ``results.nc`` carries for the figures [-]."""
 
 
 def _t(study, kelvin: float) -> str:
@@ -175,9 +216,10 @@ def summary_text(result: StudyResult) -> str:
     study, prop, an = result.study, result.propagation, result.analysis
     a = study.analysis
     lines = [f"plyrisk study: {study.title}", f"config: {study.source}"]
-    n_eval = prop.inputs.shape[0]
+    n_eval = int(result.dataset.attrs.get("evaluations", prop.inputs.shape[0]))
+    n_independent = 2 * int(a.samples) if a.method == "sobol" else n_eval
     lines.append(
-        f"design: {a.method}, {prop.design.base_samples} base samples, "
+        f"design: {a.method}, {a.samples} base samples, "
         f"{len(study.parameters)} uncertain parameters, {n_eval} model evaluations"
         + (f" per exposure × {len(an.scenarios)} exposures" if len(an.scenarios) > 1 else "")
         + f"; seed {a.seed}"
@@ -202,7 +244,7 @@ def summary_text(result: StudyResult) -> str:
             f"  P(inner surface > {lim}) = {_pct(e.probability)}   [{_pct(e.lower)}, "
             f"{_pct(e.upper)}]  ({e.method}; {e.count} of {e.n} samples above)"
         )
-        left_out = int(prop.design.independent_rows().size) - e.n
+        left_out = n_independent - e.n
         if left_out > 0:
             worst = (e.count + left_out) / (e.n + left_out)
             lines.append(

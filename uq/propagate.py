@@ -9,13 +9,14 @@ from __future__ import annotations
 
 import sys
 from collections.abc import Callable, Sequence
-from concurrent.futures import ProcessPoolExecutor, as_completed
+from contextlib import contextmanager
 from dataclasses import dataclass
 
 import numpy as np
 
 from models.network import NetworkSolution, solve_network
-from uq.sampling import Design, make_design
+from uq.compute import run_tasks
+from uq.sampling import Design, DesignPlan
 from uq.study import assemble
 
 OUTPUT_FIELDS = (
@@ -141,9 +142,14 @@ def scenario_count(study) -> int:
 
 
 def _evaluate_block(study, block: np.ndarray) -> list[NetworkSolution]:
-    """Solve one chunk of samples for every scenario (runs in a worker process too)."""
+    """Solve one chunk of samples for every scenario (runs on a worker too)."""
     scenarios = [None] if study.scenarios is None else range(scenario_count(study))
     return [_solve(study, block, scenario) for scenario in scenarios]
+
+
+def _evaluate_range(study, start: int, block: np.ndarray):
+    """A task of :func:`evaluate`: the chunk's first row and its solutions."""
+    return start, start + block.shape[0], _evaluate_block(study, block)
 
 
 def evaluate(
@@ -153,6 +159,7 @@ def evaluate(
     chunk_size: int | None = None,
     progress: Callable[[int], None] | None = None,
     workers: int = 1,
+    scheduler: str | None = None,
 ) -> Outputs:
     """Evaluate the network for every sample and every scenario, in chunks of bounded memory.
 
@@ -167,8 +174,10 @@ def evaluate(
     progress
         Called with the number of samples finished after each chunk. [-]
     workers
-        Processes solving chunks in parallel [-]; 1 solves in this process. Results do not
-        depend on it: every sample is solved independently of the others.
+        Worker processes of a local dask cluster solving chunks in parallel [-]; 1 solves in
+        this process. Results do not depend on it: every sample is solved independently.
+    scheduler
+        Address of an existing dask scheduler to solve the chunks on instead [-].
 
     Returns
     -------
@@ -186,7 +195,8 @@ def evaluate(
     store: dict[str, np.ndarray] = {}
     meta: list[NetworkSolution] = []
 
-    def keep(start: int, stop: int, solutions: list[NetworkSolution]) -> None:
+    def keep(result) -> None:
+        start, stop, solutions = result
         if not meta:
             meta.append(solutions[0])
             for name in OUTPUT_FIELDS:
@@ -198,17 +208,8 @@ def evaluate(
         if progress is not None:
             progress(stop - start)
 
-    if int(workers) == 1 or len(bounds) == 1:
-        for start, stop in bounds:
-            keep(start, stop, _evaluate_block(study, values[start:stop]))
-    else:
-        with ProcessPoolExecutor(max_workers=int(workers)) as pool:
-            futures = {
-                pool.submit(_evaluate_block, study, values[start:stop]): (start, stop)
-                for start, stop in bounds
-            }
-            for future in as_completed(futures):
-                keep(*futures[future], future.result())
+    run_tasks(_evaluate_range, [(start, values[start:stop]) for start, stop in bounds], keep,
+              shared=(study,), workers=workers, scheduler=scheduler)
     first = meta[0]
     return Outputs(
         fields=store,
@@ -225,8 +226,8 @@ def nominal_solution(study, *, scenario: int | None = None) -> NetworkSolution:
     return _solve(study, None, scenario)
 
 
-def study_design(study) -> Design:
-    """The unit-hypercube design of a study, with per-layer groups for the Sobol design.
+def study_plan(study) -> DesignPlan:
+    """The design of a study as a :class:`uq.sampling.DesignPlan` (per-layer groups for Sobol').
 
     Parameters
     ----------
@@ -236,18 +237,23 @@ def study_design(study) -> Design:
 
     Returns
     -------
-    Design
+    DesignPlan
     """
     a = study.analysis
     groups = parameter_groups(study)[1]
-    return make_design(
+    return DesignPlan(
         a.method,
         int(a.samples),
         len(study.parameters),
-        seed=int(a.seed),
-        groups=groups if a.method == "sobol" else (),
+        int(a.seed),
+        groups=tuple(groups) if a.method == "sobol" else (),
         optimization=a.lhs_optimization if a.method == "lhs" else None,
     )
+
+
+def study_design(study) -> Design:
+    """The whole unit-hypercube design of a study (see :func:`study_plan`)."""
+    return study_plan(study).design()
 
 
 def parameter_groups(study) -> tuple[list[str], list[tuple[int, ...]]]:
@@ -268,6 +274,7 @@ def propagate(
     chunk_size: int | None = None,
     quiet: bool = False,
     workers: int = 1,
+    scheduler: str | None = None,
 ) -> Propagation:
     """Draw the design, map it to inputs and evaluate the model.
 
@@ -280,7 +287,9 @@ def propagate(
     quiet
         Suppress the progress bar (it is shown only on a terminal anyway) [-].
     workers
-        Processes solving chunks in parallel [-]; results do not depend on it.
+        Worker processes of a local dask cluster [-]; results do not depend on it.
+    scheduler
+        Address of an existing dask scheduler [-]; results do not depend on it.
 
     Returns
     -------
@@ -288,14 +297,32 @@ def propagate(
     """
     design = study_design(study)
     inputs = unit_to_inputs(study.parameters, design.unit)
-    show = not quiet and sys.stderr.isatty()
-    if show:
-        from tqdm import tqdm
-
-        bar = tqdm(total=len(inputs), unit="sample", desc="solving", file=sys.stderr)
-        outputs = evaluate(study, inputs, chunk_size=chunk_size, progress=bar.update,
-                           workers=workers)
-        bar.close()
-    else:
-        outputs = evaluate(study, inputs, chunk_size=chunk_size, workers=workers)
+    with progress_bar(len(inputs), quiet=quiet) as bar:
+        outputs = evaluate(study, inputs, chunk_size=chunk_size, progress=bar,
+                           workers=workers, scheduler=scheduler)
     return Propagation(design=design, inputs=inputs, outputs=outputs)
+
+
+@contextmanager
+def progress_bar(total: int, *, quiet: bool = False, what: str = "solving"):
+    """A progress callback (samples done) drawing a bar on a terminal, or ``None``.
+
+    Parameters
+    ----------
+    total
+        Samples to solve [-].
+    quiet
+        No bar [-].
+    what
+        Label of the bar [-].
+    """
+    if quiet or not sys.stderr.isatty():
+        yield None
+        return
+    from tqdm import tqdm
+
+    bar = tqdm(total=total, unit="sample", desc=what, file=sys.stderr)
+    try:
+        yield bar.update
+    finally:
+        bar.close()

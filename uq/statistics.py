@@ -23,8 +23,8 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import stats
 
-__all__ = ["EXCEEDANCE_METHODS", "Exceedance", "QuantileEstimate", "exceedance", "finite_only",
-           "quantiles"]
+__all__ = ["EXCEEDANCE_METHODS", "Exceedance", "QuantileEstimate", "exceedance",
+           "exceedance_from_counts", "finite_only", "quantiles"]
 
 EXCEEDANCE_METHODS = ("wilson", "clopper-pearson")
 _SCIPY_CI = {"wilson": "wilson", "clopper-pearson": "exact"}
@@ -89,10 +89,20 @@ class QuantileEstimate:
 
 
 def _order_statistic_ranks(n: int, p: float, alpha: float) -> tuple[int, int]:
-    """1-based ranks (l, u) of the interval; l = 0 or u = n + 1 where unavailable."""
-    k = np.arange(n + 1)
-    lower = int(np.count_nonzero(stats.binom.cdf(k, n, p) <= 0.5 * alpha))
-    upper = int(np.argmax(stats.binom.sf(k, n, p) <= 0.5 * alpha)) + 1   # sf(n) = 0 always
+    """1-based ranks (l, u) of the interval; l = 0 or u = n + 1 where unavailable.
+
+    l = #{k : F(k) <= alpha/2} and u = 1 + min{k : S(k) <= alpha/2} for K ~ Binomial(n, p),
+    found from the binomial quantile and checked on a window around it (so the cost does not
+    grow with n).
+    """
+    a = 0.5 * alpha
+    guess = int(stats.binom.ppf(a, n, p))
+    k = np.arange(max(guess - 3, 0), min(guess + 4, n) + 1)
+    below = k[stats.binom.cdf(k, n, p) <= a]
+    lower = int(below.max()) + 1 if below.size else 0
+    guess = int(stats.binom.isf(a, n, p))
+    k = np.arange(max(guess - 3, 0), min(guess + 4, n) + 1)
+    upper = int(k[stats.binom.sf(k, n, p) <= a].min()) + 1   # sf(n) = 0 always
     return lower, upper
 
 
@@ -192,8 +202,36 @@ def exceedance(y: np.ndarray, limit: float, *, confidence: float = 0.95,
     if math.isnan(limit):
         raise ValueError("limit must be a number, got nan")
     values = _nonempty(y)
-    n, count = int(values.size), int(np.count_nonzero(values > limit))
+    return exceedance_from_counts(int(np.count_nonzero(values > limit)), int(values.size),
+                                  limit, confidence=confidence, method=method)
+
+
+def exceedance_from_counts(count: int, n: int, limit: float, *, confidence: float = 0.95,
+                           method: str = "wilson") -> Exceedance:
+    """Exceedance probability from the count of values above the limit out of ``n``.
+
+    Parameters
+    ----------
+    count
+        Values strictly above the limit [-].
+    n
+        Finite values [-], at least 1.
+    limit
+        The limit [unit of the values].
+    confidence
+        Two-sided confidence level in (0, 1) [-].
+    method : {"wilson", "clopper-pearson"}
+        Interval method. [-]
+
+    Returns
+    -------
+    Exceedance
+    """
+    if method not in EXCEEDANCE_METHODS:
+        raise ValueError(f"unknown exceedance interval method {method!r}; valid: "
+                         f"{', '.join(EXCEEDANCE_METHODS)}")
+    confidence = _confidence(confidence)
     ci = stats.binomtest(count, n).proportion_ci(confidence_level=confidence,
                                                   method=_SCIPY_CI[method])
-    return Exceedance(limit, count / n, float(ci.low), float(ci.high), confidence, n, count,
-                      method)
+    return Exceedance(float(limit), count / n, float(ci.low), float(ci.high), confidence, n,
+                      count, method)

@@ -402,3 +402,35 @@ def scenario_slices(ds: xr.Dataset) -> Iterator[tuple[str, xr.Dataset]]:
             yield str(ds["scenario_label"].values[i]), ds.isel(scenario=i)
     else:
         yield "", ds
+
+
+PER_SAMPLE_DIMS = ("sample",)
+"""Variables along these dimensions are the store's own; the rest is the analysis [-]."""
+
+
+def write_store_analysis(ds: xr.Dataset, path: str | Path) -> None:
+    """Add a results dataset's analysis variables and attributes to its Zarr store.
+
+    Parameters
+    ----------
+    ds
+        The results dataset (its per-sample variables are already in the store). [-]
+    path
+        The Zarr store folder [-].
+    """
+    import zarr
+
+    keep = [n for n, v in ds.variables.items() if "sample" not in v.dims]
+    part = ds[[n for n in keep if n in ds.data_vars]]
+    part = part.assign_coords({n: ds[n] for n in keep if n in ds.coords})
+    part = part.drop_vars([n for n in part.coords if "sample" in part[n].dims])
+    part.attrs = {}
+    # variable-length strings: fixed-width unicode has no Zarr v3 specification yet
+    part = part.assign({n: v.astype(object) for n, v in part.data_vars.items()
+                        if v.dtype.kind == "U"})
+    part = part.assign_coords({n: part[n].astype(object) for n in part.coords
+                               if part[n].dtype.kind == "U"})
+    part.to_zarr(str(path), mode="a", consolidated=False, zarr_format=3)
+    group = zarr.open_group(str(path), mode="r+")
+    group.attrs.update({k: (v.tolist() if isinstance(v, np.ndarray) else v)
+                        for k, v in ds.attrs.items()})

@@ -23,7 +23,8 @@ from uq.units import QUANTITIES, TEMPERATURE, QuantitySpec, format_value, from_s
 if TYPE_CHECKING:  # pragma: no cover
     from uq.tolerance_core import ToleranceSettings
 
-__all__ = ["Analysis", "ModelOptions", "Parameter", "Scenarios", "Study", "assemble"]
+__all__ = ["Analysis", "ComputeOptions", "ModelOptions", "Parameter", "Scenarios", "Study",
+           "assemble"]
 
 _SPREADS = frozenset({"sd", "tolerance", "upper", "lower"})
 _PLAIN = frozenset({"gsd", "cv", "a", "b", "coverage"})  # dimensionless distribution parameters
@@ -232,6 +233,25 @@ class Analysis:
 
 
 @dataclass(frozen=True)
+class ComputeOptions:
+    """Where a study's chunks are solved and kept (the ``[compute]`` section).
+
+    Parameters
+    ----------
+    workers
+        Worker processes of a local dask cluster; 1 solves in this process [-].
+    scheduler
+        Address of an existing dask scheduler, e.g. ``"tcp://10.0.0.5:8786"`` [-].
+    store
+        Zarr store folder the per-sample results stream to (out of core) [-].
+    """
+
+    workers: int = 1
+    scheduler: str | None = None
+    store: str | None = None
+
+
+@dataclass(frozen=True)
 class Study:
     """A validated study, all values SI.
 
@@ -254,6 +274,7 @@ class Study:
     limit_unit: str
     scenarios: Scenarios | None = None
     tolerances: ToleranceSettings | None = None
+    compute: ComputeOptions = ComputeOptions()
 
     @property
     def parameter_names(self) -> tuple[str, ...]:

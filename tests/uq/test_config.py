@@ -383,7 +383,7 @@ def test_duplicate_scenario_level():
 
 def test_sections_registry_order():
     assert list(SECTIONS) == ["study", "model", "hot_side", "layer", "cold_side", "scenarios",
-                             "tolerances"]
+                             "tolerances", "compute"]
 
 
 def test_every_bad_config_is_labelled():
