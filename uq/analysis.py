@@ -19,6 +19,10 @@ from uq.sensitivity import RankedIndex, SobolIndices, rank, sobol_indices
 from uq.statistics import Exceedance, QuantileEstimate, exceedance, quantiles
 from uq.surrogate import SurrogateIndices, surrogate_indices
 
+SALIB_BOOTSTRAP_ROWS = 2**17
+"""Largest base-row count whose Sobol' intervals come from SALib's bootstrap (it holds
+N x resamples indices); larger designs use the batch jackknife of :mod:`uq.streaming` [-]."""
+
 BAND_PROBABILITIES = (0.01, 0.05, 0.5, 0.95, 0.99)
 """Quantiles always computed, for the 5–95 % and 1–99 % bands of the profile figure [-]."""
 
@@ -171,6 +175,9 @@ def analyse(study, propagation: Propagation) -> StudyAnalysis:
             "surrogate fitted to the samples: trust them only when its leave-one-out Q2 is "
             "close to 1; rank correlations are a screening measure only."
         )
+    if a.method == "sobol" and design.base_samples > SALIB_BOOTSTRAP_ROWS:
+        notes.append(f"{design.base_samples} base samples: Sobol index intervals from a "
+                     "batch jackknife (uq.streaming) rather than the bootstrap")
     result = []
     n_s = propagation.outputs["converged"].shape[0]
     for s in range(n_s):
@@ -190,7 +197,17 @@ def analyse(study, propagation: Propagation) -> StudyAnalysis:
         indices: dict[str, tuple[SobolIndices, SobolIndices | None]] = {}
         ranking: dict[str, list[RankedIndex]] = {}
         group_ranking: dict[str, list[RankedIndex]] = {}
-        if a.method == "sobol" and names:
+        if a.method == "sobol" and names and design.base_samples > SALIB_BOOTSTRAP_ROWS:
+            from uq.streaming import MemoryRows, sobol_jackknife
+
+            for o in outputs:
+                ind, grp = sobol_jackknife(MemoryRows(propagation), o, s, study,
+                                           confidence=a.confidence)
+                indices[o] = (ind, grp)
+                ranking[o] = rank(ind, ci_threshold=a.index_ci_threshold)
+                if grp is not None:
+                    group_ranking[o] = rank(grp, ci_threshold=a.index_ci_threshold)
+        elif a.method == "sobol" and names:
             for o in outputs:
                 ind, grp = sobol_indices(
                     output_values(propagation, o, s),

@@ -146,6 +146,47 @@ class _Quantiles:
         return QuantileEstimate(probabilities, est, lower, upper, confidence, n)
 
 
+class MemoryRows:
+    """An in-memory propagation read like a store, for the jackknife estimator."""
+
+    def __init__(self, propagation) -> None:
+        self.propagation = propagation
+        self.group = type("Attrs", (), {"attrs": {
+            "interface_names": list(propagation.outputs.interface_names)}})()
+
+    def read(self, name: str, start: int = 0, stop: int | None = None) -> np.ndarray:
+        if name == "input":
+            return self.propagation.inputs[start:stop]
+        return self.propagation.outputs[name][:, start:stop]
+
+
+def sobol_jackknife(rows, output: str, scenario: int, study, *, confidence: float):
+    """Sobol' indices of one output with batch-jackknife intervals, in blocks of rows.
+
+    Parameters
+    ----------
+    rows
+        A :class:`uq.store.StoreReader` or :class:`MemoryRows` [-].
+    output
+        Output name [-].
+    scenario
+        Scenario index [-].
+    study
+        The parsed study [-].
+    confidence
+        Level of the intervals [-].
+
+    Returns
+    -------
+    tuple of SobolIndices
+        Per parameter, per group (``None`` without groups).
+    """
+    plan = study_plan(study)
+    names = [p.name for p in study.parameters]
+    return _sobol_streamed(rows, output, scenario, study, plan, names,
+                           parameter_groups(study)[0], confidence, plan.rows_per_base)
+
+
 def _sobol_streamed(reader, output, s, study, plan, names, group_names, confidence, step):
     """Streamed Sobol' indices of one output of one scenario (per parameter, per group)."""
     from uq.analysis import output_column

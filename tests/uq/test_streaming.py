@@ -82,3 +82,20 @@ def test_order_statistic_ranks_match_the_full_binomial_search(n, p):
         lower = int(np.count_nonzero(stats.binom.cdf(k, n, p) <= 0.5 * alpha))
         upper = int(np.argmax(stats.binom.sf(k, n, p) <= 0.5 * alpha)) + 1
         assert _order_statistic_ranks(n, p, alpha) == (lower, upper)
+
+
+def test_large_in_memory_designs_use_the_jackknife(stored, monkeypatch):
+    from uq import analysis
+
+    study, reader = stored
+    prop = load_propagation(study, reader)
+    monkeypatch.setattr(streaming, "BLOCK_ROWS", 3000)
+    passes = streaming.stream_analyse(study, reader)
+    monkeypatch.setattr(analysis, "SALIB_BOOTSTRAP_ROWS", 64)
+    memory = analyse(study, prop)
+    assert any("batch jackknife" in n for n in memory.notes)
+    for m, p in zip(memory.scenarios, passes.scenarios, strict=True):
+        for (a, b), (c, d) in zip(m.indices.values(), p.indices.values(), strict=True):
+            np.testing.assert_allclose(a.total, c.total, atol=1e-12)
+            np.testing.assert_allclose(a.total_ci, c.total_ci, rtol=1e-9, atol=1e-15)
+            np.testing.assert_allclose(b.first_ci, d.first_ci, rtol=1e-9, atol=1e-15)
