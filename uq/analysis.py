@@ -40,7 +40,7 @@ class ScenarioAnalysis:
     exceedance
         Probability that the inner-surface temperature exceeds the limit, with its interval.
     indices
-        Output name → (per-parameter, per-group) Sobol indices; empty unless ``method = sobol``.
+        Output name → (per-parameter, per-group) Sobol indices; empty unless ``method = saltelli``.
     ranking
         Output name → parameters ranked by total index.
     group_ranking
@@ -135,13 +135,12 @@ def analyse(study, propagation: Propagation) -> StudyAnalysis:
     rows = design.independent_rows()
     names = [p.name for p in study.parameters]
     notes: list[str] = []
-    if a.method != "sobol":
+    if a.method == "pce":
         notes.append(
-            f"method = {a.method}: percentiles and exceedance come straight from the samples; "
-            "Sobol indices cannot be estimated from them directly (that needs method = "
-            "\"sobol\", a Saltelli design). The indices shown are from a polynomial-chaos "
-            "surrogate fitted to the samples: trust them only when its leave-one-out Q2 is "
-            "close to 1; rank correlations are a screening measure only."
+            f"method = pce ({a.design} design): percentiles and exceedance come straight from "
+            "the samples; the Sobol indices shown are from a polynomial-chaos surrogate fitted "
+            "to them: trust them only when its leave-one-out error is small (Q2 close to 1); "
+            "rank correlations are a screening measure only."
         )
     result = []
     n_s = propagation.outputs["converged"].shape[0]
@@ -162,7 +161,7 @@ def analyse(study, propagation: Propagation) -> StudyAnalysis:
         indices: dict[str, tuple[SobolIndices, SobolIndices | None]] = {}
         ranking: dict[str, list[RankedIndex]] = {}
         group_ranking: dict[str, list[RankedIndex]] = {}
-        if a.method == "sobol" and names:
+        if a.method == "saltelli" and names:
             for o in outputs:
                 ind, grp = sobol_indices(
                     output_values(propagation, o, s),
@@ -178,7 +177,7 @@ def analyse(study, propagation: Propagation) -> StudyAnalysis:
                 if grp is not None:
                     group_ranking[o] = rank(grp, ci_threshold=a.index_ci_threshold)
         surrogate = surrogate_groups = None
-        if a.method != "sobol" and names:
+        if a.method == "pce" and names:
             unit = design.unit[rows]
             surrogate = surrogate_indices(unit, y[rows], names=names,
                                           n_bootstrap=a.bootstrap, confidence=a.confidence,

@@ -109,9 +109,11 @@ def _check_overrides(study: Study, args: argparse.Namespace) -> None:
     if n is not None:
         if n < MIN_SAMPLES:
             raise UsageError(f"--samples must be at least {MIN_SAMPLES}, got {n}")
-        if study.analysis.method == "sobol" and n & (n - 1):
+        if study.analysis.design == "sobol" and n & (n - 1):
             lo = 1 << (n.bit_length() - 1)
-            raise UsageError(f"--samples {n}: method = sobol needs a power of two "
+            what = "method = saltelli" if study.analysis.method == "saltelli" else \
+                "design = sobol"
+            raise UsageError(f"--samples {n}: {what} needs a power of two "
                              f"(e.g. {lo} or {2 * lo})")
     if args.seed is not None and args.seed < 0:
         raise UsageError(f"--seed must be zero or positive, got {args.seed}")

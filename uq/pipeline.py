@@ -56,9 +56,11 @@ def memory_estimate(study, samples: int | None = None) -> int:
 
     n = int(samples if samples is not None else study.analysis.samples)
     d = len(study.parameters)
-    if study.analysis.method == "sobol":
+    if study.analysis.design == "sobol" and study.analysis.method == "saltelli":
         groups = [g for g in parameter_groups(study)[1] if len(g) > 1]
         rows = n * (d + len(groups) + 2)
+    elif study.analysis.method == "morris":
+        rows = n * (d + 1)
     else:
         rows = n
     faces = len(interface_names(study.layers, study.cold_side))
@@ -247,7 +249,7 @@ def summary_text(result: StudyResult) -> str:
             order = np.argsort(-np.abs(np.nan_to_num(sc.rank_correlation)))
             if names:
                 lines.append("rank correlation with the inner-surface temperature (screening "
-                             "only; Sobol indices need method = \"sobol\"):")
+                             "only):")
                 for r, j in enumerate(order[:TOP_COUNT], start=1):
                     lines.append(f"  {r}. {names[j]:<32} {sc.rank_correlation[j]:+.3f}")
         if sc.onset_samples:

@@ -15,7 +15,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from models.network import NetworkSolution, solve_network
-from uq.sampling import Design, make_design
+from uq.morris import morris_design
+from uq.sampling import Design, make_design, sobol_sequence_design
 from uq.study import assemble
 
 OUTPUT_FIELDS = (
@@ -239,14 +240,19 @@ def study_design(study) -> Design:
     Design
     """
     a = study.analysis
+    d = len(study.parameters)
+    if a.design == "morris":
+        return morris_design(int(a.samples), d, seed=int(a.seed), levels=int(a.levels))
+    if a.design == "sobol" and a.method == "pce":
+        return sobol_sequence_design(int(a.samples), d, seed=int(a.seed))
     groups = parameter_groups(study)[1]
     return make_design(
-        a.method,
+        a.design,
         int(a.samples),
-        len(study.parameters),
+        d,
         seed=int(a.seed),
-        groups=groups if a.method == "sobol" else (),
-        optimization=a.lhs_optimization if a.method == "lhs" else None,
+        groups=groups if a.design == "sobol" else (),
+        optimization=a.lhs_optimization if a.design == "lhs" else None,
     )
 
 

@@ -333,7 +333,7 @@ def convergence_summary(ds: xr.Dataset) -> tuple[list[str], Table | None]:
         return [f"The indices of this {ds.attrs.get('method')} study come from a "
                 "polynomial-chaos surrogate fitted to the samples, with bootstrap intervals. "
                 "They are only as good as the fit: the leave-one-out Q2 below should be close "
-                "to 1. A Sobol design (method = \"sobol\") estimates them without a "
+                "to 1. A Saltelli design (method = \"saltelli\") estimates them without a "
                 "surrogate."], Table(["exposure", "surrogate order", "leave-one-out Q2"], rows)
     thr = ds["index_converged"].attrs.get("threshold")
     rows = []

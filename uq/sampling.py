@@ -20,6 +20,12 @@ maps each column to an input. Three methods:
     optionally optimized (``"random-cd"`` or ``"lloyd"``).
 ``random``
     Plain Monte Carlo, ``numpy.random.default_rng(seed).random``.
+``sobol-sequence``
+    The first n points of one scrambled Sobol' sequence in d dimensions
+    (``qmc.Sobol(d=d, scramble=True, seed=seed)``), for a polynomial-chaos fit
+    (:func:`sobol_sequence_design`); no Saltelli structure.
+``morris``
+    Morris trajectories, built by :func:`uq.morris.morris_design`.
 
 All coordinates lie strictly inside (0, 1): the generators can return exactly 0.0 (and an
 optimized Latin hypercube could return 1.0) with vanishing probability; such values are
@@ -57,7 +63,7 @@ class Design:
         Integer block code per row, shape (n_rows,): 0 = A, 1 = B, 2 + j = AB_j,
         2 + d + g = AB for group g (index into ``groups``). Non-Sobol' designs are all 0.
     method : str
-        ``"sobol"``, ``"lhs"`` or ``"random"``.
+        ``"sobol"`` (Saltelli), ``"lhs"``, ``"random"``, ``"sobol-sequence"`` or ``"morris"``.
     base_samples : int
         N: base rows of a Sobol' design; number of rows otherwise.
     groups : tuple of tuple of int
@@ -271,3 +277,32 @@ def make_design(method: str, samples: int, n_params: int, *, seed: int,
     if method == "lhs":
         return latin_hypercube_design(samples, n_params, seed=seed, optimization=optimization)
     return random_design(samples, n_params, seed=seed)
+
+
+def sobol_sequence_design(n: int, n_params: int, *, seed: int) -> Design:
+    """The first ``n`` points of a scrambled Sobol' sequence (no Saltelli structure).
+
+    Parameters
+    ----------
+    n : int
+        Number of rows; a power of 2 [-].
+    n_params : int
+        Number of parameters d [-].
+    seed : int
+        Seed of the scrambling (non-negative) [-].
+
+    Returns
+    -------
+    Design
+        ``method = "sobol-sequence"``; blocks are all 0.
+    """
+    n = _count("samples", n)
+    d = _count("n_params", n_params)
+    if n & (n - 1):
+        low = 1 << (n.bit_length() - 1)
+        raise ValueError(f"samples must be a power of 2 for a Sobol' sequence, got {n}; "
+                         f"nearest: {low} or {2 * low}")
+    x = qmc.Sobol(d=d, scramble=True, seed=_seed(seed)).random(n)
+    codes = np.zeros(n, dtype=np.int64)
+    codes.setflags(write=False)
+    return Design(_open(x, _SOBOL_EDGE), codes, "sobol-sequence", n, ())

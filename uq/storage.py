@@ -187,7 +187,7 @@ def to_dataset(study, propagation: Propagation, analysis: StudyAnalysis) -> xr.D
         (*sd, "parameter"), per([s.rank_correlation for s in sa]), "1",
         "Spearman rank correlation of each input with the inner-surface temperature",
     )
-    if a.method == "sobol" and params:
+    if a.method == "saltelli" and params:
         _add_indices(data, sa, outputs, params, group_names, sd, per, a)
     if any(sc.surrogate is not None for sc in sa):
         _add_surrogate(data, sa, params, group_names, sd, per, a)
@@ -197,6 +197,7 @@ def to_dataset(study, propagation: Propagation, analysis: StudyAnalysis) -> xr.D
         "config_text": study.text,
         "seed": int(a.seed),
         "method": a.method,
+        "design": a.design,
         "base_samples": int(propagation.design.base_samples),
         "evaluations": int(n_samples),
         "parameters": len(params),
