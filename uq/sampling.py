@@ -142,7 +142,7 @@ def _check_groups(groups: Sequence[Sequence[int]], n_params: int) -> tuple[tuple
 
 
 def sobol_design(base_samples: int, n_params: int, *, seed: int,
-                 groups: Sequence[Sequence[int]] = ()) -> Design:
+                 groups: Sequence[Sequence[int]] = (), start: int = 0) -> Design:
     """Saltelli cross-sampled design from a scrambled Sobol' sequence.
 
     Parameters
@@ -155,6 +155,10 @@ def sobol_design(base_samples: int, n_params: int, *, seed: int,
         Seed of the scrambling (non-negative) [-].
     groups : sequence of sequence of int
         Disjoint parameter index groups (e.g. layers) whose joint indices are wanted [-].
+    start : int
+        First base row: the design of base rows [start, start + N) of the same scrambled
+        sequence (``fast_forward``), so that designs for [0, N) and [N, 2N) stacked are the
+        design of 2N base rows [-].
 
     Returns
     -------
@@ -168,8 +172,12 @@ def sobol_design(base_samples: int, n_params: int, *, seed: int,
         low = 1 << (n.bit_length() - 1)
         raise ValueError(f"base_samples must be a power of 2 for a Sobol' design, got {n}; "
                          f"nearest: {low} or {2 * low}")
+    first = _count("start", start, minimum=0)
     grp = _check_groups(groups, d)
-    base = qmc.Sobol(d=2 * d, scramble=True, seed=seed).random(n)
+    engine = qmc.Sobol(d=2 * d, scramble=True, seed=seed)
+    if first:
+        engine.fast_forward(first)
+    base = engine.random(n)
     a, b = base[:, :d], base[:, d:]
     crossed = [(g, m) for g, m in enumerate(grp) if len(m) > 1]
     blocks = [(0, ())] + [(2 + j, (j,)) for j in range(d)]
