@@ -17,7 +17,7 @@ from scipy import stats
 from uq.propagate import Propagation, parameter_groups
 from uq.sensitivity import RankedIndex, SobolIndices, rank, sobol_indices
 from uq.statistics import Exceedance, QuantileEstimate, exceedance, quantiles
-from uq.surrogate import SurrogateIndices, surrogate_indices
+from uq.surrogate import SurrogateIndices, surrogate_indices, surrogate_quantiles
 
 BAND_PROBABILITIES = (0.01, 0.05, 0.5, 0.95, 0.99)
 """Quantiles always computed, for the 5–95 % and 1–99 % bands of the profile figure [-]."""
@@ -57,6 +57,12 @@ class ScenarioAnalysis:
         Samples with a gap past the onset of natural convection [-].
     air_range_samples
         Samples with a gap mean temperature outside the air-property range [-].
+    surrogate_quantiles
+        Quantiles of the inner-surface temperature from the surrogate, at the study's
+        probabilities, when its leave-one-out error is at most ``pce_max_loo_error``
+        (else ``None``) [K].
+    surrogate_quantile_status
+        Why the surrogate's quantiles were computed or refused [-].
     """
 
     inner_quantiles: QuantileEstimate
@@ -71,6 +77,8 @@ class ScenarioAnalysis:
     surrogate_groups: SurrogateIndices | None = None
     onset_samples: int = 0
     air_range_samples: int = 0
+    surrogate_quantiles: np.ndarray | None = None
+    surrogate_quantile_status: str = ""
 
 
 @dataclass(frozen=True)
@@ -176,16 +184,23 @@ def analyse(study, propagation: Propagation) -> StudyAnalysis:
                 ranking[o] = rank(ind, ci_threshold=a.index_ci_threshold)
                 if grp is not None:
                     group_ranking[o] = rank(grp, ci_threshold=a.index_ci_threshold)
-        surrogate = surrogate_groups = None
+        surrogate = surrogate_groups = surrogate_q = None
+        status = ""
         if a.method == "pce" and names:
             unit = design.unit[rows]
             surrogate = surrogate_indices(unit, y[rows], names=names,
                                           n_bootstrap=a.bootstrap, confidence=a.confidence,
                                           seed=a.seed)
-            surrogate_groups = surrogate_indices(unit, y[rows], names=group_names,
-                                                 groups=parameter_groups(study)[1],
-                                                 n_bootstrap=a.bootstrap,
-                                                 confidence=a.confidence, seed=a.seed)
+            if surrogate is not None:
+                surrogate_groups = surrogate_indices(unit, y[rows], names=group_names,
+                                                     groups=parameter_groups(study)[1],
+                                                     n_bootstrap=a.bootstrap,
+                                                     confidence=a.confidence, seed=a.seed,
+                                                     fit=surrogate.fit)
+                surrogate_q, status = _surrogate_percentiles(surrogate, probabilities, a)
+            else:
+                status = ("refused: no surrogate could be fitted (too few converged samples "
+                          "or a constant output)")
             if surrogate is not None:
                 ranking["inner_surface_temperature"] = rank(
                     surrogate, ci_threshold=a.index_ci_threshold)
@@ -203,12 +218,26 @@ def analyse(study, propagation: Propagation) -> StudyAnalysis:
                 nonconverged=int(np.sum(~propagation.outputs["converged"][s])),
                 surrogate=surrogate,
                 surrogate_groups=surrogate_groups,
+                surrogate_quantiles=surrogate_q,
+                surrogate_quantile_status=status,
                 onset_samples=int(np.sum(np.any(
                     propagation.outputs["convection_onset"][s], axis=1))),
                 air_range_samples=int(np.sum(propagation.outputs["air_range_exceeded"][s])),
             )
         )
     return StudyAnalysis(result, probabilities, outputs, tuple(group_names), notes)
+
+
+def _surrogate_percentiles(surrogate: SurrogateIndices, probabilities: np.ndarray,
+                           a) -> tuple[np.ndarray | None, str]:
+    """Percentiles from the surrogate, only when its leave-one-out error is small enough."""
+    err, limit = surrogate.loo_error, a.pce_max_loo_error
+    if not err <= limit:
+        return None, (f"refused: leave-one-out error {err:.2g} of the surrogate is above "
+                      f"pce_max_loo_error = {limit:g}; the percentiles from the samples stand")
+    q = surrogate_quantiles(surrogate.fit, probabilities, seed=a.seed)
+    return q, (f"computed: leave-one-out error {err:.2g} <= pce_max_loo_error = {limit:g}; "
+               "no interval (the surrogate's own error is not bounded)")
 
 
 def _scenario_text(study, s: int) -> str:

@@ -14,6 +14,7 @@ from uq.analysis import StudyAnalysis, analyse
 from uq.cautions import cautions_text
 from uq.propagate import Propagation, propagate
 from uq.storage import to_dataset, write_results
+from uq.summary_indices import index_lines
 from uq.units import TEMPERATURE, from_si
 
 TOP_COUNT = 5
@@ -179,7 +180,8 @@ def summary_text(result: StudyResult) -> str:
     lines = [f"plyrisk study: {study.title}", f"config: {study.source}"]
     n_eval = prop.inputs.shape[0]
     lines.append(
-        f"design: {a.method}, {prop.design.base_samples} base samples, "
+        f"method: {a.method}, {a.design} design, {prop.design.base_samples} "
+        + {"saltelli": "base samples", "morris": "trajectories"}.get(a.method, "samples") + ", "
         f"{len(study.parameters)} uncertain parameters, {n_eval} model evaluations"
         + (f" per exposure × {len(an.scenarios)} exposures" if len(an.scenarios) > 1 else "")
         + f"; seed {a.seed}"
@@ -212,38 +214,7 @@ def summary_text(result: StudyResult) -> str:
                 f"exceeding, P(inner surface > {lim}) = {_pct(worst)}"
             )
         ranking = sc.ranking.get("inner_surface_temperature")
-        if ranking:
-            if sc.surrogate is not None:
-                lines.append(
-                    f"most influential parameters (total Sobol index from a polynomial-chaos "
-                    f"surrogate, order {sc.surrogate.order}, leave-one-out Q2 = "
-                    f"{sc.surrogate.q2:.3f}; ± bootstrap CI half-width; first-order):"
-                )
-            else:
-                lines.append("most influential parameters (total Sobol index ± CI half-width; "
-                             "first-order):")
-            for r, item in enumerate(ranking[:TOP_COUNT], start=1):
-                flag = "" if item.converged else "   (unconverged)"
-                lines.append(
-                    f"  {r}. {item.name:<32} {item.total:6.3f} ± {item.total_ci:.3f}   "
-                    f"first {item.first:6.3f} ± {item.first_ci:.3f}{flag}"
-                )
-            groups = sc.group_ranking.get("inner_surface_temperature", [])
-            if groups:
-                lines.append("layers (grouped total index ± CI half-width):")
-                for r, item in enumerate(groups[:TOP_COUNT], start=1):
-                    flag = "" if item.converged else "   (unconverged)"
-                    lines.append(f"  {r}. {item.name:<32} {item.total:6.3f} ± "
-                                 f"{item.total_ci:.3f}{flag}")
-            unconv = [i for i in ranking if not i.converged]
-            if unconv:
-                need = max(i.suggested_base_samples or 0 for i in unconv)
-                lines.append(
-                    f"  {len(unconv)} index interval(s) wider than ±{a.index_ci_threshold:g}: "
-                    f"rerun with --samples {need} or more to settle the ranking (on "
-                    "scrambled Sobol' designs the bootstrap intervals can be wider than the "
-                    "actual error)"
-                )
+        lines += index_lines(study, sc, top=TOP_COUNT, temperature=lambda k: _t(study, k))
         if not ranking or sc.surrogate is not None:
             names = [p.name for p in study.parameters]
             order = np.argsort(-np.abs(np.nan_to_num(sc.rank_correlation)))
