@@ -18,7 +18,7 @@ from __future__ import annotations
 import re
 import tomllib
 from collections.abc import Callable
-from dataclasses import MISSING, fields
+from dataclasses import MISSING, fields, replace
 from pathlib import Path
 from typing import Any
 
@@ -654,3 +654,62 @@ def _interface_names(study: Study) -> tuple[str, ...]:
     from models.network import interface_names
 
     return interface_names(study.layers, study.cold_side)
+
+
+def override(study: Study, *, samples: int | None = None, seed: int | None = None,
+             method: str | None = None) -> Study:
+    """The study with command-line overrides of the sample count, seed and method applied.
+
+    Parameters
+    ----------
+    study
+        The parsed study [-].
+    samples
+        Sample count (saltelli: base rows; pce: samples; morris: trajectories) [-].
+    seed
+        Seed [-].
+    method
+        ``"saltelli"``, ``"pce"`` or ``"morris"``; a pce study keeps its ``design``, another
+        method switching to pce gets the default design [-].
+
+    Returns
+    -------
+    Study
+        A new study; the original when nothing is overridden.
+
+    Raises
+    ------
+    ValueError
+        One line naming the option and what was expected.
+    """
+    a = study.analysis
+    changes: dict[str, Any] = {}
+    if method is not None and method != a.method:
+        if method in RENAMED_METHODS:
+            raise ValueError(f'--method: "{method}" {RENAMED_METHODS[method]}')
+        if method not in METHODS:
+            raise ValueError(f"--method: unknown method {method!r}; valid: {', '.join(METHODS)}")
+        design = design_of(method)
+        if a.lhs_optimization is not None and design != "lhs":
+            raise ValueError(f"--method {method}: the config's study.lhs_optimization applies "
+                             "to method = pce with design = lhs only; remove it from the config")
+        if method == "morris" and study.screening is not None:
+            raise ValueError("--method morris: the config has a [screening] section, which "
+                             "screens before a saltelli or pce study; remove it")
+        changes.update(method=method, design=design)
+    if samples is not None:
+        changes["samples"] = int(samples)
+    if seed is not None:
+        changes["seed"] = int(seed)
+    if not changes:
+        return study
+    new = replace(a, **changes)
+    n = new.samples
+    if n < MIN_SAMPLES:
+        raise ValueError(f"--samples must be at least {MIN_SAMPLES}, got {n}")
+    if new.design == "sobol" and n & (n - 1):
+        lo = 1 << (n.bit_length() - 1)
+        what = "method = saltelli" if new.method == "saltelli" else "design = sobol"
+        where = f"--samples {n}" if samples is not None else f"study.samples = {n}"
+        raise ValueError(f"{where}: {what} needs a power of two (e.g. {lo} or {2 * lo})")
+    return replace(study, analysis=new)

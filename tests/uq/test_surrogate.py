@@ -128,3 +128,35 @@ def test_too_few_samples_gives_none():
     assert surrogate_indices(np.random.default_rng(0).random((2, 3)), np.arange(2.0),
                              names=["a", "b", "c"], seed=0) is None
     assert fit_pce(np.zeros((10, 0)), np.arange(10.0)) is None
+
+
+def test_pce_and_saltelli_agree_on_a_demo_stack_within_their_intervals(tmp_path):
+    # Both estimate the same Sobol indices of the same physical model; the check is their
+    # mutual consistency (common practice: two estimators agree within their combined
+    # intervals), no value of the invented demo is a check value.
+    from pathlib import Path
+
+    import xarray as xr
+
+    from uq.config import load_study
+    from uq.pipeline import run_study
+    from uq.storage import read_results
+
+    demo = load_study(Path(__file__).resolve().parents[2] / "configs" / "small_demo.toml")
+    saltelli = run_study(demo, samples=1024, quiet=True).analysis.scenarios[0]
+    pce_run = run_study(demo, method="pce", samples=256, out_dir=tmp_path, quiet=True)
+    pce = pce_run.analysis.scenarios[0]
+    ref, grp = saltelli.indices["inner_surface_temperature"]
+    for mine, theirs in ((pce.surrogate, ref), (pce.surrogate_groups, grp)):
+        assert mine.names == theirs.names
+        for k in ("first", "total"):
+            gap = np.abs(getattr(mine, k) - getattr(theirs, k))
+            allowed = getattr(mine, f"{k}_ci") + getattr(theirs, f"{k}_ci")
+            assert np.all(gap <= allowed), (k, gap, allowed)
+    ds = pce_run.dataset
+    assert ds.attrs["method"] == "pce" and ds.attrs["design"] == "lhs"
+    for name in ("pce_first", "pce_total_ci", "pce_first_converged", "pce_loo_error",
+                 "pce_quantile", "pce_quantile_status", "pce_group_total"):
+        assert ds[name].attrs["method"] == "pce", name
+    assert ds["pce_loo_error"].item() == pytest.approx(pce.surrogate.loo_error)
+    xr.testing.assert_identical(read_results(pce_run.path), ds)
