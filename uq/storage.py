@@ -425,7 +425,7 @@ def write_results(ds: xr.Dataset, path: str | Path) -> Path:
     path = Path(path)
     path.parent.mkdir(parents=True, exist_ok=True)
     encoding = {
-        name: {"zlib": True, "complevel": 4}
+        name: {"zlib": True, "complevel": 1, "shuffle": True}
         for name, v in ds.data_vars.items()
         if v.dtype.kind in "fiub"
     }
