@@ -17,7 +17,7 @@ from scipy import stats
 from uq.propagate import Propagation, parameter_groups
 from uq.sensitivity import RankedIndex, SobolIndices, rank, sobol_indices
 from uq.statistics import Exceedance, QuantileEstimate, exceedance, quantiles
-from uq.surrogate import SurrogateIndices, surrogate_indices
+from uq.surrogate import SurrogateIndices, surrogate_indices, surrogate_quantiles
 
 SALIB_BOOTSTRAP_ROWS = 2**17
 """Largest base-row count whose Sobol' intervals come from SALib's bootstrap (it holds
@@ -44,7 +44,7 @@ class ScenarioAnalysis:
     exceedance
         Probability that the inner-surface temperature exceeds the limit, with its interval.
     indices
-        Output name → (per-parameter, per-group) Sobol indices; empty unless ``method = sobol``.
+        Output name → (per-parameter, per-group) Sobol indices; empty unless ``method = saltelli``.
     ranking
         Output name → parameters ranked by total index.
     group_ranking
@@ -61,6 +61,12 @@ class ScenarioAnalysis:
         Samples with a gap past the onset of natural convection [-].
     air_range_samples
         Samples with a gap mean temperature outside the air-property range [-].
+    surrogate_quantiles
+        Quantiles of the inner-surface temperature from the surrogate, at the study's
+        probabilities, when its leave-one-out error is at most ``pce_max_loo_error``
+        (else ``None``) [K].
+    surrogate_quantile_status
+        Why the surrogate's quantiles were computed or refused [-].
     """
 
     inner_quantiles: QuantileEstimate
@@ -75,6 +81,8 @@ class ScenarioAnalysis:
     surrogate_groups: SurrogateIndices | None = None
     onset_samples: int = 0
     air_range_samples: int = 0
+    surrogate_quantiles: np.ndarray | None = None
+    surrogate_quantile_status: str = ""
 
 
 @dataclass(frozen=True)
@@ -167,15 +175,14 @@ def analyse(study, propagation: Propagation) -> StudyAnalysis:
     rows = design.independent_rows()
     names = [p.name for p in study.parameters]
     notes: list[str] = []
-    if a.method != "sobol":
+    if a.method == "pce":
         notes.append(
-            f"method = {a.method}: percentiles and exceedance come straight from the samples; "
-            "Sobol indices cannot be estimated from them directly (that needs method = "
-            "\"sobol\", a Saltelli design). The indices shown are from a polynomial-chaos "
-            "surrogate fitted to the samples: trust them only when its leave-one-out Q2 is "
-            "close to 1; rank correlations are a screening measure only."
+            f"method = pce ({a.design} design): percentiles and exceedance come straight from "
+            "the samples; the Sobol indices shown are from a polynomial-chaos surrogate fitted "
+            "to them: trust them only when its leave-one-out error is small (Q2 close to 1); "
+            "rank correlations are a screening measure only."
         )
-    if a.method == "sobol" and design.base_samples > SALIB_BOOTSTRAP_ROWS:
+    if a.method == "saltelli" and design.base_samples > SALIB_BOOTSTRAP_ROWS:
         notes.append(f"{design.base_samples} base samples: Sobol index intervals from a "
                      "batch jackknife (uq.streaming) rather than the bootstrap")
     result = []
@@ -197,7 +204,7 @@ def analyse(study, propagation: Propagation) -> StudyAnalysis:
         indices: dict[str, tuple[SobolIndices, SobolIndices | None]] = {}
         ranking: dict[str, list[RankedIndex]] = {}
         group_ranking: dict[str, list[RankedIndex]] = {}
-        if a.method == "sobol" and names and design.base_samples > SALIB_BOOTSTRAP_ROWS:
+        if a.method == "saltelli" and names and design.base_samples > SALIB_BOOTSTRAP_ROWS:
             from uq.streaming import MemoryRows, sobol_jackknife
 
             for o in outputs:
@@ -207,7 +214,7 @@ def analyse(study, propagation: Propagation) -> StudyAnalysis:
                 ranking[o] = rank(ind, ci_threshold=a.index_ci_threshold)
                 if grp is not None:
                     group_ranking[o] = rank(grp, ci_threshold=a.index_ci_threshold)
-        elif a.method == "sobol" and names:
+        elif a.method == "saltelli" and names:
             for o in outputs:
                 ind, grp = sobol_indices(
                     output_values(propagation, o, s),
@@ -222,16 +229,23 @@ def analyse(study, propagation: Propagation) -> StudyAnalysis:
                 ranking[o] = rank(ind, ci_threshold=a.index_ci_threshold)
                 if grp is not None:
                     group_ranking[o] = rank(grp, ci_threshold=a.index_ci_threshold)
-        surrogate = surrogate_groups = None
-        if a.method != "sobol" and names:
+        surrogate = surrogate_groups = surrogate_q = None
+        status = ""
+        if a.method == "pce" and names:
             unit = design.unit[rows]
             surrogate = surrogate_indices(unit, y[rows], names=names,
                                           n_bootstrap=a.bootstrap, confidence=a.confidence,
                                           seed=a.seed)
-            surrogate_groups = surrogate_indices(unit, y[rows], names=group_names,
-                                                 groups=parameter_groups(study)[1],
-                                                 n_bootstrap=a.bootstrap,
-                                                 confidence=a.confidence, seed=a.seed)
+            if surrogate is not None:
+                surrogate_groups = surrogate_indices(unit, y[rows], names=group_names,
+                                                     groups=parameter_groups(study)[1],
+                                                     n_bootstrap=a.bootstrap,
+                                                     confidence=a.confidence, seed=a.seed,
+                                                     fit=surrogate.fit)
+                surrogate_q, status = _surrogate_percentiles(surrogate, probabilities, a)
+            else:
+                status = ("refused: no surrogate could be fitted (too few converged samples "
+                          "or a constant output)")
             if surrogate is not None:
                 ranking["inner_surface_temperature"] = rank(
                     surrogate, ci_threshold=a.index_ci_threshold)
@@ -249,12 +263,26 @@ def analyse(study, propagation: Propagation) -> StudyAnalysis:
                 nonconverged=int(np.sum(~propagation.outputs["converged"][s])),
                 surrogate=surrogate,
                 surrogate_groups=surrogate_groups,
+                surrogate_quantiles=surrogate_q,
+                surrogate_quantile_status=status,
                 onset_samples=int(np.sum(np.any(
                     propagation.outputs["convection_onset"][s], axis=1))),
                 air_range_samples=int(np.sum(propagation.outputs["air_range_exceeded"][s])),
             )
         )
     return StudyAnalysis(result, probabilities, outputs, tuple(group_names), notes)
+
+
+def _surrogate_percentiles(surrogate: SurrogateIndices, probabilities: np.ndarray,
+                           a) -> tuple[np.ndarray | None, str]:
+    """Percentiles from the surrogate, only when its leave-one-out error is small enough."""
+    err, limit = surrogate.loo_error, a.pce_max_loo_error
+    if not err <= limit:
+        return None, (f"refused: leave-one-out error {err:.2g} of the surrogate is above "
+                      f"pce_max_loo_error = {limit:g}; the percentiles from the samples stand")
+    q = surrogate_quantiles(surrogate.fit, probabilities, seed=a.seed)
+    return q, (f"computed: leave-one-out error {err:.2g} <= pce_max_loo_error = {limit:g}; "
+               "no interval (the surrogate's own error is not bounded)")
 
 
 def _scenario_text(study, s: int) -> str:

@@ -81,10 +81,14 @@ def _nominal_solve(study: Study) -> tuple[NetworkSolution, list[str]]:
 
 def _analysis_lines(study: Study) -> list[str]:
     a, m = study.analysis, study.model
-    method = {"sobol": f"Sobol indices, {a.samples} base rows (Saltelli design)",
-              "lhs": f"Latin hypercube, {a.samples} samples"
-              + (f", {a.lhs_optimization} optimization" if a.lhs_optimization else ""),
-              "random": f"plain Monte Carlo, {a.samples} samples"}[a.method]
+    designs = {"lhs": f"Latin hypercube, {a.samples} samples"
+               + (f", {a.lhs_optimization} optimization" if a.lhs_optimization else ""),
+               "random": f"plain Monte Carlo, {a.samples} samples",
+               "sobol": f"scrambled Sobol' sequence, {a.samples} samples"}
+    method = {"saltelli": f"Sobol indices, {a.samples} base rows (Saltelli design)",
+              "pce": f"polynomial-chaos surrogate on a {designs.get(a.design, a.design)}",
+              "morris": f"Morris screening, {a.samples} trajectories of {a.levels} levels"
+              }[a.method]
     lines = [
         f"Analysis: {method}; seed {a.seed}",
         f"  limit: inner-surface temperature {study.format_temperature(a.limit)}",

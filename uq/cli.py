@@ -21,10 +21,11 @@ from uq.analysis import AnalysisError
 from uq.cautions import cautions_text
 from uq.check_text import check_text
 from uq.compute import SchedulerError
-from uq.config import MIN_SAMPLES, load_study, require_runnable
+from uq.config import MIN_SAMPLES, load_study, override, require_runnable
 from uq.errors import ConfigError
-from uq.pipeline import check_memory, default_output_dir, run_study, summary_text
+from uq.pipeline import check_memory, default_output_dir, memory_rows, run_study, summary_text
 from uq.report import write_report
+from uq.sequential import DEFAULT_MAX_RUNS
 from uq.storage import read_results
 from uq.store import StoreError
 from uq.study import Study
@@ -97,6 +98,13 @@ def _add_run(subparsers) -> None:
     p.add_argument("--samples", metavar="N", type=int, help="base sample count (overrides "
                    "[study] samples; a power of two for method = sobol)")
     p.add_argument("--seed", metavar="S", type=int, help="seed (overrides [study] seed)")
+    p.add_argument("--method", metavar="NAME", help="analysis method: saltelli, pce or morris "
+                   "(overrides [study] method)")
+    p.add_argument("--until-converged", action="store_true", help="saltelli: double the base "
+                   "samples, reusing every run, until every index interval is at most "
+                   "[study] index_ci_threshold, or --max-runs is reached; prints the path")
+    p.add_argument("--max-runs", metavar="N", type=int, help="model-run budget of "
+                   "--until-converged (default 1000000, every exposure counted)")
     p.add_argument("--chunk-size", metavar="N", type=int, help="samples per evaluation chunk "
                    "(memory bound; results do not depend on it)")
     p.add_argument("--workers", metavar="N", type=int, help="solve on a local dask cluster "
@@ -116,13 +124,8 @@ def _add_run(subparsers) -> None:
 
 def _check_overrides(study: Study, args: argparse.Namespace) -> None:
     n = args.samples
-    if n is not None:
-        if n < MIN_SAMPLES:
-            raise UsageError(f"--samples must be at least {MIN_SAMPLES}, got {n}")
-        if study.analysis.method == "sobol" and n & (n - 1):
-            lo = 1 << (n.bit_length() - 1)
-            raise UsageError(f"--samples {n}: method = sobol needs a power of two "
-                             f"(e.g. {lo} or {2 * lo})")
+    if n is not None and n < MIN_SAMPLES:
+        raise UsageError(f"--samples must be at least {MIN_SAMPLES}, got {n}")
     if args.seed is not None and args.seed < 0:
         raise UsageError(f"--seed must be zero or positive, got {args.seed}")
     if args.chunk_size is not None and args.chunk_size < 1:
@@ -132,7 +135,33 @@ def _check_overrides(study: Study, args: argparse.Namespace) -> None:
     if args.resume and not (args.store or study.compute.store):
         raise UsageError("--resume needs a store: give --store DIR (or [compute] store)")
     if args.store or study.compute.store:
+        method = args.method or study.analysis.method
+        if args.until_converged or method == "morris":
+            raise UsageError("--store holds one fixed design: use it with method = saltelli "
+                             "or pce, without --until-converged")
         return  # out of core: memory stays bounded by the chunk size
+    try:
+        overridden = override(study, samples=n, seed=args.seed, method=args.method)
+    except ValueError as err:
+        raise UsageError(str(err)) from None
+    if args.max_runs is not None and not args.until_converged:
+        raise UsageError("--max-runs applies to --until-converged only")
+    if args.until_converged:
+        if overridden.analysis.method != "saltelli":
+            raise UsageError(f"--until-converged needs method = saltelli, not "
+                             f"{overridden.analysis.method!r}")
+        if args.max_runs is not None and args.max_runs < 1:
+            raise UsageError(f"--max-runs must be a positive integer, got {args.max_runs}")
+        budget = args.max_runs if args.max_runs is not None else DEFAULT_MAX_RUNS
+        rows = memory_rows(overridden)
+        if rows > budget:
+            raise UsageError(f"--max-runs {budget}: the first step already needs {rows} model "
+                             "runs; raise --max-runs or lower --samples")
+        largest = overridden.analysis.samples
+        while memory_rows(overridden, 2 * largest) <= budget:
+            largest *= 2
+        n = largest  # the memory check below covers the largest step the budget allows
+    study = overridden
     try:
         check_memory(study, n)
     except ValueError as err:
@@ -180,7 +209,9 @@ def cmd_run(args: argparse.Namespace) -> int:
                            chunk_size=args.chunk_size, quiet=args.quiet,
                            workers=args.workers or study.compute.workers,
                            scheduler=args.scheduler or study.compute.scheduler,
-                           store=args.store or study.compute.store, resume=args.resume)
+                           store=args.store or study.compute.store, resume=args.resume,
+                           method=args.method, until_converged=args.until_converged,
+                           max_runs=args.max_runs)
     except (SchedulerError, StoreError) as err:
         raise UsageError(str(err)) from None
     except AnalysisError as err:
@@ -188,13 +219,18 @@ def cmd_run(args: argparse.Namespace) -> int:
         print(cautions_text())
         return 1
     print(summary_text(result))
+    if result.study.analysis.method == "morris" and not args.no_report:
+        print(f"report: not written for method = morris (a screening: the summary above and "
+              f"{result.path} hold its results)")
+        return 0
     if not args.no_report:
         rows = None
         if study.tolerances is not None:
             if not args.quiet and sys.stderr.isatty():
                 print(f"{PROG}: tolerance feedback for the report ([tolerances] in the "
                       "config) ...", file=sys.stderr)
-            rows = manufacturing_table(run_tolerances(result.study), result.study)
+            full = result.screening.study if result.screening is not None else result.study
+            rows = manufacturing_table(run_tolerances(full), full)
         print(_write_report(result.dataset, out_dir, rows))
     return 0
 

@@ -18,7 +18,7 @@ from __future__ import annotations
 import re
 import tomllib
 from collections.abc import Callable
-from dataclasses import MISSING, fields
+from dataclasses import MISSING, fields, replace
 from pathlib import Path
 from typing import Any
 
@@ -29,6 +29,7 @@ from models.stack import GAP_ORIENTATIONS, Gap, Solid, StackError, validate_stac
 from uq import config_values as cv
 from uq.config_values import Context, join, show, suggest
 from uq.errors import ConfigError
+from uq.morris import ScreeningSettings
 from uq.study import (
     Analysis,
     ComputeOptions,
@@ -59,7 +60,16 @@ __all__ = [
     "stack_key_path",
 ]
 
-METHODS = ("sobol", "lhs", "random")
+METHODS = ("saltelli", "pce", "morris")
+"""Analysis methods of ``[study] method``."""
+PCE_DESIGNS = ("lhs", "sobol", "random")
+"""Designs of ``[study] design`` (method = "pce" only; the first is the default)."""
+RENAMED_METHODS = {
+    "sobol": 'is now "saltelli"',
+    "lhs": 'is now method = "pce" with design = "lhs"',
+    "random": 'is now method = "pce" with design = "random"',
+}
+"""Former ``[study] method`` values and their new spelling."""
 RADIATION = ("exact", "linearized")
 LHS_OPTIMIZATIONS = ("none", "random-cd", "lloyd")
 LAYER_KINDS = {"solid": Solid, "gap": Gap}
@@ -139,8 +149,50 @@ def loads_study(text: str, *, source: str = "<string>") -> Study:
 _STUDY_REQUIRED = ("title", "method", "samples", "seed", "limit")
 _STUDY_OPTIONAL = (
     "percentiles", "confidence", "bootstrap", "index_ci_threshold", "chunk_size",
-    "lhs_optimization", "outputs",
+    "lhs_optimization", "outputs", "design", "levels", "screening_threshold",
+    "pce_max_loo_error",
 )  # fmt: skip
+_METHOD_ONLY = {"design": "pce", "pce_max_loo_error": "pce", "levels": "morris",
+                "screening_threshold": "morris"}
+"""Keys of ``[study]`` that apply to one method only."""
+
+
+def _method(ctx: Context, raw: Any) -> str:
+    if isinstance(raw, str) and raw in RENAMED_METHODS:
+        raise ctx.error("study.method", f'"{raw}" {RENAMED_METHODS[raw]}')
+    return cv.choice(ctx, raw, "study.method", METHODS, "method")
+
+
+def design_of(method: str, design: str | None = None) -> str:
+    """The design type of an analysis method: saltelli → sobol, morris → morris, pce → design.
+
+    Parameters
+    ----------
+    method
+        ``"saltelli"``, ``"pce"`` or ``"morris"`` [-].
+    design
+        The ``[study] design`` of a pce study (default ``"lhs"``) [-].
+
+    Returns
+    -------
+    str
+        The :attr:`uq.sampling.Design.method` to draw [-].
+    """
+    if method not in METHODS:
+        raise ValueError(f"unknown method {method!r}; valid: {', '.join(METHODS)}")
+    if method == "pce":
+        return design or PCE_DESIGNS[0]
+    return "sobol" if method == "saltelli" else "morris"
+
+
+def levels_value(ctx: Context, raw: Any, path: str) -> int:
+    """Morris grid levels: an even whole number >= 2 [-]."""
+    n = cv.integer(ctx, raw, path, minimum=2)
+    if n % 2:
+        raise ctx.error(path, f"must be even (Morris 1991: an even number of levels with a step "
+                        f"of levels / (2 (levels - 1)) samples every level equally), got {n}; "
+                        f"use {n - 1} or {n + 1}")
+    return n
 
 
 def _parse_study_section(ctx: Context, raw: Any, parsed: dict) -> dict:
@@ -150,14 +202,29 @@ def _parse_study_section(ctx: Context, raw: Any, parsed: dict) -> dict:
     cv.check_keys(ctx, t, "study", (*_STUDY_REQUIRED, *_STUDY_OPTIONAL),
                   required=_STUDY_REQUIRED)
     title = cv.string(ctx, t["title"], "study.title")
-    method = cv.choice(ctx, t["method"], "study.method", METHODS, "method")
+    method = _method(ctx, t["method"])
+    for key, only in _METHOD_ONLY.items():
+        if key in t and method != only:
+            raise ctx.error(f"study.{key}", f"applies only to method = '{only}', not "
+                            f"{method!r}; remove it")
+    design = design_of(method, cv.choice(ctx, t["design"], "study.design", PCE_DESIGNS,
+                                         "design") if "design" in t else None)
     limit = cv.fixed(ctx, t["limit"], "study.limit", TEMPERATURE)
     kw: dict[str, Any] = {
         "method": method,
-        "samples": _samples(ctx, t["samples"], method),
+        "design": design,
+        "samples": _samples(ctx, t["samples"], method, design),
         "seed": cv.integer(ctx, t["seed"], "study.seed", minimum=0),
         "limit": limit.si,
     }
+    if "levels" in t:
+        kw["levels"] = levels_value(ctx, t["levels"], "study.levels")
+    if "screening_threshold" in t:
+        kw["screening_threshold"] = cv.number(ctx, t["screening_threshold"],
+                                              "study.screening_threshold", 0.0, 1.0)
+    if "pce_max_loo_error" in t:
+        kw["pce_max_loo_error"] = cv.number(ctx, t["pce_max_loo_error"],
+                                            "study.pce_max_loo_error", 0.0, 1.0)
     if "percentiles" in t:
         kw["percentiles"] = _percentiles(ctx, t["percentiles"], "study.percentiles")
     if "confidence" in t:
@@ -173,8 +240,11 @@ def _parse_study_section(ctx: Context, raw: Any, parsed: dict) -> dict:
     if "lhs_optimization" in t:
         path = "study.lhs_optimization"
         opt = cv.choice(ctx, t["lhs_optimization"], path, LHS_OPTIMIZATIONS, "lhs_optimization")
-        if method != "lhs":
-            raise ctx.error(path, f"applies only to method = 'lhs', not {method!r}; remove it")
+        if design != "lhs":
+            raise ctx.error(path, "applies only to method = 'pce' with design = 'lhs', not "
+                            f"method = {method!r}" + (f" with design = {design!r}"
+                                                      if method == "pce" else "")
+                            + "; remove it")
         kw["lhs_optimization"] = None if opt == "none" else opt
     if "outputs" in t:
         kw["outputs"] = _outputs(ctx, t["outputs"], "study.outputs")
@@ -185,13 +255,13 @@ MIN_SAMPLES = 8
 """Fewest samples (Sobol: base rows) a study may ask for: fewer give no usable interval [-]."""
 
 
-def _samples(ctx: Context, raw: Any, method: str) -> int:
+def _samples(ctx: Context, raw: Any, method: str, design: str) -> int:
     n = cv.integer(ctx, raw, "study.samples", minimum=MIN_SAMPLES)
-    if method == "sobol" and n & (n - 1):
+    if design == "sobol" and n & (n - 1):
         low = 1 << (n.bit_length() - 1)
-        raise ctx.error("study.samples", f"must be a power of 2 for method = 'sobol' (the "
-                        f"balance of the Sobol' sequence needs it), got {n}; use {low} or "
-                        f"{2 * low}")
+        what = "method = 'saltelli'" if method == "saltelli" else "design = 'sobol'"
+        raise ctx.error("study.samples", f"must be a power of 2 for {what} (the balance of "
+                        f"the Sobol' sequence needs it), got {n}; use {low} or {2 * low}")
     return n
 
 
@@ -499,6 +569,41 @@ def _parse_compute(ctx: Context, raw: Any, parsed: dict) -> dict:
     return {"compute": ComputeOptions(**kw)}
 
 
+# ----------------------------------------------------------------------------------------------
+# [screening]
+# ----------------------------------------------------------------------------------------------
+
+_SCREENING_KEYS = ("trajectories", "levels", "threshold", "keep")
+
+
+def _parse_screening(ctx: Context, raw: Any, parsed: dict) -> dict:
+    """The optional ``[screening]`` section: Morris first, then the study's method."""
+    if raw is None:
+        return {"screening": None}
+    t = cv.table(ctx, raw, "screening", "[screening]")
+    cv.check_keys(ctx, t, "screening", _SCREENING_KEYS, required=("trajectories",))
+    method = parsed["analysis"].method
+    if method == "morris":
+        raise ctx.error("screening", "method = 'morris' is a screening already; remove "
+                        "[screening] (it screens before a 'saltelli' or 'pce' study)")
+    by_name = {p.name: p for p in parsed["parameters"]}
+    kw: dict[str, Any] = {"trajectories": cv.integer(ctx, t["trajectories"],
+                                                     "screening.trajectories",
+                                                     minimum=MIN_SAMPLES)}
+    if "levels" in t:
+        kw["levels"] = levels_value(ctx, t["levels"], "screening.levels")
+    if "threshold" in t:
+        kw["threshold"] = cv.number(ctx, t["threshold"], "screening.threshold", 0.0, 1.0)
+    if "keep" in t:
+        keep = t["keep"]
+        if not isinstance(keep, list):
+            raise ctx.error("screening.keep", f"expected a list of parameter names, got "
+                            f"{show(keep)}")
+        kw["keep"] = tuple(_parameter_name(ctx, n, join("screening.keep", i), by_name)
+                           for i, n in enumerate(keep))
+    return {"screening": ScreeningSettings(**kw)}
+
+
 SECTIONS: dict[str, Parser] = {
     "study": _parse_study_section,
     "model": _parse_model_section,
@@ -507,6 +612,7 @@ SECTIONS: dict[str, Parser] = {
     "cold_side": _side_parser("cold_side", COLD_SIDE_KINDS),
     "scenarios": _parse_scenarios,
     "tolerances": _parse_tolerances,
+    "screening": _parse_screening,
     "compute": _parse_compute,
 }
 """Top-level sections in parse order: name → parser returning :class:`Study` fields."""
@@ -557,6 +663,9 @@ def require_runnable(study: Study) -> None:
     if d == 0:
         raise ctx.error("study.method", f"method {study.analysis.method!r} needs at least one "
                         "uncertain parameter; every input is fixed")
+    if study.screening is not None and d < 2:
+        raise ctx.error("screening", f"screening needs at least 2 uncertain parameters, got "
+                        f"{d}; remove [screening]")
     if study.analysis.lhs_optimization == "lloyd" and d < 2:
         raise ctx.error("study.lhs_optimization", f"'lloyd' needs at least 2 uncertain "
                         f"parameters, got {d}; use 'random-cd' or 'none'")
@@ -581,3 +690,62 @@ def _interface_names(study: Study) -> tuple[str, ...]:
     from models.network import interface_names
 
     return interface_names(study.layers, study.cold_side)
+
+
+def override(study: Study, *, samples: int | None = None, seed: int | None = None,
+             method: str | None = None) -> Study:
+    """The study with command-line overrides of the sample count, seed and method applied.
+
+    Parameters
+    ----------
+    study
+        The parsed study [-].
+    samples
+        Sample count (saltelli: base rows; pce: samples; morris: trajectories) [-].
+    seed
+        Seed [-].
+    method
+        ``"saltelli"``, ``"pce"`` or ``"morris"``; a pce study keeps its ``design``, another
+        method switching to pce gets the default design [-].
+
+    Returns
+    -------
+    Study
+        A new study; the original when nothing is overridden.
+
+    Raises
+    ------
+    ValueError
+        One line naming the option and what was expected.
+    """
+    a = study.analysis
+    changes: dict[str, Any] = {}
+    if method is not None and method != a.method:
+        if method in RENAMED_METHODS:
+            raise ValueError(f'--method: "{method}" {RENAMED_METHODS[method]}')
+        if method not in METHODS:
+            raise ValueError(f"--method: unknown method {method!r}; valid: {', '.join(METHODS)}")
+        design = design_of(method)
+        if a.lhs_optimization is not None and design != "lhs":
+            raise ValueError(f"--method {method}: the config's study.lhs_optimization applies "
+                             "to method = pce with design = lhs only; remove it from the config")
+        if method == "morris" and study.screening is not None:
+            raise ValueError("--method morris: the config has a [screening] section, which "
+                             "screens before a saltelli or pce study; remove it")
+        changes.update(method=method, design=design)
+    if samples is not None:
+        changes["samples"] = int(samples)
+    if seed is not None:
+        changes["seed"] = int(seed)
+    if not changes:
+        return study
+    new = replace(a, **changes)
+    n = new.samples
+    if n < MIN_SAMPLES:
+        raise ValueError(f"--samples must be at least {MIN_SAMPLES}, got {n}")
+    if new.design == "sobol" and n & (n - 1):
+        lo = 1 << (n.bit_length() - 1)
+        what = "method = saltelli" if new.method == "saltelli" else "design = sobol"
+        where = f"--samples {n}" if samples is not None else f"study.samples = {n}"
+        raise ValueError(f"{where}: {what} needs a power of two (e.g. {lo} or {2 * lo})")
+    return replace(study, analysis=new)

@@ -227,7 +227,7 @@ def select_quantile(da: xr.DataArray, p: float) -> xr.DataArray:
 def independent_mask(ds: xr.Dataset) -> np.ndarray:
     """Rows drawn from the joint input distribution that converged, for one exposure [-].
 
-    Sobol designs: the A and B rows (``sample_block`` 0 or 1); other designs: every row. Only
+    Saltelli designs: the A and B rows (``sample_block`` 0 or 1); other designs: every row. Only
     samples flagged ``converged`` with a finite inner-surface temperature are kept.
 
     Parameters
@@ -243,7 +243,7 @@ def independent_mask(ds: xr.Dataset) -> np.ndarray:
     if "scenario" in ds["inner_surface_temperature"].dims:
         raise ValueError("independent_mask needs one exposure: select a scenario first")
     rows = np.ones(ds.sizes["sample"], dtype=bool)
-    if ds.attrs.get("method") == "sobol":
+    if ds.attrs.get("method") in ("saltelli", "sobol"):  # "sobol": files before 0.2
         rows = np.asarray(ds["sample_block"].values) <= 1
     ok = np.asarray(ds["converged"].values, dtype=bool)
     ok &= np.isfinite(np.asarray(ds["inner_surface_temperature"].values, dtype=float))

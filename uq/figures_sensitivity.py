@@ -1,6 +1,6 @@
 """Sensitivity figures: Sobol indices per parameter and per layer, or the screening chart.
 
-For ``method = "sobol"`` the Saltelli estimates of the first-order and total indices are drawn
+For ``method = "saltelli"`` the Saltelli estimates of the first-order and total indices are drawn
 as paired bars with their bootstrap intervals (unconverged ones hatched); for other designs the
 rank-correlation screening chart, and, when the dataset carries them, the indices of the
 polynomial-chaos surrogate (``pce_*``). Re-exported by :mod:`uq.figures`.
@@ -70,7 +70,7 @@ def _paired_bars(ax, names: list[str], first, first_ci, total, total_ci, converg
 def _sobol_output(one: xr.Dataset, output: str) -> xr.Dataset:
     if "sobol_total" not in one:
         raise ValueError(f"the dataset has no Sobol indices (method "
-                         f"{one.attrs.get('method')!r}); they need method = 'sobol'")
+                         f"{one.attrs.get('method')!r}); they need method = 'saltelli'")
     outputs = [str(o) for o in one["output"].values]
     if output not in outputs:
         raise ValueError(f"unknown output {output!r}; valid: {', '.join(outputs)}")
@@ -81,7 +81,7 @@ def indices_figure(ds: xr.Dataset, *, scenario: int | None = None,
                    output: str = PRIMARY) -> Figure:
     """Sobol first and total indices per parameter, or the rank-correlation screening chart.
 
-    For ``method = "sobol"``: paired horizontal bars (total, first-order) with their bootstrap
+    For ``method = "saltelli"``: paired horizontal bars (total, first-order) with their bootstrap
     confidence intervals, sorted by the total index; unconverged indices
     (``index_converged`` False) are hatched, labelled and listed in the legend. For other
     methods: the Spearman rank correlation of each input with the inner-surface temperature,
@@ -110,8 +110,9 @@ def indices_figure(ds: xr.Dataset, *, scenario: int | None = None,
             _screening(ax, one, names)
             add_title(ax, "Screening only: rank correlation with the inner-surface temperature",
                       label, "a measure of monotone influence: it does not apportion variance or "
-                      "show interactions;", f"Sobol indices need method = \"sobol\" (this study: "
-                      f"{one.attrs.get('method')}, {one.attrs.get('evaluations')} samples)")
+                      "show interactions;", "Sobol indices need method = \"saltelli\" or "
+                      f"\"pce\" (this study: {one.attrs.get('method')}, "
+                      f"{one.attrs.get('evaluations')} samples)")
             return fig
         s = _sobol_output(one, output)
         _paired_bars(ax, names, s["sobol_first"].values, s["sobol_first_ci"].values,
@@ -160,7 +161,7 @@ def group_indices_figure(ds: xr.Dataset, *, scenario: int | None = None,
     Parameters
     ----------
     ds
-        A results dataset with ``method = "sobol"`` [-].
+        A results dataset with ``method = "saltelli"`` [-].
     scenario
         Index of the exposure for a swept dataset, ``None`` otherwise [-].
     output
@@ -193,7 +194,7 @@ def surrogate_indices_figure(ds: xr.Dataset, *, scenario: int | None = None,
                              groups: bool = False) -> Figure:
     """Sobol indices of the inner-surface temperature from the polynomial-chaos surrogate.
 
-    For designs without a Saltelli structure (lhs, random) the dataset may carry indices from
+    For designs without a Saltelli structure (method = "pce") the dataset may carry indices from
     a surrogate fitted to the samples (``pce_*``); they are drawn as paired bars with their
     bootstrap intervals and titled with the surrogate's order and leave-one-out Q2 — they are
     only as good as the fit.
@@ -215,7 +216,7 @@ def surrogate_indices_figure(ds: xr.Dataset, *, scenario: int | None = None,
     prefix = "pce_group" if groups else "pce"
     if f"{prefix}_total" not in one:
         raise ValueError("the dataset has no surrogate indices (pce_*); they exist for "
-                         "method = 'lhs' or 'random' when a surrogate could be fitted")
+                         "method = 'pce' when a surrogate could be fitted")
     dim = "group" if groups else "parameter"
     names = [str(n).replace("_", " ") if groups else str(n) for n in one[dim].values]
     q2, order = float(one["pce_q2"].item()), int(one["pce_order"].item())

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import os
 import warnings
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
@@ -12,8 +12,19 @@ import xarray as xr
 
 from uq.analysis import StudyAnalysis, analyse
 from uq.cautions import cautions_text
+from uq.config import override
 from uq.propagate import Propagation, propagate
+from uq.screening import (
+    add_screening,
+    morris_analysis,
+    morris_dataset,
+    morris_lines,
+    screen_study,
+    screening_lines,
+)
+from uq.sequential import add_growth, grow_until_converged, growth_lines
 from uq.storage import to_dataset, write_results, write_store_analysis
+from uq.summary_indices import index_lines
 from uq.units import TEMPERATURE, from_si
 
 TOP_COUNT = 5
@@ -22,7 +33,13 @@ TOP_COUNT = 5
 
 @dataclass(frozen=True)
 class StudyResult:
-    """Everything a run produced: in memory and the path of the dataset written."""
+    """Everything a run produced: in memory and the path of the dataset written.
+
+    ``analysis`` is a :class:`uq.analysis.StudyAnalysis`, or for ``method = "morris"`` a
+    :class:`uq.screening.MorrisAnalysis`; ``screening`` is the :class:`uq.screening.Screening`
+    of a ``[screening]`` section (``study`` is then the reduced study) and ``growth`` the
+    :class:`uq.sequential.Growth` of ``until_converged``.
+    """
 
     study: object
     propagation: Propagation
@@ -30,6 +47,8 @@ class StudyResult:
     dataset: xr.Dataset
     path: Path | None
     warnings: tuple[str, ...] = ()
+    screening: object | None = None
+    growth: object | None = None
 
 
 MEMORY_SHARE = 0.7
@@ -52,18 +71,37 @@ def memory_estimate(study, samples: int | None = None) -> int:
         Estimated peak memory [B] (with a 50 % margin for the analysis and the dataset).
     """
     from models.network import interface_names
+    from uq.propagate import scenario_count
+
+    rows = memory_rows(study, samples) // scenario_count(study)
+    d = len(study.parameters)
+    faces = len(interface_names(study.layers, study.cold_side))
+    per_row = 16 * d + scenario_count(study) * 8 * (6 * faces + 4)
+    return int(1.5 * rows * per_row)
+
+
+def memory_rows(study, samples: int | None = None) -> int:
+    """Model runs of a study, every exposure counted [-].
+
+    Parameters
+    ----------
+    study
+        The parsed study. [-]
+    samples
+        Sample count overriding the config [-].
+    """
     from uq.propagate import parameter_groups, scenario_count
 
     n = int(samples if samples is not None else study.analysis.samples)
     d = len(study.parameters)
-    if study.analysis.method == "sobol":
+    if study.analysis.method == "saltelli":
         groups = [g for g in parameter_groups(study)[1] if len(g) > 1]
         rows = n * (d + len(groups) + 2)
+    elif study.analysis.method == "morris":
+        rows = n * (d + 1)
     else:
         rows = n
-    faces = len(interface_names(study.layers, study.cold_side))
-    per_row = 16 * d + scenario_count(study) * 8 * (6 * faces + 4)
-    return int(1.5 * rows * per_row)
+    return rows * scenario_count(study)
 
 
 def check_memory(study, samples: int | None = None) -> None:
@@ -106,6 +144,9 @@ def run_study(
     scheduler: str | None = None,
     store: str | Path | None = None,
     resume: bool = False,
+    method: str | None = None,
+    until_converged: bool = False,
+    max_runs: int | None = None,
 ) -> StudyResult:
     """Propagate, analyse and (when ``out_dir`` is given) write ``out_dir/results.nc``.
 
@@ -132,30 +173,57 @@ def run_study(
         reads them from there and is added to it [-].
     resume
         Keep the chunks an interrupted run already put in ``store`` [-].
+    method
+        Analysis method overriding the config (``saltelli``, ``pce``, ``morris``) [-].
+    until_converged
+        Saltelli only: double the base samples, reusing every run, until every index
+        interval is narrower than ``index_ci_threshold`` or ``max_runs`` is reached
+        (:mod:`uq.sequential`) [-].
+    max_runs
+        Model-run budget of ``until_converged`` (default
+        :data:`uq.sequential.DEFAULT_MAX_RUNS`) [-].
 
     Returns
     -------
     StudyResult
     """
-    if samples is not None or seed is not None:
-        changes = {}
-        if samples is not None:
-            changes["samples"] = int(samples)
-        if seed is not None:
-            changes["seed"] = int(seed)
-        study = replace(study, analysis=replace(study.analysis, **changes))
+    study = override(study, samples=samples, seed=seed, method=method)
+    if until_converged and study.analysis.method != "saltelli":
+        raise ValueError(f"until_converged needs method = saltelli, not "
+                         f"{study.analysis.method!r}")
+    if store is not None and (until_converged or study.analysis.method == "morris"):
+        raise ValueError("a store holds one fixed design: use it with method = saltelli or "
+                         "pce, without until_converged")
+    screening = growth = reader = None
     with warnings.catch_warnings(record=True) as caught:  # reported in the summary, once each
         warnings.simplefilter("always")
-        if store is None:
-            prop = propagate(study, chunk_size=chunk_size, quiet=quiet, workers=workers,
-                             scheduler=scheduler)
-            analysis = analyse(study, prop)
-        else:
+        if study.screening is not None:
+            screening = screen_study(study, chunk_size=chunk_size, workers=workers)
+            study = screening.reduced
+        if until_converged:
+            growth = grow_until_converged(study, max_runs=max_runs, chunk_size=chunk_size,
+                                          workers=workers)
+            study, prop, analysis = growth.study, growth.propagation, growth.analysis
+        elif store is not None:
             prop, analysis, reader = _run_to_store(study, store, chunk_size=chunk_size,
                                                    resume=resume, workers=workers,
                                                    scheduler=scheduler, quiet=quiet)
+        else:
+            prop = propagate(study, chunk_size=chunk_size, quiet=quiet, workers=workers,
+                             scheduler=scheduler)
+            if study.analysis.method == "morris":
+                analysis = morris_analysis(study, prop)
+            else:
+                analysis = analyse(study, prop)
     messages = tuple(dict.fromkeys(" ".join(str(w.message).split()) for w in caught))
-    ds = to_dataset(study, prop, analysis)
+    if study.analysis.method == "morris":
+        ds = morris_dataset(study, prop, analysis)
+    else:
+        ds = to_dataset(study, prop, analysis)
+    if screening is not None:
+        ds = add_screening(ds, screening)
+    if growth is not None:
+        ds = add_growth(ds, growth)
     if store is not None:
         ds.attrs["sample_store"] = str(store)
         if prop.inputs.shape[0] < reader.n_rows:  # analysed in passes; the file has a part
@@ -167,7 +235,7 @@ def run_study(
     path = None
     if out_dir is not None:
         path = write_results(ds, Path(out_dir) / "results.nc")
-    return StudyResult(study, prop, analysis, ds, path, messages)
+    return StudyResult(study, prop, analysis, ds, path, messages, screening, growth)
 
 
 def _run_to_store(study, store, *, chunk_size, resume, workers, scheduler, quiet):
@@ -216,10 +284,18 @@ def summary_text(result: StudyResult) -> str:
     study, prop, an = result.study, result.propagation, result.analysis
     a = study.analysis
     lines = [f"plyrisk study: {study.title}", f"config: {study.source}"]
+    if result.screening is not None:
+        lines += screening_lines(result.screening)
+    if result.growth is not None:
+        lines += growth_lines(result.growth)
+    if a.method == "morris":
+        return "\n".join(_closing(result, lines + morris_lines(study, prop, an, top=TOP_COUNT),
+                                   []))
     n_eval = int(result.dataset.attrs.get("evaluations", prop.inputs.shape[0]))
-    n_independent = 2 * int(a.samples) if a.method == "sobol" else n_eval
+    n_independent = 2 * int(a.samples) if a.method == "saltelli" else n_eval
     lines.append(
-        f"design: {a.method}, {a.samples} base samples, "
+        f"method: {a.method}, {a.design} design, {a.samples} "
+        + {"saltelli": "base samples", "morris": "trajectories"}.get(a.method, "samples") + ", "
         f"{len(study.parameters)} uncertain parameters, {n_eval} model evaluations"
         + (f" per exposure × {len(an.scenarios)} exposures" if len(an.scenarios) > 1 else "")
         + f"; seed {a.seed}"
@@ -252,44 +328,13 @@ def summary_text(result: StudyResult) -> str:
                 f"exceeding, P(inner surface > {lim}) = {_pct(worst)}"
             )
         ranking = sc.ranking.get("inner_surface_temperature")
-        if ranking:
-            if sc.surrogate is not None:
-                lines.append(
-                    f"most influential parameters (total Sobol index from a polynomial-chaos "
-                    f"surrogate, order {sc.surrogate.order}, leave-one-out Q2 = "
-                    f"{sc.surrogate.q2:.3f}; ± bootstrap CI half-width; first-order):"
-                )
-            else:
-                lines.append("most influential parameters (total Sobol index ± CI half-width; "
-                             "first-order):")
-            for r, item in enumerate(ranking[:TOP_COUNT], start=1):
-                flag = "" if item.converged else "   (unconverged)"
-                lines.append(
-                    f"  {r}. {item.name:<32} {item.total:6.3f} ± {item.total_ci:.3f}   "
-                    f"first {item.first:6.3f} ± {item.first_ci:.3f}{flag}"
-                )
-            groups = sc.group_ranking.get("inner_surface_temperature", [])
-            if groups:
-                lines.append("layers (grouped total index ± CI half-width):")
-                for r, item in enumerate(groups[:TOP_COUNT], start=1):
-                    flag = "" if item.converged else "   (unconverged)"
-                    lines.append(f"  {r}. {item.name:<32} {item.total:6.3f} ± "
-                                 f"{item.total_ci:.3f}{flag}")
-            unconv = [i for i in ranking if not i.converged]
-            if unconv:
-                need = max(i.suggested_base_samples or 0 for i in unconv)
-                lines.append(
-                    f"  {len(unconv)} index interval(s) wider than ±{a.index_ci_threshold:g}: "
-                    f"rerun with --samples {need} or more to settle the ranking (on "
-                    "scrambled Sobol' designs the bootstrap intervals can be wider than the "
-                    "actual error)"
-                )
+        lines += index_lines(study, sc, top=TOP_COUNT, temperature=lambda k: _t(study, k))
         if not ranking or sc.surrogate is not None:
             names = [p.name for p in study.parameters]
             order = np.argsort(-np.abs(np.nan_to_num(sc.rank_correlation)))
             if names:
                 lines.append("rank correlation with the inner-surface temperature (screening "
-                             "only; Sobol indices need method = \"sobol\"):")
+                             "only):")
                 for r, j in enumerate(order[:TOP_COUNT], start=1):
                     lines.append(f"  {r}. {names[j]:<32} {sc.rank_correlation[j]:+.3f}")
         if sc.onset_samples:
@@ -316,7 +361,12 @@ def summary_text(result: StudyResult) -> str:
             "note: radiation = \"linearized\" (4 eps sigma Tm^3) always carries less heat across "
             "a gap than the exact form, so it predicts a cooler inner surface: not conservative"
         )
-    for note in (*an.notes, *result.warnings):
+    return "\n".join(_closing(result, lines, an.notes))
+
+
+def _closing(result: StudyResult, lines: list[str], notes) -> list[str]:
+    """Notes, warnings, the results path and the cautions at the end of the summary."""
+    for note in (*notes, *result.warnings):
         lines.append("")
         lines.append(f"note: {note}")
     if result.path is not None:
@@ -324,4 +374,4 @@ def summary_text(result: StudyResult) -> str:
         lines.append(f"results: {result.path}")
     lines.append("")
     lines.append(cautions_text())
-    return "\n".join(lines)
+    return lines

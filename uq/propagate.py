@@ -16,6 +16,7 @@ import numpy as np
 
 from models.network import NetworkSolution, solve_network
 from uq.compute import run_tasks
+from uq.morris import morris_design
 from uq.sampling import Design, DesignPlan
 from uq.study import assemble
 
@@ -238,21 +239,33 @@ def study_plan(study) -> DesignPlan:
     Returns
     -------
     DesignPlan
+
+    Raises
+    ------
+    ValueError
+        For Morris trajectories, which are built whole (:func:`study_design`).
     """
     a = study.analysis
+    if a.design == "morris":
+        raise ValueError("Morris trajectories are built whole; they have no design plan")
+    kind = "sobol-sequence" if (a.design == "sobol" and a.method == "pce") else a.design
     groups = parameter_groups(study)[1]
     return DesignPlan(
-        a.method,
+        kind,
         int(a.samples),
         len(study.parameters),
         int(a.seed),
-        groups=tuple(groups) if a.method == "sobol" else (),
-        optimization=a.lhs_optimization if a.method == "lhs" else None,
+        groups=tuple(groups) if kind == "sobol" else (),
+        optimization=a.lhs_optimization if kind == "lhs" else None,
     )
 
 
 def study_design(study) -> Design:
     """The whole unit-hypercube design of a study (see :func:`study_plan`)."""
+    a = study.analysis
+    if a.design == "morris":
+        return morris_design(int(a.samples), len(study.parameters), seed=int(a.seed),
+                             levels=int(a.levels))
     return study_plan(study).design()
 
 

@@ -157,7 +157,7 @@ def report_figures(ds: xr.Dataset) -> list[ReportFigure]:
         out.append(ReportFigure(
             f"inner_temperature_scatter{sfx}", f"Response to the most influential inputs{at}",
             "The inner-surface temperature of each independent, converged sample against the "
-            "three most influential inputs (by total Sobol index; for lhs/random by the "
+            "three most influential inputs (by total Sobol index; for method = pce by the "
             "surrogate's total index, or by |rank correlation| without a surrogate), in the "
             "units they were given in.",
             fg.scatter_figure(ds, scenario=i)))
@@ -219,11 +219,11 @@ def _tolerance_table(table) -> tuple[list[str], list[dict]]:
                      f"{type(table).__name__}")
 
 
-NO_SOBOL = ("Without a Sobol design (method = \"sobol\") the Sobol indices, where shown, come "
-            "from a polynomial-chaos surrogate fitted to the samples: trust them only when its "
-            "leave-one-out Q2 is close to 1. The rank correlation is a screening measure of "
+NO_SOBOL = ("Without a Saltelli design (method = \"saltelli\") the Sobol indices, where shown, "
+            "come from a polynomial-chaos surrogate fitted to the samples: trust them only when "
+            "its leave-one-out Q2 is close to 1. The rank correlation is a screening measure of "
             "monotone influence only and misses interactions.")
-"""Said wherever a ranking is shown for an lhs/random study."""
+"""Said wherever a ranking is shown for a pce study."""
 
 ASSUMPTIONS = (
     "Steady state: the temperatures are those reached after a long, constant exposure; no "

@@ -262,8 +262,14 @@ def index_sets(one: xr.Dataset) -> list[IndexSet]:
     if "pce_total" in one:
         p = {k: one[f"pce_{k}"].values for k in INDEX_KEYS}
         g = {k: one[f"pce_group_{k}"].values for k in INDEX_KEYS}
+        conv = None
+        if "pce_total_converged" in one:  # results before 0.2 carry no flags
+            conv = (np.asarray(one["pce_total_converged"].values, dtype=bool)
+                    & np.asarray(one["pce_first_converged"].values, dtype=bool),
+                    np.asarray(one["pce_group_total_converged"].values, dtype=bool)
+                    & np.asarray(one["pce_group_first_converged"].values, dtype=bool))
         return [IndexSet(PRIMARY, "pce_surrogate", p, g, _ranks(p["total"]),
-                         _ranks(g["total"]), None, None)]
+                         _ranks(g["total"]), *(conv or (None, None)))]
     return []
 
 
@@ -333,7 +339,7 @@ def convergence_summary(ds: xr.Dataset) -> tuple[list[str], Table | None]:
         return [f"The indices of this {ds.attrs.get('method')} study come from a "
                 "polynomial-chaos surrogate fitted to the samples, with bootstrap intervals. "
                 "They are only as good as the fit: the leave-one-out Q2 below should be close "
-                "to 1. A Sobol design (method = \"sobol\") estimates them without a "
+                "to 1. A Saltelli design (method = \"saltelli\") estimates them without a "
                 "surrogate."], Table(["exposure", "surrogate order", "leave-one-out Q2"], rows)
     thr = ds["index_converged"].attrs.get("threshold")
     rows = []

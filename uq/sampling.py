@@ -50,6 +50,8 @@ __all__ = ["METHODS", "RANDOM_BLOCK_ROWS", "Design", "DesignPlan", "latin_hyperc
 METHODS = ("sobol", "lhs", "random")
 RANDOM_BLOCK_ROWS = 2**16
 """Rows per independently seeded block of a random design [-]."""
+PLAN_METHODS = (*METHODS, "sobol-sequence")
+"""Designs a :class:`DesignPlan` describes [-]."""
 LHS_OPTIMIZATIONS = (None, "random-cd", "lloyd")
 _SOBOL_EDGE = 2.0**-31   # half the grid step of scipy's 30-bit Sobol' points
 _FLOAT_EDGE = 2.0**-54   # half the grid step of 53-bit uniform doubles
@@ -67,7 +69,7 @@ class Design:
         Integer block code per row, shape (n_rows,): 0 = A, 1 = B, 2 + j = AB_j,
         2 + d + g = AB for group g (index into ``groups``). Non-Sobol' designs are all 0.
     method : str
-        ``"sobol"``, ``"lhs"`` or ``"random"``.
+        ``"sobol"`` (Saltelli), ``"lhs"``, ``"random"``, ``"sobol-sequence"`` or ``"morris"``.
     base_samples : int
         N: base rows of a Sobol' design; number of rows otherwise.
     groups : tuple of tuple of int
@@ -163,6 +165,9 @@ def sobol_design(base_samples: int, n_params: int, *, seed: int,
         First base row: the design of base rows ``[start, start + base_samples)`` of the same
         scrambled sequence (``fast_forward``), e.g. to double a design while reusing the runs
         of its first half; a multiple of ``base_samples`` keeps the balance of the points [-].
+        First base row: the design of base rows [start, start + N) of the same scrambled
+        sequence (``fast_forward``), so that designs for [0, N) and [N, 2N) stacked are the
+        design of 2N base rows [-].
 
     Returns
     -------
@@ -348,9 +353,9 @@ class DesignPlan:
     optimization: str | None = None
 
     def __post_init__(self) -> None:
-        if self.method not in METHODS:
+        if self.method not in PLAN_METHODS:
             raise ValueError(f"unknown design method {self.method!r}; valid: "
-                             f"{', '.join(METHODS)}")
+                             f"{', '.join(PLAN_METHODS)}")
         object.__setattr__(self, "groups", _check_groups(self.groups, self.n_params))
 
     @property
@@ -368,10 +373,12 @@ class DesignPlan:
     @property
     def drawn_in_pieces(self) -> bool:
         """Whether :meth:`rows` draws a range without drawing the whole design [-]."""
-        return self.method in ("sobol", "random")
+        return self.method in ("sobol", "random", "sobol-sequence")
 
     def design(self) -> Design:
         """The whole design (see :func:`make_design`)."""
+        if self.method == "sobol-sequence":
+            return sobol_sequence_design(self.samples, self.n_params, seed=self.seed)
         return make_design(self.method, self.samples, self.n_params, seed=self.seed,
                            groups=self.groups, optimization=self.optimization)
 
@@ -400,6 +407,39 @@ class DesignPlan:
             cut = slice(start - first * step, stop - first * step)
             return unit[cut], codes[cut]
         codes = np.zeros(stop - start, dtype=np.int64)
+        if self.method == "sobol-sequence":
+            engine = qmc.Sobol(d=d, scramble=True, seed=_seed(self.seed))
+            engine.fast_forward(start)
+            with warnings.catch_warnings():
+                warnings.filterwarnings("ignore", message=".*balance properties.*")
+                return _open(engine.random(stop - start), _SOBOL_EDGE), codes
         if self.method == "random":
             return _open(_random_rows(start, stop, d, _seed(self.seed)), _FLOAT_EDGE), codes
         return self.design().unit[start:stop], codes
+def sobol_sequence_design(n: int, n_params: int, *, seed: int) -> Design:
+    """The first ``n`` points of a scrambled Sobol' sequence (no Saltelli structure).
+
+    Parameters
+    ----------
+    n : int
+        Number of rows; a power of 2 [-].
+    n_params : int
+        Number of parameters d [-].
+    seed : int
+        Seed of the scrambling (non-negative) [-].
+
+    Returns
+    -------
+    Design
+        ``method = "sobol-sequence"``; blocks are all 0.
+    """
+    n = _count("samples", n)
+    d = _count("n_params", n_params)
+    if n & (n - 1):
+        low = 1 << (n.bit_length() - 1)
+        raise ValueError(f"samples must be a power of 2 for a Sobol' sequence, got {n}; "
+                         f"nearest: {low} or {2 * low}")
+    x = qmc.Sobol(d=d, scramble=True, seed=_seed(seed)).random(n)
+    codes = np.zeros(n, dtype=np.int64)
+    codes.setflags(write=False)
+    return Design(_open(x, _SOBOL_EDGE), codes, "sobol-sequence", n, ())

@@ -196,6 +196,8 @@ class RankedIndex:
     suggested_base_samples : int or None
         Base samples N expected to bring the larger half-width to the threshold (half-widths
         shrink like N**-0.5), rounded up to a power of 2; None when converged or undefined.
+    first_converged, total_converged : bool
+        Each half-width at or below the threshold on its own.
     """
 
     name: str
@@ -205,6 +207,13 @@ class RankedIndex:
     total_ci: float
     converged: bool
     suggested_base_samples: int | None
+    first_converged: bool = True
+    total_converged: bool = True
+
+    @property
+    def first_negative(self) -> bool:
+        """The first-order estimate is below zero (estimator noise; shown, not clipped)."""
+        return self.first < 0.0
 
 
 def rank(indices: SobolIndices, *, ci_threshold: float = 0.05) -> list[RankedIndex]:
@@ -240,5 +249,7 @@ def rank(indices: SobolIndices, *, ci_threshold: float = 0.05) -> list[RankedInd
         if not converged and math.isfinite(worst):
             target = math.ceil(n_design * (worst / ci_threshold) ** 2)
             suggested = 1 << max(target - 1, 0).bit_length()
-        out.append(RankedIndex(name, s1, s1c, st, stc, converged, suggested))
+        out.append(RankedIndex(name, s1, s1c, st, stc, converged, suggested,
+                               first_converged=bool(s1c <= ci_threshold),
+                               total_converged=bool(stc <= ci_threshold)))
     return sorted(out, key=lambda r: math.inf if math.isnan(r.total) else -r.total)

@@ -187,7 +187,7 @@ def to_dataset(study, propagation: Propagation, analysis: StudyAnalysis) -> xr.D
         (*sd, "parameter"), per([s.rank_correlation for s in sa]), "1",
         "Spearman rank correlation of each input with the inner-surface temperature",
     )
-    if a.method == "sobol" and params:
+    if a.method == "saltelli" and params:
         _add_indices(data, sa, outputs, params, group_names, sd, per, a)
     if any(sc.surrogate is not None for sc in sa):
         _add_surrogate(data, sa, params, group_names, sd, per, a)
@@ -197,6 +197,7 @@ def to_dataset(study, propagation: Propagation, analysis: StudyAnalysis) -> xr.D
         "config_text": study.text,
         "seed": int(a.seed),
         "method": a.method,
+        "design": a.design,
         "base_samples": int(propagation.design.base_samples),
         "evaluations": int(n_samples),
         "parameters": len(params),
@@ -204,6 +205,7 @@ def to_dataset(study, propagation: Propagation, analysis: StudyAnalysis) -> xr.D
         "percentiles": np.asarray(a.percentiles, dtype=float),
         "bootstrap": int(a.bootstrap),
         "index_ci_threshold": float(a.index_ci_threshold),
+        "pce_max_loo_error": float(a.pce_max_loo_error),
         "limit": float(a.limit),
         "limit_units": "K",
         "limit_display_unit": study.limit_unit,
@@ -233,9 +235,22 @@ def _add_indices(data, sa, outputs, params, group_names, sd, per, a) -> None:
                     arr[s, k] = getattr(ind, attr)
         return per(arr)
 
+    thr = a.index_ci_threshold
     for which, dim, size, prefix in ((0, "parameter", n_p, "sobol"),
                                      (1, "group", n_g, "sobol_group")):
         who = "parameter" if which == 0 else "layer group"
+        for kind in ("first", "total"):
+            half = table(which, f"{kind}_ci", size)
+            data[f"{prefix}_{kind}_converged"] = _var(
+                (*sd, "output", dim), np.asarray(half <= thr), "1",
+                f"{kind}-order index interval half-width at most the threshold" if kind ==
+                "first" else "total index interval half-width at most the threshold",
+                threshold=thr, method="saltelli")
+        negative = table(which, "first", size) < 0
+        data[f"{prefix}_first_negative"] = _var(
+            (*sd, "output", dim), np.asarray(negative), "1",
+            "first-order estimate below zero (estimator noise around a small index; shown as "
+            "estimated, not clipped)", method="saltelli")
         data[f"{prefix}_first"] = _var((*sd, "output", dim), table(which, "first", size), "1",
                                        f"first-order Sobol index per {who}")
         data[f"{prefix}_first_ci"] = _var((*sd, "output", dim), table(which, "first_ci", size),
@@ -282,6 +297,11 @@ def _add_indices(data, sa, outputs, params, group_names, sd, per, a) -> None:
     data["sobol_rows_dropped"] = _var((*sd, "output"), per(dropped), "1",
                                       "base rows dropped from the Sobol estimators because an "
                                       "evaluation in them did not converge")
+    for name in ("sobol_first", "sobol_first_ci", "sobol_total", "sobol_total_ci",
+                 "sobol_group_first", "sobol_group_first_ci", "sobol_group_total",
+                 "sobol_group_total_ci", "parameter_rank", "index_converged", "group_rank",
+                 "group_index_converged", "suggested_base_samples", "sobol_rows_dropped"):
+        data[name].attrs["method"] = "saltelli"
 
 
 def _add_surrogate(data, sa, params, group_names, sd, per, a) -> None:
@@ -302,18 +322,52 @@ def _add_surrogate(data, sa, params, group_names, sd, per, a) -> None:
             data[f"{prefix}_{attr}"] = _var(
                 (*sd, dim), table(which, attr, size), "1",
                 f"{long} per {who} of the inner-surface temperature, from a polynomial-chaos "
-                "surrogate",
+                "surrogate", method="pce",
             )
             data[f"{prefix}_{attr}_ci"] = _var(
                 (*sd, dim), table(which, f"{attr}_ci", size), "1",
                 f"half-width of the bootstrap interval of the surrogate {long}",
-                confidence=a.confidence,
+                confidence=a.confidence, method="pce",
             )
-    q2 = per(np.array([sc.surrogate.q2 if sc.surrogate else np.nan for sc in sa]))
-    order = per(np.array([sc.surrogate.order if sc.surrogate else 0 for sc in sa]))
-    data["pce_q2"] = _var(sd, q2, "1", "leave-one-out coefficient of determination of the "
-                          "polynomial-chaos surrogate (1 = perfect)")
-    data["pce_order"] = _var(sd, order, "1", "total order of the polynomial-chaos surrogate")
+        for attr in ("first", "total"):
+            data[f"{prefix}_{attr}_converged"] = _var(
+                (*sd, dim), np.asarray(table(which, f"{attr}_ci", size) <= a.index_ci_threshold),
+                "1", f"surrogate {attr}-order index interval half-width at most the threshold"
+                if attr == "first" else "surrogate total index interval half-width at most "
+                "the threshold", threshold=a.index_ci_threshold, method="pce")
+
+    def scalar(attr: str, missing):
+        return per(np.array([getattr(sc.surrogate, attr) if sc.surrogate else missing
+                             for sc in sa]))
+
+    data["pce_q2"] = _var(sd, scalar("q2", np.nan), "1", "leave-one-out coefficient of "
+                          "determination of the polynomial-chaos surrogate (1 = perfect)",
+                          method="pce")
+    data["pce_order"] = _var(sd, scalar("order", 0), "1",
+                             "total order of the polynomial-chaos surrogate", method="pce")
+    data["pce_loo_error"] = _var(sd, scalar("loo_error", np.nan), "1",
+                                 "relative leave-one-out error of the polynomial-chaos "
+                                 "surrogate (1 - Q2)", method="pce",
+                                 max_error_for_percentiles=a.pce_max_loo_error)
+    data["pce_q_norm"] = _var(sd, scalar("q_norm", np.nan), "1",
+                              "q-norm of the surrogate's hyperbolic truncation (1 = total "
+                              "degree)", method="pce")
+    data["pce_terms"] = _var(sd, scalar("terms", 0), "1",
+                             "terms of the polynomial-chaos expansion", method="pce")
+    data["pce_samples"] = _var(sd, scalar("samples", 0), "1",
+                               "converged samples the surrogate was fitted to", method="pce")
+    probs = len(sa[0].inner_quantiles.probabilities)
+    quant = np.full((len(sa), probs), np.nan)
+    for s, sc in enumerate(sa):
+        if sc.surrogate_quantiles is not None:
+            quant[s] = sc.surrogate_quantiles
+    data["pce_quantile"] = _var(
+        (*sd, "quantile"), per(quant), "K", "quantile of the inner-surface temperature from "
+        "the polynomial-chaos surrogate (NaN where refused; see pce_quantile_status)",
+        method="pce", max_loo_error=a.pce_max_loo_error)
+    data["pce_quantile_status"] = _var(
+        sd, per(np.array([sc.surrogate_quantile_status for sc in sa], dtype=str)), "1",
+        "why the surrogate's quantiles were computed or refused", method="pce")
 
 
 def _nominal_thickness(study, out) -> np.ndarray:
@@ -371,7 +425,7 @@ def write_results(ds: xr.Dataset, path: str | Path) -> Path:
     path = Path(path)
     path.parent.mkdir(parents=True, exist_ok=True)
     encoding = {
-        name: {"zlib": True, "complevel": 4}
+        name: {"zlib": True, "complevel": 1, "shuffle": True}
         for name, v in ds.data_vars.items()
         if v.dtype.kind in "fiub"
     }

@@ -21,6 +21,7 @@ from uq.distributions import Distribution
 from uq.units import QUANTITIES, TEMPERATURE, QuantitySpec, format_value, from_si
 
 if TYPE_CHECKING:  # pragma: no cover
+    from uq.morris import ScreeningSettings
     from uq.tolerance_core import ToleranceSettings
 
 __all__ = ["Analysis", "ComputeOptions", "ModelOptions", "Parameter", "Scenarios", "Study",
@@ -195,9 +196,10 @@ class Analysis:
     Parameters
     ----------
     method
-        ``"sobol"``, ``"lhs"`` or ``"random"`` [-].
+        Analysis method: ``"saltelli"`` (Sobol indices from a Saltelli design), ``"pce"``
+        (polynomial-chaos surrogate) or ``"morris"`` (elementary-effects screening) [-].
     samples
-        Sobol: base rows ``N``; lhs/random: number of samples [-].
+        Saltelli: base rows ``N``; pce: number of samples; morris: number of trajectories [-].
     seed
         Seed of every random draw [-].
     limit
@@ -207,16 +209,27 @@ class Analysis:
     confidence
         Level of the confidence intervals [-].
     bootstrap
-        Bootstrap resamples for the Sobol-index intervals [-].
+        Bootstrap resamples for the index intervals [-].
     index_ci_threshold
         Interval half-width above which an index is flagged unconverged [-].
     chunk_size
         Samples per evaluation chunk [-].
     lhs_optimization
-        ``None``, ``"random-cd"`` or ``"lloyd"`` (lhs only) [-].
+        ``None``, ``"random-cd"`` or ``"lloyd"`` (pce with the lhs design only) [-].
     outputs
         Outputs analysed besides the inner-surface temperature: ``"heat_flux"`` and/or
         interface names [-].
+    design
+        Design type: ``"sobol"`` (saltelli; for pce a plain scrambled Sobol' sequence),
+        ``"lhs"``, ``"random"`` (pce) or ``"morris"`` (morris) [-].
+    levels
+        Grid levels of the Morris trajectories (morris only) [-].
+    screening_threshold
+        Share of the largest mu* below which (mu* and sigma both) an input is marked safe to fix
+        at nominal (morris) [-].
+    pce_max_loo_error
+        Largest relative leave-one-out error of the surrogate for which percentiles are taken
+        from it (pce) [-].
     """
 
     method: str
@@ -230,6 +243,10 @@ class Analysis:
     chunk_size: int = 65536
     lhs_optimization: str | None = None
     outputs: tuple[str, ...] = ()
+    design: str = "sobol"
+    levels: int = 4
+    screening_threshold: float = 0.1
+    pce_max_loo_error: float = 1e-3
 
 
 @dataclass(frozen=True)
@@ -258,7 +275,8 @@ class Study:
     ``layers``, ``hot_side`` and ``cold_side`` are the nominal model objects: every uncertain
     value is replaced by its distribution's nominal. ``parameters`` lists the uncertain inputs,
     hot side first, then the layers hot → cold, then the cold side. ``tolerances`` holds the
-    ``[tolerances]`` settings (:class:`uq.tolerance_core.ToleranceSettings`), ``None`` when the
+    ``[tolerances]`` settings (:class:`uq.tolerance_core.ToleranceSettings`) and ``screening``
+    the ``[screening]`` settings (:class:`uq.morris.ScreeningSettings`), ``None`` when the
     section is absent.
     """
 
@@ -275,6 +293,7 @@ class Study:
     scenarios: Scenarios | None = None
     tolerances: ToleranceSettings | None = None
     compute: ComputeOptions = ComputeOptions()
+    screening: ScreeningSettings | None = None
 
     @property
     def parameter_names(self) -> tuple[str, ...]:

@@ -3,7 +3,7 @@
 PANEL = """
 [study]
 title = "test panel"
-method = "sobol"
+method = "saltelli"
 samples = {samples}
 seed = {seed}
 limit = "60 degC"

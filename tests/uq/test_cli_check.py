@@ -20,7 +20,8 @@ GARMENT = ROOT / "configs" / "reflective_garment.toml"
 SLAB = """
 [study]
 title = "Invented test: one slab between two temperatures"
-method = "random"
+method = "pce"
+design = "random"
 samples = 8
 seed = 3
 limit = "44 degC"
@@ -166,7 +167,8 @@ def test_truncation_is_reported(capsys, tmp_path):
 GAP = """
 [study]
 title = "Invented test: a wide gap"
-method = "random"
+method = "pce"
+design = "random"
 samples = 8
 seed = 3
 limit = "60 degC"

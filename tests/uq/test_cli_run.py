@@ -70,11 +70,18 @@ def test_bad_configs_exit_2_with_one_line(capsys, path):
 @pytest.mark.parametrize(
     ("argv", "match"),
     [
-        (["--samples", "100"], r"--samples 100: method = sobol needs a power of two \(e.g. 64"),
+        (["--samples", "100"], r"--samples 100: method = saltelli needs a power of two \(e.g. 64"),
         (["--samples", "0"], r"--samples must be at least 8, got 0"),
         (["--samples", "1099511627776"], r"--samples: 1099511627776 samples need about .* GiB"),
         (["--seed", "-1"], r"--seed must be zero or positive, got -1"),
         (["--samples", "many"], r"argument --samples: invalid int value: 'many'"),
+        (["--method", "sobol"], r'--method: "sobol" is now "saltelli"'),
+        (["--method", "fast"], r"--method: unknown method 'fast'; valid: saltelli, pce, morris"),
+        (["--method", "pce", "--until-converged"],
+         r"--until-converged needs method = saltelli, not 'pce'"),
+        (["--max-runs", "100"], r"--max-runs applies to --until-converged only"),
+        (["--until-converged", "--max-runs", "10"],
+         r"--max-runs 10: the first step already needs 1792 model runs"),
     ],
 )
 def test_bad_options_exit_2_with_one_line(capsys, tmp_path, argv, match):
@@ -139,3 +146,24 @@ def test_incomplete_results_file_is_one_line(demo_run, tmp_path, capsys):
     ds.drop_vars(["input"]).to_netcdf(broken)
     assert main(["report", str(broken), "--out", str(tmp_path)]) == 2
     assert "not a complete plyrisk results file" in one_line(capsys.readouterr().err)
+
+
+@pytest.mark.parametrize("method", ["pce", "morris"])
+def test_method_option_overrides_the_config(tmp_path, capsys, method):
+    assert main(["run", str(SMALL), "--out", str(tmp_path), "--method", method, "--samples",
+                 "16", "--quiet"]) == 0
+    out = capsys.readouterr().out
+    assert f"method: {method}" in out
+    ds = xr.open_dataset(tmp_path / "results.nc")
+    assert ds.attrs["method"] == method
+    ds.close()
+    if method == "morris":
+        assert "report: not written for method = morris" in out
+
+
+def test_until_converged_prints_the_path(tmp_path, capsys):
+    assert main(["run", str(SMALL), "--out", str(tmp_path), "--samples", "16",
+                 "--until-converged", "--max-runs", "3000", "--quiet", "--no-report"]) == 0
+    out = capsys.readouterr().out
+    assert "sequential growth (--until-converged" in out
+    assert "N =      16:" in out and "N =     256:" in out

@@ -28,7 +28,7 @@ BAD = sorted((ROOT / "tests" / "data" / "bad_configs").glob("*.toml"))
 BASE = """
 [study]
 title = "Invented test study"
-method = "sobol"
+method = "saltelli"
 samples = 64
 seed = 1
 limit = "44 degC"
@@ -112,7 +112,7 @@ def test_error_message_format():
 @pytest.mark.parametrize(
     ("old", "new", "match"),
     [
-        ('method = "sobol"', 'method = "lhs"\nlhs_optimization = "annealing"',
+        ('method = "saltelli"', 'method = "pce"\nlhs_optimization = "annealing"',
          r"study\.lhs_optimization: unknown lhs_optimization 'annealing'"),
         ("seed = 1", "seed = -1", r"study\.seed: must be at least 0, got -1"),
         ("seed = 1", "seed = 1.5", r"study\.seed: expected a whole number >= 0, got 1\.5"),
@@ -221,7 +221,7 @@ def test_demo_configs_exist():
 
 def test_reflective_garment():
     study = load_study(ROOT / "configs" / "reflective_garment.toml")
-    assert study.analysis.method == "sobol"
+    assert study.analysis.method == "saltelli"
     assert study.analysis.samples == 2048
     assert study.analysis.outputs == ("heat_flux",)
     assert study.analysis.limit == pytest.approx(44 + 273.15)  # Source: BIPM SI Brochure 9th ed.
@@ -261,7 +261,7 @@ def test_nominal_model_is_si():
     assert study.cold_side.temperature == pytest.approx(307.15)
     assert study.parameters == ()
     assert study.scenarios is None
-    with pytest.raises(ConfigError, match=r"study\.method: method 'sobol' needs at least one "
+    with pytest.raises(ConfigError, match=r"study\.method: method 'saltelli' needs at least one "
                        "uncertain parameter"):
         require_runnable(study)
 
@@ -282,7 +282,7 @@ def test_options_are_read():
     text = BASE.replace('limit = "44 degC"', 'limit = "110 degF"\npercentiles = [2.5, 97.5]\n'
                         'confidence = 0.95\nbootstrap = 50\nchunk_size = 1000\n'
                         'lhs_optimization = "lloyd"\noutputs = ["heat_flux", "shell | skin gap"]'
-                        ).replace('method = "sobol"', 'method = "lhs"').replace(
+                        ).replace('method = "saltelli"', 'method = "pce"').replace(
         "[study]", '[model]\nradiation = "linearized"\nconvection = true\n'
         'tolerance = "1e-4 delta_degC"\nmax_iterations = 30\n\n[study]')
     study = loads_study(text)
@@ -383,7 +383,7 @@ def test_duplicate_scenario_level():
 
 def test_sections_registry_order():
     assert list(SECTIONS) == ["study", "model", "hot_side", "layer", "cold_side", "scenarios",
-                             "tolerances", "compute"]
+                             "tolerances", "screening", "compute"]
 
 
 def test_every_bad_config_is_labelled():
@@ -391,3 +391,85 @@ def test_every_bad_config_is_labelled():
         lines = path.read_text().splitlines()
         re.compile(expectation(path))
         assert lines[1].startswith("# Invented test input")
+
+
+# ----------------------------------------------------------------------------------------------
+# Methods: saltelli, pce, morris; [screening]
+# ----------------------------------------------------------------------------------------------
+
+
+@pytest.mark.parametrize(("old", "match"), [
+    ("sobol", r'^test\.toml: study\.method: "sobol" is now "saltelli"$'),
+    ("lhs", r'^test\.toml: study\.method: "lhs" is now method = "pce" with design = "lhs"$'),
+    ("random", r'study\.method: "random" is now method = "pce" with design = "random"$'),
+])
+def test_former_method_names_give_the_new_spelling(old, match):
+    with pytest.raises(ConfigError, match=match):
+        study_with('method = "saltelli"', f'method = "{old}"')
+
+
+def test_method_design_and_defaults():
+    a = loads_study(BASE).analysis
+    assert (a.method, a.design) == ("saltelli", "sobol")
+    a = study_with('method = "saltelli"', 'method = "pce"').analysis
+    assert (a.method, a.design, a.pce_max_loo_error) == ("pce", "lhs", 1e-3)
+    a = study_with('method = "saltelli"', 'method = "pce"\ndesign = "sobol"\n'
+                   'pce_max_loo_error = 0.01').analysis
+    assert (a.design, a.pce_max_loo_error) == ("sobol", 0.01)
+    a = study_with('method = "saltelli"', 'method = "morris"').analysis
+    assert (a.method, a.design, a.levels, a.screening_threshold) == ("morris", "morris", 4, 0.1)
+    a = study_with('method = "saltelli"', 'method = "morris"\nlevels = 6\n'
+                   'screening_threshold = 0.2').analysis
+    assert (a.levels, a.screening_threshold) == (6, 0.2)
+
+
+@pytest.mark.parametrize(("old", "new", "match"), [
+    ('method = "saltelli"', 'method = "pce"\ndesign = "sobol"\nsamples_ = 1',
+     r"study: unknown key 'samples_'"),
+    ("samples = 64", "samples = 100\ndesign = \"sobol\"\nmethod_ = 1",
+     r"study: unknown key 'method_'"),
+    ('method = "saltelli"', 'method = "pce"\ndesign = "random"\nlhs_optimization = "lloyd"',
+     r"study\.lhs_optimization: applies only to method = 'pce' with design = 'lhs', not "
+     r"method = 'pce' with design = 'random'"),
+    ('method = "saltelli"\nsamples = 64', 'method = "pce"\ndesign = "sobol"\nsamples = 100',
+     r"study\.samples: must be a power of 2 for design = 'sobol'.*use 64 or 128"),
+    ('method = "saltelli"', 'screening_threshold = 0.1\nmethod = "saltelli"',
+     r"study\.screening_threshold: applies only to method = 'morris', not 'saltelli'"),
+    ('method = "saltelli"', 'method = "morris"\nlevels = 0',
+     r"study\.levels: must be at least 2, got 0"),
+])
+def test_method_keys(old, new, match):
+    with pytest.raises(ConfigError, match=match):
+        study_with(old, new)
+
+
+SCREENED = BASE.replace('width = "2 mm"', 'width = { uniform = ["1 mm", "3 mm"] }').replace(
+    'thickness = "0.5 mm"', 'thickness = { nominal = "0.5 mm", tolerance = "0.05 mm" }')
+
+
+def test_screening_section_is_read():
+    study = loads_study(SCREENED + '\n[screening]\ntrajectories = 12\nlevels = 6\n'
+                        'threshold = 0.05\nkeep = ["skin gap.width"]\n')
+    s = study.screening
+    assert (s.trajectories, s.levels, s.threshold, s.keep) == (12, 6, 0.05, ("skin gap.width",))
+    assert loads_study(SCREENED + "\n[screening]\ntrajectories = 8\n").screening.levels == 4
+    assert loads_study(SCREENED).screening is None
+
+
+@pytest.mark.parametrize(("extra", "match"), [
+    ("trajectories = 4", r"screening\.trajectories: must be at least 8, got 4"),
+    ("trajectories = 10\nthreshold = 1", r"screening\.threshold: expected a number between"),
+    ("trajectories = 10\nlevels = 3", r"screening\.levels: must be even"),
+    ("trajectories = 10\nkeep = \"skin gap.width\"", r"screening\.keep: expected a list"),
+    ("trajectories = 10\nrepeats = 2", r"screening: unknown key 'repeats'"),
+])
+def test_screening_errors(extra, match):
+    with pytest.raises(ConfigError, match=match):
+        loads_study(SCREENED + f"\n[screening]\n{extra}\n", source="test.toml")
+
+
+def test_screening_needs_two_parameters():
+    study = loads_study(BASE.replace('width = "2 mm"', 'width = { uniform = ["1 mm", "3 mm"] }')
+                        + "\n[screening]\ntrajectories = 10\n", source="t.toml")
+    with pytest.raises(ConfigError, match=r"screening: screening needs at least 2 uncertain"):
+        require_runnable(study)

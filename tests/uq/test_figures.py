@@ -68,15 +68,15 @@ SWEEP = '[scenarios]\nquantity = "incident_flux"\nvalues = [{levels}]'
 
 
 @functools.cache
-def build_dataset(method: str = "sobol", swept: bool = False, levels: int = 3) -> xr.Dataset:
+def build_dataset(method: str = "saltelli", swept: bool = False, levels: int = 3) -> xr.Dataset:
     """A small results dataset of the invented test study (cached per session)."""
     values = ", ".join(f'"{v} kW/m^2"' for v in (0.5, 1.5, 3.0, 5.0)[:levels])
-    text = CONFIG.format(method=method, samples=64 if method == "sobol" else 128,
+    text = CONFIG.format(method=method, samples=64 if method == "saltelli" else 128,
                          scenarios=SWEEP.format(levels=values) if swept else "")
     return run_study(loads_study(text, source="<invented test>"), quiet=True).dataset
 
 
-CASES = [("sobol", False), ("lhs", False), ("sobol", True), ("lhs", True)]
+CASES = [("saltelli", False), ("pce", False), ("saltelli", True), ("pce", True)]
 
 
 @pytest.fixture(params=CASES, ids=lambda c: f"{c[0]}-{'swept' if c[1] else 'unswept'}")
@@ -151,7 +151,7 @@ def test_profile_bands_are_the_dataset_quantiles_in_the_display_unit(case):
 
 
 def test_profile_layout_contact_is_a_line_and_the_last_gap_ends_at_the_skin():
-    ds = build_dataset("sobol")
+    ds = build_dataset("saltelli")
     kinds = list(ds["layer_kind"].values)
     assert "contact" in kinds and kinds[-1] == "gap"
     assert str(ds["interface"].values[-1]) == "skin surface"
@@ -178,7 +178,7 @@ def _bars(ax, prefix: str) -> dict[str, float]:
 
 
 def test_sobol_bars_are_the_indices_sorted_by_total_and_unconverged_ones_are_marked():
-    ds = build_dataset("sobol").copy(deep=True)
+    ds = build_dataset("saltelli").copy(deep=True)
     conv = ds["index_converged"].values
     conv[0, :] = True
     conv[0, 0] = False  # one unconverged parameter, whatever the sampling gave
@@ -206,7 +206,7 @@ def test_sobol_bars_are_the_indices_sorted_by_total_and_unconverged_ones_are_mar
 
 
 def test_screening_chart_for_lhs_shows_rank_correlation_titled_as_screening():
-    ds = build_dataset("lhs")
+    ds = build_dataset("pce")
     fig = fg.indices_figure(ds)
     ax = axes(fig, "indices")
     assert "screening" in ax.get_title(loc="left").lower()
@@ -216,7 +216,7 @@ def test_screening_chart_for_lhs_shows_rank_correlation_titled_as_screening():
 
 
 def test_group_bars_are_the_group_indices():
-    ds = build_dataset("sobol", True)
+    ds = build_dataset("saltelli", True)
     for s in scenarios(ds):
         fig = fg.group_indices_figure(ds, scenario=s)
         d = one(ds, s).sel(output="inner_surface_temperature")
@@ -227,8 +227,8 @@ def test_group_bars_are_the_group_indices():
 
 
 def test_group_figure_needs_sobol():
-    with pytest.raises(ValueError, match="method = 'sobol'"):
-        fg.group_indices_figure(build_dataset("lhs"))
+    with pytest.raises(ValueError, match="method = 'saltelli'"):
+        fg.group_indices_figure(build_dataset("pce"))
 
 
 def without_surrogate(ds: xr.Dataset) -> xr.Dataset:
@@ -238,7 +238,7 @@ def without_surrogate(ds: xr.Dataset) -> xr.Dataset:
 
 @pytest.mark.parametrize("groups", [False, True])
 def test_surrogate_bars_are_the_surrogate_indices(groups):
-    ds = build_dataset("lhs", True)
+    ds = build_dataset("pce", True)
     prefix, dim = ("pce_group", "group") if groups else ("pce", "parameter")
     for s in scenarios(ds):
         d = one(ds, s)
@@ -255,13 +255,13 @@ def test_surrogate_bars_are_the_surrogate_indices(groups):
 
 def test_surrogate_figure_needs_surrogate_indices():
     with pytest.raises(ValueError, match="no surrogate indices"):
-        fg.surrogate_indices_figure(build_dataset("sobol"))
+        fg.surrogate_indices_figure(build_dataset("saltelli"))
     with pytest.raises(ValueError, match="no surrogate indices"):
-        fg.surrogate_indices_figure(without_surrogate(build_dataset("lhs")))
+        fg.surrogate_indices_figure(without_surrogate(build_dataset("pce")))
 
 
 def test_scatter_without_surrogate_ranks_by_rank_correlation():
-    ds = without_surrogate(build_dataset("lhs"))
+    ds = without_surrogate(build_dataset("pce"))
     expect = list(ds["parameter"].values[np.argsort(-np.abs(ds["rank_correlation"].values),
                                                     kind="stable")][:3])
     assert fg.top_parameters(ds) == expect
@@ -279,7 +279,7 @@ def test_distribution_uses_independent_converged_samples_only(case):
         fig = fg.distribution_figure(ds, scenario=s)
         ecdf = by_gid(axes(fig, "ecdf").lines, "ecdf")
         assert len(ecdf.get_xdata()) == int(d["samples_used"].item())
-        rows = d["sample_block"].values <= 1 if ds.attrs["method"] == "sobol" else slice(None)
+        rows = d["sample_block"].values <= 1 if ds.attrs["method"] == "saltelli" else slice(None)
         expect = np.sort(to_unit(d["inner_surface_temperature"].values[rows],
                                  ds.attrs["limit_display_unit"]))
         assert np.allclose(ecdf.get_xdata(), expect)
@@ -290,7 +290,7 @@ def test_distribution_uses_independent_converged_samples_only(case):
 
 
 def test_distribution_leaves_out_nonconverged_samples():
-    ds = build_dataset("lhs").copy(deep=True)
+    ds = build_dataset("pce").copy(deep=True)
     ds["converged"].values[:10] = False
     ds["inner_surface_temperature"].values[:10] = np.nan
     fig = fg.distribution_figure(ds)
@@ -301,7 +301,7 @@ def test_scatter_shows_the_top_three_inputs_in_the_users_units(case):
     ds = case
     for s in scenarios(ds):
         d = one(ds, s)
-        if ds.attrs["method"] == "sobol":
+        if ds.attrs["method"] == "saltelli":
             rank = d["parameter_rank"].sel(output="inner_surface_temperature").values
             expect = list(d["parameter"].values[np.argsort(rank)][:3])
             rows = d["sample_block"].values <= 1
@@ -336,7 +336,7 @@ def _p95(ds: xr.Dataset) -> tuple[np.ndarray, np.ndarray]:
     return x.magnitude, ds["inner_surface_temperature_quantile"].sel(quantile=0.95).values
 
 
-@pytest.mark.parametrize("method", ["sobol", "lhs"])
+@pytest.mark.parametrize("method", ["saltelli", "pce"])
 def test_sweep_read_off_is_the_linear_interpolation_of_p95(method):
     ds = build_dataset(method, True).copy()
     x, p95 = _p95(ds)
@@ -355,7 +355,7 @@ def test_sweep_read_off_is_the_linear_interpolation_of_p95(method):
 
 
 def test_sweep_states_below_and_above():
-    ds = build_dataset("sobol", True).copy()
+    ds = build_dataset("saltelli", True).copy()
     _, p95 = _p95(ds)
     ds.attrs["limit"] = float(p95.max() + 50.0)
     c = fg.limit_crossing(ds)
@@ -367,7 +367,7 @@ def test_sweep_states_below_and_above():
 
 
 def test_sweep_band_is_the_dataset_quantiles():
-    ds = build_dataset("lhs", True)
+    ds = build_dataset("pce", True)
     x, _ = _p95(ds)
     unit = ds.attrs["limit_display_unit"]
     q = ds["inner_surface_temperature_quantile"]
@@ -382,7 +382,7 @@ def test_sweep_band_is_the_dataset_quantiles():
 
 def test_sweep_figure_needs_a_sweep():
     with pytest.raises(ValueError, match="sweeps no exposure"):
-        fg.sweep_figure(build_dataset("sobol"))
+        fg.sweep_figure(build_dataset("saltelli"))
 
 
 # ----------------------------------------------------------------------------------------------
@@ -392,16 +392,16 @@ def test_sweep_figure_needs_a_sweep():
 
 def test_scenario_index_is_validated():
     with pytest.raises(ValueError, match=r"scenario must be an index 0\.\.2"):
-        fg.profile_figure(build_dataset("sobol", True))
+        fg.profile_figure(build_dataset("saltelli", True))
     with pytest.raises(ValueError, match=r"scenario must be an index 0\.\.2"):
-        fg.distribution_figure(build_dataset("sobol", True), scenario=3)
+        fg.distribution_figure(build_dataset("saltelli", True), scenario=3)
     with pytest.raises(ValueError, match="unswept dataset"):
-        fg.profile_figure(build_dataset("sobol"), scenario=1)
+        fg.profile_figure(build_dataset("saltelli"), scenario=1)
 
 
 def test_unknown_output_is_rejected():
     with pytest.raises(ValueError, match="unknown output 'heat'; valid: inner_surface"):
-        fg.indices_figure(build_dataset("sobol"), output="heat")
+        fg.indices_figure(build_dataset("saltelli"), output="heat")
 
 
 def test_pretty_unit():
@@ -434,7 +434,7 @@ def all_failed(ds: xr.Dataset) -> xr.Dataset:
 
 @pytest.mark.filterwarnings("error")
 def test_figures_of_a_study_in_which_no_sample_converged():
-    ds = all_failed(build_dataset("sobol", True))
+    ds = all_failed(build_dataset("saltelli", True))
     for s in scenarios(ds):
         fg.profile_figure(ds, scenario=s)
         fg.indices_figure(ds, scenario=s)

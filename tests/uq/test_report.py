@@ -23,7 +23,7 @@ from uq.cautions import CAUTIONS
 from uq.report import ReportFiles, write_report
 from uq.storage import read_results, write_results
 
-CASES = [("sobol", False), ("lhs", False), ("sobol", True), ("lhs", True)]
+CASES = [("saltelli", False), ("pce", False), ("saltelli", True), ("pce", True)]
 PNG = b"\x89PNG\r\n\x1a\n"
 VOID = {"area", "base", "br", "col", "embed", "hr", "img", "input", "link", "meta", "source",
         "track", "wbr"}
@@ -160,7 +160,7 @@ def test_html_contents(report):
     assert ds.attrs["version_numpy"] in text
     if "scenario" in ds.dims:
         assert fg.limit_crossing(ds).text in text
-    if ds.attrs["method"] != "sobol":
+    if ds.attrs["method"] != "saltelli":
         assert "Screening only" in text
 
 
@@ -173,7 +173,7 @@ def test_figure_files_exist_as_png_and_svg(report):
     ds, files = report
     stems = {p.stem for p in files.figures}
     n = n_scenarios(ds)
-    per = 5 if ds.attrs["method"] == "sobol" else 6  # lhs: screening + 2 surrogate figures
+    per = 5 if ds.attrs["method"] == "saltelli" else 6  # lhs: screening + 2 surrogate figures
     assert len(stems) == n * per + (1 if "scenario" in ds.dims else 0)
     for stem in stems:
         png = files.html.parent / "figures" / f"{stem}.png"
@@ -218,7 +218,7 @@ def test_indices_group_and_ranking_csv(report):
     ds, files = report
     folder = files.html.parent
     n_s, n_p, n_g = n_scenarios(ds), ds.sizes["parameter"], ds.sizes["group"]
-    sobol = ds.attrs["method"] == "sobol"
+    sobol = ds.attrs["method"] == "saltelli"
     n_o = ds.sizes["output"] if sobol else 1
     cols, rows = read_csv(folder / "indices.csv")
     assert cols == ["scenario", "output", "parameter", "group", "unit", "first", "first_ci",
@@ -250,7 +250,7 @@ def test_indices_group_and_ranking_csv(report):
 
 
 def test_lhs_results_without_surrogate_indices(tmp_path):
-    ds = dataset("lhs", False)
+    ds = dataset("pce", False)
     old = ds.drop_vars([v for v in ds.data_vars if str(v).startswith("pce_")])
     files = write_report(old, tmp_path)
     assert len([p for p in files.figures if p.suffix == ".png"]) == 4
@@ -274,7 +274,7 @@ TOLERANCES = [  # placeholder records in whatever columns the tolerance engine p
 
 
 def test_tolerance_records_are_rendered_and_written(tmp_path):
-    ds = dataset("lhs", False).copy()
+    ds = dataset("pce", False).copy()
     ds.attrs["config_text"] = "[study\n"  # and an unreadable config: reported, not fatal
     files = write_report(ds, tmp_path, tolerance_table=TOLERANCES)
     cols, rows = read_csv(tmp_path / "tolerances.csv")
@@ -290,16 +290,16 @@ def test_tolerance_records_are_rendered_and_written(tmp_path):
 def test_tolerance_dataframe(tmp_path):
     pd = pytest.importorskip("pandas")
     frame = pd.DataFrame(TOLERANCES)
-    write_report(dataset("lhs", False), tmp_path, tolerance_table=frame)
+    write_report(dataset("pce", False), tmp_path, tolerance_table=frame)
     cols, rows = read_csv(tmp_path / "tolerances.csv")
     assert cols == list(frame.columns) and len(rows) == 2
 
 
 def test_bad_tolerance_table_is_rejected(tmp_path):
     with pytest.raises(ValueError, match="tolerance_table must be a pandas DataFrame, a list"):
-        write_report(dataset("lhs", False), tmp_path, tolerance_table=42)
+        write_report(dataset("pce", False), tmp_path, tolerance_table=42)
     with pytest.raises(ValueError, match=r"tolerance_table\[0\] must be a mapping"):
-        write_report(dataset("lhs", False), tmp_path, tolerance_table=[("a", 1)])
+        write_report(dataset("pce", False), tmp_path, tolerance_table=[("a", 1)])
 
 
 def test_not_a_results_dataset_is_rejected(tmp_path):
@@ -308,11 +308,11 @@ def test_not_a_results_dataset_is_rejected(tmp_path):
 
 
 def test_report_of_a_results_file_read_back(tmp_path):
-    ds = dataset("lhs", False)
+    ds = dataset("pce", False)
     back = read_results(write_results(ds, tmp_path / "results.nc"))
     files = write_report(back, tmp_path / "report")
     assert files.html.exists() and not parse(files.html).errors
-    swept = dataset("sobol", True)
+    swept = dataset("saltelli", True)
     back = read_results(write_results(swept, tmp_path / "swept.nc"))
     assert fg.limit_crossing(back) == fg.limit_crossing(swept)
     assert list(back["scenario_label"].values) == list(swept["scenario_label"].values)

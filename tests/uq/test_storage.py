@@ -48,7 +48,7 @@ def test_expected_dimensions_and_variables(swept):
         assert name in ds.data_vars, name
     assert ds["inner_surface_temperature"].dims == ("scenario", "sample")
     assert list(ds["parameter_group"].values) == ["shell", "gap"]
-    assert ds.attrs["seed"] == 3 and ds.attrs["method"] == "sobol"
+    assert ds.attrs["seed"] == 3 and ds.attrs["method"] == "saltelli"
     assert "[study]" in ds.attrs["config_text"]
     assert ds.attrs["version_numpy"] == np.__version__
     assert len(list(scenario_slices(ds))) == 2

@@ -1,10 +1,14 @@
 """PCE surrogate indices against analytic Sobol indices of published test functions."""
 
+from math import comb
+
 import numpy as np
 import pytest
 
 from uq.sampling import latin_hypercube_design
-from uq.surrogate import choose_order, surrogate_indices
+from uq.surrogate import fit_pce, hyperbolic_basis, surrogate_indices, surrogate_quantiles
+
+TOL = 0.02  # accuracy demanded of the indices at the stated design size
 
 
 def ishigami(x, a=7.0, b=0.1):
@@ -21,6 +25,25 @@ def ishigami_indices(a=7.0, b=0.1):
     return np.array([v1, v2, 0.0]) / v, np.array([v1 + v13, v2, v13]) / v
 
 
+G_A = np.array([0.0, 1.0, 4.5, 9.0, 99.0, 99.0, 99.0, 99.0])
+"""Coefficients of the G-function as used by Saltelli & Sobol (1995)."""
+
+
+def g_function(u, a=G_A):
+    # Source: Saltelli & Sobol (1995), Reliab. Eng. Syst. Saf. 50, 225-239:
+    # G = prod_i (|4 u_i - 2| + a_i) / (1 + a_i), u_i uniform on [0, 1].
+    return np.prod((np.abs(4 * u - 2) + a) / (1 + a), axis=1)
+
+
+def g_indices(a=G_A):
+    # Source: Saltelli & Sobol (1995): V_i = (1/3) / (1 + a_i)^2, V = prod(1 + V_i) - 1;
+    # total V_Ti = V_i prod_{j != i} (1 + V_j) (Saltelli et al. 2008, The Primer, sec. 4.9).
+    vi = (1 / 3) / (1 + a) ** 2
+    v = np.prod(1 + vi) - 1
+    vt = np.array([vi[i] * np.prod(np.delete(1 + vi, i)) for i in range(a.size)])
+    return vi / v, vt / v
+
+
 def test_ishigami_indices_from_a_latin_hypercube():
     design = latin_hypercube_design(1500, 3, seed=5)
     x = -np.pi + 2 * np.pi * design.unit
@@ -28,8 +51,32 @@ def test_ishigami_indices_from_a_latin_hypercube():
                                n_bootstrap=20, seed=1)
     first, total = ishigami_indices()
     assert result.q2 > 0.99
-    np.testing.assert_allclose(result.first, first, atol=0.02)
-    np.testing.assert_allclose(result.total, total, atol=0.02)
+    np.testing.assert_allclose(result.first, first, atol=TOL)
+    np.testing.assert_allclose(result.total, total, atol=TOL)
+
+
+def test_ishigami_with_the_truncation_chosen_by_leave_one_out_error():
+    # design size stated: 400 Latin-hypercube samples
+    design = latin_hypercube_design(400, 3, seed=5)
+    y = ishigami(-np.pi + 2 * np.pi * design.unit)
+    result = surrogate_indices(design.unit, y, names=["x1", "x2", "x3"], n_bootstrap=20, seed=1)
+    first, total = ishigami_indices()
+    np.testing.assert_allclose(result.first, first, atol=TOL)
+    np.testing.assert_allclose(result.total, total, atol=TOL)
+    assert result.loo_error < 1e-3 and result.terms < 400 / 1.5
+    assert np.all(result.total_ci < TOL)
+
+
+def test_g_function_indices():
+    # design size stated: 1024 Latin-hypercube samples, 8 inputs
+    design = latin_hypercube_design(1024, 8, seed=5)
+    names = [f"x{i}" for i in range(8)]
+    result = surrogate_indices(design.unit, g_function(design.unit), names=names,
+                               n_bootstrap=20, seed=1)
+    first, total = g_indices()
+    np.testing.assert_allclose(result.first, first, atol=TOL)
+    np.testing.assert_allclose(result.total, total, atol=TOL)
+    assert result.q_norm < 1.0  # the hyperbolic truncation was the better basis
 
 
 def test_linear_model_indices_and_groups():
@@ -48,10 +95,28 @@ def test_linear_model_indices_and_groups():
     np.testing.assert_allclose(grouped.total, [share[:2].sum(), share[2:].sum()], atol=1e-9)
 
 
-def test_order_follows_the_sample_count():
-    assert choose_order(10, 5) == 0
-    assert choose_order(3 * 6, 5) == 1  # 6 terms at order 1 with 5 inputs
-    assert choose_order(10_000, 3) == 5
+def test_hyperbolic_basis_sizes():
+    # Source: the total-degree set of order p in d inputs has C(d + p, p) terms; the q-norm
+    # set keeps alpha with (sum alpha_i^q)^(1/q) <= p (Blatman & Sudret 2011, J. Comput. Phys.
+    # 230, 2345-2367, eq. 23).
+    assert len(hyperbolic_basis(3, 5)) == comb(8, 3)
+    assert len(hyperbolic_basis(4, 15)) == comb(19, 4)
+    basis = hyperbolic_basis(2, 2, 0.5)
+    assert {tuple(a) for a in basis} == {(0, 0), (1, 0), (0, 1), (2, 0), (0, 2)}  # no (1, 1)
+    assert tuple(basis[0]) == (0, 0) and list(basis.sum(axis=1)) == [0, 1, 1, 2, 2]
+    assert hyperbolic_basis(6, 20, max_terms=100) is None
+    with pytest.raises(ValueError, match="q_norm must lie in"):
+        hyperbolic_basis(2, 2, 1.5)
+
+
+def test_percentiles_from_the_surrogate():
+    # Source: the sum of two independent uniform(0, 1) variables has the triangular
+    # distribution on [0, 2] (Irwin-Hall, n = 2): quantile 2 - sqrt(2 (1 - p)) for p >= 1/2.
+    design = latin_hypercube_design(64, 2, seed=4)
+    fit = fit_pce(design.unit, design.unit.sum(axis=1))
+    assert fit.loo_error < 1e-12
+    q = surrogate_quantiles(fit, [0.5, 0.95], seed=1)
+    np.testing.assert_allclose(q, [1.0, 2 - np.sqrt(0.1)], atol=2e-3)
 
 
 def test_bad_confidence_is_rejected():
@@ -60,5 +125,38 @@ def test_bad_confidence_is_rejected():
 
 
 def test_too_few_samples_gives_none():
-    assert surrogate_indices(np.random.default_rng(0).random((4, 3)), np.arange(4.0),
+    assert surrogate_indices(np.random.default_rng(0).random((2, 3)), np.arange(2.0),
                              names=["a", "b", "c"], seed=0) is None
+    assert fit_pce(np.zeros((10, 0)), np.arange(10.0)) is None
+
+
+def test_pce_and_saltelli_agree_on_a_demo_stack_within_their_intervals(tmp_path):
+    # Both estimate the same Sobol indices of the same physical model; the check is their
+    # mutual consistency (common practice: two estimators agree within their combined
+    # intervals), no value of the invented demo is a check value.
+    from pathlib import Path
+
+    import xarray as xr
+
+    from uq.config import load_study
+    from uq.pipeline import run_study
+    from uq.storage import read_results
+
+    demo = load_study(Path(__file__).resolve().parents[2] / "configs" / "small_demo.toml")
+    saltelli = run_study(demo, samples=1024, quiet=True).analysis.scenarios[0]
+    pce_run = run_study(demo, method="pce", samples=256, out_dir=tmp_path, quiet=True)
+    pce = pce_run.analysis.scenarios[0]
+    ref, grp = saltelli.indices["inner_surface_temperature"]
+    for mine, theirs in ((pce.surrogate, ref), (pce.surrogate_groups, grp)):
+        assert mine.names == theirs.names
+        for k in ("first", "total"):
+            gap = np.abs(getattr(mine, k) - getattr(theirs, k))
+            allowed = getattr(mine, f"{k}_ci") + getattr(theirs, f"{k}_ci")
+            assert np.all(gap <= allowed), (k, gap, allowed)
+    ds = pce_run.dataset
+    assert ds.attrs["method"] == "pce" and ds.attrs["design"] == "lhs"
+    for name in ("pce_first", "pce_total_ci", "pce_first_converged", "pce_loo_error",
+                 "pce_quantile", "pce_quantile_status", "pce_group_total"):
+        assert ds[name].attrs["method"] == "pce", name
+    assert ds["pce_loo_error"].item() == pytest.approx(pce.surrogate.loo_error)
+    xr.testing.assert_identical(read_results(pce_run.path), ds)

@@ -1,0 +1,208 @@
+"""End-to-end Saltelli study of a 15-input demo stack, and the runs PCE needs for the same indices.
+
+1. ``run_study`` of an invented five-layer garment with 15 uncertain inputs at N = 8192 base
+   rows (Saltelli design with per-layer groups: N x (15 + 2 + 5) = 180 224 model runs, one
+   exposure), the inner-surface temperature and the heat flux analysed, ``results.nc``
+   written: wall time and model runs per second. ``--profile`` prints the cProfile of it.
+2. A reference: Saltelli indices (first and total, per parameter) of the inner-surface
+   temperature at ``--reference-samples`` base rows.
+3. The model runs each method needs for every one of those 30 indices to lie within
+   ``--tolerance`` (0.02) of the reference, with a seed independent of the reference's:
+   Saltelli at N = 64, 128, ... (runs N x 22); PCE (Latin hypercube, truncation chosen by
+   leave-one-out error) at n = 100, 150, 200, 300, ... samples. "Needs" is the smallest size
+   from which on every larger size tried also meets the tolerance, so that one lucky size does
+   not count. Last line: ``pce_runs_ratio: <PCE runs / Saltelli runs>``.
+
+Run from the repository root::
+
+    /tmp/venv5/bin/python benchmarks/study.py [--repeat 3] [--profile]
+
+Single-threaded: the BLAS/OpenMP thread counts are set to 1 before numpy loads.
+"""
+
+from __future__ import annotations
+
+import os
+
+for _var in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS", "NUMEXPR_NUM_THREADS"):
+    os.environ[_var] = "1"
+
+import argparse  # noqa: E402
+import cProfile  # noqa: E402
+import pstats  # noqa: E402
+import sys  # noqa: E402
+import tempfile  # noqa: E402
+import time  # noqa: E402
+import warnings  # noqa: E402
+from pathlib import Path  # noqa: E402
+
+sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
+
+import numpy as np  # noqa: E402
+
+from uq.config import loads_study  # noqa: E402
+from uq.pipeline import run_study  # noqa: E402
+from uq.propagate import evaluate, parameter_groups, unit_to_inputs  # noqa: E402
+from uq.sampling import latin_hypercube_design, sobol_design  # noqa: E402
+from uq.sensitivity import sobol_indices  # noqa: E402
+from uq.surrogate import fit_pce, shares  # noqa: E402
+
+STACK = """
+# INVENTED benchmark study: every value is invented; it describes no real garment.
+[study]
+title = "Invented benchmark: five-layer garment with 15 uncertain inputs"
+method = "saltelli"
+samples = 8192
+seed = 2025
+limit = "44 degC"
+outputs = ["heat_flux"]
+
+[hot_side]
+kind = "environment"
+incident_flux = { uniform = ["0.8 kW/m^2", "1.2 kW/m^2"] }
+gas_temperature = { normal = { mean = "45 degC", sd = "3 K" } }
+convection_coefficient = { uniform = ["8 W/m^2/K", "16 W/m^2/K"] }
+surroundings_temperature = "40 degC"
+
+[[layer]]
+name = "shell"
+kind = "solid"
+thickness = { nominal = "0.5 mm", tolerance = "0.04 mm" }
+conductivity = { uniform = ["0.045 W/m/K", "0.06 W/m/K"] }
+emissivity_hot = { triangular = [0.10, 0.15, 0.25] }
+emissivity_cold = 0.85
+
+[[layer]]
+name = "outer gap"
+kind = "gap"
+width = { lognormal = { median = "1 mm", gsd = 1.4 } }
+height = "0.4 m"
+
+[[layer]]
+name = "barrier"
+kind = "solid"
+thickness = { nominal = "0.3 mm", tolerance = "0.03 mm" }
+conductivity = { normal = { mean = "0.08 W/m/K", sd = "0.006 W/m/K" } }
+emissivity = 0.9
+
+[[layer]]
+name = "liner"
+kind = "solid"
+thickness = { nominal = "2.0 mm", upper = "0.3 mm", lower = "0.2 mm" }
+conductivity = { normal = { mean = "0.040 W/m/K", sd = "0.003 W/m/K" } }
+emissivity = { beta = { mean = 0.9, sd = 0.03 } }
+
+[[layer]]
+name = "skin gap"
+kind = "gap"
+width = { lognormal = { median = "3 mm", gsd = 1.5 } }
+height = "0.4 m"
+
+[cold_side]
+kind = "surface"
+temperature = { normal = { mean = "34 degC", sd = "0.5 K" } }
+emissivity = { uniform = [0.95, 0.99] }
+"""
+
+PCE_SIZES = (100, 150, 200, 300, 400, 600, 800, 1200, 1600, 2400, 3200)
+"""Latin-hypercube sizes tried for the PCE [-]."""
+
+
+def inner(study, unit: np.ndarray) -> np.ndarray:
+    """Inner-surface temperature at unit-hypercube points [K]."""
+    out = evaluate(study, unit_to_inputs(study.parameters, unit))
+    return out["inner_surface_temperature"][0]
+
+
+def saltelli(study, n: int, seed: int) -> tuple[np.ndarray, int]:
+    """First and total indices (30 values) at N base rows, and the model runs [-]."""
+    design = sobol_design(n, len(study.parameters), seed=seed,
+                          groups=parameter_groups(study)[1])
+    ind, _ = sobol_indices(inner(study, design.unit), design, names=study.parameter_names,
+                           group_names=parameter_groups(study)[0], n_bootstrap=2, seed=seed)
+    return np.concatenate([ind.first, ind.total]), design.n_rows
+
+
+def pce(study, n: int, seed: int) -> np.ndarray:
+    """First and total indices from a PCE fitted to n Latin-hypercube samples [-]."""
+    design = latin_hypercube_design(n, len(study.parameters), seed=seed)
+    fit = fit_pce(design.unit, inner(study, design.unit))
+    first, total = shares(fit.coef, fit.alphas, [(j,) for j in range(design.n_params)])
+    return np.concatenate([first, total])
+
+
+def needed(sizes, errors, tolerance: float) -> int | None:
+    """The smallest size from which on every larger size meets the tolerance."""
+    ok = [e <= tolerance for e in errors]
+    for k in range(len(sizes)):
+        if all(ok[k:]):
+            return sizes[k]
+    return None
+
+
+def main() -> int:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--repeat", type=int, default=3, help="timed runs of the study (best)")
+    parser.add_argument("--profile", action="store_true", help="print the cProfile of a run")
+    parser.add_argument("--reference-samples", type=int, default=2**16)
+    parser.add_argument("--tolerance", type=float, default=0.02)
+    args = parser.parse_args()
+    warnings.simplefilter("ignore")
+    study = loads_study(STACK, source="<benchmark stack>")
+
+    with tempfile.TemporaryDirectory() as tmp:
+        run_study(study, samples=64, quiet=True)  # warm-up: imports, caches
+        times = []
+        for _ in range(max(args.repeat, 1)):
+            start = time.perf_counter()
+            result = run_study(study, out_dir=tmp, quiet=True)
+            times.append(time.perf_counter() - start)
+        runs = result.propagation.inputs.shape[0]
+        best = min(times)
+        print(f"saltelli study: {len(study.parameters)} inputs, N = {study.analysis.samples}, "
+              f"{runs} model runs, 2 outputs analysed, results.nc written")
+        print(f"  wall time: best {best:.2f} s of {len(times)} (all: "
+              + ", ".join(f"{t:.2f}" for t in times) + f"); {runs / best:,.0f} model runs/s "
+              "end to end")
+        if args.profile:
+            profile = cProfile.Profile()
+            profile.enable()
+            run_study(study, out_dir=tmp, quiet=True)
+            profile.disable()
+            pstats.Stats(profile).sort_stats("tottime").print_stats(15)
+
+    start = time.perf_counter()
+    reference, ref_runs = saltelli(study, args.reference_samples, seed=1)
+    print(f"reference: saltelli N = {args.reference_samples} ({ref_runs} runs, "
+          f"{time.perf_counter() - start:.1f} s); largest total index {reference[15:].max():.3f}")
+
+    sizes, errors, costs = [], [], []
+    n = 64
+    while n <= args.reference_samples // 8:
+        values, rows = saltelli(study, n, seed=7)
+        sizes.append(n)
+        costs.append(rows)
+        errors.append(float(np.max(np.abs(values - reference))))
+        n *= 2
+    print("saltelli: N -> runs, largest |index - reference|: "
+          + "; ".join(f"{s} -> {c}, {e:.3f}" for s, c, e in zip(sizes, costs, errors,
+                                                                 strict=True)))
+    n_salt = needed(sizes, errors, args.tolerance)
+    salt_runs = costs[sizes.index(n_salt)] if n_salt else None
+
+    pce_errors = [float(np.max(np.abs(pce(study, m, seed=7) - reference))) for m in PCE_SIZES]
+    print("pce (lhs): n -> largest |index - reference|: "
+          + "; ".join(f"{m} -> {e:.3f}" for m, e in zip(PCE_SIZES, pce_errors, strict=True)))
+    pce_runs = needed(PCE_SIZES, pce_errors, args.tolerance)
+    if salt_runs is None or pce_runs is None:
+        print("a method did not reach the tolerance within the sizes tried")
+        print("pce_runs_ratio: nan")
+        return 1
+    print(f"runs for every index within {args.tolerance} of the reference: saltelli "
+          f"{salt_runs} (N = {n_salt}), pce {pce_runs}")
+    print(f"pce_runs_ratio: {pce_runs / salt_runs:.4f}")
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
