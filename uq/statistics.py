@@ -194,10 +194,6 @@ def exceedance(y: np.ndarray, limit: float, *, confidence: float = 0.95,
     -------
     Exceedance
     """
-    if method not in EXCEEDANCE_METHODS:
-        raise ValueError(f"unknown exceedance interval method {method!r}; valid: "
-                         f"{', '.join(EXCEEDANCE_METHODS)}")
-    confidence = _confidence(confidence)
     limit = float(limit)
     if math.isnan(limit):
         raise ValueError("limit must be a number, got nan")
