@@ -215,7 +215,8 @@ def run_study(
                 analysis = morris_analysis(study, prop)
             else:
                 analysis = analyse(study, prop)
-    messages = tuple(dict.fromkeys(" ".join(str(w.message).split()) for w in caught))
+    messages = tuple(dict.fromkeys(" ".join(str(w.message).split()) for w in caught
+                                   if not issubclass(w.category, ResourceWarning)))  # sockets
     if study.analysis.method == "morris":
         ds = morris_dataset(study, prop, analysis)
     else:
