@@ -216,7 +216,7 @@ def run_study(
             else:
                 analysis = analyse(study, prop)
     messages = tuple(dict.fromkeys(" ".join(str(w.message).split()) for w in caught
-                                   if not issubclass(w.category, ResourceWarning)))  # sockets
+                                   if not _scheduling_noise(w)))
     if study.analysis.method == "morris":
         ds = morris_dataset(study, prop, analysis)
     else:
@@ -237,6 +237,13 @@ def run_study(
     if out_dir is not None:
         path = write_results(ds, Path(out_dir) / "results.nc")
     return StudyResult(study, prop, analysis, ds, path, messages, screening, growth)
+
+
+def _scheduling_noise(w: warnings.WarningMessage) -> bool:
+    """A warning of the dask machinery (sockets, dashboard ports), not of the study."""
+    where = w.filename.replace("\\", "/")
+    return issubclass(w.category, ResourceWarning) or any(
+        f"/{name}/" in where for name in ("distributed", "dask", "tornado"))
 
 
 def _run_to_store(study, store, *, chunk_size, resume, workers, scheduler, quiet):
