@@ -2,13 +2,15 @@
 at least 10^8 model runs streamed to a Zarr store with bounded memory.
 
 Runs the invented demo study ``configs/small_demo.toml`` (a Saltelli design, 7 model runs per
-base sample) three times:
+base sample):
 
-1. ``--runs`` model runs (default 10^7) solved in this process, results in memory;
-2. the same runs on a local dask cluster of ``--workers`` worker processes (default 2), results
-   in memory; the two datasets are compared value for value;
-3. ``--store-runs`` model runs (default 10^8) on the cluster, streamed to a Zarr store under
-   ``--tmp``, then analysed from the store in passes (``uq.streaming``).
+1. ``--runs`` model runs (default 10^7), solve only (design, inputs, model): in this process and
+   on a local dask cluster of ``--workers`` worker processes (default 2), with the results
+   gathered in memory, then streamed to a Zarr store; the results are compared value for value.
+   ``cluster_speedup_in_memory`` and ``cluster_speedup_to_zarr`` are the ratios of runs per
+   second, cluster over one process, measured in the same run.
+2. ``--store-runs`` model runs (default 10^8) end to end on the cluster: streamed to a Zarr
+   store under ``--tmp``, analysed from the store in passes (``uq.streaming``), results.nc.
 
 For each it prints the wall time, model runs per second, and the peak resident memory of this
 process plus its worker processes (sampled every 0.2 s with psutil). Run from the repository
@@ -44,7 +46,8 @@ import psutil  # noqa: E402
 
 from uq.config import load_study  # noqa: E402
 from uq.pipeline import run_study  # noqa: E402
-from uq.propagate import study_plan  # noqa: E402
+from uq.propagate import propagate, study_plan  # noqa: E402
+from uq.store import StoreReader, solve_to_store  # noqa: E402
 
 
 class PeakMemory:
@@ -83,15 +86,15 @@ def study_with_runs(runs: int):
     return replace(study, analysis=replace(study.analysis, samples=n))
 
 
-def timed(label: str, study, **kwargs):
+def measure(label: str, runs: int, work):
+    """Run ``work()``; print its wall time, runs per second and peak memory."""
     with PeakMemory() as memory:
         start = time.perf_counter()
-        result = run_study(study, quiet=True, **kwargs)
+        result = work()
         wall = time.perf_counter() - start
-    runs = study_plan(study).n_rows
-    print(f"{label}: {runs} model runs in {wall:.1f} s = {runs / wall:,.0f} runs/s "
-          f"(solve + analysis); peak RSS {memory.peak / 2**20:,.0f} MiB")
-    return result, memory.peak / 2**20, runs / wall
+    print(f"{label}: {runs} model runs in {wall:.1f} s = {runs / wall:,.0f} runs/s; "
+          f"peak RSS {memory.peak / 2**20:,.0f} MiB")
+    return result, runs / wall, memory.peak / 2**20
 
 
 def main(argv: list[str] | None = None) -> int:
@@ -100,28 +103,42 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--store-runs", type=float, default=1e8)
     parser.add_argument("--workers", type=int, default=2)
     parser.add_argument("--chunk-size", type=int, default=2**18)
-    parser.add_argument("--tmp", default=None, help="folder for the Zarr store")
+    parser.add_argument("--tmp", default=None, help="folder for the Zarr stores")
     args = parser.parse_args(argv)
-    chunk = args.chunk_size
-
-    study = study_with_runs(int(args.runs))
-    one, _, rate_one = timed("in process", study, chunk_size=chunk)
-    two, _, rate_two = timed(f"dask, {args.workers} workers", study, chunk_size=chunk,
-                             workers=args.workers)
-    same = all(np.array_equal(one.dataset[v].values, two.dataset[v].values, equal_nan=True)
-               for v in one.dataset.data_vars)
-    print(f"identical datasets: {same}")
-    print(f"cluster_speedup: {rate_two / rate_one:.2f}")
-    del one, two
-
-    big = study_with_runs(int(args.store_runs))
+    chunk, w = args.chunk_size, args.workers
     tmp = Path(tempfile.mkdtemp(prefix="plyrisk-scale-", dir=args.tmp))
     try:
-        _, peak, _ = timed(f"dask, {args.workers} workers, to Zarr", big, chunk_size=chunk,
-                           workers=args.workers, store=tmp / "samples.zarr",
-                           out_dir=tmp / "out")
-        size = sum(f.stat().st_size for f in (tmp / "samples.zarr").rglob("*") if f.is_file())
-        print(f"store size: {size / 2**30:.1f} GiB")
+        study = study_with_runs(int(args.runs))
+        runs = study_plan(study).n_rows
+        print("solve only (design, inputs, model), no analysis:")
+        one, r1, _ = measure("  in process, in memory", runs,
+                             lambda: propagate(study, chunk_size=chunk, quiet=True))
+        two, r2, _ = measure(f"  dask {w} workers, in memory", runs,
+                             lambda: propagate(study, chunk_size=chunk, quiet=True, workers=w))
+        same = all(np.array_equal(one.outputs[k], two.outputs[k], equal_nan=True)
+                   for k in one.outputs.fields)
+        del one, two
+        _, r3, _ = measure("  in process, to Zarr", runs, lambda: solve_to_store(
+            study, tmp / "one.zarr", chunk_size=chunk, quiet=True))
+        _, r4, _ = measure(f"  dask {w} workers, to Zarr", runs, lambda: solve_to_store(
+            study, tmp / "two.zarr", chunk_size=chunk, quiet=True, workers=w))
+        a, b = StoreReader(tmp / "one.zarr"), StoreReader(tmp / "two.zarr")
+        same = same and all(np.array_equal(a.read(k), b.read(k), equal_nan=True)
+                            for k in ("input", "inner_surface_temperature", "converged"))
+        shutil.rmtree(tmp / "one.zarr")
+        shutil.rmtree(tmp / "two.zarr")
+        print(f"identical results (memory and Zarr, one process and {w} workers): {same}")
+        print(f"cluster_speedup_in_memory: {r2 / r1:.2f}")
+        print(f"cluster_speedup_to_zarr: {r4 / r3:.2f}")
+
+        big = study_with_runs(int(args.store_runs))
+        runs = study_plan(big).n_rows
+        print("end to end (solve, analysis in passes, results.nc):")
+        _, _, peak = measure(f"  dask {w} workers, to Zarr", runs, lambda: run_study(
+            big, quiet=True, chunk_size=chunk, workers=w, store=tmp / "big.zarr",
+            out_dir=tmp / "out"))
+        size = sum(f.stat().st_size for f in (tmp / "big.zarr").rglob("*") if f.is_file())
+        print(f"store size: {size / 2**30:.1f} GiB ({size / runs:.0f} bytes per model run)")
     finally:
         shutil.rmtree(tmp, ignore_errors=True)
     print(f"peak_rss_mb: {peak:.1f}")

@@ -65,9 +65,10 @@ def dask_client(*, workers: int = 1, scheduler: str | None = None):
     try:
         cluster = LocalCluster(n_workers=int(workers), threads_per_worker=1, processes=True,
                                host="127.0.0.1", dashboard_address=None, **quiet)
-    except (OSError, TimeoutError) as err:
+    except (OSError, TimeoutError, RuntimeError) as err:
+        reason = " ".join(str(err).split()) or type(err).__name__
         raise SchedulerError(f"cannot start a local dask cluster of {workers} workers "
-                             f"({err})") from None
+                             f"({reason})") from None
     client = Client(cluster, set_as_default=False)
     try:
         yield client
