@@ -229,6 +229,9 @@ def run_study(
         ds.attrs["sample_store"] = str(store)
         if prop.inputs.shape[0] < reader.n_rows:  # analysed in passes; the file has a part
             ds.attrs["sample_rows_in_file"] = int(prop.inputs.shape[0])
+            ds.attrs["notes"] += (f"\nresults.nc and the figures hold the first "
+                                  f"{prop.inputs.shape[0]} of the {reader.n_rows} samples; "
+                                  f"all of them are in the store {store}")
             ds.attrs["evaluations"] = int(reader.n_rows)
             ds.attrs["base_samples"] = int(study.analysis.samples)
         write_store_analysis(ds, store)

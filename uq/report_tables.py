@@ -373,7 +373,7 @@ def nonconverged_table(ds: xr.Dataset) -> Table:
     gaps = [j for j, k in enumerate(ds["layer_kind"].values) if str(k) == "gap"]
     conv_on = bool(int(ds.attrs.get("convection", 0)))
     for _, label, one in scenario_values(ds):
-        n = one.sizes["sample"]
+        n = int(ds.attrs.get("evaluations", one.sizes["sample"]))
         onset = np.asarray(one["convection_onset"].values, dtype=bool)
         past = "; ".join(f"{layers[j]}: {int(onset[:, j].sum())}" for j in gaps) or "no gaps"
         rows.append([exposure_text(ds, label) if label else "—", str(n),
@@ -382,8 +382,11 @@ def nonconverged_table(ds: xr.Dataset) -> Table:
                      past + ("" if conv_on or not gaps else
                              " (convection is off: these gaps break the still-air assumption)"
                              if onset[:, gaps].any() else "")])
+    kept = ds.attrs.get("sample_rows_in_file")
+    part = f" (of the first {kept} samples, kept in results.nc)" if kept else ""
     return Table(["exposure", "evaluations", "not converged (excluded)",
-                  "gap air outside 250–1500 K", "samples past convection onset, per gap"], rows)
+                  f"gap air outside 250–1500 K{part}",
+                  f"samples past convection onset, per gap{part}"], rows)
 
 
 def provenance_table(ds: xr.Dataset) -> Table:

@@ -38,7 +38,7 @@ from uq.sensitivity import SobolIndices, rank
 from uq.statistics import QuantileEstimate, _order_statistic_ranks, exceedance_from_counts
 from uq.surrogate import surrogate_indices
 
-STREAM_ROWS = 2**23
+STREAM_ROWS = 2**21
 """Stores with more rows than this are analysed in passes rather than loaded [-]."""
 
 BLOCK_ROWS = 2**20
@@ -285,10 +285,11 @@ def stream_analyse(study, reader) -> StudyAnalysis:
     n_s = 1 if study.scenarios is None else len(study.scenarios.values)
     independent = (np.arange(step) == 0) | (np.arange(step) == step - 1) if plan.method == \
         "sobol" else np.ones(1, dtype=bool)
+    n_independent = plan.n_rows // step * int(independent.sum())
     notes = [f"{plan.n_rows} evaluations were analysed from the store in passes: exact "
              f"percentiles; Sobol index intervals from a {JACKKNIFE_BATCHES}-batch jackknife; "
              f"rank correlations{' and surrogate indices' if plan.method != 'sobol' else ''} "
-             f"from the first {SUBSAMPLE_ROWS} independent samples"]
+             f"from the first {min(SUBSAMPLE_ROWS, n_independent)} independent samples"]
     result = []
     for s in range(n_s):
         faces = reader.group["interface_temperature"].shape[-1]
