@@ -331,7 +331,7 @@ class DesignPlan:
 
     Attributes
     ----------
-    method : {"sobol", "lhs", "random"}
+    method : {"sobol", "lhs", "random", "sobol-sequence"}
         Design method. [-]
     samples : int
         Base rows N for ``sobol``, number of rows otherwise [-].

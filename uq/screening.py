@@ -135,7 +135,7 @@ def screen_study(study, *, chunk_size: int | None = None, workers: int = 1) -> S
     chunk_size
         Samples per evaluation chunk [-].
     workers
-        Processes solving chunks in parallel [-].
+        Worker processes of a local dask cluster [-]; results do not depend on it.
 
     Returns
     -------

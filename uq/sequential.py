@@ -137,7 +137,7 @@ def grow_until_converged(study, *, max_runs: int | None = None, chunk_size: int 
     chunk_size
         Samples per evaluation chunk [-].
     workers
-        Processes solving chunks in parallel [-].
+        Worker processes of a local dask cluster [-]; results do not depend on it.
 
     Returns
     -------
