@@ -17,7 +17,7 @@ from scipy import stats
 from uq.propagate import Propagation, parameter_groups
 from uq.sensitivity import RankedIndex, SobolIndices, rank, sobol_indices
 from uq.statistics import Exceedance, QuantileEstimate, exceedance, quantiles
-from uq.surrogate import SurrogateIndices, surrogate_indices, surrogate_quantiles
+from uq.surrogate import CV_FOLDS, SurrogateIndices, surrogate_indices, surrogate_quantiles
 
 SALIB_BOOTSTRAP_ROWS = 2**17
 """Largest base-row count whose Sobol' intervals come from SALib's bootstrap (it holds
@@ -63,8 +63,8 @@ class ScenarioAnalysis:
         Samples with a gap mean temperature outside the air-property range [-].
     surrogate_quantiles
         Quantiles of the inner-surface temperature from the surrogate, at the study's
-        probabilities, when its leave-one-out error is at most ``pce_max_loo_error``
-        (else ``None``) [K].
+        probabilities, when its leave-one-out error (and, for selected terms, its
+        cross-validation error) is at most ``pce_max_loo_error`` (else ``None``) [K].
     surrogate_quantile_status
         Why the surrogate's quantiles were computed or refused [-].
     """
@@ -275,14 +275,24 @@ def analyse(study, propagation: Propagation) -> StudyAnalysis:
 
 def _surrogate_percentiles(surrogate: SurrogateIndices, probabilities: np.ndarray,
                            a) -> tuple[np.ndarray | None, str]:
-    """Percentiles from the surrogate, only when its leave-one-out error is small enough."""
-    err, limit = surrogate.loo_error, a.pce_max_loo_error
+    """Percentiles from the surrogate, only when its error is small enough.
+
+    The error is the leave-one-out error, and for terms selected by least-angle regression the
+    larger of it and the cross-validation error (the leave-one-out error of a selection is
+    optimistic; :mod:`uq.surrogate`).
+    """
+    err, limit = surrogate.largest_error, a.pce_max_loo_error
+    what = f"leave-one-out error {surrogate.loo_error:.2g}"
+    if surrogate.candidates > surrogate.terms:  # terms selected: leave-one-out is optimistic
+        what = (f"error {err:.2g} (the larger of its {what} and its {CV_FOLDS}-fold "
+                f"cross-validation error {surrogate.cross_validation_error:.2g}, terms "
+                "selected anew in each fold)")
     if not err <= limit:
-        return None, (f"refused: leave-one-out error {err:.2g} of the surrogate is above "
-                      f"pce_max_loo_error = {limit:g}; the percentiles from the samples stand")
+        return None, (f"refused: the surrogate's {what} is above pce_max_loo_error = "
+                      f"{limit:g}; the percentiles from the samples stand")
     q = surrogate_quantiles(surrogate.fit, probabilities, seed=a.seed)
-    return q, (f"computed: leave-one-out error {err:.2g} <= pce_max_loo_error = {limit:g}; "
-               "no interval (the surrogate's own error is not bounded)")
+    return q, (f"computed: the surrogate's {what} <= pce_max_loo_error = {limit:g}; no "
+               "interval (the surrogate's own error is not bounded)")
 
 
 def _scenario_text(study, s: int) -> str:

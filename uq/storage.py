@@ -344,16 +344,25 @@ def _add_surrogate(data, sa, params, group_names, sd, per, a) -> None:
                           "determination of the polynomial-chaos surrogate (1 = perfect)",
                           method="pce")
     data["pce_order"] = _var(sd, scalar("order", 0), "1",
-                             "total order of the polynomial-chaos surrogate", method="pce")
+                             "total order of the polynomial-chaos surrogate's truncation",
+                             method="pce")
     data["pce_loo_error"] = _var(sd, scalar("loo_error", np.nan), "1",
                                  "relative leave-one-out error of the polynomial-chaos "
                                  "surrogate (1 - Q2)", method="pce",
                                  max_error_for_percentiles=a.pce_max_loo_error)
+    data["pce_cross_validation_error"] = _var(
+        sd, scalar("cross_validation_error", np.nan), "1",
+        "relative cross-validation error of the polynomial-chaos surrogate, its terms selected "
+        "anew in each fold (equal to pce_loo_error for a fit in full)", method="pce")
     data["pce_q_norm"] = _var(sd, scalar("q_norm", np.nan), "1",
                               "q-norm of the surrogate's hyperbolic truncation (1 = total "
                               "degree)", method="pce")
     data["pce_terms"] = _var(sd, scalar("terms", 0), "1",
                              "terms of the polynomial-chaos expansion", method="pce")
+    data["pce_candidate_terms"] = _var(sd, scalar("candidates", 0), "1",
+                                       "terms of the truncation the expansion's terms were "
+                                       "selected from (more than pce_terms when selected by "
+                                       "least-angle regression)", method="pce")
     data["pce_samples"] = _var(sd, scalar("samples", 0), "1",
                                "converged samples the surrogate was fitted to", method="pce")
     probs = len(sa[0].inner_quantiles.probabilities)

@@ -18,6 +18,14 @@ def _index(label: str, value: float, half: float, converged: bool) -> str:
     return f"{label}{value:6.3f} ± {half:.3f} {_flag(half, converged):<4}"
 
 
+def _terms(surrogate) -> str:
+    """How many terms the surrogate has, and the candidate set they were selected from."""
+    if surrogate.candidates > surrogate.terms:
+        return (f"{surrogate.terms} terms selected from {surrogate.candidates} by least-angle "
+                "regression")
+    return f"{surrogate.terms} terms"
+
+
 def ranked_line(rank: int, item: RankedIndex, *, first: bool = True) -> str:
     """One ranked parameter or layer: total (and first-order) index, half-width, status [-].
 
@@ -62,8 +70,10 @@ def index_lines(study, sc, *, top: int, temperature: Callable[[float], str]) -> 
     if sc.surrogate is not None:
         s = sc.surrogate
         lines.append(
-            f"polynomial-chaos surrogate: order {s.order}, q-norm {s.q_norm:g}, {s.terms} terms, "
-            f"{s.samples} samples; leave-one-out error {s.loo_error:.2g} (Q2 = {s.q2:.4f})")
+            f"polynomial-chaos surrogate: order {s.order}, q-norm {s.q_norm:g}, {_terms(s)}, "
+            f"{s.samples} samples; leave-one-out error {s.loo_error:.2g} (Q2 = {s.q2:.4f})"
+            + (f", cross-validation error {s.cross_validation_error:.2g} (terms selected anew "
+               "in each fold)" if s.candidates > s.terms else ""))
         lines.append(f"most influential parameters (total Sobol index from the surrogate ± "
                      f"bootstrap CI half-width; first-order; ok = half-width ≤ {thr}, WIDE = "
                      "not converged):")

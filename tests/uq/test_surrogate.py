@@ -67,6 +67,101 @@ def test_ishigami_with_the_truncation_chosen_by_leave_one_out_error():
     assert np.all(result.total_ci < TOL)
 
 
+def test_ishigami_from_100_samples_by_sparse_regression():
+    # design size stated: 100 Latin-hypercube samples (a quarter of the test above); the
+    # candidate sets least squares cannot fit have their terms selected by least-angle
+    # regression. Check values: Ishigami & Homma 1990 (ishigami_indices above).
+    design = latin_hypercube_design(100, 3, seed=5)
+    y = ishigami(-np.pi + 2 * np.pi * design.unit)
+    result = surrogate_indices(design.unit, y, names=["x1", "x2", "x3"], n_bootstrap=20, seed=1)
+    first, total = ishigami_indices()
+    np.testing.assert_allclose(result.first, first, atol=TOL)
+    np.testing.assert_allclose(result.total, total, atol=TOL)
+    assert result.fit.sparse and result.terms < 100 / 1.5 < result.candidates
+    assert np.all(np.isfinite(result.total_ci)) and np.all(result.total_ci < TOL)
+
+
+def test_g_function_indices_from_400_samples_by_sparse_regression():
+    # design size stated: 400 Latin-hypercube samples, 8 inputs. Check values: Saltelli &
+    # Sobol 1995 (g_indices above).
+    design = latin_hypercube_design(400, 8, seed=5)
+    result = surrogate_indices(design.unit, g_function(design.unit),
+                               names=[f"x{i}" for i in range(8)], n_bootstrap=20, seed=1)
+    first, total = g_indices()
+    np.testing.assert_allclose(result.first, first, atol=TOL)
+    np.testing.assert_allclose(result.total, total, atol=TOL)
+    assert result.fit.sparse
+
+
+def shifted_legendre(order, u):
+    # Source: shifted Legendre polynomials P_n(2u - 1), orthonormal on [0, 1] with the factor
+    # sqrt(2n + 1) (Abramowitz & Stegun 1964, Handbook of Mathematical Functions, ch. 22,
+    # from memory).
+    return np.sqrt(2 * order + 1) * {1: 2 * u - 1, 2: 6 * u**2 - 6 * u + 1,
+                                     3: 20 * u**3 - 30 * u**2 + 12 * u - 1}[order]
+
+
+def test_a_sparse_polynomial_is_recovered_exactly_from_fewer_samples_than_terms():
+    # 5 terms of the 84 of the total-degree-3 set in 6 inputs, fitted from 50 samples: least
+    # squares cannot fit the set, least-angle regression finds the 5 terms.
+    design = latin_hypercube_design(50, 6, seed=1)
+    u = design.unit
+    y = (3.0 + 2.0 * shifted_legendre(1, u[:, 0]) - 1.5 * shifted_legendre(2, u[:, 3])
+         + 0.8 * shifted_legendre(1, u[:, 0]) * shifted_legendre(1, u[:, 5])
+         + 0.5 * shifted_legendre(3, u[:, 4]))
+    result = surrogate_indices(u, y, names=[f"x{i}" for i in range(6)], n_bootstrap=10, seed=2)
+    fit = result.fit
+    terms = {(0, 0, 0, 0, 0, 0): 3.0, (1, 0, 0, 0, 0, 0): 2.0, (0, 0, 0, 2, 0, 0): -1.5,
+             (1, 0, 0, 0, 0, 1): 0.8, (0, 0, 0, 0, 3, 0): 0.5}
+    assert {tuple(int(i) for i in a): c for a, c in zip(fit.alphas, fit.coef, strict=True)} \
+        == pytest.approx(terms, abs=1e-10)
+    assert fit.candidates == comb(6 + 3, 3) and fit.loo_error < 1e-20
+    assert fit.cross_validation_error < 1e-20  # every fold finds the same 5 terms
+    # Source: with orthonormal terms the variance is the sum of the squared coefficients and
+    # each index sums the terms of its inputs (Sudret 2008, Reliab. Eng. Syst. Saf. 93, 964).
+    v = 2.0**2 + 1.5**2 + 0.8**2 + 0.5**2
+    np.testing.assert_allclose(result.first, np.array([4.0, 0, 0, 2.25, 0.25, 0]) / v,
+                               atol=1e-10)
+    np.testing.assert_allclose(result.total, np.array([4.64, 0, 0, 2.25, 0.25, 0.64]) / v,
+                               atol=1e-10)
+    assert np.all(result.total_ci < 1e-8)  # an exact fit: every resample refits it exactly
+
+
+def test_without_sparse_regression_only_full_sets_are_fitted():
+    design = latin_hypercube_design(100, 3, seed=5)
+    y = ishigami(-np.pi + 2 * np.pi * design.unit)
+    fit = fit_pce(design.unit, y, sparse=False)
+    assert not fit.sparse and len(fit.alphas) <= 100 / 1.5
+    again = fit_pce(design.unit, y)
+    assert again.sparse and again.corrected_loo_error < fit.corrected_loo_error
+    same = fit_pce(design.unit, y)  # deterministic: no random draw in the fit
+    np.testing.assert_array_equal(same.coef, again.coef)
+    np.testing.assert_array_equal(same.alphas, again.alphas)
+
+
+def test_cross_validation_of_a_selection_and_the_percentile_gate():
+    # The leave-one-out error of selected terms is computed after the selection saw every
+    # sample; the cross-validation error selects anew without each fold. The check is the
+    # gate's logic: the larger of the two must be below the threshold.
+    from types import SimpleNamespace
+
+    from uq.analysis import _surrogate_percentiles
+
+    design = latin_hypercube_design(100, 3, seed=5)
+    y = ishigami(-np.pi + 2 * np.pi * design.unit)
+    result = surrogate_indices(design.unit, y, names=["x1", "x2", "x3"], n_bootstrap=5, seed=1)
+    full = fit_pce(design.unit, y, sparse=False)
+    assert full.cross_validation_error == full.loo_error
+    cv, loo = result.cross_validation_error, result.loo_error
+    assert np.isfinite(cv) and result.largest_error == max(cv, loo)
+    between = SimpleNamespace(pce_max_loo_error=(min(cv, loo) + max(cv, loo)) / 2, seed=1)
+    q, status = _surrogate_percentiles(result, np.array([0.5]), between)
+    assert q is None and status.startswith("refused") and "cross-validation error" in status
+    above = SimpleNamespace(pce_max_loo_error=2 * max(cv, loo), seed=1)
+    q, status = _surrogate_percentiles(result, np.array([0.5]), above)
+    assert q is not None and status.startswith("computed")
+
+
 def test_g_function_indices():
     # design size stated: 1024 Latin-hypercube samples, 8 inputs
     design = latin_hypercube_design(1024, 8, seed=5)
