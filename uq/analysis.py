@@ -202,55 +202,22 @@ def analyse(study, propagation: Propagation) -> StudyAnalysis:
         ]
         exc = exceedance(y[rows], a.limit, confidence=a.confidence)
         indices: dict[str, tuple[SobolIndices, SobolIndices | None]] = {}
-        ranking: dict[str, list[RankedIndex]] = {}
-        group_ranking: dict[str, list[RankedIndex]] = {}
         if a.method == "saltelli" and names and design.base_samples > SALIB_BOOTSTRAP_ROWS:
             from uq.streaming import MemoryRows, sobol_jackknife
 
-            for o in outputs:
-                ind, grp = sobol_jackknife(MemoryRows(propagation), o, s, study,
-                                           confidence=a.confidence)
-                indices[o] = (ind, grp)
-                ranking[o] = rank(ind, ci_threshold=a.index_ci_threshold)
-                if grp is not None:
-                    group_ranking[o] = rank(grp, ci_threshold=a.index_ci_threshold)
+            indices = {o: sobol_jackknife(MemoryRows(propagation), o, s, study,
+                                          confidence=a.confidence) for o in outputs}
         elif a.method == "saltelli" and names:
-            for o in outputs:
-                ind, grp = sobol_indices(
-                    output_values(propagation, o, s),
-                    design,
-                    names=names,
-                    group_names=group_names,
-                    n_bootstrap=a.bootstrap,
-                    confidence=a.confidence,
-                    seed=a.seed,
-                )
-                indices[o] = (ind, grp)
-                ranking[o] = rank(ind, ci_threshold=a.index_ci_threshold)
-                if grp is not None:
-                    group_ranking[o] = rank(grp, ci_threshold=a.index_ci_threshold)
-        surrogate = surrogate_groups = surrogate_q = None
-        status = ""
+            indices = {o: sobol_indices(output_values(propagation, o, s), design, names=names,
+                                        group_names=group_names, n_bootstrap=a.bootstrap,
+                                        confidence=a.confidence, seed=a.seed)
+                       for o in outputs}
+        ranking, group_ranking = rank_indices(indices, a.index_ci_threshold)
+        pce = SurrogateResult()
         if a.method == "pce" and names:
-            unit = design.unit[rows]
-            surrogate = surrogate_indices(unit, y[rows], names=names,
-                                          n_bootstrap=a.bootstrap, confidence=a.confidence,
-                                          seed=a.seed)
-            if surrogate is not None:
-                surrogate_groups = surrogate_indices(unit, y[rows], names=group_names,
-                                                     groups=parameter_groups(study)[1],
-                                                     n_bootstrap=a.bootstrap,
-                                                     confidence=a.confidence, seed=a.seed,
-                                                     fit=surrogate.fit)
-                surrogate_q, status = _surrogate_percentiles(surrogate, probabilities, a)
-            else:
-                status = ("refused: no surrogate could be fitted (too few converged samples "
-                          "or a constant output)")
-            if surrogate is not None:
-                ranking["inner_surface_temperature"] = rank(
-                    surrogate, ci_threshold=a.index_ci_threshold)
-                group_ranking["inner_surface_temperature"] = rank(
-                    surrogate_groups, ci_threshold=a.index_ci_threshold)
+            pce = fit_surrogate(study, design.unit[rows], y[rows], probabilities)
+            ranking.update(pce.ranking)
+            group_ranking.update(pce.group_ranking)
         result.append(
             ScenarioAnalysis(
                 inner_quantiles=inner_q,
@@ -261,16 +228,86 @@ def analyse(study, propagation: Propagation) -> StudyAnalysis:
                 group_ranking=group_ranking,
                 rank_correlation=_rank_correlation(propagation.inputs[rows], y[rows]),
                 nonconverged=int(np.sum(~propagation.outputs["converged"][s])),
-                surrogate=surrogate,
-                surrogate_groups=surrogate_groups,
-                surrogate_quantiles=surrogate_q,
-                surrogate_quantile_status=status,
+                surrogate=pce.indices,
+                surrogate_groups=pce.groups,
+                surrogate_quantiles=pce.quantiles,
+                surrogate_quantile_status=pce.status,
                 onset_samples=int(np.sum(np.any(
                     propagation.outputs["convection_onset"][s], axis=1))),
                 air_range_samples=int(np.sum(propagation.outputs["air_range_exceeded"][s])),
             )
         )
     return StudyAnalysis(result, probabilities, outputs, tuple(group_names), notes)
+
+
+def rank_indices(indices: dict, ci_threshold: float) -> tuple[dict, dict]:
+    """Rankings per output of ``{output: (per-parameter, per-group or None)}`` indices.
+
+    Parameters
+    ----------
+    indices
+        Sobol indices per output [-].
+    ci_threshold
+        Half-width above which an index is unconverged [-].
+
+    Returns
+    -------
+    ranking, group_ranking
+        Output name → ranked parameters, and → ranked groups (outputs with groups only).
+    """
+    ranking = {o: rank(ind, ci_threshold=ci_threshold) for o, (ind, _) in indices.items()}
+    groups = {o: rank(grp, ci_threshold=ci_threshold) for o, (_, grp) in indices.items()
+              if grp is not None}
+    return ranking, groups
+
+
+@dataclass(frozen=True)
+class SurrogateResult:
+    """Polynomial-chaos indices of the inner-surface temperature, gated percentiles, rankings."""
+
+    indices: SurrogateIndices | None = None
+    groups: SurrogateIndices | None = None
+    quantiles: np.ndarray | None = None
+    status: str = ""
+    ranking: dict = field(default_factory=dict)
+    group_ranking: dict = field(default_factory=dict)
+
+
+def fit_surrogate(study, unit: np.ndarray, y: np.ndarray,
+                  probabilities: np.ndarray) -> SurrogateResult:
+    """Fit the PCE of one exposure; indices per parameter and group, gated percentiles.
+
+    Parameters
+    ----------
+    study
+        The parsed study [-].
+    unit
+        Independent design rows in the unit hypercube, ``(n, d)`` [-].
+    y
+        Inner-surface temperature of those rows [K].
+    probabilities
+        Quantile levels [-].
+
+    Returns
+    -------
+    SurrogateResult
+    """
+    a = study.analysis
+    names = [p.name for p in study.parameters]
+    group_names, groups = parameter_groups(study)
+    per = surrogate_indices(unit, y, names=names, n_bootstrap=a.bootstrap,
+                            confidence=a.confidence, seed=a.seed)
+    if per is None:
+        return SurrogateResult(status="refused: no surrogate could be fitted (too few "
+                               "converged samples or a constant output)")
+    grouped = surrogate_indices(unit, y, names=group_names, groups=groups,
+                                n_bootstrap=a.bootstrap, confidence=a.confidence,
+                                seed=a.seed, fit=per.fit)
+    q, status = _surrogate_percentiles(per, probabilities, a)
+    key = "inner_surface_temperature"
+    return SurrogateResult(per, grouped, q, status,
+                           {key: rank(per, ci_threshold=a.index_ci_threshold)},
+                           {key: rank(grouped, ci_threshold=a.index_ci_threshold)})
 
 
 def _surrogate_percentiles(surrogate: SurrogateIndices, probabilities: np.ndarray,

@@ -26,6 +26,22 @@ BLOCK_LABELS = {0: "A", 1: "B"}
 _LIBRARIES = ("plyrisk", "numpy", "scipy", "SALib", "chaospy", "xarray", "netCDF4", "pint")
 
 
+SAMPLE_OUTPUTS: dict[str, tuple[tuple[str, ...], str, str]] = {
+    "inner_surface_temperature": ((), "K", "inner-surface temperature"),
+    "heat_flux": ((), "W m-2", "heat flux through the assembly"),
+    "interface_temperature": (("interface",), "K", "face temperature"),
+    "layer_temperature_drop": (("layer",), "K", "temperature drop across each element"),
+    "layer_resistance": (("layer",), "m2 K W-1", "effective thermal resistance of each element"),
+    "radiative_share": (("layer",), "1", "fraction of each gap's heat flow carried by radiation"),
+    "rayleigh_number": (("layer",), "1", "Rayleigh number of each gap"),
+    "convection_onset": (("layer",), "1", "gap past the onset of natural convection"),
+    "converged": ((), "1", "sample converged to a physically valid solution"),
+    "iterations": ((), "1", "Newton iterations"),
+    "air_range_exceeded": ((), "1", "a gap's mean temperature was outside 250-1500 K"),
+}
+"""Per-sample model outputs: dimensions after (scenario ×) sample, units, long name [-]."""
+
+
 def library_versions() -> dict[str, str]:
     """Versions of the libraries that produced a result [-]."""
     out = {"python": platform.python_version()}
@@ -121,30 +137,11 @@ def to_dataset(study, propagation: Propagation, analysis: StudyAnalysis) -> xr.D
     data = {
         "input": _var(("sample", "parameter"), propagation.inputs, "SI",
                       "input value of each parameter (units: parameter_si_unit)"),
-        "inner_surface_temperature": _var((*sd, "sample"), per(f["inner_surface_temperature"]),
-                                          "K", "inner-surface temperature"),
-        "heat_flux": _var((*sd, "sample"), per(f["heat_flux"]), "W m-2",
-                          "heat flux through the assembly"),
-        "interface_temperature": _var((*sd, "sample", "interface"),
-                                      per(f["interface_temperature"]), "K", "face temperature"),
-        "layer_temperature_drop": _var((*sd, "sample", "layer"),
-                                       per(f["layer_temperature_drop"]), "K",
-                                       "temperature drop across each element"),
-        "layer_resistance": _var((*sd, "sample", "layer"), per(f["layer_resistance"]),
-                                 "m2 K W-1", "effective thermal resistance of each element"),
-        "radiative_share": _var((*sd, "sample", "layer"), per(f["radiative_share"]), "1",
-                                "fraction of each gap's heat flow carried by radiation"),
-        "rayleigh_number": _var((*sd, "sample", "layer"), per(f["rayleigh_number"]), "1",
-                                "Rayleigh number of each gap"),
-        "convection_onset": _var((*sd, "sample", "layer"), per(f["convection_onset"]), "1",
-                                 "gap past the onset of natural convection"),
-        "converged": _var((*sd, "sample"), per(f["converged"]), "1",
-                          "sample converged to a physically valid solution"),
-        "iterations": _var((*sd, "sample"), per(f["iterations"]).astype(np.int32), "1",
-                           "Newton iterations"),
-        "air_range_exceeded": _var((*sd, "sample"), per(f["air_range_exceeded"]), "1",
-                                   "a gap's mean temperature was outside 250-1500 K"),
     }
+    for name, (extra, units, long_name) in SAMPLE_OUTPUTS.items():
+        values = per(f[name])
+        data[name] = _var((*sd, "sample", *extra), values.astype(np.int32) if name ==
+                          "iterations" else values, units, long_name)
     sa = analysis.scenarios
     q_est = per([s.inner_quantiles.estimate for s in sa])
     data["inner_surface_temperature_quantile"] = _var(

@@ -35,11 +35,7 @@ from uq.propagate import (
     unit_to_inputs,
 )
 from uq.sampling import Design, DesignPlan
-
-PER_LAYER = ("layer_temperature_drop", "layer_resistance", "radiative_share", "rayleigh_number",
-             "convection_onset")
-"""Outputs with one column per network element [-]."""
-
+from uq.storage import SAMPLE_OUTPUTS
 
 COMPRESSION = {"cname": "lz4", "clevel": 1, "shuffle": "shuffle"}
 """Blosc settings of every stored array: on the demo outputs about 1.7 x faster to write than
@@ -95,12 +91,7 @@ def fingerprint(study, chunk_size: int) -> str:
 
 
 def _dims(name: str, swept: bool) -> tuple[str, ...]:
-    lead = ("scenario",) if swept else ()
-    if name == "interface_temperature":
-        return (*lead, "sample", "interface")
-    if name in PER_LAYER:
-        return (*lead, "sample", "layer")
-    return (*lead, "sample")
+    return (*(("scenario",) if swept else ()), "sample", *SAMPLE_OUTPUTS[name][0])
 
 
 def open_store(study, plan: DesignPlan, path: str | Path, *, chunk_size: int,
@@ -177,8 +168,8 @@ def _create(study, plan: DesignPlan, layout: StoreLayout, digest: str) -> None:
         v = np.asarray(getattr(first, name))
         dtype = "i4" if name == "iterations" else v.dtype.str
         fill = np.nan if v.dtype.kind == "f" else False if v.dtype.kind == "b" else -1
-        array(name, _dims(name, layout.swept), dtype, fill, units=_UNITS[name][0],
-              long_name=_UNITS[name][1])
+        array(name, _dims(name, layout.swept), dtype, fill, units=SAMPLE_OUTPUTS[name][1],
+              long_name=SAMPLE_OUTPUTS[name][2])
     array("chunk_done", ("chunk",), "u1", 0, units="1",
           long_name="chunk of samples stored (1) or not yet (0)")
     group.attrs.update({
@@ -190,19 +181,6 @@ def _create(study, plan: DesignPlan, layout: StoreLayout, digest: str) -> None:
     })
 
 
-_UNITS = {
-    "inner_surface_temperature": ("K", "inner-surface temperature"),
-    "heat_flux": ("W m-2", "heat flux through the assembly"),
-    "interface_temperature": ("K", "face temperature"),
-    "layer_temperature_drop": ("K", "temperature drop across each element"),
-    "layer_resistance": ("m2 K W-1", "effective thermal resistance of each element"),
-    "radiative_share": ("1", "fraction of each gap's heat flow carried by radiation"),
-    "rayleigh_number": ("1", "Rayleigh number of each gap"),
-    "convection_onset": ("1", "gap past the onset of natural convection"),
-    "converged": ("1", "sample converged to a physically valid solution"),
-    "iterations": ("1", "Newton iterations"),
-    "air_range_exceeded": ("1", "a gap's mean temperature was outside 250-1500 K"),
-}
 
 
 def store_chunk(study, plan: DesignPlan, layout: StoreLayout, index: int,

@@ -30,13 +30,15 @@ from uq.analysis import (
     AnalysisError,
     ScenarioAnalysis,
     StudyAnalysis,
+    SurrogateResult,
     _rank_correlation,
     _scenario_text,
+    fit_surrogate,
+    rank_indices,
 )
 from uq.propagate import parameter_groups, study_plan
-from uq.sensitivity import SobolIndices, rank
+from uq.sensitivity import SobolIndices
 from uq.statistics import QuantileEstimate, _order_statistic_ranks, exceedance_from_counts
-from uq.surrogate import surrogate_indices
 
 STREAM_ROWS = 2**21
 """Stores with more rows than this are analysed in passes rather than loaded [-]."""
@@ -280,7 +282,7 @@ def stream_analyse(study, reader) -> StudyAnalysis:
     probabilities = np.array(sorted(set(a.percentiles) | set(BAND_PROBABILITIES)))
     outputs = ("inner_surface_temperature",
                *[o for o in a.outputs if o != "inner_surface_temperature"])
-    group_names, groups = parameter_groups(study)
+    group_names = parameter_groups(study)[0]
     names = [p.name for p in study.parameters]
     n_s = 1 if study.scenarios is None else len(study.scenarios.values)
     independent = (np.arange(step) == 0) | (np.arange(step) == step - 1) if plan.method == \
@@ -288,7 +290,7 @@ def stream_analyse(study, reader) -> StudyAnalysis:
     n_independent = plan.n_rows // step * int(independent.sum())
     notes = [f"{plan.n_rows} evaluations were analysed from the store in passes: exact "
              f"percentiles; Sobol index intervals from a {JACKKNIFE_BATCHES}-batch jackknife; "
-             f"rank correlations{' and surrogate indices' if plan.method != 'sobol' else ''} "
+             f"rank correlations{' and the polynomial-chaos fit' if a.method == 'pce' else ''} "
              f"from the first {min(SUBSAMPLE_ROWS, n_independent)} independent samples"]
     result = []
     for s in range(n_s):
@@ -323,35 +325,24 @@ def stream_analyse(study, reader) -> StudyAnalysis:
         rows = np.tile(independent, sub // independent.size)
         y_sub = output_column(reader, "inner_surface_temperature", s, 0, sub)[rows]
         x_sub = reader.read("input", 0, sub)[rows]
-        indices, ranking, group_ranking = {}, {}, {}
-        surrogate = surrogate_groups = None
-        if plan.method == "sobol" and names:
-            for o in outputs:
-                ind, grp = _sobol_streamed(reader, o, s, study, plan, names, group_names,
-                                           a.confidence, step)
-                indices[o] = (ind, grp)
-                ranking[o] = rank(ind, ci_threshold=a.index_ci_threshold)
-                if grp is not None:
-                    group_ranking[o] = rank(grp, ci_threshold=a.index_ci_threshold)
-        elif names:
-            unit = plan.rows(0, sub)[0][rows]
-            surrogate = surrogate_indices(unit, y_sub, names=names, n_bootstrap=a.bootstrap,
-                                          confidence=a.confidence, seed=a.seed)
-            surrogate_groups = surrogate_indices(unit, y_sub, names=group_names, groups=groups,
-                                                 n_bootstrap=a.bootstrap,
-                                                 confidence=a.confidence, seed=a.seed)
-            if surrogate is not None:
-                ranking["inner_surface_temperature"] = rank(
-                    surrogate, ci_threshold=a.index_ci_threshold)
-                group_ranking["inner_surface_temperature"] = rank(
-                    surrogate_groups, ci_threshold=a.index_ci_threshold)
+        indices = {}
+        if a.method == "saltelli" and names:
+            indices = {o: _sobol_streamed(reader, o, s, study, plan, names, group_names,
+                                          a.confidence, step) for o in outputs}
+        ranking, group_ranking = rank_indices(indices, a.index_ci_threshold)
+        pce = SurrogateResult()
+        if a.method == "pce" and names:
+            pce = fit_surrogate(study, plan.rows(0, sub)[0][rows], y_sub, probabilities)
+            ranking.update(pce.ranking)
+            group_ranking.update(pce.group_ranking)
         result.append(ScenarioAnalysis(
             inner_quantiles=quant[0], interface_quantiles=quant[1:],
             exceedance=exceedance_from_counts(int(counts[0]), int(counts[4]), a.limit,
                                               confidence=a.confidence),
             indices=indices, ranking=ranking, group_ranking=group_ranking,
             rank_correlation=_rank_correlation(x_sub, y_sub), nonconverged=int(counts[1]),
-            surrogate=surrogate, surrogate_groups=surrogate_groups,
+            surrogate=pce.indices, surrogate_groups=pce.groups,
+            surrogate_quantiles=pce.quantiles, surrogate_quantile_status=pce.status,
             onset_samples=int(counts[2]), air_range_samples=int(counts[3]),
         ))
     return StudyAnalysis(result, probabilities, outputs, tuple(group_names), notes)

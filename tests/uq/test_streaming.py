@@ -99,3 +99,18 @@ def test_large_in_memory_designs_use_the_jackknife(stored, monkeypatch):
             np.testing.assert_allclose(a.total, c.total, atol=1e-12)
             np.testing.assert_allclose(a.total_ci, c.total_ci, rtol=1e-9, atol=1e-15)
             np.testing.assert_allclose(b.first_ci, d.first_ci, rtol=1e-9, atol=1e-15)
+
+
+def test_pce_store_analysed_in_passes_fits_the_same_surrogate(tmp_path, monkeypatch):
+    study = load_study(ROOT / "configs" / "small_demo.toml")
+    study = replace(study, analysis=replace(study.analysis, method="pce", design="random",
+                                            samples=600))
+    reader = solve_to_store(study, tmp_path / "s.zarr", chunk_size=250, quiet=True)
+    memory = analyse(study, load_propagation(study, reader))
+    passes = streaming.stream_analyse(study, reader)   # 600 rows < SUBSAMPLE_ROWS: all rows
+    for m, p in zip(memory.scenarios, passes.scenarios, strict=True):
+        np.testing.assert_array_equal(p.surrogate.total, m.surrogate.total)
+        np.testing.assert_array_equal(p.surrogate_groups.total, m.surrogate_groups.total)
+        assert p.surrogate_quantile_status == m.surrogate_quantile_status
+        assert [r.name for r in p.ranking["inner_surface_temperature"]] == \
+            [r.name for r in m.ranking["inner_surface_temperature"]]
