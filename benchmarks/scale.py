@@ -10,7 +10,8 @@ base sample):
    ``cluster_speedup_in_memory`` and ``cluster_speedup_to_zarr`` are the ratios of runs per
    second, cluster over one process, measured in the same run.
 2. ``--store-runs`` model runs (default 10^8) end to end on the cluster: streamed to a Zarr
-   store under ``--tmp``, analysed from the store in passes (``uq.streaming``), results.nc.
+   store under ``--tmp``, analysed from the store in passes (``plyrisk.analysis.streaming``),
+   results.nc.
 
 For each it prints the wall time, model runs per second, and the peak resident memory of this
 process plus its worker processes (sampled every 0.2 s with psutil). Run from the repository
@@ -44,10 +45,10 @@ sys.path.insert(0, str(ROOT))
 import numpy as np  # noqa: E402
 import psutil  # noqa: E402
 
-from uq.config import load_study  # noqa: E402
-from uq.pipeline import run_study  # noqa: E402
-from uq.propagate import propagate, study_plan  # noqa: E402
-from uq.store import StoreReader, solve_to_store  # noqa: E402
+from plyrisk.pipeline.run import run_study  # noqa: E402
+from plyrisk.propagate.evaluate import propagate, study_plan  # noqa: E402
+from plyrisk.propagate.store import StoreReader, solve_to_store  # noqa: E402
+from plyrisk.study.config import load_study  # noqa: E402
 
 
 class PeakMemory:

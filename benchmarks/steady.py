@@ -2,9 +2,9 @@
 
 One invented five-layer assembly (outer shell, air gap, membrane touching a liner through a
 contact resistance, air gap to the skin) under a fire environment, every input drawn per sample
-from a seeded generator. The same samples are solved by :func:`models.network.solve_network`
+from a seeded generator. The same samples are solved by :func:`plyrisk.models.network.solve_network`
 (all at once) and, for the first ``--loop-samples`` of them, one at a time by
-:func:`models.reference.solve_reference`; the two answers are compared on those samples.
+:func:`plyrisk.models.reference.solve_reference`; the two answers are compared on those samples.
 
 Run from the repository root::
 
@@ -32,10 +32,10 @@ sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
 import numpy as np  # noqa: E402
 
-from models.boundary import ColdSurface, HotEnvironment  # noqa: E402
-from models.network import solve_network  # noqa: E402
-from models.reference import select_sample, solve_reference  # noqa: E402
-from models.stack import Gap, Solid  # noqa: E402
+from plyrisk.models.boundary import ColdSurface, HotEnvironment  # noqa: E402
+from plyrisk.models.network import solve_network  # noqa: E402
+from plyrisk.models.reference import select_sample, solve_reference  # noqa: E402
+from plyrisk.models.stack import Gap, Solid  # noqa: E402
 
 
 def invented_assembly(n: int, seed: int):

@@ -43,12 +43,12 @@ sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
 import numpy as np  # noqa: E402
 
-from uq.config import loads_study  # noqa: E402
-from uq.pipeline import run_study  # noqa: E402
-from uq.propagate import evaluate, parameter_groups, unit_to_inputs  # noqa: E402
-from uq.sampling import latin_hypercube_design, sobol_design  # noqa: E402
-from uq.sensitivity import sobol_indices  # noqa: E402
-from uq.surrogate import fit_pce, shares  # noqa: E402
+from plyrisk.analysis.pce import fit_pce, shares  # noqa: E402
+from plyrisk.analysis.sobol import sobol_indices  # noqa: E402
+from plyrisk.design.sampling import latin_hypercube_design, sobol_design  # noqa: E402
+from plyrisk.pipeline.run import run_study  # noqa: E402
+from plyrisk.propagate.evaluate import evaluate, parameter_groups, unit_to_inputs  # noqa: E402
+from plyrisk.study.config import loads_study  # noqa: E402
 
 STACK = """
 # INVENTED benchmark study: every value is invented; it describes no real garment.

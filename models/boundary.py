@@ -3,7 +3,7 @@
 Each boundary is a frozen dataclass whose numeric fields are scalars or arrays of shape ``(n,)``.
 The heat-flow functions here are pure and broadcast over samples; each returns the heat flux and
 its derivative with respect to the face temperature, for the Newton solve in
-:mod:`models.network`.
+:mod:`plyrisk.models.network`.
 """
 
 from __future__ import annotations
@@ -14,7 +14,7 @@ import numpy as np
 from numpy.typing import ArrayLike
 from scipy.constants import Stefan_Boltzmann as SIGMA
 
-from models.stack import check_emissivity, check_nonnegative, check_temperature
+from plyrisk.models.stack import check_emissivity, check_nonnegative, check_temperature
 
 # --------------------------------------------------------------------------------------------
 # Hot side

@@ -32,7 +32,7 @@ from numpy.typing import ArrayLike
 from scipy import optimize
 from scipy.constants import g as STANDARD_GRAVITY
 
-from models import air
+from plyrisk.models import air
 
 CRITICAL_RAYLEIGH_HORIZONTAL = 1708.0
 """Onset of convection in a horizontal fluid layer between rigid plates heated from below [-],

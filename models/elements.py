@@ -2,7 +2,8 @@
 
 Each function is pure and broadcasts over samples. It takes the temperatures of the element's
 hot-side face ``Ta`` and cold-side face ``Tb`` and returns the heat flux from ``a`` to ``b`` and
-its partial derivatives, ``(q, dq/dTa, dq/dTb)``, for the Newton solve in :mod:`models.network`.
+its partial derivatives, ``(q, dq/dTa, dq/dTb)``, for the Newton solve in
+:mod:`plyrisk.models.network`.
 """
 
 from __future__ import annotations
@@ -14,7 +15,7 @@ from numpy.typing import ArrayLike
 from scipy.constants import Stefan_Boltzmann as SIGMA
 from scipy.constants import g as STANDARD_GRAVITY
 
-from models import air, convection
+from plyrisk.models import air, convection
 
 RADIATION_MODES = ("exact", "linearized")
 
@@ -151,7 +152,7 @@ def gap_heat_flux(
 
     with ``radiation="linearized"`` replacing the radiative term by
     ``4 eps_eff sigma T_m^3 (Ta - Tb)``. ``Nu = 1`` unless convection is enabled, in which case
-    the correlation of :func:`models.convection.nusselt` for the orientation applies; its
+    the correlation of :func:`plyrisk.models.convection.nusselt` for the orientation applies; its
     dependence on the face temperatures through the Rayleigh number is part of the derivatives.
 
     Parameters
@@ -171,7 +172,7 @@ def gap_heat_flux(
     convection_enabled
         Apply the natural-convection correlation [-].
     orientation
-        Gap orientation, see :data:`models.stack.GAP_ORIENTATIONS` [-].
+        Gap orientation, see :data:`plyrisk.models.stack.GAP_ORIENTATIONS` [-].
     gap_height
         Height of a vertical gap [m].
 

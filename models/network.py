@@ -24,8 +24,8 @@ from dataclasses import dataclass, fields, replace
 import numpy as np
 from scipy.constants import Stefan_Boltzmann as SIGMA
 
-from models import air, convection
-from models.boundary import (
+from plyrisk.models import air, convection
+from plyrisk.models.boundary import (
     ColdEnvironment,
     ColdSide,
     ColdSurface,
@@ -36,7 +36,7 @@ from models.boundary import (
     cold_environment_flux,
     hot_environment_flux,
 )
-from models.elements import (
+from plyrisk.models.elements import (
     RADIATION_MODES,
     contact_heat_flux,
     effective_emissivity,
@@ -44,7 +44,7 @@ from models.elements import (
     gap_kernel,
     solid_heat_flux,
 )
-from models.stack import Element, Gap, Solid, StackError, validate_stack
+from plyrisk.models.stack import Element, Gap, Solid, StackError, validate_stack
 
 DEFAULT_CHUNK_SIZE = 8192
 """Samples solved together; small enough for the working arrays to stay in cache."""
@@ -171,7 +171,8 @@ def interface_names(layers: Sequence[Element], cold_side: ColdSide) -> tuple[str
     layers
         Solids and gaps, hot side first. [-]
     cold_side
-        The cold-side boundary (a :class:`~models.boundary.ColdSurface` adds the skin face). [-]
+        The cold-side boundary (a :class:`~plyrisk.models.boundary.ColdSurface` adds the skin
+        face). [-]
 
     Returns
     -------
@@ -268,11 +269,13 @@ def solve_network(
     layers
         Solids and gaps, hot (exposed) side first; numeric fields scalars or ``(n,)`` arrays. [-]
     hot_side
-        Boundary condition of the exposed face (:class:`models.boundary.HotFlux`,
-        :class:`~models.boundary.HotTemperature` or :class:`~models.boundary.HotEnvironment`). [-]
+        Boundary condition of the exposed face (:class:`plyrisk.models.boundary.HotFlux`,
+        :class:`~plyrisk.models.boundary.HotTemperature` or
+        :class:`~plyrisk.models.boundary.HotEnvironment`). [-]
     cold_side
-        Boundary condition on the wearer side (:class:`models.boundary.ColdTemperature`,
-        :class:`~models.boundary.ColdSurface` or :class:`~models.boundary.ColdEnvironment`). [-]
+        Boundary condition on the wearer side (:class:`plyrisk.models.boundary.ColdTemperature`,
+        :class:`~plyrisk.models.boundary.ColdSurface` or
+        :class:`~plyrisk.models.boundary.ColdEnvironment`). [-]
     radiation
         Gap radiation: ``"exact"`` (``sigma (T1^4 - T2^4)``) or ``"linearized"`` [-].
     convection_enabled
@@ -292,7 +295,7 @@ def solve_network(
 
     Raises
     ------
-    models.stack.StackError
+    plyrisk.models.stack.StackError
         (a ``ValueError``) naming the layer, the quantity and the bad value.
     ValueError
         For an unknown ``radiation`` mode or a non-positive ``tolerance``.
@@ -585,11 +588,12 @@ def _starting_field(
     heat_flux
         Prescribed net flux into the exposed face, or ``None`` [W m-2].
     hot_kw
-        Keyword arguments of :func:`models.boundary.hot_environment_flux`, or ``None`` [-].
+        Keyword arguments of :func:`plyrisk.models.boundary.hot_environment_flux`, or ``None`` [-].
     t_cold
         Cold-side (or ambient) temperature [K].
     cold_kw
-        Keyword arguments of :func:`models.boundary.cold_environment_flux`, or ``None`` for a
+        Keyword arguments of :func:`plyrisk.models.boundary.cold_environment_flux`, or ``None`` for
+        a
         prescribed cold face [-].
 
     Returns

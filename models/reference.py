@@ -1,13 +1,15 @@
 """Independent per-sample reference solve of the steady layer network, for checking.
 
-This module solves the same steady equations as :func:`models.network.solve_network`, written
+This module solves the same steady equations as :func:`plyrisk.models.network.solve_network`,
+written
 afresh in scalar form: the unknowns are the face temperatures that are not prescribed, each
 with an energy balance (heat in from the hot side = heat out toward the cold side), solved by
 MINPACK's hybrid Powell method (:func:`scipy.optimize.root`, ``method="hybr"``) with a
 finite-difference Jacobian. It is slow (one sample at a time) and exists only to check the
-vectorized solver. It shares no code with :mod:`models.network` or :mod:`models.elements`; it
-takes air properties from :mod:`models.air` and Nusselt-number correlations from
-:mod:`models.convection`.
+vectorized solver. It shares no code with :mod:`plyrisk.models.network` or
+:mod:`plyrisk.models.elements`; it
+takes air properties from :mod:`plyrisk.models.air` and Nusselt-number correlations from
+:mod:`plyrisk.models.convection`.
 
 Element laws, hot-side face ``a`` → cold-side face ``b``:
 
@@ -43,8 +45,8 @@ from scipy.constants import Stefan_Boltzmann as SIGMA
 from scipy.constants import g as GRAVITY
 from scipy.optimize import brentq, root
 
-from models import air, convection
-from models.boundary import (
+from plyrisk.models import air, convection
+from plyrisk.models.boundary import (
     ColdEnvironment,
     ColdSide,
     HotEnvironment,
@@ -52,7 +54,7 @@ from models.boundary import (
     HotSide,
     HotTemperature,
 )
-from models.stack import Element, Gap, Solid, validate_stack
+from plyrisk.models.stack import Element, Gap, Solid, validate_stack
 
 REFERENCE_RADIATION_MODES = ("exact", "linearized")
 """Gap radiation treatments accepted by :func:`solve_reference` [-]."""
@@ -77,7 +79,8 @@ def select_sample(obj: _T, index: int) -> _T:
     Parameters
     ----------
     obj
-        A :class:`models.stack.Solid`, :class:`~models.stack.Gap` or boundary dataclass whose
+        A :class:`plyrisk.models.stack.Solid`, :class:`~plyrisk.models.stack.Gap` or boundary
+        dataclass whose
         numeric fields are scalars or 1-D arrays of samples [-].
     index
         The sample to keep [-].
@@ -331,11 +334,13 @@ def solve_reference(
         Solids and gaps, hot (exposed) side first, with scalar numeric fields (see
         :func:`select_sample`) [-].
     hot_side
-        :class:`models.boundary.HotFlux`, :class:`~models.boundary.HotTemperature` or
-        :class:`~models.boundary.HotEnvironment` with scalar fields [-].
+        :class:`plyrisk.models.boundary.HotFlux`, :class:`~plyrisk.models.boundary.HotTemperature`
+        or
+        :class:`~plyrisk.models.boundary.HotEnvironment` with scalar fields [-].
     cold_side
-        :class:`models.boundary.ColdTemperature`, :class:`~models.boundary.ColdSurface` or
-        :class:`~models.boundary.ColdEnvironment` with scalar fields [-].
+        :class:`plyrisk.models.boundary.ColdTemperature`,
+        :class:`~plyrisk.models.boundary.ColdSurface` or
+        :class:`~plyrisk.models.boundary.ColdEnvironment` with scalar fields [-].
     radiation
         ``"exact"`` or ``"linearized"`` gap radiation [-].
     convection_enabled
@@ -351,7 +356,7 @@ def solve_reference(
 
     Raises
     ------
-    models.stack.StackError
+    plyrisk.models.stack.StackError
         For an invalid element, boundary or arrangement.
     ValueError
         For an unknown ``radiation`` mode or non-scalar inputs.

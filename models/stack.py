@@ -1,8 +1,9 @@
 """Definitions of the elements of a multilayer assembly, ordered hot (exposed) side → cold side.
 
 Every numeric field is a scalar or an array of shape ``(n,)``: one entry per sample. The
-definitions carry no behaviour beyond validation; the physics lives in :mod:`models.elements`
-and the solve in :mod:`models.network`.
+definitions carry no behaviour beyond validation; the physics lives in
+:mod:`plyrisk.models.elements`
+and the solve in :mod:`plyrisk.models.network`.
 """
 
 from __future__ import annotations
@@ -12,6 +13,8 @@ from typing import Literal
 
 import numpy as np
 from numpy.typing import ArrayLike
+
+from plyrisk.errors import PlyriskError
 
 GAP_ORIENTATIONS = ("vertical", "horizontal-up", "horizontal-down")
 """Gap orientations: a vertical gap (heat flows horizontally), a horizontal gap with heat flowing
@@ -107,7 +110,7 @@ class Gap:
 Element = Solid | Gap
 
 
-class StackError(ValueError):
+class StackError(PlyriskError, ValueError):
     """An invalid element, boundary or arrangement.
 
     ``index`` is the position of the offending element in the stack (hot → cold) or ``None``;

@@ -17,21 +17,27 @@ from collections.abc import Callable, Sequence
 from dataclasses import asdict
 from pathlib import Path
 
-from uq.analysis import AnalysisError
-from uq.cautions import cautions_text
-from uq.check_text import check_text
-from uq.compute import SchedulerError
-from uq.config import MIN_SAMPLES, load_study, override, require_runnable
-from uq.errors import ConfigError
-from uq.pipeline import check_memory, default_output_dir, memory_rows, run_study, summary_text
-from uq.report import write_report
-from uq.sequential import DEFAULT_MAX_RUNS
-from uq.storage import read_results
-from uq.store import StoreError
-from uq.study import Study
-from uq.targets import parse_target
-from uq.tolerance_io import manufacturing_table, tolerance_text, write_tolerance_csv
-from uq.tolerances import run_tolerances, settings_for_study
+from plyrisk.analysis.study import AnalysisError
+from plyrisk.cautions import cautions_text
+from plyrisk.errors import ConfigError
+from plyrisk.pipeline.run import (
+    check_memory,
+    default_output_dir,
+    memory_rows,
+    run_study,
+    summary_text,
+)
+from plyrisk.pipeline.sequential import DEFAULT_MAX_RUNS
+from plyrisk.propagate.compute import SchedulerError
+from plyrisk.propagate.store import StoreError
+from plyrisk.report.html import write_report
+from plyrisk.results.dataset import read_results
+from plyrisk.study.config import MIN_SAMPLES, load_study, override, require_runnable
+from plyrisk.study.definition import Study
+from plyrisk.study.targets import parse_target
+from plyrisk.text.check import check_text
+from plyrisk.tolerances.output import manufacturing_table, tolerance_text, write_tolerance_csv
+from plyrisk.tolerances.study import run_tolerances, settings_for_study
 
 PROG = "plyrisk"
 

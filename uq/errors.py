@@ -3,7 +3,16 @@
 from __future__ import annotations
 
 
-class ConfigError(ValueError):
+class PlyriskError(Exception):
+    """Base class of every error plyrisk reports to a user.
+
+    ``str(err)`` is one line that says what was wrong and what was expected. The command line
+    prints it after ``plyrisk: error:`` and exits with code 2; a Python caller can catch every
+    user-facing error with ``except plyrisk.PlyriskError``.
+    """
+
+
+class ConfigError(PlyriskError, ValueError):
     """A mistake in a study config or its file.
 
     ``str(err)`` is one line, ``"<file>: <key path>: <message>"``, e.g.

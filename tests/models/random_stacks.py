@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from models.boundary import (
+from plyrisk.models.boundary import (
     ColdEnvironment,
     ColdSurface,
     ColdTemperature,
@@ -18,7 +18,7 @@ from models.boundary import (
     HotFlux,
     HotTemperature,
 )
-from models.stack import GAP_ORIENTATIONS, Gap, Solid
+from plyrisk.models.stack import GAP_ORIENTATIONS, Gap, Solid
 
 HOT_KINDS = ("flux", "temperature", "environment")
 COLD_KINDS = ("temperature", "surface", "environment")

@@ -8,10 +8,10 @@ import numpy as np
 import pytest
 from CoolProp.CoolProp import PropsSI
 
-from models import air
+from plyrisk.models import air
 
 P_ATM = 101325.0  # [Pa] # common practice (standard atmosphere)
-GRID = np.linspace(250.0, 1500.0, 26)  # [K], the documented range of models.air
+GRID = np.linspace(250.0, 1500.0, 26)  # [K], the documented range of plyrisk.models.air
 
 
 def coolprop(quantity: str, temperature: np.ndarray) -> np.ndarray:

@@ -6,10 +6,10 @@ import numpy as np
 import pytest
 from CoolProp.CoolProp import PropsSI
 
-from models import convection
-from models.boundary import ColdTemperature, HotTemperature
-from models.network import solve_network
-from models.stack import Gap, Solid
+from plyrisk.models import convection
+from plyrisk.models.boundary import ColdTemperature, HotTemperature
+from plyrisk.models.network import solve_network
+from plyrisk.models.stack import Gap, Solid
 
 # Source: Chandrasekhar, Hydrodynamic and Hydromagnetic Stability (1961): a horizontal fluid
 # layer between rigid plates heated from below becomes unstable at Ra = 1708 (1707.76).
@@ -144,7 +144,8 @@ def test_vertical_at_least_one_and_continuous():
     for aspect in (5.0, 20.0, 60.0, 110.0):
         nu = convection.nusselt_vertical(ra, aspect)
         assert np.all(nu >= 1.0)
-        assert np.all(np.diff(nu) >= 0.0)  # more buoyancy never lowers the heat transfer
+        # more buoyancy never lowers the heat transfer (to within rounding of the power laws)
+        assert np.all(np.diff(nu) >= -4 * np.finfo(float).eps * nu[1:])
         # Continuity across the branch switches: on this grid (d ln Ra = 8.4e-4) a continuous
         # Nu with d ln Nu / d ln Ra below 1 changes by less than 1e-3 relative per step; a jump
         # where the max() switches branch would show as a larger change.

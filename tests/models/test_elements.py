@@ -6,7 +6,7 @@ import numpy as np
 import pytest
 from scipy.constants import Stefan_Boltzmann as SIGMA
 
-from models import air, elements
+from plyrisk.models import air, elements
 
 RNG_SEED = 20240611
 

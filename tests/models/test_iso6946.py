@@ -22,9 +22,9 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from models.boundary import ColdTemperature, HotTemperature
-from models.network import solve_network
-from models.stack import Gap, Solid
+from plyrisk.models.boundary import ColdTemperature, HotTemperature
+from plyrisk.models.network import solve_network
+from plyrisk.models.stack import Gap, Solid
 
 CELSIUS = 273.15  # [K] # common practice
 # Source: ISO 6946, table "Thermal resistance of unventilated air layers: high emissivity

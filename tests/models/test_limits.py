@@ -31,8 +31,8 @@ from hypothesis import strategies as st
 from scipy.constants import Stefan_Boltzmann as SIGMA
 from scipy.optimize import brentq
 
-from models import air
-from models.boundary import (
+from plyrisk.models import air
+from plyrisk.models.boundary import (
     ColdEnvironment,
     ColdSurface,
     ColdTemperature,
@@ -40,8 +40,8 @@ from models.boundary import (
     HotFlux,
     HotTemperature,
 )
-from models.network import solve_network
-from models.stack import Gap, Solid
+from plyrisk.models.network import solve_network
+from plyrisk.models.stack import Gap, Solid
 
 SOLVER_SLACK = 2e-6  # [K], two solves each within the 1e-6 K default tolerance
 CHECKS = settings(max_examples=60, deadline=None, derandomize=True, database=None)

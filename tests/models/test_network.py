@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 from scipy.constants import Stefan_Boltzmann as SIGMA
 
-from models.boundary import (
+from plyrisk.models.boundary import (
     ColdEnvironment,
     ColdSurface,
     ColdTemperature,
@@ -16,9 +16,9 @@ from models.boundary import (
     HotFlux,
     HotTemperature,
 )
-from models.network import solve_network
-from models.reference import reference_fluxes, select_sample
-from models.stack import Solid
+from plyrisk.models.network import solve_network
+from plyrisk.models.reference import reference_fluxes, select_sample
+from plyrisk.models.stack import Solid
 from tests.models.random_stacks import COLD_KINDS, HOT_KINDS, random_case
 
 SEED = 918273
@@ -199,7 +199,7 @@ def test_solution_labels_and_inner_surface():
 
 
 def test_surface_cold_side_inner_face_is_last_solid():
-    from models.stack import Gap
+    from plyrisk.models.stack import Gap
 
     layers = [Solid("shell", 1e-3, 0.2), Gap("air", 3e-3)]
     sol = solve_network(layers, HotTemperature(500.0), ColdSurface(306.0))

@@ -7,10 +7,10 @@ import itertools
 import numpy as np
 import pytest
 
-from models.boundary import ColdTemperature, HotFlux, HotTemperature
-from models.network import solve_network
-from models.reference import select_sample, solve_reference
-from models.stack import Gap, Solid, StackError
+from plyrisk.models.boundary import ColdTemperature, HotFlux, HotTemperature
+from plyrisk.models.network import solve_network
+from plyrisk.models.reference import select_sample, solve_reference
+from plyrisk.models.stack import Gap, Solid, StackError
 from tests.models.random_stacks import COLD_KINDS, HOT_KINDS, random_case
 
 SEED = 5550123

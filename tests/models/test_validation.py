@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from models.boundary import (
+from plyrisk.models.boundary import (
     ColdEnvironment,
     ColdSurface,
     ColdTemperature,
@@ -13,8 +13,8 @@ from models.boundary import (
     HotFlux,
     HotTemperature,
 )
-from models.network import solve_network
-from models.stack import Gap, Solid, StackError
+from plyrisk.models.network import solve_network
+from plyrisk.models.stack import Gap, Solid, StackError
 
 HOT = HotTemperature(500.0)
 COLD = ColdTemperature(300.0)

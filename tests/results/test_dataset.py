@@ -1,0 +1,68 @@
+"""The results dataset: every variable carries units and long_name; NetCDF round trip."""
+
+import numpy as np
+import pytest
+import xarray as xr
+
+from plyrisk.pipeline.run import run_study
+from plyrisk.results.dataset import read_results, scenario_slices
+from plyrisk.study.config import loads_study
+from tests.study_texts import panel
+
+UNCERTAIN = {
+    "shell_thickness": '{ nominal = "0.8 mm", tolerance = "0.1 mm" }',
+    "gap_width": '{ lognormal = { median = "3 mm", gsd = 1.3 } }',
+}
+SWEEP = '[scenarios]\nquantity = "incident_flux"\nvalues = ["2 kW/m^2", "4 kW/m^2"]'
+
+
+@pytest.fixture(scope="module")
+def swept(tmp_path_factory):
+    out = tmp_path_factory.mktemp("swept")
+    return run_study(loads_study(panel(**UNCERTAIN, samples=32, extra=SWEEP)), out_dir=out,
+                     quiet=True)
+
+
+def test_round_trip_is_identical(swept):
+    back = read_results(swept.path)
+    xr.testing.assert_identical(back, swept.dataset)
+
+
+def test_every_variable_has_units_and_long_name(swept):
+    ds = swept.dataset
+    for name, var in {**ds.coords, **ds.data_vars}.items():
+        assert "units" in var.attrs, name
+        assert "long_name" in var.attrs, name
+
+
+def test_expected_dimensions_and_variables(swept):
+    ds = swept.dataset
+    for dim in ("sample", "parameter", "interface", "layer", "quantile", "scenario"):
+        assert dim in ds.dims
+    for name in ("inner_surface_temperature", "heat_flux", "interface_temperature", "converged",
+                 "input", "sobol_first", "sobol_total", "sobol_first_ci", "sobol_total_ci",
+                 "sobol_group_first", "sobol_group_total", "inner_surface_temperature_quantile",
+                 "inner_surface_temperature_quantile_lower", "exceedance_probability",
+                 "exceedance_probability_upper"):
+        assert name in ds.data_vars, name
+    assert ds["inner_surface_temperature"].dims == ("scenario", "sample")
+    assert list(ds["parameter_group"].values) == ["shell", "gap"]
+    assert ds.attrs["seed"] == 3 and ds.attrs["method"] == "saltelli"
+    assert "[study]" in ds.attrs["config_text"]
+    assert ds.attrs["version_numpy"] == np.__version__
+    assert len(list(scenario_slices(ds))) == 2
+
+
+def test_unswept_study_has_no_scenario_dimension(tmp_path):
+    result = run_study(loads_study(panel(**UNCERTAIN, samples=16)), out_dir=tmp_path, quiet=True)
+    ds = result.dataset
+    assert "scenario" not in ds.dims
+    assert [label for label, _ in scenario_slices(ds)] == [""]
+    xr.testing.assert_identical(read_results(result.path), ds)
+
+
+def test_same_config_and_seed_give_identical_datasets(tmp_path):
+    text = panel(**UNCERTAIN, samples=32)
+    a = run_study(loads_study(text), quiet=True, chunk_size=17).dataset
+    b = run_study(loads_study(text), quiet=True, chunk_size=4096).dataset
+    xr.testing.assert_identical(a, b)

@@ -1,0 +1,354 @@
+"""Analysis of a stored study too large to hold in memory, in passes over blocks of rows.
+
+Used by :func:`plyrisk.pipeline.run.run_study` for stores of more than ``STREAM_ROWS`` rows (smaller
+stores are loaded and analysed by :func:`plyrisk.analysis.study.analyse`); which path is used
+depends only
+on the study's size, never on how or where it was solved. Memory is bounded by the block size.
+
+* Quantiles are exact order statistics, found without sorting everything: pass 1 takes each
+  column's range, pass 2 a histogram of ``HISTOGRAM_BINS`` bins, pass 3 keeps only the values in
+  the bins that hold a wanted rank and sorts those. The estimate is numpy's linear
+  interpolation between order statistics (eq. S.1, ``h = (n - 1) p``), the interval the same
+  order-statistic ranks as :func:`plyrisk.analysis.statistics.quantiles`.
+* Exceedance and the onset / air-range / non-convergence counts are sums.
+* Sobol' indices use SALib's estimators (output normalized by its mean and standard deviation
+  over the kept rows; S_j = mean(f_B (f_ABj - f_A)) / V, S_Tj = mean((f_A - f_ABj)^2) / (2 V),
+  V = var([f_A, f_B])), accumulated over base rows. Their intervals come from a delete-one-batch
+  jackknife over ``JACKKNIFE_BATCHES`` fixed batches of base rows (the bootstrap of the
+  in-memory path would need N x resamples indices): half-width = z sqrt((B-1)/B sum_b
+  (theta_(b) - mean theta)^2).
+* Rank correlations and (for lhs/random designs) the polynomial-chaos indices use the first
+  ``SUBSAMPLE_ROWS`` independent rows; a note says so.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from scipy import stats
+
+from plyrisk.analysis.sobol import SobolIndices
+from plyrisk.analysis.statistics import (
+    QuantileEstimate,
+    _order_statistic_ranks,
+    exceedance_from_counts,
+)
+from plyrisk.analysis.study import (
+    BAND_PROBABILITIES,
+    AnalysisError,
+    ScenarioAnalysis,
+    StudyAnalysis,
+    SurrogateResult,
+    _rank_correlation,
+    _scenario_text,
+    fit_surrogate,
+    rank_indices,
+)
+from plyrisk.propagate.evaluate import parameter_groups, study_plan
+
+STREAM_ROWS = 2**21
+"""Stores with more rows than this are analysed in passes rather than loaded [-]."""
+
+BLOCK_ROWS = 2**20
+"""Rows read per block (rounded down to whole base rows) [-]."""
+
+HISTOGRAM_BINS = 2**16
+"""Bins of the histogram that locates each wanted order statistic [-]."""
+
+JACKKNIFE_BATCHES = 64
+"""Batches of base rows for the jackknife intervals of streamed Sobol' indices [-]."""
+
+SUBSAMPLE_ROWS = 2**16
+"""Leading independent rows used for rank correlations and the PCE surrogate [-]."""
+
+
+def _blocks(n_rows: int, step: int, block_rows: int):
+    size = max(block_rows - block_rows % step, step)
+    for start in range(0, n_rows, size):
+        yield start, min(start + size, n_rows)
+
+
+class _Quantiles:
+    """Exact order statistics of several columns from three passes over blocks."""
+
+    def __init__(self, n_columns: int) -> None:
+        self.lo = np.full(n_columns, np.inf)
+        self.hi = np.full(n_columns, -np.inf)
+        self.n = np.zeros(n_columns, dtype=np.int64)
+        self.hist: np.ndarray | None = None
+        self.kept: list[list[np.ndarray]] = [[] for _ in range(n_columns)]
+
+    def range_pass(self, x: np.ndarray) -> None:
+        for j in range(x.shape[1]):
+            v = x[:, j][np.isfinite(x[:, j])]
+            if v.size:
+                self.lo[j] = min(self.lo[j], v.min())
+                self.hi[j] = max(self.hi[j], v.max())
+            self.n[j] += v.size
+
+    def _bins(self, v: np.ndarray, j: int) -> np.ndarray:
+        width = (self.hi[j] - self.lo[j]) / HISTOGRAM_BINS
+        if width <= 0:
+            return np.zeros(v.size, dtype=np.int64)
+        return np.clip(((v - self.lo[j]) / width).astype(np.int64), 0, HISTOGRAM_BINS - 1)
+
+    def histogram_pass(self, x: np.ndarray) -> None:
+        if self.hist is None:
+            self.hist = np.zeros((x.shape[1], HISTOGRAM_BINS), dtype=np.int64)
+        for j in range(x.shape[1]):
+            v = x[:, j][np.isfinite(x[:, j])]
+            self.hist[j] += np.bincount(self._bins(v, j), minlength=HISTOGRAM_BINS)
+
+    def wanted(self, probabilities: np.ndarray, confidence: float) -> None:
+        """Fix the 1-based ranks needed per column and the bins that hold them."""
+        self.ranks, self.keep_bins = [], []
+        for j in range(len(self.n)):
+            n = int(self.n[j])
+            ranks: set[int] = set()
+            for p in probabilities:
+                h = (n - 1) * p
+                ranks.update({int(np.floor(h)) + 1, min(int(np.floor(h)) + 2, n)})
+                lo, hi = _order_statistic_ranks(n, float(p), 1.0 - confidence)
+                ranks.update(r for r in (lo, hi) if 1 <= r <= n)
+            cum = np.cumsum(self.hist[j])
+            bins = {int(np.searchsorted(cum, r)) for r in ranks}
+            self.ranks.append(sorted(ranks))
+            self.keep_bins.append(np.array(sorted(bins)))
+
+    def collect_pass(self, x: np.ndarray) -> None:
+        for j in range(x.shape[1]):
+            v = x[:, j][np.isfinite(x[:, j])]
+            self.kept[j].append(v[np.isin(self._bins(v, j), self.keep_bins[j])])
+
+    def result(self, j: int, probabilities: np.ndarray, confidence: float) -> QuantileEstimate:
+        n = int(self.n[j])
+        cum = np.concatenate([[0], np.cumsum(self.hist[j])])
+        values = np.sort(np.concatenate(self.kept[j]))
+        # rank r lies in bin b = searchsorted(cum[1:], r); the kept values are the bins in
+        # keep_bins, in order, so rank r is at offset (r - 1 - cum[b]) within its bin's run
+        starts, offset = {}, 0
+        for b in self.keep_bins[j]:
+            starts[int(b)] = offset
+            offset += int(self.hist[j][b])
+
+        def order(r: int) -> float:
+            b = int(np.searchsorted(cum[1:], r))
+            return float(values[starts[b] + r - 1 - int(cum[b])])
+
+        est = np.empty(probabilities.size)
+        lower = np.full(probabilities.size, np.nan)
+        upper = np.full(probabilities.size, np.nan)
+        for i, p in enumerate(probabilities):
+            h = (n - 1) * p                       # (S.1)
+            f = int(np.floor(h))
+            a, b = order(f + 1), order(min(f + 2, n))
+            g = h - f
+            est[i] = a + (b - a) * g if g < 0.5 else b - (b - a) * (1 - g)
+            lo, hi = _order_statistic_ranks(n, float(p), 1.0 - confidence)
+            if lo >= 1:
+                lower[i] = order(lo)
+            if hi <= n:
+                upper[i] = order(hi)
+        for arr in (est, lower, upper):
+            arr.setflags(write=False)
+        return QuantileEstimate(probabilities, est, lower, upper, confidence, n)
+
+
+class MemoryRows:
+    """An in-memory propagation read like a store, for the jackknife estimator."""
+
+    def __init__(self, propagation) -> None:
+        self.propagation = propagation
+        self.group = type("Attrs", (), {"attrs": {
+            "interface_names": list(propagation.outputs.interface_names)}})()
+
+    def read(self, name: str, start: int = 0, stop: int | None = None) -> np.ndarray:
+        if name == "input":
+            return self.propagation.inputs[start:stop]
+        return self.propagation.outputs[name][:, start:stop]
+
+
+def sobol_jackknife(rows, output: str, scenario: int, study, *, confidence: float):
+    """Sobol' indices of one output with batch-jackknife intervals, in blocks of rows.
+
+    Parameters
+    ----------
+    rows
+        A :class:`plyrisk.propagate.store.StoreReader` or :class:`MemoryRows` [-].
+    output
+        Output name [-].
+    scenario
+        Scenario index [-].
+    study
+        The parsed study [-].
+    confidence
+        Level of the intervals [-].
+
+    Returns
+    -------
+    tuple of SobolIndices
+        Per parameter, per group (``None`` without groups).
+    """
+    plan = study_plan(study)
+    names = [p.name for p in study.parameters]
+    return _sobol_streamed(rows, output, scenario, study, plan, names,
+                           parameter_groups(study)[0], confidence, plan.rows_per_base)
+
+
+def _sobol_streamed(reader, output, s, study, plan, names, group_names, confidence, step):
+    """Streamed Sobol' indices of one output of one scenario (per parameter, per group)."""
+    from plyrisk.analysis.study import output_column
+
+    d = plan.n_params
+    n_base = plan.samples
+    codes = plan.rows(0, step)[1]
+    col = {int(c): k for k, c in enumerate(codes)}
+    ab = [col[2 + j] for j in range(d)]
+    grp = [ab[g[0]] if len(g) == 1 else col[2 + d + k] for k, g in enumerate(plan.groups)]
+    cols = ab + grp
+    batches = JACKKNIFE_BATCHES
+    # pass 1: per-column sums over the kept rows (base rows whose every value is finite)
+    colsum = np.zeros(step)
+    used = 0
+    for start, stop in _blocks(plan.n_rows, step, BLOCK_ROWS):
+        t = output_column(reader, output, s, start, stop).reshape(-1, step)
+        t = t[np.isfinite(t).all(axis=1)]
+        used += t.shape[0]
+        colsum += t.sum(axis=0)
+    if used < 2:
+        raise AnalysisError(f"only {used} of {n_base} base rows have finite outputs")
+    shift = colsum.sum() / (used * step)
+    # SALib centres the output on the mean of the columns it is given: A, the AB columns
+    # (per parameter, or one per group) and B; centring only moves f_B in S_j's numerator
+    centre = [(colsum[[col[0], *ab, col[1]]].sum() / (used * (d + 2)) - shift),
+              (colsum[[col[0], *grp, col[1]]].sum() / (used * (len(grp) + 2)) - shift)]
+    k = len(cols)
+    # per batch: rows, sum fA, fA^2, fB, fB^2; then per column sum fB (fAB - fA),
+    # (fA - fAB)^2 and (fAB - fA)
+    acc = np.zeros((batches, 5 + 3 * k))
+    for start, stop in _blocks(plan.n_rows, step, BLOCK_ROWS):
+        t = output_column(reader, output, s, start, stop).reshape(-1, step)
+        batch = (np.arange(start // step, stop // step) * batches) // n_base
+        keep = np.isfinite(t).all(axis=1)
+        t, batch = t[keep] - shift, batch[keep]
+        fa, fb = t[:, col[0]], t[:, col[1]]
+        diff = t[:, cols] - fa[:, None]
+        parts = np.column_stack([np.ones_like(fa), fa, fa**2, fb, fb**2,
+                                 fb[:, None] * diff, diff**2, diff])
+        np.add.at(acc, batch, parts)
+    offset = np.concatenate([np.full(d, centre[0]), np.full(k - d, centre[1])])
+
+    def indices(sums: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        m = sums[0]
+        pooled = (sums[1] + sums[3]) / (2 * m)
+        var = (sums[2] + sums[4]) / (2 * m) - pooled**2
+        first = (sums[5:5 + k] - offset * sums[5 + 2 * k:]) / m / var
+        return first, 0.5 * sums[5 + k:5 + 2 * k] / m / var
+
+    s1, st = indices(acc.sum(axis=0))
+    leave = [indices(acc.sum(axis=0) - acc[b]) for b in range(batches)]
+    z = float(stats.norm.ppf(0.5 + confidence / 2))
+
+    def half(which: int) -> np.ndarray:
+        th = np.array([x[which] for x in leave])
+        return z * np.sqrt((batches - 1) / batches * np.sum((th - th.mean(0)) ** 2, axis=0))
+
+    s1c, stc = half(0), half(1)
+    dropped = n_base - used
+    out = []
+    for sl, labels in ((slice(0, d), names), (slice(d, k), group_names)):
+        vals = tuple(np.array(v[sl]) for v in (s1, s1c, st, stc))
+        for v in vals:
+            v.setflags(write=False)
+        out.append(SobolIndices(tuple(labels), *vals, confidence, used, dropped))
+    return out[0], (out[1] if plan.groups else None)
+
+
+def stream_analyse(study, reader) -> StudyAnalysis:
+    """Percentiles, exceedance, Sobol' indices and rankings of a stored study, in passes.
+
+    Parameters
+    ----------
+    study
+        The parsed study [-].
+    reader
+        The filled store (:class:`plyrisk.propagate.store.StoreReader`) [-].
+
+    Returns
+    -------
+    StudyAnalysis
+        As :func:`plyrisk.analysis.study.analyse` gives, with intervals of the indices from the
+        batch
+        jackknife.
+    """
+    from plyrisk.analysis.study import output_column
+
+    a = study.analysis
+    plan = study_plan(study)
+    step = plan.rows_per_base
+    probabilities = np.array(sorted(set(a.percentiles) | set(BAND_PROBABILITIES)))
+    outputs = ("inner_surface_temperature",
+               *[o for o in a.outputs if o != "inner_surface_temperature"])
+    group_names = parameter_groups(study)[0]
+    names = [p.name for p in study.parameters]
+    n_s = 1 if study.scenarios is None else len(study.scenarios.values)
+    independent = (np.arange(step) == 0) | (np.arange(step) == step - 1) if plan.method == \
+        "sobol" else np.ones(1, dtype=bool)
+    n_independent = plan.n_rows // step * int(independent.sum())
+    notes = [f"{plan.n_rows} evaluations were analysed from the store in passes: exact "
+             f"percentiles; Sobol index intervals from a {JACKKNIFE_BATCHES}-batch jackknife; "
+             f"rank correlations{' and the polynomial-chaos fit' if a.method == 'pce' else ''} "
+             f"from the first {min(SUBSAMPLE_ROWS, n_independent)} independent samples"]
+    result = []
+    for s in range(n_s):
+        faces = reader.group["interface_temperature"].shape[-1]
+        q = _Quantiles(1 + faces)
+        counts = np.zeros(5, dtype=np.int64)  # above limit, nonconverged, onset, air range, n
+
+        def columns(start, stop, s=s):
+            rows = np.tile(independent, (stop - start) // independent.size)
+            inner = output_column(reader, "inner_surface_temperature", s, start, stop)[rows]
+            face = reader.read("interface_temperature", start, stop)[s][rows]
+            return np.column_stack([inner, face])
+
+        blocks = list(_blocks(plan.n_rows, step, BLOCK_ROWS))
+        for start, stop in blocks:
+            x = columns(start, stop)
+            q.range_pass(x)
+            ok = np.isfinite(x[:, 0])
+            counts += [int(np.sum(x[ok, 0] > a.limit)), 0, 0, 0, int(ok.sum())]
+            counts[1] += int(np.sum(~reader.read("converged", start, stop)[s]))
+            counts[2] += int(np.sum(reader.read("convection_onset", start, stop)[s].any(axis=1)))
+            counts[3] += int(np.sum(reader.read("air_range_exceeded", start, stop)[s]))
+        if counts[4] == 0:
+            raise AnalysisError(f"no sample converged{_scenario_text(study, s)}")
+        for start, stop in blocks:
+            q.histogram_pass(columns(start, stop))
+        q.wanted(probabilities, a.confidence)
+        for start, stop in blocks:
+            q.collect_pass(columns(start, stop))
+        quant = [q.result(j, probabilities, a.confidence) for j in range(1 + faces)]
+        sub = min(plan.n_rows, SUBSAMPLE_ROWS // max(int(independent.sum()), 1) * step)
+        rows = np.tile(independent, sub // independent.size)
+        y_sub = output_column(reader, "inner_surface_temperature", s, 0, sub)[rows]
+        x_sub = reader.read("input", 0, sub)[rows]
+        indices = {}
+        if a.method == "saltelli" and names:
+            indices = {o: _sobol_streamed(reader, o, s, study, plan, names, group_names,
+                                          a.confidence, step) for o in outputs}
+        ranking, group_ranking = rank_indices(indices, a.index_ci_threshold)
+        pce = SurrogateResult()
+        if a.method == "pce" and names:
+            pce = fit_surrogate(study, plan.rows(0, sub)[0][rows], y_sub, probabilities)
+            ranking.update(pce.ranking)
+            group_ranking.update(pce.group_ranking)
+        result.append(ScenarioAnalysis(
+            inner_quantiles=quant[0], interface_quantiles=quant[1:],
+            exceedance=exceedance_from_counts(int(counts[0]), int(counts[4]), a.limit,
+                                              confidence=a.confidence),
+            indices=indices, ranking=ranking, group_ranking=group_ranking,
+            rank_correlation=_rank_correlation(x_sub, y_sub), nonconverged=int(counts[1]),
+            surrogate=pce.indices, surrogate_groups=pce.groups,
+            surrogate_quantiles=pce.quantiles, surrogate_quantile_status=pce.status,
+            onset_samples=int(counts[2]), air_range_samples=int(counts[3]),
+        ))
+    return StudyAnalysis(result, probabilities, outputs, tuple(group_names), notes)

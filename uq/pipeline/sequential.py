@@ -1,0 +1,231 @@
+"""Sequential growth of a Saltelli study until every index interval is narrow enough.
+
+Doubling the base samples N extends the same scrambled Sobol' sequence: the design of 2N base
+rows is the design of N base rows followed by the design of base rows [N, 2N)
+(:func:`plyrisk.design.sampling.sobol_design` with ``start``; the Saltelli rows are grouped per
+base row),
+so the model runs already made are all reused and only the new rows are evaluated (with
+:func:`plyrisk.propagate.evaluate.evaluate`). After each step the study is analysed as if it had
+been run
+at that N from the start — the results are bit-identical to such a run — and the growth stops
+when every index interval (first and total, per parameter and per layer, every output and
+exposure) has a half-width at most ``index_ci_threshold``, or when the next doubling would
+pass the run budget.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, replace
+
+import numpy as np
+import xarray as xr
+
+from plyrisk.analysis.study import StudyAnalysis, analyse
+from plyrisk.design.sampling import Design, sobol_design
+from plyrisk.propagate.evaluate import (
+    Outputs,
+    Propagation,
+    evaluate,
+    parameter_groups,
+    scenario_count,
+    unit_to_inputs,
+)
+
+DEFAULT_MAX_RUNS = 1_000_000
+"""Model-run budget of a growth when none is given (all exposures) [-]."""
+
+
+@dataclass(frozen=True)
+class GrowthStep:
+    """One step of the growth.
+
+    Attributes
+    ----------
+    base_samples
+        N of the step [-].
+    runs
+        Model runs so far, every exposure [-].
+    widest
+        Largest index half-width over every index, output and exposure [-].
+    unconverged
+        Indices whose half-width is above the target [-].
+    """
+
+    base_samples: int
+    runs: int
+    widest: float
+    unconverged: int
+
+
+@dataclass(frozen=True)
+class Growth:
+    """The outcome of a growth: the final study, propagation and analysis, and its path.
+
+    Attributes
+    ----------
+    study, propagation, analysis
+        At the last step (``study.analysis.samples`` is its N) [-].
+    steps
+        Every step, first to last [-].
+    converged
+        Every interval met the target [-].
+    reason
+        Why the growth stopped [-].
+    target, max_runs
+        The half-width target and the run budget [-].
+    """
+
+    study: object
+    propagation: Propagation
+    analysis: StudyAnalysis
+    steps: tuple[GrowthStep, ...]
+    converged: bool
+    reason: str
+    target: float
+    max_runs: int
+
+
+def interval_widths(analysis: StudyAnalysis, target: float) -> tuple[float, int]:
+    """The widest index half-width and the number of indices wider than ``target`` [-].
+
+    Parameters
+    ----------
+    analysis
+        A Saltelli analysis [-].
+    target
+        Half-width target [-].
+
+    Returns
+    -------
+    widest, unconverged
+        NaN half-widths (a constant output has no indices) are left out.
+    """
+    halves = []
+    for sc in analysis.scenarios:
+        for per, grouped in sc.indices.values():
+            for ind in (per, grouped):
+                if ind is not None:
+                    halves += [ind.first_ci, ind.total_ci]
+    h = np.concatenate(halves) if halves else np.zeros(0)
+    h = h[np.isfinite(h)]
+    return (float(h.max()) if h.size else 0.0), int(np.sum(h > target))
+
+
+def _join(first: Outputs, second: Outputs) -> Outputs:
+    fields = {k: np.concatenate([first[k], second[k]], axis=1) for k in first.fields}
+    return replace(first, fields=fields)
+
+
+def _stack(first: Design, second: Design) -> Design:
+    unit = np.vstack([first.unit, second.unit])
+    block = np.concatenate([first.block, second.block])
+    unit.setflags(write=False)
+    block.setflags(write=False)
+    return Design(unit, block, "sobol", first.base_samples + second.base_samples, first.groups)
+
+
+def grow_until_converged(study, *, max_runs: int | None = None, chunk_size: int | None = None,
+                         workers: int = 1) -> Growth:
+    """Double a Saltelli study's base samples until its index intervals are narrow enough.
+
+    Parameters
+    ----------
+    study
+        A ``method = "saltelli"`` study; ``analysis.samples`` is the first N and
+        ``analysis.index_ci_threshold`` the target half-width [-].
+    max_runs
+        Budget of model runs, every exposure counted; a doubling that would pass it is not
+        started [-].
+    chunk_size
+        Samples per evaluation chunk [-].
+    workers
+        Worker processes of a local dask cluster [-]; results do not depend on it.
+
+    Returns
+    -------
+    Growth
+    """
+    a = study.analysis
+    if a.method != "saltelli":
+        raise ValueError(f"sequential growth needs method = 'saltelli', got {a.method!r}")
+    budget = DEFAULT_MAX_RUNS if max_runs is None else int(max_runs)
+    d = len(study.parameters)
+    groups = parameter_groups(study)[1]
+    n_s = scenario_count(study)
+    n = int(a.samples)
+    design = sobol_design(n, d, seed=a.seed, groups=groups)
+    if design.n_rows * n_s > budget:
+        raise ValueError(f"the first step (N = {n}) needs {design.n_rows * n_s} model runs, "
+                         f"above the budget of {budget}")
+    inputs = unit_to_inputs(study.parameters, design.unit)
+    outputs = evaluate(study, inputs, chunk_size=chunk_size, workers=workers)
+    steps: list[GrowthStep] = []
+    while True:
+        current = replace(study, analysis=replace(a, samples=n))
+        prop = Propagation(design=design, inputs=inputs, outputs=outputs)
+        analysis = analyse(current, prop)
+        widest, wide = interval_widths(analysis, a.index_ci_threshold)
+        runs = design.n_rows * n_s
+        steps.append(GrowthStep(n, runs, widest, wide))
+        if wide == 0:
+            reason = (f"every index interval is at most ±{a.index_ci_threshold:g} at N = {n}")
+            return Growth(current, prop, analysis, tuple(steps), True, reason,
+                          a.index_ci_threshold, budget)
+        if 2 * runs > budget:
+            reason = (f"budget reached: doubling to N = {2 * n} would need {2 * runs} model "
+                      f"runs, above --max-runs {budget}; {wide} index interval(s) still wider "
+                      f"than ±{a.index_ci_threshold:g}")
+            return Growth(current, prop, analysis, tuple(steps), False, reason,
+                          a.index_ci_threshold, budget)
+        extra = sobol_design(n, d, seed=a.seed, groups=groups, start=n)
+        extra_inputs = unit_to_inputs(study.parameters, extra.unit)
+        extra_outputs = evaluate(study, extra_inputs, chunk_size=chunk_size, workers=workers)
+        design = _stack(design, extra)
+        inputs = np.vstack([inputs, extra_inputs])
+        outputs = _join(outputs, extra_outputs)
+        n *= 2
+
+
+def growth_lines(growth: Growth) -> list[str]:
+    """Summary lines: the path of interval widths and why the growth stopped [-]."""
+    lines = [f"sequential growth (--until-converged: target half-width ±{growth.target:g}, "
+             f"budget {growth.max_runs} model runs; earlier runs reused at every doubling):"]
+    for step in growth.steps:
+        lines.append(f"  N = {step.base_samples:>7}: {step.runs:>9} model runs, widest "
+                     f"half-width {step.widest:.4f}, {step.unconverged} wider than the target")
+    lines.append(("  converged: " if growth.converged else "  NOT converged: ") + growth.reason)
+    return lines
+
+
+def add_growth(ds: xr.Dataset, growth: Growth) -> xr.Dataset:
+    """The growth path as ``growth_*`` variables of a results dataset [-].
+
+    Parameters
+    ----------
+    ds
+        The dataset of the final step [-].
+    growth
+        The growth [-].
+    """
+    dims = ("growth_step",)
+
+    def var(values, dtype, long_name):
+        return xr.Variable(dims, np.array(values, dtype=dtype),
+                           {"units": "1", "long_name": long_name, "method": "saltelli"})
+
+    steps = growth.steps
+    new = {
+        "growth_base_samples": var([s.base_samples for s in steps], np.int64,
+                                   "base samples N of each growth step"),
+        "growth_runs": var([s.runs for s in steps], np.int64,
+                           "model runs made up to each growth step (every exposure)"),
+        "growth_widest_half_width": var([s.widest for s in steps], float,
+                                        "widest index interval half-width at each step"),
+        "growth_unconverged": var([s.unconverged for s in steps], np.int64,
+                                  "indices wider than the target at each step"),
+    }
+    out = ds.assign(new)
+    out.attrs.update({"growth_converged": int(growth.converged), "growth_reason": growth.reason,
+                      "growth_target": float(growth.target),
+                      "growth_max_runs": int(growth.max_runs)})
+    return out

@@ -1,0 +1,342 @@
+"""Propagation: unit-hypercube design → input values → model evaluations, chunk by chunk.
+
+Every sample is solved independently of every other (the network solver freezes each sample as
+soon as it converges), so the outputs are bit-identical whatever the chunk size. Random numbers
+come only from the design, which is drawn from the study seed.
+"""
+
+from __future__ import annotations
+
+import sys
+from collections.abc import Callable, Sequence
+from contextlib import contextmanager
+from dataclasses import dataclass
+
+import numpy as np
+
+from plyrisk.analysis.morris import morris_design
+from plyrisk.design.sampling import Design, DesignPlan
+from plyrisk.models.network import NetworkSolution, solve_network
+from plyrisk.propagate.compute import run_tasks
+from plyrisk.study.definition import assemble
+
+OUTPUT_FIELDS = (
+    "inner_surface_temperature",
+    "heat_flux",
+    "interface_temperature",
+    "layer_temperature_drop",
+    "layer_resistance",
+    "radiative_share",
+    "rayleigh_number",
+    "convection_onset",
+    "converged",
+    "iterations",
+    "air_range_exceeded",
+)
+"""Per-sample fields of :class:`plyrisk.models.network.NetworkSolution` kept by a propagation."""
+
+
+@dataclass(frozen=True)
+class Outputs:
+    """Model outputs for every scenario and sample.
+
+    Attributes
+    ----------
+    fields
+        Name → array of shape ``(n_scenarios, n_samples, ...)`` for each of ``OUTPUT_FIELDS``
+        (units as in :class:`plyrisk.models.network.NetworkSolution`).
+    interface_names, element_names, element_kinds, element_layers
+        Labels from the network solution.
+    inner_surface_index
+        Column of ``interface_temperature`` that is the inner surface [-].
+    """
+
+    fields: dict[str, np.ndarray]
+    interface_names: tuple[str, ...]
+    element_names: tuple[str, ...]
+    element_kinds: tuple[str, ...]
+    element_layers: tuple[int, ...]
+    inner_surface_index: int
+
+    def __getitem__(self, name: str) -> np.ndarray:
+        return self.fields[name]
+
+    @property
+    def nonconverged(self) -> np.ndarray:
+        """Number of samples that did not converge, per scenario, shape ``(n_scenarios,)``."""
+        return np.sum(~self.fields["converged"], axis=1)
+
+
+@dataclass(frozen=True)
+class Propagation:
+    """A propagated study: the design, the input values and the outputs.
+
+    Attributes
+    ----------
+    design
+        The unit-hypercube design.
+    inputs
+        Input values, shape ``(n_samples, n_parameters)``, SI units of each parameter.
+    outputs
+        Model outputs for every scenario.
+    """
+
+    design: Design
+    inputs: np.ndarray
+    outputs: Outputs
+
+
+def unit_to_inputs(parameters: Sequence, unit: np.ndarray) -> np.ndarray:
+    """Map unit-hypercube columns through each parameter's inverse CDF.
+
+    Parameters
+    ----------
+    parameters
+        Uncertain parameters (each with a ``distribution``), one per column. [-]
+    unit
+        Points in the open unit cube, shape ``(n, d)`` [-].
+
+    Returns
+    -------
+    numpy.ndarray
+        Input values, shape ``(n, d)``, SI.
+    """
+    unit = np.asarray(unit, dtype=float)
+    out = np.empty_like(unit)
+    for j, p in enumerate(parameters):
+        out[:, j] = p.distribution.ppf(unit[:, j])
+    return out
+
+
+def model_objects(study, values: np.ndarray | None = None, *, scenario: int | None = None):
+    """Build the model's layers and boundaries for a block of samples.
+
+    Parameters
+    ----------
+    study
+        The parsed study (:class:`plyrisk.study.config.Study`). [-]
+    values
+        Input values, shape ``(n, d)`` in the order of ``study.parameters`` (SI); ``None`` for
+        the nominal stack. [SI]
+    scenario
+        Index of the swept exposure to apply, or ``None``. [-]
+
+    Returns
+    -------
+    layers, hot_side, cold_side
+    """
+    columns = {} if values is None else {
+        p.name: values[:, j] for j, p in enumerate(study.parameters)
+    }
+    return assemble(study, columns, scenario=scenario if study.scenarios is not None else None)
+
+
+def _solve(study, values: np.ndarray | None, scenario: int | None) -> NetworkSolution:
+    layers, hot, cold = model_objects(study, values, scenario=scenario)
+    # validate=False: the distributions keep every draw inside its physical bounds
+    return solve_network(layers, hot, cold, validate=False, **study.model.solver_kwargs())
+
+
+def scenario_count(study) -> int:
+    """Number of exposures evaluated: the sweep length, or 1 [-]."""
+    return 1 if study.scenarios is None else len(study.scenarios.values)
+
+
+def _evaluate_block(study, block: np.ndarray) -> list[NetworkSolution]:
+    """Solve one chunk of samples for every scenario (runs on a worker too)."""
+    scenarios = [None] if study.scenarios is None else range(scenario_count(study))
+    return [_solve(study, block, scenario) for scenario in scenarios]
+
+
+def _evaluate_range(study, start: int, block: np.ndarray):
+    """A task of :func:`evaluate`: the chunk's first row and its solutions."""
+    return start, start + block.shape[0], _evaluate_block(study, block)
+
+
+def evaluate(
+    study,
+    values: np.ndarray,
+    *,
+    chunk_size: int | None = None,
+    progress: Callable[[int], None] | None = None,
+    workers: int = 1,
+    scheduler: str | None = None,
+) -> Outputs:
+    """Evaluate the network for every sample and every scenario, in chunks of bounded memory.
+
+    Parameters
+    ----------
+    study
+        The parsed study. [-]
+    values
+        Input values, shape ``(n, d)`` (SI). [SI]
+    chunk_size
+        Samples per chunk [-]; default from the study. Results do not depend on it.
+    progress
+        Called with the number of samples finished after each chunk. [-]
+    workers
+        Worker processes of a local dask cluster solving chunks in parallel [-]; 1 solves in
+        this process. Results do not depend on it: every sample is solved independently.
+    scheduler
+        Address of an existing dask scheduler to solve the chunks on instead [-].
+
+    Returns
+    -------
+    Outputs
+    """
+    values = np.asarray(values, dtype=float)
+    n = values.shape[0]
+    chunk = int(chunk_size or study.analysis.chunk_size)
+    if chunk < 1:
+        raise ValueError(f"chunk_size must be at least 1, got {chunk}")
+    if int(workers) < 1:
+        raise ValueError(f"workers must be at least 1, got {workers}")
+    n_s = scenario_count(study)
+    bounds = [(start, min(start + chunk, n)) for start in range(0, max(n, 1), chunk)]
+    store: dict[str, np.ndarray] = {}
+    meta: list[NetworkSolution] = []
+
+    def keep(result) -> None:
+        start, stop, solutions = result
+        if not meta:
+            meta.append(solutions[0])
+            for name in OUTPUT_FIELDS:
+                v = getattr(solutions[0], name)
+                store[name] = np.empty((n_s, n, *v.shape[1:]), dtype=v.dtype)
+        for s_index, sol in enumerate(solutions):
+            for name in OUTPUT_FIELDS:
+                store[name][s_index, start:stop] = getattr(sol, name)
+        if progress is not None:
+            progress(stop - start)
+
+    run_tasks(_evaluate_range, [(start, values[start:stop]) for start, stop in bounds], keep,
+              shared=(study,), workers=workers, scheduler=scheduler)
+    first = meta[0]
+    return Outputs(
+        fields=store,
+        interface_names=first.interface_names,
+        element_names=first.element_names,
+        element_kinds=first.element_kinds,
+        element_layers=first.element_layers,
+        inner_surface_index=first.inner_surface_index,
+    )
+
+
+def nominal_solution(study, *, scenario: int | None = None) -> NetworkSolution:
+    """Solve the nominal stack (every uncertain value at its distribution's nominal)."""
+    return _solve(study, None, scenario)
+
+
+def study_plan(study) -> DesignPlan:
+    """The design of a study as a :class:`plyrisk.design.sampling.DesignPlan` (per-layer groups for
+    Sobol').
+
+    Parameters
+    ----------
+    study
+        The parsed study; overrides of the sample count or seed belong in its ``analysis``
+        (see :func:`plyrisk.pipeline.run.run_study`), so that the design and the analysis agree [-].
+
+    Returns
+    -------
+    DesignPlan
+
+    Raises
+    ------
+    ValueError
+        For Morris trajectories, which are built whole (:func:`study_design`).
+    """
+    a = study.analysis
+    if a.design == "morris":
+        raise ValueError("Morris trajectories are built whole; they have no design plan")
+    kind = "sobol-sequence" if (a.design == "sobol" and a.method == "pce") else a.design
+    groups = parameter_groups(study)[1]
+    return DesignPlan(
+        kind,
+        int(a.samples),
+        len(study.parameters),
+        int(a.seed),
+        groups=tuple(groups) if kind == "sobol" else (),
+        optimization=a.lhs_optimization if kind == "lhs" else None,
+    )
+
+
+def study_design(study) -> Design:
+    """The whole unit-hypercube design of a study (see :func:`study_plan`)."""
+    a = study.analysis
+    if a.design == "morris":
+        return morris_design(int(a.samples), len(study.parameters), seed=int(a.seed),
+                             levels=int(a.levels))
+    return study_plan(study).design()
+
+
+def parameter_groups(study) -> tuple[list[str], list[tuple[int, ...]]]:
+    """Group names (layers, ``hot_side``, ``cold_side``) and the parameter indices in each."""
+    names: list[str] = []
+    members: dict[str, list[int]] = {}
+    for j, p in enumerate(study.parameters):
+        if p.group not in members:
+            names.append(p.group)
+            members[p.group] = []
+        members[p.group].append(j)
+    return names, [tuple(members[g]) for g in names]
+
+
+def propagate(
+    study,
+    *,
+    chunk_size: int | None = None,
+    quiet: bool = False,
+    workers: int = 1,
+    scheduler: str | None = None,
+) -> Propagation:
+    """Draw the design, map it to inputs and evaluate the model.
+
+    Parameters
+    ----------
+    study
+        The parsed study (sample count and seed from its ``analysis``) [-].
+    chunk_size
+        Samples per chunk overriding the config [-].
+    quiet
+        Suppress the progress bar (it is shown only on a terminal anyway) [-].
+    workers
+        Worker processes of a local dask cluster [-]; results do not depend on it.
+    scheduler
+        Address of an existing dask scheduler [-]; results do not depend on it.
+
+    Returns
+    -------
+    Propagation
+    """
+    design = study_design(study)
+    inputs = unit_to_inputs(study.parameters, design.unit)
+    with progress_bar(len(inputs), quiet=quiet) as bar:
+        outputs = evaluate(study, inputs, chunk_size=chunk_size, progress=bar,
+                           workers=workers, scheduler=scheduler)
+    return Propagation(design=design, inputs=inputs, outputs=outputs)
+
+
+@contextmanager
+def progress_bar(total: int, *, quiet: bool = False, what: str = "solving"):
+    """A progress callback (samples done) drawing a bar on a terminal, or ``None``.
+
+    Parameters
+    ----------
+    total
+        Samples to solve [-].
+    quiet
+        No bar [-].
+    what
+        Label of the bar [-].
+    """
+    if quiet or not sys.stderr.isatty():
+        yield None
+        return
+    from tqdm import tqdm
+
+    bar = tqdm(total=total, unit="sample", desc=what, file=sys.stderr)
+    try:
+        yield bar.update
+    finally:
+        bar.close()

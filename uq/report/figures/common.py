@@ -1,0 +1,282 @@
+"""What every figure shares: the plyrisk look, display units and the selections figures make.
+
+The figure modules (:mod:`plyrisk.report.figures.outputs`,
+:mod:`plyrisk.report.figures.sensitivity`, :mod:`plyrisk.report.figures.sweep`)
+draw with one look (:data:`STYLE`) and a palette that stays distinguishable in greyscale and for
+colour-blind readers: dark blue, orange and grey, backed up by hatches and line styles.
+Temperatures are shown in the unit of the limit (``attrs["limit_display_unit"]``), parameters in
+the unit the user gave them (``parameter_unit``). The selections pick one exposure, one quantile,
+the independent converged samples or one parameter's samples out of a results dataset
+(:func:`plyrisk.results.dataset.to_dataset`). Everything here is re-exported by
+:mod:`plyrisk.report.figures.outputs`.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterator
+from contextlib import contextmanager
+
+import matplotlib as mpl
+import numpy as np
+import xarray as xr
+
+from plyrisk.study.units import QUANTITIES, TEMPERATURE, from_si
+
+__all__ = [
+    "BLUE",
+    "GAP_FILL",
+    "GREY",
+    "INK",
+    "ORANGE",
+    "PRIMARY",
+    "SOLID_FILL",
+    "STYLE",
+    "add_title",
+    "format_percent",
+    "format_temperature",
+    "independent_mask",
+    "one_exposure",
+    "parameter_values",
+    "pretty_unit",
+    "select_quantile",
+    "styled",
+    "temperature_label",
+    "temperature_unit",
+    "to_display_temperature",
+]
+
+BLUE = "#1f4e79"
+"""Main data colour (dark blue; dark in greyscale)."""
+ORANGE = "#e69f00"
+"""Second data colour (orange; light in greyscale)."""
+GREY = "#7a7a7a"
+"""Neutral colour (structure, secondary marks)."""
+INK = "#222222"
+"""Text and the limit line."""
+SOLID_FILL = "#ece8e1"
+GAP_FILL = "#f7f9fc"
+PRIMARY = "inner_surface_temperature"
+
+STYLE = {
+    "font.family": "DejaVu Sans",
+    "font.size": 9.0,
+    "axes.titlesize": 10.0,
+    "axes.titleweight": "bold",
+    "axes.titlelocation": "left",
+    "axes.labelsize": 9.0,
+    "axes.edgecolor": "#555555",
+    "axes.labelcolor": INK,
+    "axes.linewidth": 0.8,
+    "axes.spines.top": False,
+    "axes.spines.right": False,
+    "axes.grid": True,
+    "axes.axisbelow": True,
+    "grid.color": "#e3e3e3",
+    "grid.linewidth": 0.6,
+    "xtick.color": "#444444",
+    "ytick.color": "#444444",
+    "xtick.labelsize": 8.0,
+    "ytick.labelsize": 8.0,
+    "legend.frameon": False,
+    "legend.fontsize": 8.0,
+    "figure.facecolor": "white",
+    "figure.dpi": 100.0,
+    "hatch.linewidth": 0.6,
+    "svg.fonttype": "path",
+    "svg.hashsalt": "plyrisk",
+    "axes.prop_cycle": mpl.cycler(color=[BLUE, ORANGE, GREY]),
+}
+"""The plyrisk look: rcParams applied while a figure is built (and saved, by
+:mod:`plyrisk.report.html`)."""
+
+
+@contextmanager
+def styled() -> Iterator[None]:
+    """Context in which :data:`STYLE` applies (figures are built and saved inside it)."""
+    with mpl.rc_context(STYLE):
+        yield
+
+
+# ----------------------------------------------------------------------------------------------
+# Units and selections
+# ----------------------------------------------------------------------------------------------
+
+
+def pretty_unit(unit: str) -> str:
+    """A unit string for display: ``"degC"`` → ``"°C"``, ``"kW/m^2"`` → ``"kW/m²"``, ``""`` →
+    ``"-"`` [-]."""
+    if not unit:
+        return "-"
+    out = unit.replace("delta_degC", "°C").replace("delta_degF", "°F")
+    out = out.replace("degC", "°C").replace("degF", "°F")
+    for a, b in (("**2", "²"), ("**3", "³"), ("^2", "²"), ("^3", "³"), ("*", "·")):
+        out = out.replace(a, b)
+    return out
+
+
+def temperature_unit(ds: xr.Dataset) -> str:
+    """The unit temperatures are shown in: the limit's unit, ``"K"`` if none was stored [-]."""
+    return str(ds.attrs.get("limit_display_unit") or "K")
+
+
+def to_display_temperature(ds: xr.Dataset, kelvin) -> np.ndarray:
+    """Temperatures [K] converted to the dataset's display unit [display unit]."""
+    return np.asarray(from_si(np.asarray(kelvin, dtype=float), temperature_unit(ds), TEMPERATURE))
+
+
+def temperature_label(ds: xr.Dataset, what: str) -> str:
+    """An axis label for a temperature, e.g. ``"temperature [°C]"`` [-].
+
+    Parameters
+    ----------
+    ds
+        A results dataset (for its display unit) [-].
+    what
+        The quantity's name, e.g. ``"inner-surface temperature"`` [-].
+    """
+    return f"{what} [{pretty_unit(temperature_unit(ds))}]"
+
+
+def format_temperature(ds: xr.Dataset, kelvin: float, *, digits: int = 1) -> str:
+    """A temperature [K] as display text in the dataset's unit, e.g. ``"43.2 °C"`` [-].
+
+    Parameters
+    ----------
+    ds
+        A results dataset (for its display unit) [-].
+    kelvin
+        The temperature [K]; non-finite gives ``"n/a"``.
+    digits
+        Decimals shown [-].
+    """
+    if not np.isfinite(kelvin):
+        return "n/a"
+    shown = float(to_display_temperature(ds, kelvin))
+    return f"{shown:.{digits}f} {pretty_unit(temperature_unit(ds))}"
+
+
+def format_percent(p: float) -> str:
+    """A probability [-] as a percentage with 3 significant digits, ``"n/a"`` if not finite."""
+    return "n/a" if not np.isfinite(p) else f"{100 * p:.3g} %"
+
+
+def one_exposure(ds: xr.Dataset, scenario: int | None) -> tuple[str, xr.Dataset]:
+    """Label and dataset of one exposure; validates ``scenario`` against the dataset.
+
+    Parameters
+    ----------
+    ds
+        A results dataset [-].
+    scenario
+        Index of the exposure for a swept dataset, ``None`` (or 0) otherwise [-].
+
+    Returns
+    -------
+    label, dataset
+        ``"<quantity> = <level>"`` (``""`` for an unswept dataset) and the dataset of that
+        exposure (no ``scenario`` dimension).
+    """
+    if "scenario" in ds.dims:
+        k = ds.sizes["scenario"]
+        if scenario is None or isinstance(scenario, bool) or not 0 <= int(scenario) < k:
+            raise ValueError(
+                f"scenario must be an index 0..{k - 1} for a dataset sweeping "
+                f"{ds.attrs.get('scenario_quantity', 'an exposure')}, got {scenario!r}"
+            )
+        one = ds.isel(scenario=int(scenario))
+        quantity = str(ds.attrs.get("scenario_quantity", "exposure")).replace("_", " ")
+        return f"{quantity} = {pretty_unit(str(one['scenario_label'].item()))}", one
+    if scenario not in (None, 0):
+        raise ValueError(f"scenario must be None (or 0) for an unswept dataset, got {scenario!r}")
+    return "", ds
+
+
+def add_title(ax, text: str, *subs: str) -> None:
+    """Bold title with grey subtitle lines under it (e.g. the exposure).
+
+    Parameters
+    ----------
+    ax
+        The matplotlib Axes to title [-].
+    text
+        The title [-].
+    *subs
+        Subtitle lines; empty ones are left out [-].
+    """
+    sub = "\n".join(s for s in subs if s)
+    ax.set_title(text, pad=6 + (11 * (sub.count("\n") + 1) if sub else 0))
+    if sub:
+        ax.annotate(sub, xy=(0.0, 1.0), xycoords="axes fraction", xytext=(0, 5),
+                    textcoords="offset points", va="bottom", ha="left", fontsize=8, color=GREY)
+
+
+def select_quantile(da: xr.DataArray, p: float) -> xr.DataArray:
+    """The slice of a quantile variable at cumulative probability ``p`` [-].
+
+    Raises
+    ------
+    ValueError
+        When ``p`` is not among the dataset's ``quantile`` coordinates (naming those).
+    """
+    q = np.asarray(da["quantile"].values, dtype=float)
+    hit = np.flatnonzero(np.isclose(q, p, rtol=0.0, atol=1e-9))
+    if hit.size == 0:
+        raise ValueError(
+            f"quantile {p:g} is not in the dataset; available: {', '.join(f'{v:g}' for v in q)}"
+        )
+    return da.isel(quantile=int(hit[0]))
+
+
+def independent_mask(ds: xr.Dataset) -> np.ndarray:
+    """Rows drawn from the joint input distribution that converged, for one exposure [-].
+
+    Saltelli designs: the A and B rows (``sample_block`` 0 or 1); other designs: every row. Only
+    samples flagged ``converged`` with a finite inner-surface temperature are kept.
+
+    Parameters
+    ----------
+    ds
+        A results dataset of one exposure (no ``scenario`` dimension) [-].
+
+    Returns
+    -------
+    numpy.ndarray
+        Boolean mask over ``sample`` [-].
+    """
+    if "scenario" in ds["inner_surface_temperature"].dims:
+        raise ValueError("independent_mask needs one exposure: select a scenario first")
+    rows = np.ones(ds.sizes["sample"], dtype=bool)
+    if ds.attrs.get("method") in ("saltelli", "sobol"):  # "sobol": files before 0.2
+        rows = np.asarray(ds["sample_block"].values) <= 1
+    ok = np.asarray(ds["converged"].values, dtype=bool)
+    ok &= np.isfinite(np.asarray(ds["inner_surface_temperature"].values, dtype=float))
+    return rows & ok
+
+
+def parameter_values(ds: xr.Dataset, name: str) -> tuple[np.ndarray, str]:
+    """The samples of one parameter in the user's unit, and that unit [user unit].
+
+    Parameters
+    ----------
+    ds
+        A results dataset [-].
+    name
+        Parameter name, e.g. ``"outer gap.width"`` [-].
+
+    Returns
+    -------
+    values, unit
+        Values over ``sample`` and the unit text; the SI unit (``parameter_si_unit``) when the
+        quantity is not one plyrisk knows how to convert.
+    """
+    names = [str(v) for v in ds["parameter"].values]
+    if name not in names:
+        raise ValueError(f"unknown parameter {name!r}; valid: {', '.join(names)}")
+    one = ds.sel(parameter=name)
+    si = np.asarray(one["input"].values, dtype=float)
+    unit = str(one["parameter_unit"].item())
+    spec = QUANTITIES.get(name.rsplit(".", 1)[-1])
+    if spec is None:
+        return si, str(one["parameter_si_unit"].item())
+    return np.asarray(from_si(si, unit, spec)), unit
+

@@ -1,0 +1,438 @@
+"""The study report: one self-contained HTML file, a Markdown summary, figures and CSV tables.
+
+:func:`write_report` turns a results dataset (:func:`plyrisk.results.dataset.to_dataset` or
+:func:`plyrisk.results.dataset.read_results`) into, inside ``out_dir``:
+
+* ``report.html`` — everything, figures embedded as base64 PNG; no external links, scripts,
+  fonts or stylesheets, so that it opens from disk in any browser with no network;
+* ``summary.md`` — the headline, ranking, convergence and cautions in Markdown;
+* ``figures/*.png`` and ``figures/*.svg`` — every figure of :mod:`plyrisk.report.figures.outputs`;
+* ``quantiles.csv``, ``indices.csv``, ``group_indices.csv``, ``ranking.csv`` and, when a
+  tolerance table is passed, ``tolerances.csv``.
+
+The report re-reads the study from ``attrs["config_text"]``
+(:func:`plyrisk.study.config.loads_study`) for
+the stack and the input distributions in the user's units. What each section holds is
+described in ``docs/report.md``. This module assembles the HTML and Markdown; the display tables
+are built by :mod:`plyrisk.report.tables`, the CSV files written by
+:mod:`plyrisk.report.csv_tables`.
+"""
+
+from __future__ import annotations
+
+import base64
+import html
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import xarray as xr
+
+from plyrisk.cautions import CAUTIONS
+from plyrisk.report.csv_tables import write_csv, write_csv_tables
+from plyrisk.report.figures import outputs as fg
+from plyrisk.report.tables import (
+    Table,
+    cell_text,
+    convergence_summary,
+    exposure_text,
+    headline_table,
+    nonconverged_table,
+    provenance_table,
+    quantile_note,
+    quantile_tables,
+    ranking_tables,
+    scenario_values,
+    stack_tables,
+)
+from plyrisk.study.config import loads_study
+
+__all__ = ["ReportFigure", "ReportFiles", "Table", "report_figures", "write_report"]
+
+TOP_COUNT = 5
+"""Parameters listed in the Markdown summary's ranking [-]."""
+_REQUIRED = ("inner_surface_temperature", "interface_temperature_quantile",
+             "inner_surface_temperature_quantile", "exceedance_probability", "rank_correlation",
+             "layer_nominal_thickness", "converged", "sample_block")
+
+
+@dataclass(frozen=True)
+class ReportFiles:
+    """Paths of everything :func:`write_report` wrote.
+
+    Attributes
+    ----------
+    html
+        ``report.html`` [-].
+    markdown
+        ``summary.md`` [-].
+    figures
+        Every figure file, PNG and SVG [-].
+    tables
+        Every CSV table [-].
+    """
+
+    html: Path
+    markdown: Path
+    figures: list[Path] = field(default_factory=list)
+    tables: list[Path] = field(default_factory=list)
+
+
+@dataclass(frozen=True)
+class ReportFigure:
+    """One figure of the report: file stem, heading, caption and the matplotlib Figure."""
+
+    stem: str
+    title: str
+    caption: str
+    figure: Any
+
+
+# ----------------------------------------------------------------------------------------------
+# Figures
+# ----------------------------------------------------------------------------------------------
+
+
+def report_figures(ds: xr.Dataset) -> list[ReportFigure]:
+    """Every figure of the report, in order (built, not saved).
+
+    Parameters
+    ----------
+    ds
+        A results dataset [-].
+
+    Returns
+    -------
+    list of ReportFigure
+    """
+    sobol = "sobol_total" in ds
+    out: list[ReportFigure] = []
+    for i, label, _ in scenario_values(ds):
+        sfx = "" if i is None else f"_{i + 1}"
+        at = f" — {exposure_text(ds, label)}" if label else ""
+        out.append(ReportFigure(
+            f"temperature_profile{sfx}", f"Temperature through the assembly{at}",
+            "Median and 5–95 % / 1–99 % bands of each face temperature, from the exposed face "
+            "to the innermost face; layers and gaps are drawn in their nominal widths, contact "
+            "resistances (no width) as dotted lines. Straight lines join the faces: the profile "
+            "inside a layer is not resolved, and the bands are percentiles of each face taken "
+            "separately, not the profile of any one sample.",
+            fg.profile_figure(ds, scenario=i)))
+        if sobol:
+            out.append(ReportFigure(
+                f"sobol_indices{sfx}", f"Sobol indices per parameter{at}",
+                "First-order (variance share of the input alone) and total (including its "
+                "interactions) Sobol indices of the inner-surface temperature, with bootstrap "
+                "confidence intervals, sorted by the total index. Hatched bars: the interval is "
+                "wider than the convergence threshold; the ranking of those is not settled.",
+                fg.indices_figure(ds, scenario=i)))
+            out.append(ReportFigure(
+                f"layer_indices{sfx}", f"Sobol indices per layer{at}",
+                "Indices of each layer's (or boundary's) parameters varied together: which "
+                "layer dominates the spread of the inner-surface temperature. Layers without "
+                "an uncertain input are not shown.",
+                fg.group_indices_figure(ds, scenario=i)))
+        else:
+            out.append(ReportFigure(
+                f"rank_correlation{sfx}", f"Screening: rank correlation per parameter{at}",
+                "Spearman rank correlation of each input with the inner-surface temperature. A "
+                "screening measure only: it does not apportion the variance and misses "
+                "interactions.", fg.indices_figure(ds, scenario=i)))
+            if "pce_total" in ds:
+                for groups, stem, what in ((False, "surrogate_indices", "parameter"),
+                                           (True, "surrogate_layer_indices", "layer")):
+                    out.append(ReportFigure(
+                        f"{stem}{sfx}", f"Sobol indices from the surrogate, per {what}{at}",
+                        "First-order and total Sobol indices of the inner-surface temperature "
+                        "computed from a polynomial-chaos surrogate fitted to the samples, with "
+                        "bootstrap intervals. They are only as good as the surrogate: check its "
+                        "leave-one-out Q2 (in the title) is close to 1.",
+                        fg.surrogate_indices_figure(ds, scenario=i, groups=groups)))
+        out.append(ReportFigure(
+            f"inner_temperature_distribution{sfx}",
+            f"Distribution of the inner-surface temperature{at}",
+            "Histogram and empirical cumulative distribution of the inner-surface temperature "
+            "over the independent, converged samples, with the limit, P95 and its confidence "
+            "interval (shaded) and the exceedance probability.",
+            fg.distribution_figure(ds, scenario=i)))
+        out.append(ReportFigure(
+            f"inner_temperature_scatter{sfx}", f"Response to the most influential inputs{at}",
+            "The inner-surface temperature of each independent, converged sample against the "
+            "three most influential inputs (by total Sobol index; for method = pce by the "
+            "surrogate's total index, or by |rank correlation| without a surrogate), in the "
+            "units they were given in.",
+            fg.scatter_figure(ds, scenario=i)))
+    if "scenario" in ds.dims:
+        out.append(ReportFigure(
+            "exposure_sweep", "Inner-surface temperature against the exposure",
+            "Median and 5–95 % band of the inner-surface temperature at each swept level, the "
+            "upper confidence bound of P95 and the limit. The read-off interpolates linearly "
+            "between swept levels; run a finer sweep around it before relying on it.",
+            fg.sweep_figure(ds)))
+    return out
+
+
+def _save(figs: list[ReportFigure], folder: Path) -> tuple[list[Path], dict[str, str]]:
+    folder.mkdir(parents=True, exist_ok=True)
+    paths, embedded = [], {}
+    with fg.styled():
+        for f in figs:
+            png, svg = folder / f"{f.stem}.png", folder / f"{f.stem}.svg"
+            f.figure.savefig(png, dpi=150, metadata={"Software": None})
+            f.figure.savefig(svg, metadata={"Date": None})
+            paths += [png, svg]
+            embedded[f.stem] = base64.b64encode(png.read_bytes()).decode("ascii")
+    return paths, embedded
+
+
+# ----------------------------------------------------------------------------------------------
+# Inputs: the stored study and the tolerance table
+# ----------------------------------------------------------------------------------------------
+
+
+def _study(ds: xr.Dataset):
+    """The study re-read from the stored config text, or ``(None, reason)``."""
+    text = ds.attrs.get("config_text")
+    if not text:
+        return None, "the dataset holds no config text"
+    try:
+        return loads_study(str(text), source=str(ds.attrs.get("config_source", "<results>"))), ""
+    except Exception as err:  # a newer or older config schema: report it, never fail the report
+        return None, f"{type(err).__name__}: {err}"
+
+
+def _tolerance_table(table) -> tuple[list[str], list[dict]]:
+    if hasattr(table, "to_dict") and hasattr(table, "columns"):
+        if getattr(table.index, "name", None) is not None:
+            table = table.reset_index()
+        records = table.to_dict(orient="records")
+        return [str(c) for c in table.columns], [{str(k): v for k, v in r.items()}
+                                                  for r in records]
+    if isinstance(table, Sequence) and not isinstance(table, str | bytes):
+        records = list(table)
+        for i, r in enumerate(records):
+            if not isinstance(r, Mapping):
+                raise ValueError(f"tolerance_table[{i}] must be a mapping (one record), got "
+                                 f"{type(r).__name__}")
+        columns = list(dict.fromkeys(str(k) for r in records for k in r))
+        return columns, [{str(k): v for k, v in r.items()} for r in records]
+    raise ValueError(f"tolerance_table must be a pandas DataFrame, a list of dicts or None, got "
+                     f"{type(table).__name__}")
+
+
+NO_SOBOL = ("Without a Saltelli design (method = \"saltelli\") the Sobol indices, where shown, "
+            "come from a polynomial-chaos surrogate fitted to the samples: trust them only when "
+            "its leave-one-out Q2 is close to 1. The rank correlation is a screening measure of "
+            "monotone influence only and misses interactions.")
+"""Said wherever a ranking is shown for a pce study."""
+
+ASSUMPTIONS = (
+    "Steady state: the temperatures are those reached after a long, constant exposure; no "
+    "transient heating, no heat stored in the layers.",
+    "One-dimensional heat flow through the thickness; no edge or seam effects.",
+    "Dry fabrics: no moisture, sweat or evaporation.",
+    "No compression of the layers or gaps beyond the widths given; no degradation, charring "
+    "or melting.",
+    "Grey, diffuse surfaces for radiation across gaps.",
+    "Air gaps conduct through still air unless gap convection is enabled; air properties are "
+    "those of dry air at 1 atm, valid for gap temperatures of 250–1500 K.",
+    "The uncertain inputs are sampled independently of each other from the distributions "
+    "given; the results are only as good as those distributions.",
+    "Percentiles and the exceedance probability come from the independent samples (for a "
+    "Sobol design its A and B blocks, which are quasi-random: the confidence intervals, "
+    "derived for independent draws, are then approximate).",
+)
+"""The model's assumptions and limits, listed in every report."""
+
+
+# ----------------------------------------------------------------------------------------------
+# Rendering
+# ----------------------------------------------------------------------------------------------
+
+_CSS = """
+body{font-family:system-ui,-apple-system,"Segoe UI",Roboto,Helvetica,Arial,sans-serif;
+ color:#222;max-width:62rem;margin:2rem auto;padding:0 1rem;line-height:1.45}
+h1{font-size:1.6rem;margin-bottom:.2rem}h2{border-bottom:2px solid #1f4e79;padding-bottom:.2rem;
+ margin-top:2.2rem}h3{margin-top:1.6rem}
+table{border-collapse:collapse;margin:.6rem 0 1.2rem;font-size:.9rem}
+caption{text-align:left;font-weight:600;padding:.3rem 0}
+th,td{border:1px solid #c8c8c8;padding:.25rem .5rem;text-align:left;vertical-align:top}
+th{background:#eef2f7}
+.cautions{border:3px solid #b35900;background:#fff6ea;padding:.6rem 1.2rem;margin:1rem 0}
+.cautions h2{border:none;margin-top:.4rem;color:#7a3d00}
+.headline{font-size:1.05rem}
+figure{margin:1.2rem 0}figure img{max-width:100%;height:auto;border:1px solid #ddd}
+figcaption{font-size:.9rem;color:#444}
+pre{background:#f6f6f6;padding:.8rem;overflow-x:auto;font-size:.8rem}
+.sub{color:#555}
+"""
+
+
+def _esc(text: Any) -> str:
+    return html.escape(str(text), quote=True)
+
+
+def _html_table(t: Table) -> str:
+    out = ["<table>"]
+    if t.caption:
+        out.append(f"<caption>{_esc(t.caption)}</caption>")
+    out.append("<thead><tr>" + "".join(f"<th>{_esc(h)}</th>" for h in t.header) + "</tr></thead>")
+    out.append("<tbody>")
+    for r in t.rows:
+        out.append("<tr>" + "".join(f"<td>{_esc(c)}</td>" for c in r) + "</tr>")
+    out.append("</tbody></table>")
+    return "\n".join(out)
+
+
+def _md_table(t: Table) -> str:
+    def cell(c: str) -> str:
+        return str(c).replace("|", "\\|").replace("\n", " ")
+
+    out = [f"**{cell(t.caption)}**", ""] if t.caption else []
+    out.append("| " + " | ".join(cell(h) for h in t.header) + " |")
+    out.append("|" + "---|" * len(t.header))
+    out += ["| " + " | ".join(cell(c) for c in r) + " |" for r in t.rows]
+    return "\n".join(out)
+
+
+def _cautions_html() -> str:
+    items = "".join(f"<li>{_esc(c)}</li>" for c in CAUTIONS)
+    return f'<div class="cautions"><h2>Cautions</h2><ul>{items}</ul></div>'
+
+
+def _cautions_md() -> str:
+    return "## Cautions\n\n" + "\n".join(f"- **{c}**" for c in CAUTIONS)
+
+
+def write_report(
+    ds: xr.Dataset,
+    out_dir: str | Path,
+    *,
+    tolerance_table: Any = None,
+) -> ReportFiles:
+    """Write the report of a results dataset: HTML, Markdown summary, figures and CSV tables.
+
+    Parameters
+    ----------
+    ds
+        A results dataset (:func:`plyrisk.results.dataset.to_dataset` or
+        :func:`plyrisk.results.dataset.read_results`)
+        [-].
+    out_dir
+        Folder to write into (created if missing) [-].
+    tolerance_table
+        Tolerance recommendations to include: a pandas DataFrame or a list of dicts (one per
+        row; columns are rendered as they come), or ``None`` [-].
+
+    Returns
+    -------
+    ReportFiles
+        The paths written.
+
+    Raises
+    ------
+    ValueError
+        When ``ds`` is not a results dataset, or ``tolerance_table`` has a wrong type.
+    """
+    missing = [v for v in _REQUIRED if v not in ds.variables]
+    if missing or "limit" not in ds.attrs:
+        raise ValueError("not a plyrisk results dataset: missing "
+                         + ", ".join(missing + ([] if "limit" in ds.attrs else ["attrs.limit"])))
+    tol = _tolerance_table(tolerance_table) if tolerance_table is not None else None
+    out = Path(out_dir)
+    out.mkdir(parents=True, exist_ok=True)
+    figs = report_figures(ds)
+    fig_paths, embedded = _save(figs, out / "figures")
+    tables = write_csv_tables(ds, out)
+    if tol is not None:
+        columns, records = tol
+        tables.append(write_csv(out / "tolerances.csv", columns,
+                                [[r.get(c) for c in columns] for r in records]))
+    study, why = _study(ds)
+    headline, verdicts = headline_table(ds)
+    crossing = fg.limit_crossing(ds) if "scenario" in ds.dims else None
+    conv_text, conv_table = convergence_summary(ds)
+    ranking = ranking_tables(ds)
+    title = str(ds.attrs.get("title", "plyrisk study"))
+    notes = [n for n in str(ds.attrs.get("notes", "")).split("\n") if n.strip()]
+
+    # --- HTML -----------------------------------------------------------------------------
+    h: list[str] = ["<!DOCTYPE html>", '<html lang="en">', "<head>", '<meta charset="utf-8">',
+                    f"<title>{_esc(title)} — plyrisk report</title>", f"<style>{_CSS}</style>",
+                    "</head>", "<body>", f"<h1>{_esc(title)}</h1>",
+                    '<p class="sub">plyrisk study report · config '
+                    f"{_esc(ds.attrs.get('config_source', ''))}"
+                    f" · method {_esc(ds.attrs.get('method', ''))} · seed "
+                    f"{_esc(ds.attrs.get('seed', ''))}</p>", _cautions_html(),
+                    "<h2>Headline</h2>", _html_table(headline)]
+    h += [f'<p class="headline">{_esc(v)}</p>' for v in verdicts]
+    if crossing is not None:
+        h.append(f'<p class="headline"><strong>{_esc(crossing.text)}</strong> (linear '
+                 "interpolation between swept levels)</p>")
+    h.append("<h2>What was studied</h2>")
+    if study is not None:
+        h += [_html_table(t) for t in stack_tables(study, ds)]
+    else:
+        h.append(f"<p>The stored config could not be re-read by this version of plyrisk "
+                 f"({_esc(why)}); the stack table is left out. The config text is under "
+                 "Provenance.</p>")
+    h.append("<p>Limit of the inner-surface temperature: "
+             f"{_esc(fg.format_temperature(ds, float(ds.attrs['limit'])))}.</p>")
+    h.append("<h2>Percentiles of the inner-surface temperature</h2>")
+    h += [_html_table(t) for t in quantile_tables(ds)]
+    h.append(f"<p>{_esc(quantile_note(ds))}</p>")
+    h.append("<h2>Ranking: which inputs and layers matter</h2>")
+    if "sobol_total" not in ds:
+        h.append(f"<p>{_esc(NO_SOBOL)}</p>")
+    h += [_html_table(t) for t in ranking]
+    h.append("<h2>Figures</h2>")
+    for f in figs:
+        h.append(f"<figure><h3>{_esc(f.title)}</h3>"
+                 f'<img src="data:image/png;base64,{embedded[f.stem]}" alt="{_esc(f.title)}">'
+                 f"<figcaption>{_esc(f.caption)}</figcaption></figure>")
+    if tol is not None:
+        columns, records = tol
+        h.append("<h2>Tolerance recommendations</h2>")
+        h.append(_html_table(Table(columns, [[cell_text(r.get(c)) for c in columns]
+                                             for r in records])) if records else
+                 "<p>The tolerance table has no rows.</p>")
+    h.append("<h2>Convergence of the indices</h2>")
+    h += [f"<p>{_esc(t)}</p>" for t in conv_text]
+    if conv_table is not None:
+        h.append(_html_table(conv_table))
+    h += ["<h2>Samples that did not converge</h2>",
+          "<p>Samples whose solve did not converge to a physically valid solution are excluded "
+          "from every statistic and counted here; nothing is clipped.</p>",
+          _html_table(nonconverged_table(ds))]
+    h.append("<h2>Assumptions and limits of the model</h2><ul>"
+             + "".join(f"<li>{_esc(a)}</li>" for a in ASSUMPTIONS)
+             + "".join(f"<li>{_esc(n)}</li>" for n in notes) + "</ul>")
+    h.append(_cautions_html())
+    h += ["<h2>Provenance</h2>", _html_table(provenance_table(ds)),
+          "<h3>Config text</h3>", f"<pre>{_esc(ds.attrs.get('config_text', ''))}</pre>",
+          "</body>", "</html>"]
+    html_path = out / "report.html"
+    html_path.write_text("\n".join(h) + "\n", encoding="utf-8")
+
+    # --- Markdown summary ------------------------------------------------------------------
+    m = [f"# {title}", "", "plyrisk study summary; the full report is `report.html`.", "",
+         _cautions_md(), "", "## Headline", "", _md_table(headline), ""]
+    m += [f"- {v}" for v in verdicts]
+    if crossing is not None:
+        m += ["", f"**{crossing.text}** (linear interpolation between swept levels)"]
+    m += ["", "## Ranking", ""] + ([NO_SOBOL, ""] if "sobol_total" not in ds else [])
+    for t in ranking:
+        m += [_md_table(Table(t.header, t.rows[:TOP_COUNT], t.caption
+                              + (f" (top {TOP_COUNT})" if len(t.rows) > TOP_COUNT else ""))), ""]
+    m += ["## Convergence", "", *conv_text, ""]
+    if conv_table is not None:
+        m += [_md_table(conv_table), ""]
+    m += ["## Samples that did not converge", "", _md_table(nonconverged_table(ds)), ""]
+    if notes:
+        m += ["## Notes", "", *[f"- {n}" for n in notes], ""]
+    m += ["## Files", "", *[f"- `{p.relative_to(out).as_posix()}`" for p in fig_paths + tables],
+          "", "## Provenance", "", _md_table(provenance_table(ds)), "", _cautions_md(), ""]
+    md_path = out / "summary.md"
+    md_path.write_text("\n".join(m), encoding="utf-8")
+    return ReportFiles(html_path, md_path, fig_paths, tables)

@@ -1,0 +1,407 @@
+"""The display tables of the report: stack, headline, percentiles, ranking, convergence, provenance.
+
+Each builder reads a results dataset (:func:`plyrisk.results.dataset.to_dataset`) and returns
+:class:`Table` objects of display text (temperatures in the limit's unit, indices with their
+confidence intervals) that :mod:`plyrisk.report.html` renders to HTML and Markdown alike. The Sobol
+indices of one exposure — from the Saltelli estimators or the polynomial-chaos surrogate — are
+gathered by :func:`index_sets`, which :mod:`plyrisk.report.csv_tables` shares.
+"""
+
+from __future__ import annotations
+
+import math
+import tomllib
+from collections.abc import Mapping
+from dataclasses import dataclass, fields
+from typing import Any
+
+import numpy as np
+import xarray as xr
+
+from plyrisk.report.figures import outputs as fg
+from plyrisk.report.figures.common import PRIMARY
+from plyrisk.results.dataset import scenario_slices
+from plyrisk.study.units import QUANTITIES, TEMPERATURE, format_value
+
+__all__ = ["INDEX_KEYS", "IndexSet", "Table", "cell_text", "convergence_summary",
+           "exposure_text", "headline_table", "index_sets", "nonconverged_table",
+           "provenance_table", "quantile_note", "quantile_tables", "ranking_tables",
+           "scenario_values", "stack_tables"]
+
+
+@dataclass(frozen=True)
+class Table:
+    """A table of display text, rendered to HTML and Markdown alike."""
+
+    header: list[str]
+    rows: list[list[str]]
+    caption: str = ""
+
+
+# ----------------------------------------------------------------------------------------------
+# Formatting
+# ----------------------------------------------------------------------------------------------
+
+
+def _t(ds: xr.Dataset, kelvin: float) -> str:
+    return fg.format_temperature(ds, float(kelvin))
+
+
+def _pct(p: float) -> str:
+    return fg.format_percent(float(p))
+
+
+def _idx(v: float, ci: float | None = None) -> str:
+    if not np.isfinite(v):
+        return "n/a"
+    return f"{v:.3f}" + (f" ± {ci:.3f}" if ci is not None and np.isfinite(ci) else "")
+
+
+def cell_text(v: Any) -> str:
+    """A value as table text: yes/no, 4 significant digits, "" for NaN or None [-]."""
+    if isinstance(v, bool | np.bool_):
+        return "yes" if v else "no"
+    if isinstance(v, float | np.floating):
+        return "" if math.isnan(v) else f"{float(v):.4g}"
+    return "" if v is None else str(v)
+
+
+def scenario_values(ds: xr.Dataset) -> list[tuple[int | None, str, xr.Dataset]]:
+    """``(index, label, dataset)`` of each exposure; index ``None`` when unswept [-]."""
+    out = []
+    for i, (label, one) in enumerate(scenario_slices(ds)):
+        out.append((i if "scenario" in ds.dims else None, label, one))
+    return out
+
+
+def exposure_text(ds: xr.Dataset, label: str) -> str:
+    """An exposure label as text, e.g. ``"incident flux = 10 kW/m²"``; ``"as configured"``
+    for an unswept dataset (``label == ""``) [-]."""
+    if not label:
+        return "as configured"
+    quantity = str(ds.attrs.get("scenario_quantity", "exposure")).replace("_", " ")
+    return f"{quantity} = {fg.pretty_unit(label)}"
+
+
+# ----------------------------------------------------------------------------------------------
+# Tables
+# ----------------------------------------------------------------------------------------------
+
+
+def stack_tables(study, ds: xr.Dataset) -> list[Table]:
+    """The hot side, the assembly and the cold side: each quantity's nominal value and
+    uncertainty in the user's units, from the re-read ``study`` [-]."""
+    raw = tomllib.loads(study.text)
+    by_target = {p.target: p for p in study.parameters}
+    unit = study.limit_unit or "K"
+    swept = study.scenarios.quantity if study.scenarios is not None else None
+
+    def rows_of(obj, where: tuple, given: Mapping) -> list[list[str]]:
+        rows = []
+        keys = [f.name for f in fields(obj) if f.name != "name"]
+        if "emissivity" in given and "emissivity_hot" in keys:  # a solid's shorthand
+            keys = [k for k in keys if k not in ("emissivity_hot", "emissivity_cold")]
+            keys.insert(keys.index("contact_resistance") if "contact_resistance" in keys
+                        else len(keys), "emissivity")
+        for key in keys:
+            p = by_target.get((*where, key))
+            if p is not None:
+                rows.append([key, p.format(p.distribution.nominal), p.describe(),
+                             p.truncation()])
+                continue
+            if key in given:
+                shown = given[key] if isinstance(given[key], str) else cell_text(given[key])
+                note = ""
+                if where == ("hot_side",) and key == swept:
+                    note = "swept: " + ", ".join(study.scenarios.labels)
+                rows.append([key, shown, note or "fixed", ""])
+                continue
+            value = getattr(obj, key)
+            if value is None:
+                continue
+            if isinstance(value, str):
+                rows.append([key, value, "default", ""])
+                continue
+            spec = QUANTITIES.get(key)
+            shown = (format_value(float(value), unit, TEMPERATURE) if spec is TEMPERATURE
+                     else format_value(float(value), spec.si_unit, spec) if spec else str(value))
+            rows.append([key, shown, "default", ""])
+        return rows
+
+    header = ["element", "kind", "quantity", "nominal", "uncertainty", "truncation"]
+    layer_rows = []
+    widths = dict(zip([str(n) for n in ds["layer"].values],
+                      np.asarray(ds["layer_nominal_thickness"].values, dtype=float),
+                      strict=True))
+    for i, layer in enumerate(study.layers):
+        given = raw.get("layer", [{}] * (i + 1))[i]
+        kind = given.get("kind", type(layer).__name__.lower())
+        first = True
+        for r in rows_of(layer, ("layer", i), given):
+            layer_rows.append([layer.name if first else "", kind if first else "", *r])
+            first = False
+        if f"{layer.name} contact" in widths:
+            layer_rows.append(["", "", "(contact to the next layer: no width)", "", "", ""])
+    sides = []
+    for side in ("hot_side", "cold_side"):
+        obj = getattr(study, side)
+        given = raw.get(side, {})
+        rows = [[side.replace("_", " ") if j == 0 else "", obj.kind if j == 0 else "", *r]
+                for j, r in enumerate(rows_of(obj, (side,), given))]
+        sides.append(rows)
+    return [
+        Table(header, sides[0], "The exposure (hot side)"),
+        Table(header, layer_rows, "The assembly, exposed side first"),
+        Table(header, sides[1], "The cold side"),
+    ]
+
+
+def headline_table(ds: xr.Dataset) -> tuple[Table, list[str]]:
+    """P95 and the exceedance probability per exposure, and one verdict sentence each [-]."""
+    rows, verdicts = [], []
+    limit = float(ds.attrs["limit"])
+    for _, label, one in scenario_values(ds):
+        q = fg.select_quantile(one["inner_surface_temperature_quantile"], 0.95).item()
+        lo = fg.select_quantile(one["inner_surface_temperature_quantile_lower"], 0.95).item()
+        hi = fg.select_quantile(one["inner_surface_temperature_quantile_upper"], 0.95).item()
+        e = [float(one[v].item()) for v in ("exceedance_probability",
+                                            "exceedance_probability_lower",
+                                            "exceedance_probability_upper")]
+        rows.append([exposure_text(ds, label), _t(ds, q), f"[{_t(ds, lo)}, {_t(ds, hi)}]",
+                     _pct(e[0]), f"[{_pct(e[1])}, {_pct(e[2])}]",
+                     str(int(one["samples_used"].item())),
+                     str(int(one["nonconverged_count"].item()))])
+        where = f"At {exposure_text(ds, label)}, " if label else ""
+        if not np.isfinite(q):
+            verdicts.append(f"{where}P95 is not available (no converged samples).")
+        elif not (np.isfinite(lo) and np.isfinite(hi)):
+            side = "below" if q < limit else "at or above"
+            verdicts.append(f"{where}P95 ({_t(ds, q)}) is {side} the limit ({_t(ds, limit)}), "
+                            "but the samples are too few for a confidence interval on P95: "
+                            "run more samples before relying on it.")
+        elif hi < limit:
+            verdicts.append(f"{where}P95 ({_t(ds, q)}) is below the limit ({_t(ds, limit)}), "
+                            "with its whole confidence interval.")
+        elif lo > limit:
+            verdicts.append(f"{where}P95 ({_t(ds, q)}) is above the limit ({_t(ds, limit)}), "
+                            "with its whole confidence interval.")
+        else:
+            verdicts.append(f"{where}{'the' if where else 'The'} limit ({_t(ds, limit)}) "
+                            "lies inside the confidence "
+                            f"interval of P95 ({_t(ds, q)}): these samples cannot tell whether "
+                            "P95 is above or below it; more samples narrow the interval.")
+    conf = f"{100 * float(ds.attrs.get('confidence', math.nan)):g} %"
+    header = ["exposure", "P95", f"P95 {conf} interval", f"P(T > {_t(ds, limit)})",
+              f"{conf} interval", "independent samples used", "evaluations not converged"]
+    method = ds["exceedance_probability"].attrs.get("method")
+    return Table(header, rows, "Inner-surface temperature: P95 and the probability of "
+                 "exceeding the limit" + (f" ({method} interval)" if method else "")), verdicts
+
+
+def quantile_tables(ds: xr.Dataset) -> list[Table]:
+    """The percentiles of the inner-surface temperature, one table per exposure [-]."""
+    out = []
+    for _, label, one in scenario_values(ds):
+        rows = []
+        for k, p in enumerate(np.asarray(one["quantile"].values, dtype=float)):
+            rows.append([f"P{100 * p:g}",
+                         _t(ds, one["inner_surface_temperature_quantile"].values[k]),
+                         f"[{_t(ds, one['inner_surface_temperature_quantile_lower'].values[k])}, "
+                         f"{_t(ds, one['inner_surface_temperature_quantile_upper'].values[k])}]"])
+        out.append(Table(["percentile", "inner-surface temperature", "confidence interval"],
+                         rows, exposure_text(ds, label) if label else ""))
+    return out
+
+
+def quantile_note(ds: xr.Dataset) -> str:
+    """The sentence saying how the percentile intervals were obtained [-]."""
+    conf = 100 * float(ds.attrs.get("confidence", math.nan))
+    return (f"Intervals: {conf:g} % confidence intervals from order statistics; n/a where the "
+            "samples are too few to bound a tail percentile on that side.")
+
+
+INDEX_KEYS = ("first", "first_ci", "total", "total_ci")
+
+
+def _ranks(total: np.ndarray) -> np.ndarray:
+    order = np.argsort(-np.nan_to_num(np.asarray(total, dtype=float), nan=-np.inf),
+                       kind="stable")
+    r = np.empty(order.size, dtype=int)
+    r[order] = np.arange(1, order.size + 1)
+    return r
+
+
+@dataclass(frozen=True)
+class IndexSet:
+    """The Sobol indices of one exposure and output, from the Saltelli estimators or the
+    polynomial-chaos surrogate; ``*_converged`` is ``None`` when no flag exists."""
+
+    output: str
+    estimator: str
+    p: dict
+    g: dict
+    p_rank: np.ndarray
+    g_rank: np.ndarray
+    p_converged: np.ndarray | None
+    g_converged: np.ndarray | None
+
+
+def index_sets(one: xr.Dataset) -> list[IndexSet]:
+    """The Sobol index sets of one exposure: one per output (Saltelli), the surrogate's for
+    the inner-surface temperature, or none [-]."""
+    if "sobol_total" in one:
+        out = []
+        for o in [str(v) for v in one["output"].values]:
+            s = one.sel(output=o)
+            out.append(IndexSet(
+                o, "saltelli", {k: s[f"sobol_{k}"].values for k in INDEX_KEYS},
+                {k: s[f"sobol_group_{k}"].values for k in INDEX_KEYS}, s["parameter_rank"].values,
+                s["group_rank"].values, s["index_converged"].values,
+                s["group_index_converged"].values))
+        return out
+    if "pce_total" in one:
+        p = {k: one[f"pce_{k}"].values for k in INDEX_KEYS}
+        g = {k: one[f"pce_group_{k}"].values for k in INDEX_KEYS}
+        conv = None
+        if "pce_total_converged" in one:  # results before 0.2 carry no flags
+            conv = (np.asarray(one["pce_total_converged"].values, dtype=bool)
+                    & np.asarray(one["pce_first_converged"].values, dtype=bool),
+                    np.asarray(one["pce_group_total_converged"].values, dtype=bool)
+                    & np.asarray(one["pce_group_first_converged"].values, dtype=bool))
+        return [IndexSet(PRIMARY, "pce_surrogate", p, g, _ranks(p["total"]),
+                         _ranks(g["total"]), *(conv or (None, None)))]
+    return []
+
+
+def _status(conv: np.ndarray | None, j: int) -> str:
+    if conv is None:
+        return "surrogate"
+    return "converged" if conv[j] else "UNCONVERGED"
+
+
+def _fit(one: xr.Dataset) -> str:
+    q2 = float(one["pce_q2"].item())
+    if not np.isfinite(q2):
+        return "no surrogate could be fitted"
+    return f"polynomial-chaos surrogate, order {int(one['pce_order'].item())}, Q2 = {q2:.3f}"
+
+
+def ranking_tables(ds: xr.Dataset) -> list[Table]:
+    """Parameters and layers ranked by total Sobol index, or by |rank correlation| for a
+    screening study, per exposure [-]."""
+    out = []
+    for _, label, one in scenario_values(ds):
+        suffix = f" — {exposure_text(ds, label)}" if label else ""
+        for ix in index_sets(one):
+            if ix.output != PRIMARY:
+                continue
+            how = ("" if ix.estimator == "saltelli" else f" from a {_fit(one)}")
+            names = [str(n) for n in one["parameter"].values]
+            rows = [[str(int(ix.p_rank[j])), names[j],
+                     str(one["parameter_group"].values[j]).replace("_", " "),
+                     _idx(float(ix.p["total"][j]), float(ix.p["total_ci"][j])),
+                     _idx(float(ix.p["first"][j]), float(ix.p["first_ci"][j])),
+                     _status(ix.p_converged, j)]
+                    for j in np.argsort(ix.p_rank, kind="stable")]
+            out.append(Table(["rank", "parameter", "layer", "total index ± CI",
+                              "first-order index ± CI", "status"], rows,
+                             f"Parameters by total Sobol index{how}{suffix}"))
+            groups = [str(g).replace("_", " ") for g in one["group"].values]
+            rows = [[str(int(ix.g_rank[j])), groups[j],
+                     _idx(float(ix.g["total"][j]), float(ix.g["total_ci"][j])),
+                     _idx(float(ix.g["first"][j]), float(ix.g["first_ci"][j])),
+                     _status(ix.g_converged, j)]
+                    for j in np.argsort(ix.g_rank, kind="stable")]
+            out.append(Table(["rank", "layer", "total index ± CI", "first-order index ± CI",
+                              "status"], rows,
+                             f"Layers by grouped total Sobol index{how}{suffix}"))
+        if "sobol_total" not in one:
+            rho = np.asarray(one["rank_correlation"].values, dtype=float)
+            order = np.argsort(-np.nan_to_num(np.abs(rho), nan=-1.0), kind="stable")
+            names = [str(n) for n in one["parameter"].values]
+            out.append(Table(
+                ["rank", "parameter", "layer", "Spearman ρ"],
+                [[str(r), names[j], str(one["parameter_group"].values[j]).replace("_", " "),
+                  "n/a" if not np.isfinite(rho[j]) else f"{rho[j]:+.3f}"]
+                 for r, j in enumerate(order, start=1)],
+                f"Screening only: parameters by |rank correlation|{suffix}"))
+    return out
+
+
+def convergence_summary(ds: xr.Dataset) -> tuple[list[str], Table | None]:
+    """Paragraphs on the convergence of the indices and their table (``None`` if none) [-]."""
+    if "sobol_total" not in ds:
+        if "pce_total" not in ds:
+            return [f"No Sobol indices were computed (method = {ds.attrs.get('method')}), so "
+                    "there is no index convergence to report."], None
+        rows = [[exposure_text(ds, label) if label else "—", str(int(one["pce_order"].item())),
+                 cell_text(float(one["pce_q2"].item()))] for _, label, one in scenario_values(ds)]
+        return [f"The indices of this {ds.attrs.get('method')} study come from a "
+                "polynomial-chaos surrogate fitted to the samples, with bootstrap intervals. "
+                "They are only as good as the fit: the leave-one-out Q2 below should be close "
+                "to 1. A Saltelli design (method = \"saltelli\") estimates them without a "
+                "surrogate."], Table(["exposure", "surrogate order", "leave-one-out Q2"], rows)
+    thr = ds["index_converged"].attrs.get("threshold")
+    rows = []
+    for _, label, one in scenario_values(ds):
+        for ix in index_sets(one):
+            s = one.sel(output=ix.output)
+            bad_p = [str(n) for n, c in zip(one["parameter"].values, ix.p_converged,
+                                            strict=True) if not c]
+            bad_g = [str(n).replace("_", " ") for n, c in
+                     zip(one["group"].values, ix.g_converged, strict=True) if not c]
+            need = int(s["suggested_base_samples"].item())
+            rows.append([exposure_text(ds, label) if label else "—", ix.output.replace("_", " "),
+                         ", ".join(bad_p) or "none", ", ".join(bad_g) or "none",
+                         str(need) if need else "— (converged)",
+                         str(int(s["sobol_rows_dropped"].item()))])
+    text = [f"An index counts as converged when both its confidence half-widths are below "
+            f"{thr:g}. Unconverged indices are hatched in the figures; their ranking is not "
+            f"settled. The study used {ds.attrs.get('base_samples')} base samples; the "
+            "suggested count would narrow every interval below the threshold (set samples in "
+            "[study], or rerun with --samples)." if thr is not None else
+            "Convergence threshold not stored in the dataset."]
+    return text, Table(["exposure", "output", "unconverged parameters", "unconverged layers",
+                        "suggested base samples", "base rows dropped"], rows)
+
+
+def nonconverged_table(ds: xr.Dataset) -> Table:
+    """Per exposure: evaluations, those not converged, gap-air range and convection onset
+    counts [-]."""
+    rows = []
+    layers = [str(n) for n in ds["layer"].values]
+    gaps = [j for j, k in enumerate(ds["layer_kind"].values) if str(k) == "gap"]
+    conv_on = bool(int(ds.attrs.get("convection", 0)))
+    for _, label, one in scenario_values(ds):
+        n = int(ds.attrs.get("evaluations", one.sizes["sample"]))
+        onset = np.asarray(one["convection_onset"].values, dtype=bool)
+        past = "; ".join(f"{layers[j]}: {int(onset[:, j].sum())}" for j in gaps) or "no gaps"
+        rows.append([exposure_text(ds, label) if label else "—", str(n),
+                     str(int(one["nonconverged_count"].item())),
+                     str(int(np.asarray(one["air_range_exceeded"].values, dtype=bool).sum())),
+                     past + ("" if conv_on or not gaps else
+                             " (convection is off: these gaps break the still-air assumption)"
+                             if onset[:, gaps].any() else "")])
+    kept = ds.attrs.get("sample_rows_in_file")
+    part = f" (of the first {kept} samples, kept in results.nc)" if kept else ""
+    return Table(["exposure", "evaluations", "not converged (excluded)",
+                  f"gap air outside 250–1500 K{part}",
+                  f"samples past convection onset, per gap{part}"], rows)
+
+
+def provenance_table(ds: xr.Dataset) -> Table:
+    """Config, method, seed, sample counts, model options and versions [-]."""
+    a = ds.attrs
+    rows = [["config file", str(a.get("config_source", ""))],
+            ["method", str(a.get("method", ""))], ["seed", str(a.get("seed", ""))],
+            ["base samples", str(a.get("base_samples", ""))],
+            ["model evaluations", f"{a.get('evaluations', '')}"
+             + (f" per exposure × {ds.sizes['scenario']} exposures"
+                if "scenario" in ds.dims else "")],
+            ["uncertain parameters", str(a.get("parameters", ""))],
+            ["confidence level", f"{100 * float(a.get('confidence', math.nan)):g} %"],
+            ["gap radiation", str(a.get("radiation", ""))],
+            ["gap convection", "on" if int(a.get("convection", 0)) else "off"]]
+    rows += [[f"{k.removeprefix('version_')} version", str(v)] for k, v in a.items()
+             if k.startswith("version_")]
+    return Table(["item", "value"], rows)

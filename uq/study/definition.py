@@ -1,0 +1,360 @@
+"""The validated study: what :func:`plyrisk.study.config.load_study` returns, all values SI.
+
+:class:`Study` holds the nominal model objects, the uncertain :class:`Parameter` list, the
+solver options, the analysis settings and an optional scenario sweep. :func:`assemble` puts
+sampled parameter values into the model objects for :func:`plyrisk.models.network.solve_network`.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping
+from dataclasses import dataclass, replace
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+from numpy.typing import ArrayLike
+
+from plyrisk.models.boundary import ColdSide, HotSide
+from plyrisk.models.stack import Gap, Solid
+from plyrisk.study.distributions import Distribution
+from plyrisk.study.units import QUANTITIES, TEMPERATURE, QuantitySpec, format_value, from_si
+
+if TYPE_CHECKING:  # pragma: no cover
+    from plyrisk.analysis.morris import ScreeningSettings
+    from plyrisk.tolerances.core import ToleranceSettings
+
+__all__ = ["Analysis", "ComputeOptions", "ModelOptions", "Parameter", "Scenarios", "Study",
+           "assemble"]
+
+_SPREADS = frozenset({"sd", "tolerance", "upper", "lower"})
+_PLAIN = frozenset({"gsd", "cv", "a", "b", "coverage"})  # dimensionless distribution parameters
+
+
+@dataclass(frozen=True)
+class Parameter:
+    """One uncertain input of a study.
+
+    Parameters
+    ----------
+    name
+        Stable name, ``"<layer name>.<quantity>"`` or ``"hot_side.<quantity>"`` [-].
+    group
+        Layer name, ``"hot_side"`` or ``"cold_side"``, for grouped indices [-].
+    target
+        ``("layer", index, field)``, ``("hot_side", field)`` or ``("cold_side", field)``; the
+        field ``"emissivity"`` of a solid sets both faces (see :attr:`fields`) [-].
+    distribution
+        The input distribution, in SI units [-].
+    unit
+        The user's unit text for display (``"mm"``), ``""`` for dimensionless [-].
+    key_path
+        Where it is in the config, e.g. ``"layer[0].thickness"`` [-].
+    """
+
+    name: str
+    group: str
+    target: tuple
+    distribution: Distribution
+    unit: str
+    key_path: str
+
+    @property
+    def quantity(self) -> str:
+        """The quantity (config key) of the parameter, e.g. ``"thickness"`` [-]."""
+        return self.target[-1]
+
+    @property
+    def fields(self) -> tuple[str, ...]:
+        """The model dataclass fields this parameter sets [-]."""
+        if self.quantity == "emissivity" and self.target[0] == "layer":
+            return ("emissivity_hot", "emissivity_cold")
+        return (self.quantity,)
+
+    @property
+    def spec(self) -> QuantitySpec:
+        """Dimension and physical bounds of the quantity [-]."""
+        return QUANTITIES[self.quantity]
+
+    def to_unit(self, values: ArrayLike, *, difference: bool = False) -> np.ndarray:
+        """Convert SI values (or differences, e.g. a std) to the user's unit [unit].
+
+        Parameters
+        ----------
+        values
+            Values in SI [SI].
+        difference
+            The values are differences or spreads: no temperature offset [-].
+        """
+        return np.asarray(from_si(values, self.unit, self.spec, difference=difference))
+
+    def format(self, value: float, *, difference: bool = False, digits: int = 4) -> str:
+        """An SI value shown in the user's unit, e.g. ``"0.5 mm"`` [-]."""
+        return format_value(value, self.unit, self.spec, difference=difference, digits=digits)
+
+    def describe(self) -> str:
+        """The distribution as the user gave it, in the user's unit [-].
+
+        E.g. ``"0.5 mm +/- 0.04 mm (normal, band = +/-3 sd)"`` or
+        ``"lognormal(median 1 mm, gsd 1.4)"``.
+        """
+        d = self.distribution
+        p = d.params
+
+        def show(key: str) -> str:
+            if key in _PLAIN:
+                return f"{p[key]:.4g}"
+            return self.format(p[key], difference=key in _SPREADS)
+
+        if d.kind == "tolerance":
+            band = f"+/-{p.get('coverage', 3.0):g} sd"
+            if "tolerance" in p:
+                text = f"{show('nominal')} +/- {show('tolerance')}"
+            else:
+                text = f"{show('nominal')} +{show('upper')} / -{show('lower')}"
+            return f"{text} (normal, band = {band})"
+        return f"{d.kind}(" + ", ".join(f"{k} {show(k)}" for k in p) + ")"
+
+    def truncation(self) -> str:
+        """Where the physical bounds cut the distribution and how much mass is cut [-].
+
+        E.g. ``"truncated at 0 mm: 0.13 % of the mass cut"``; ``"none"`` when nothing is cut.
+        """
+        d = self.distribution
+        if d.truncated_mass == 0.0:
+            return "none"
+        lo, hi = -math.inf, math.inf  # support before the physical bounds
+        if d.kind == "truncnormal":
+            lo, hi = d.params.get("low", -math.inf), d.params.get("high", math.inf)
+        elif d.kind == "lognormal":
+            lo = 0.0
+        cuts = [b for b, active in ((d.bounds.lower, d.bounds.lower > lo),
+                                    (d.bounds.upper, d.bounds.upper < hi)) if active]
+        where = " and ".join(self.format(b) for b in cuts)
+        mass = 100.0 * d.truncated_mass
+        amount = "< 0.0001 %" if mass < 1e-4 else f"{mass:.2g} %"
+        return f"truncated at {where}: {amount} of the mass cut"
+
+
+@dataclass(frozen=True)
+class Scenarios:
+    """A sweep of one hot-side quantity.
+
+    Parameters
+    ----------
+    quantity
+        Hot-side field swept, e.g. ``"incident_flux"`` [-].
+    values
+        The levels in SI, shape ``(k,)`` [SI].
+    labels
+        The levels as the user wrote them [-].
+    unit
+        The user's unit text of the first level [-].
+    """
+
+    quantity: str
+    values: np.ndarray
+    labels: tuple[str, ...]
+    unit: str
+
+
+@dataclass(frozen=True)
+class ModelOptions:
+    """Options of the network solve (see :func:`plyrisk.models.network.solve_network`).
+
+    Parameters
+    ----------
+    radiation
+        ``"exact"`` or ``"linearized"`` gap radiation [-].
+    convection
+        Natural convection in gaps on or off [-].
+    tolerance
+        Newton convergence tolerance on the face temperatures [K].
+    max_iterations
+        Newton iterations before a sample is declared not converged [-].
+    """
+
+    radiation: str = "exact"
+    convection: bool = False
+    tolerance: float = 1e-6
+    max_iterations: int = 100
+
+    def solver_kwargs(self) -> dict[str, Any]:
+        """Keyword arguments for :func:`plyrisk.models.network.solve_network` [-]."""
+        return {
+            "radiation": self.radiation,
+            "convection_enabled": self.convection,
+            "tolerance": self.tolerance,
+            "max_iterations": self.max_iterations,
+        }
+
+
+@dataclass(frozen=True)
+class Analysis:
+    """What to compute.
+
+    Parameters
+    ----------
+    method
+        Analysis method: ``"saltelli"`` (Sobol indices from a Saltelli design), ``"pce"``
+        (polynomial-chaos surrogate) or ``"morris"`` (elementary-effects screening) [-].
+    samples
+        Saltelli: base rows ``N``; pce: number of samples; morris: number of trajectories [-].
+    seed
+        Seed of every random draw [-].
+    limit
+        Inner-surface temperature limit [K].
+    percentiles
+        Percentiles to report, as fractions in (0, 1) [-].
+    confidence
+        Level of the confidence intervals [-].
+    bootstrap
+        Bootstrap resamples for the index intervals [-].
+    index_ci_threshold
+        Interval half-width above which an index is flagged unconverged [-].
+    chunk_size
+        Samples per evaluation chunk [-].
+    lhs_optimization
+        ``None``, ``"random-cd"`` or ``"lloyd"`` (pce with the lhs design only) [-].
+    outputs
+        Outputs analysed besides the inner-surface temperature: ``"heat_flux"`` and/or
+        interface names [-].
+    design
+        Design type: ``"sobol"`` (saltelli; for pce a plain scrambled Sobol' sequence),
+        ``"lhs"``, ``"random"`` (pce) or ``"morris"`` (morris) [-].
+    levels
+        Grid levels of the Morris trajectories (morris only) [-].
+    screening_threshold
+        Share of the largest mu* below which (mu* and sigma both) an input is marked safe to fix
+        at nominal (morris) [-].
+    pce_max_loo_error
+        Largest relative leave-one-out error of the surrogate for which percentiles are taken
+        from it (pce) [-].
+    """
+
+    method: str
+    samples: int
+    seed: int
+    limit: float
+    percentiles: tuple[float, ...] = (0.05, 0.50, 0.95)
+    confidence: float = 0.90
+    bootstrap: int = 200
+    index_ci_threshold: float = 0.05
+    chunk_size: int = 65536
+    lhs_optimization: str | None = None
+    outputs: tuple[str, ...] = ()
+    design: str = "sobol"
+    levels: int = 4
+    screening_threshold: float = 0.1
+    pce_max_loo_error: float = 1e-3
+
+
+@dataclass(frozen=True)
+class ComputeOptions:
+    """Where a study's chunks are solved and kept (the ``[compute]`` section).
+
+    Parameters
+    ----------
+    workers
+        Worker processes of a local dask cluster; 1 solves in this process [-].
+    scheduler
+        Address of an existing dask scheduler, e.g. ``"tcp://10.0.0.5:8786"`` [-].
+    store
+        Zarr store folder the per-sample results stream to (out of core) [-].
+    """
+
+    workers: int = 1
+    scheduler: str | None = None
+    store: str | None = None
+
+
+@dataclass(frozen=True)
+class Study:
+    """A validated study, all values SI.
+
+    ``layers``, ``hot_side`` and ``cold_side`` are the nominal model objects: every uncertain
+    value is replaced by its distribution's nominal. ``parameters`` lists the uncertain inputs,
+    hot side first, then the layers hot → cold, then the cold side. ``tolerances`` holds the
+    ``[tolerances]`` settings (:class:`plyrisk.tolerances.core.ToleranceSettings`) and ``screening``
+    the ``[screening]`` settings (:class:`plyrisk.analysis.morris.ScreeningSettings`), ``None``
+    when the
+    section is absent.
+    """
+
+    source: str
+    text: str
+    title: str
+    layers: tuple[Solid | Gap, ...]
+    hot_side: HotSide
+    cold_side: ColdSide
+    parameters: tuple[Parameter, ...]
+    model: ModelOptions
+    analysis: Analysis
+    limit_unit: str
+    scenarios: Scenarios | None = None
+    tolerances: ToleranceSettings | None = None
+    compute: ComputeOptions = ComputeOptions()
+    screening: ScreeningSettings | None = None
+
+    @property
+    def parameter_names(self) -> tuple[str, ...]:
+        """Names of the uncertain parameters, in order [-]."""
+        return tuple(p.name for p in self.parameters)
+
+    @property
+    def groups(self) -> tuple[str, ...]:
+        """Distinct parameter groups in order of first appearance [-]."""
+        return tuple(dict.fromkeys(p.group for p in self.parameters))
+
+    def format_temperature(self, value: float, *, difference: bool = False) -> str:
+        """A temperature [K] (or difference) shown in the limit's unit [-]."""
+        return format_value(value, self.limit_unit, TEMPERATURE, difference=difference)
+
+
+def assemble(
+    study: Study,
+    values: Mapping[str, ArrayLike],
+    *,
+    scenario: int | None = None,
+) -> tuple[list[Solid | Gap], HotSide, ColdSide]:
+    """Model objects with sampled values in place of the nominal ones.
+
+    Parameters
+    ----------
+    study
+        The study [-].
+    values
+        Parameter name → SI samples, each shape ``(n,)``; parameters left out keep their
+        nominal value [SI].
+    scenario
+        Index into ``study.scenarios.values`` to apply, or ``None`` for the base hot side [-].
+
+    Returns
+    -------
+    layers, hot_side, cold_side
+        Ready for :func:`plyrisk.models.network.solve_network`.
+    """
+    by_name = {p.name: p for p in study.parameters}
+    unknown = sorted(set(values) - set(by_name))
+    if unknown:
+        raise ValueError(f"unknown parameter(s) {unknown}; valid: {', '.join(by_name)}")
+    layers = list(study.layers)
+    sides = {"hot_side": {}, "cold_side": {}}
+    per_layer: dict[int, dict] = {}
+    for name, v in values.items():
+        p = by_name[name]
+        arr = np.asarray(v, dtype=float)
+        dest = per_layer.setdefault(p.target[1], {}) if p.target[0] == "layer" else sides[
+            p.target[0]
+        ]
+        for f in p.fields:
+            dest[f] = arr
+    if scenario is not None:
+        if study.scenarios is None:
+            raise ValueError("the study has no scenarios")
+        sides["hot_side"][study.scenarios.quantity] = float(study.scenarios.values[scenario])
+    for i, changes in per_layer.items():
+        layers[i] = replace(layers[i], **changes)
+    hot = replace(study.hot_side, **sides["hot_side"])
+    cold = replace(study.cold_side, **sides["cold_side"])
+    return layers, hot, cold

@@ -1,0 +1,341 @@
+"""Units at the edge: parse the user's quantity strings to SI and convert SI results back.
+
+One module-level :data:`ureg` (a :class:`pint.UnitRegistry`) serves the whole package. A config
+value is a string ``"<number> <unit>"`` (``"0.5 mm"``, ``"8 kW/m^2"``, ``"34 degC"``) or, for a
+dimensionless quantity only, a bare number. Every quantity the model knows has a
+:class:`QuantitySpec` in :data:`QUANTITIES`: its dimension, its SI unit and its physical bounds.
+
+Temperatures need care: a temperature *level* in ``degC`` carries an offset (``34 degC`` is
+307.15 K) while a temperature *difference* (a spread such as a standard deviation or a
+tolerance) does not (``2 degC`` of spread is 2 K). Functions here take ``difference=True`` for
+the latter; a lone offset unit (``degC``, ``degF``) is then read as its ``delta_`` unit.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from dataclasses import dataclass
+
+import numpy as np
+import pint
+from numpy.typing import ArrayLike
+
+from plyrisk.errors import PlyriskError
+
+ureg = pint.UnitRegistry()
+"""The one unit registry of plyrisk."""
+
+_EXPONENT = re.compile(r"(?<=[A-Za-z])(-?\d+)(?![\w.])")
+_NUMBER = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*?)\s*$")
+
+
+class UnitError(PlyriskError, ValueError):
+    """A value that is not a number with a suitable unit; the message has no key path."""
+
+
+@dataclass(frozen=True)
+class QuantitySpec:
+    """Dimension, SI unit and physical bounds of one kind of model quantity.
+
+    Parameters
+    ----------
+    what
+        Description used in error messages, e.g. ``"a length"`` [-].
+    si_unit
+        The SI unit values are converted to, as a pint unit string [-].
+    example
+        An example value with a unit, for error messages [-].
+    lower, upper
+        Physical bounds, in ``si_unit``.
+    lower_open, upper_open
+        Whether the bound itself is excluded [-].
+    level
+        A temperature level (offset units such as degC apply), not a difference [-].
+    """
+
+    what: str
+    si_unit: str
+    example: str
+    lower: float = -math.inf
+    upper: float = math.inf
+    lower_open: bool = True
+    upper_open: bool = True
+    level: bool = False
+
+    @property
+    def dimensionless(self) -> bool:
+        """True for a quantity that may be given as a bare number [-]."""
+        return self.si_unit == ""
+
+    @property
+    def is_temperature(self) -> bool:
+        """True for a temperature level (offset units apply) [-]."""
+        return self.level
+
+    def bounds_text(self) -> str:
+        """The bounds in words, e.g. ``"positive"`` or ``"in (0, 1]"`` [-]."""
+        lo, hi = self.lower, self.upper
+        if self.is_temperature and lo == 0 and hi == math.inf:
+            return "above absolute zero (0 K)"
+        if lo == 0 and hi == math.inf:
+            return "positive" if self.lower_open else "zero or positive"
+        if lo == -math.inf and hi == math.inf:
+            return "finite"
+        left = "(" if self.lower_open else "["
+        right = ")" if self.upper_open else "]"
+        return f"in {left}{_g(lo)}, {_g(hi)}{right}"
+
+    def within(self, value: ArrayLike) -> np.ndarray:
+        """Elementwise: is ``value`` [SI] inside the bounds and finite [-]."""
+        v = np.asarray(value, dtype=float)
+        ok = np.isfinite(v)
+        ok &= (v > self.lower) if self.lower_open else (v >= self.lower)
+        ok &= (v < self.upper) if self.upper_open else (v <= self.upper)
+        return ok
+
+
+LENGTH = QuantitySpec("a length", "m", "0.5 mm", lower=0.0)
+CONDUCTIVITY = QuantitySpec("a thermal conductivity", "W/m/K", "0.05 W/m/K", lower=0.0)
+CONDUCTIVITY_SLOPE = QuantitySpec(
+    "a conductivity slope (conductivity per kelvin)", "W/m/K^2", "1e-4 W/m/K^2"
+)
+TEMPERATURE = QuantitySpec("a temperature", "K", "34 degC", lower=0.0, level=True)
+EMISSIVITY = QuantitySpec(
+    "an emissivity (dimensionless)", "", "0.9", lower=0.0, upper=1.0, upper_open=False
+)
+HEAT_FLUX = QuantitySpec("a heat flux", "W/m^2", "8 kW/m^2", lower=0.0, lower_open=False)
+COEFFICIENT = QuantitySpec(
+    "a heat-transfer coefficient", "W/m^2/K", "12 W/m^2/K", lower=0.0, lower_open=False
+)
+CONTACT_RESISTANCE = QuantitySpec(
+    "a thermal contact resistance", "m^2*K/W", "0.002 m^2*K/W", lower=0.0
+)
+TEMPERATURE_DIFFERENCE = QuantitySpec(
+    "a temperature difference", "K", "1e-6 K", lower=0.0
+)
+DIMENSIONLESS = QuantitySpec("a dimensionless number", "", "1.4")
+
+QUANTITIES: dict[str, QuantitySpec] = {
+    "thickness": LENGTH,
+    "width": LENGTH,
+    "height": LENGTH,
+    "conductivity": CONDUCTIVITY,
+    "conductivity_slope": CONDUCTIVITY_SLOPE,
+    "reference_temperature": TEMPERATURE,
+    "emissivity_hot": EMISSIVITY,
+    "emissivity_cold": EMISSIVITY,
+    "emissivity": EMISSIVITY,
+    "contact_resistance": CONTACT_RESISTANCE,
+    "heat_flux": HEAT_FLUX,
+    "incident_flux": HEAT_FLUX,
+    "temperature": TEMPERATURE,
+    "gas_temperature": TEMPERATURE,
+    "surroundings_temperature": TEMPERATURE,
+    "ambient_temperature": TEMPERATURE,
+    "convection_coefficient": COEFFICIENT,
+}
+"""Spec of every numeric field of :mod:`plyrisk.models.stack` and :mod:`plyrisk.models.boundary` by
+field name
+(plus the ``emissivity`` shorthand of a solid)."""
+
+
+@dataclass(frozen=True)
+class Parsed:
+    """One parsed value.
+
+    Parameters
+    ----------
+    si
+        The value in the spec's SI unit [SI].
+    unit
+        The user's unit text (``"mm"``), ``""`` for a bare number [-].
+    text
+        The value as the user wrote it, for messages [-].
+    """
+
+    si: float
+    unit: str
+    text: str
+
+
+def parse_unit(unit: str) -> pint.Unit:
+    """Parse a unit string with :data:`ureg`.
+
+    Besides pint's syntax (``"W/m^2/K"``, ``"m^2*K/W"``) the SI exponent style
+    ``"W m-2 K-1"`` is accepted.
+
+    Raises
+    ------
+    UnitError
+        For a unit pint does not know.
+    """
+    # SI exponent style "W m-2 K-1" (as in the docstrings) → "W m**-2 K**-1" for pint
+    text = _EXPONENT.sub(r"**\1", unit)
+    try:
+        parsed = ureg.parse_units(text)
+    except pint.UndefinedUnitError:
+        raise UnitError(f"unknown unit {unit!r}") from None
+    except Exception as err:  # pint raises several types for malformed unit text
+        raise UnitError(f"unreadable unit {unit!r} ({type(err).__name__}: {err})") from None
+    return parsed
+
+
+def parse_value(value: object, spec: QuantitySpec, *, difference: bool = False) -> Parsed:
+    """Convert a config value to SI.
+
+    Parameters
+    ----------
+    value
+        A string ``"<number> <unit>"``, or a bare ``int``/``float`` for a dimensionless spec [-].
+    spec
+        What the value must be [-].
+    difference
+        Read a temperature as a difference: ``"2 degC"`` is 2 K, not 275.15 K [-].
+
+    Returns
+    -------
+    Parsed
+        The SI value, the user's unit text and the original text.
+
+    Raises
+    ------
+    UnitError
+        For a missing unit, an unknown unit, a wrong dimension or a non-finite number.
+    """
+    wanted = f"{spec.what} such as {spec.example!r}"
+    if isinstance(value, bool) or not isinstance(value, int | float | str):
+        raise UnitError(f"expected {wanted}, got {_show(value)}")
+    if isinstance(value, int | float):
+        if not spec.dimensionless:
+            raise UnitError(
+                f"a bare number needs a unit: expected {wanted}, got {value!r}"
+            )
+        if not math.isfinite(value):
+            raise UnitError(f"must be finite, got {value!r}")
+        return Parsed(float(value), "", repr(value))
+    match = _NUMBER.match(value)
+    if match is None:
+        raise UnitError(f"expected '<number> <unit>', i.e. {wanted}, got {value!r}")
+    magnitude, unit = float(match.group(1)), match.group(2)
+    if not math.isfinite(magnitude):
+        raise UnitError(f"must be finite, got {value!r}")
+    if not unit and not spec.dimensionless:
+        raise UnitError(f"a bare number needs a unit: expected {wanted}, got {value!r}")
+    try:
+        si = to_si(magnitude, unit, spec, difference=difference)
+    except UnitError as err:
+        raise UnitError(f"{err} in {value!r}; expected {wanted}") from None
+    return Parsed(float(si), unit, value)
+
+
+def to_si(
+    values: ArrayLike, unit: str, spec: QuantitySpec, *, difference: bool = False
+) -> np.ndarray | float:
+    """Convert magnitudes in the user's ``unit`` to the spec's SI unit.
+
+    Parameters
+    ----------
+    values
+        Magnitudes in ``unit`` [unit].
+    unit
+        The user's unit text; ``""`` for dimensionless [-].
+    spec
+        Target quantity [-].
+    difference
+        Treat a temperature unit as a difference [-].
+
+    Returns
+    -------
+    numpy.ndarray or float
+        The values in ``spec.si_unit`` [SI].
+    """
+    target = ureg.parse_units(spec.si_unit)
+    try:
+        units = _units(unit, difference=difference)
+        same = units.dimensionality == target.dimensionality
+    except UnitError:
+        raise
+    except Exception as err:  # pint fails on some exotic (e.g. logarithmic) units
+        raise UnitError(f"unusable unit {unit!r} ({type(err).__name__})") from None
+    if not same:
+        raise UnitError(
+            f"unit {unit or '(none)'!r} has dimension {_dim(units)}, not {_dim(target)}"
+        )
+    try:
+        return ureg.Quantity(values, units).to(target).magnitude
+    except Exception as err:  # e.g. an offset unit inside a product
+        raise UnitError(f"cannot convert {unit!r} to {spec.si_unit} ({err})") from None
+
+
+def from_si(
+    values: ArrayLike, unit: str, spec: QuantitySpec, *, difference: bool = False
+) -> np.ndarray | float:
+    """Convert SI values back to the user's unit, e.g. K → degC (with offset) [unit].
+
+    Parameters
+    ----------
+    values
+        Values in ``spec.si_unit`` [SI].
+    unit
+        The user's unit text [-].
+    spec
+        The quantity [-].
+    difference
+        The values are temperature differences: K → degC has no offset [-].
+    """
+    units = _units(unit, difference=difference)
+    return ureg.Quantity(values, ureg.parse_units(spec.si_unit)).to(units).magnitude
+
+
+def format_value(
+    value: float, unit: str, spec: QuantitySpec, *, difference: bool = False, digits: int = 4
+) -> str:
+    """An SI value shown in the user's unit, e.g. ``"0.5 mm"`` [-].
+
+    Parameters
+    ----------
+    value
+        Value in ``spec.si_unit`` [SI].
+    unit
+        The user's unit text [-].
+    spec
+        The quantity [-].
+    difference
+        The value is a temperature difference [-].
+    digits
+        Significant digits [-].
+    """
+    shown = float(from_si(value, unit, spec, difference=difference))
+    return f"{_g(shown, digits)} {unit}".rstrip()
+
+
+def _units(unit: str, *, difference: bool) -> pint.Unit:
+    units = parse_unit(unit)
+    items = dict(units._units)
+    if difference and len(items) == 1:
+        (name, power), = items.items()
+        if power == 1 and not ureg.Quantity(1, units)._is_multiplicative:
+            units = ureg.parse_units(f"delta_{name}")
+    return units
+
+
+def _dim(units: pint.Unit) -> str:
+    dim = str(units.dimensionality)
+    return "dimensionless" if dim in ("", "dimensionless") else dim
+
+
+def _g(value: float, digits: int = 4) -> str:
+    if value == math.inf:
+        return "inf"
+    if value == -math.inf:
+        return "-inf"
+    return f"{value:.{digits}g}"
+
+
+def _show(value: object) -> str:
+    if isinstance(value, dict):
+        return f"a table with keys {', '.join(map(str, value)) or '(none)'}"
+    if isinstance(value, list):
+        return f"a list {value!r}"
+    return repr(value)

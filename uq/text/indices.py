@@ -1,0 +1,119 @@
+"""Summary lines of the Sobol indices of one exposure (Saltelli or polynomial chaos), every
+index with its convergence status, and of the surrogate's percentiles."""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+
+import numpy as np
+
+from plyrisk.analysis.sobol import RankedIndex
+
+
+def _flag(value: float, converged: bool) -> str:
+    return "ok" if converged else ("n/a" if not np.isfinite(value) else "WIDE")
+
+
+def _index(label: str, value: float, half: float, converged: bool) -> str:
+    return f"{label}{value:6.3f} ± {half:.3f} {_flag(half, converged):<4}"
+
+
+def _terms(surrogate) -> str:
+    """How many terms the surrogate has, and the candidate set they were selected from."""
+    if surrogate.candidates > surrogate.terms:
+        return (f"{surrogate.terms} terms selected from {surrogate.candidates} by least-angle "
+                "regression")
+    return f"{surrogate.terms} terms"
+
+
+def ranked_line(rank: int, item: RankedIndex, *, first: bool = True) -> str:
+    """One ranked parameter or layer: total (and first-order) index, half-width, status [-].
+
+    Parameters
+    ----------
+    rank
+        Position, 1 = most influential [-].
+    item
+        The ranked index [-].
+    first
+        Show the first-order index too [-].
+    """
+    text = f"  {rank}. {item.name:<32} " + _index("", item.total, item.total_ci,
+                                                    item.total_converged)
+    if first:
+        text += "   " + _index("first ", item.first, item.first_ci, item.first_converged)
+        if item.first_negative:
+            text += " (negative estimate)"
+    return text
+
+
+def index_lines(study, sc, *, top: int, temperature: Callable[[float], str]) -> list[str]:
+    """Lines of the ranking of the inner-surface temperature of one exposure [-].
+
+    Parameters
+    ----------
+    study
+        The study [-].
+    sc
+        Its :class:`plyrisk.analysis.study.ScenarioAnalysis` [-].
+    top
+        Parameters and layers listed [-].
+    temperature
+        Formats a temperature [K] in the display unit [-].
+    """
+    a = study.analysis
+    ranking = sc.ranking.get("inner_surface_temperature")
+    if not ranking:
+        return []
+    lines = []
+    thr = f"±{a.index_ci_threshold:g}"
+    if sc.surrogate is not None:
+        s = sc.surrogate
+        lines.append(
+            f"polynomial-chaos surrogate: order {s.order}, q-norm {s.q_norm:g}, {_terms(s)}, "
+            f"{s.samples} samples; leave-one-out error {s.loo_error:.2g} (Q2 = {s.q2:.4f})"
+            + (f", cross-validation error {s.cross_validation_error:.2g} (terms selected anew "
+               "in each fold)" if s.candidates > s.terms else ""))
+        lines.append(f"most influential parameters (total Sobol index from the surrogate ± "
+                     f"bootstrap CI half-width; first-order; ok = half-width ≤ {thr}, WIDE = "
+                     "not converged):")
+    else:
+        lines.append(f"most influential parameters (total Sobol index ± CI half-width; "
+                     f"first-order; ok = half-width ≤ {thr}, WIDE = not converged):")
+    lines += [ranked_line(r, item) for r, item in enumerate(ranking[:top], start=1)]
+    groups = sc.group_ranking.get("inner_surface_temperature", [])
+    if groups:
+        lines.append("layers (grouped total index ± CI half-width):")
+        lines += [ranked_line(r, item, first=False)
+                  for r, item in enumerate(groups[:top], start=1)]
+    unconv = [i for i in (*ranking, *groups) if not i.converged]
+    if unconv:
+        if sc.surrogate is None:
+            need = max(i.suggested_base_samples or 0 for i in unconv)
+            lines.append(
+                f"  {len(unconv)} index interval(s) wider than {thr}: rerun with --samples "
+                f"{need} or more, or with --until-converged, to settle the ranking (on "
+                "scrambled Sobol' designs the bootstrap intervals can be wider than the "
+                "actual error)")
+        else:
+            lines.append(f"  {len(unconv)} index interval(s) wider than {thr}: rerun with more "
+                         "samples to settle the ranking")
+    negative = [i.name for i in ranking if i.first_negative]
+    if negative:
+        lines.append(
+            f"  {len(negative)} first-order estimate(s) below zero ({', '.join(negative[:3])}"
+            + (", ..." if len(negative) > 3 else "") + "): a Sobol index is never negative; "
+            "this is the estimator's noise around a small index, shown as estimated (not "
+            "clipped); treat it as 0 within its interval")
+    if sc.surrogate is not None:
+        status = sc.surrogate_quantile_status
+        if sc.surrogate_quantiles is not None:
+            probs = np.asarray(sc.inner_quantiles.probabilities)
+            shown = []
+            for p in a.percentiles:
+                i = int(np.argmin(np.abs(probs - p)))
+                shown.append(f"P{100 * p:g} {temperature(sc.surrogate_quantiles[i])}")
+            lines.append("percentiles from the surrogate: " + ", ".join(shown) + f" ({status})")
+        elif status:
+            lines.append(f"percentiles from the surrogate: {status}")
+    return lines

@@ -1,0 +1,398 @@
+"""The core of the tolerance engine: problem, settings, one CRN run's statistics, searches.
+
+:class:`Runner` holds one unit-hypercube design and maps it through (modified) input
+distributions, so that every run of a tolerance study sees the same random numbers; the
+conventions (spread factors, worst exposure, basis) are in :mod:`plyrisk.tolerances.study`.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable, Mapping, Sequence
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from plyrisk.analysis.statistics import exceedance, quantiles
+from plyrisk.design.sampling import make_design
+from plyrisk.study.distributions import Distribution
+from plyrisk.study.targets import Target, parse_target
+
+__all__ = ["BASES", "DEFAULT_TARGET", "METHODS", "Outcome", "Runner", "ToleranceProblem",
+           "ToleranceSettings", "boundary", "factor_cap", "factor_grid", "largest_meeting",
+           "worst"]
+
+DEFAULT_TARGET = "P95 <= limit"
+METHODS = ("lhs", "random")
+BASES = ("bound", "estimate")
+REPORT_PROBABILITY = 0.95
+"""Quantile level reported by the what-if runs when the target is an exceedance bound [-]."""
+_GRID_BELOW_ONE = (0.0, 0.25, 0.5, 0.75, 1.0)
+XTOL = 1e-5          # bisection stops at this fraction of the searched range [-]
+
+
+@dataclass(frozen=True)
+class ToleranceProblem:
+    """Independent uncertain inputs, a model and a limit.
+
+    Parameters
+    ----------
+    names
+        Parameter names, one per input column [-].
+    distributions
+        Input distributions, one per column [SI].
+    evaluate
+        Maps input values of shape ``(n, d)`` [SI] to the output, shape ``(n_scenarios, n)``
+        or ``(n,)`` [K]; non-finite outputs mark failed evaluations (excluded and counted).
+    limit
+        Limit of the output; "exceed" means strictly above it [K].
+    scenario_labels
+        Names of the exposures, one per output row; empty for one exposure [-].
+    """
+
+    names: tuple[str, ...]
+    distributions: tuple[Distribution, ...]
+    evaluate: Callable[[np.ndarray], np.ndarray]
+    limit: float
+    scenario_labels: tuple[str, ...] = ()
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "names", tuple(self.names))
+        object.__setattr__(self, "distributions", tuple(self.distributions))
+        if not self.names or len(self.names) != len(self.distributions):
+            raise ValueError(f"need one distribution per name, got {len(self.names)} names and "
+                             f"{len(self.distributions)} distributions")
+        if len(set(self.names)) != len(self.names):
+            raise ValueError(f"parameter names must be unique, got {list(self.names)}")
+        if not math.isfinite(float(self.limit)):
+            raise ValueError(f"limit must be finite, got {self.limit}")
+
+    def index(self, name: str) -> int:
+        """Column of the parameter ``name`` [-]; ValueError naming the valid names."""
+        if name not in self.names:
+            raise ValueError(f"unknown parameter {name!r}; valid: {', '.join(self.names)}")
+        return self.names.index(name)
+
+
+@dataclass(frozen=True)
+class ToleranceSettings:
+    """What to compute and how (the ``[tolerances]`` section of a config).
+
+    Parameters
+    ----------
+    target
+        The target, or its text (see :mod:`plyrisk.study.targets`) [-].
+    samples
+        Rows of the CRN design [-].
+    method
+        ``"lhs"`` (Latin hypercube) or ``"random"`` [-].
+    seed
+        Seed of the design; ``None`` = the study's seed (must be set before computing) [-].
+    cost
+        Cost weight per parameter name (default 1); the cost of a parameter is
+        weight / spread factor [-].
+    max_factor
+        Largest spread factor ever tried or recommended, >= 1 [-].
+    allow_loosening
+        Let the allocation widen spreads (up to ``max_factor``); by default it only
+        tightens, and parameters that do not matter keep their current spread [-].
+    keep
+        Parameters whose spread the allocation leaves as it is (e.g. exposure conditions,
+        which no manufacturing tolerance controls); ``None`` = none in the engine, the
+        boundary-condition parameters (``hot_side.*``, ``cold_side.*``) for a study [-].
+    basis
+        ``"bound"`` (upper confidence bound of the metric) or ``"estimate"`` [-].
+    confidence
+        Two-sided level of the confidence intervals, in (0, 1); ``None`` = 0.90 [-].
+    nominal_shift
+        Name of the parameter whose nominal is shifted to meet the target, or ``None`` [-].
+    nominal_range
+        Range searched for that nominal ``(low, high)``; ``None`` = half to twice the nominal
+        (nominal ± 10 spreads for a nominal <= 0) [SI].
+    """
+
+    target: Target | str = DEFAULT_TARGET
+    samples: int = 2048
+    method: str = "lhs"
+    seed: int | None = None
+    cost: Mapping[str, float] = field(default_factory=dict)
+    max_factor: float = 10.0
+    allow_loosening: bool = False
+    keep: tuple[str, ...] | None = None
+    basis: str = "bound"
+    confidence: float | None = None
+    nominal_shift: str | None = None
+    nominal_range: tuple[float, float] | None = None
+
+    def __post_init__(self) -> None:
+        if isinstance(self.target, str):
+            object.__setattr__(self, "target", parse_target(self.target))
+        if not isinstance(self.target, Target):
+            raise ValueError(f"target must be a Target or its text, got {self.target!r}")
+        if isinstance(self.samples, bool) or not isinstance(self.samples, int) or \
+                self.samples < 2:
+            raise ValueError(f"samples must be a whole number >= 2, got {self.samples!r}")
+        if self.method not in METHODS:
+            raise ValueError(f"unknown method {self.method!r}; valid: {', '.join(METHODS)}")
+        if self.basis not in BASES:
+            raise ValueError(f"unknown basis {self.basis!r}; valid: {', '.join(BASES)}")
+        if self.seed is not None and (isinstance(self.seed, bool) or
+                                      not isinstance(self.seed, int) or self.seed < 0):
+            raise ValueError(f"seed must be a whole number >= 0 or None, got {self.seed!r}")
+        if not (math.isfinite(self.max_factor) and self.max_factor >= 1.0):
+            raise ValueError(f"max_factor must be a finite number >= 1, got {self.max_factor!r}")
+        if self.confidence is not None and not 0.0 < self.confidence < 1.0:
+            raise ValueError(f"confidence must lie in (0, 1), got {self.confidence!r}")
+        cost = dict(self.cost)
+        for name, w in cost.items():
+            if isinstance(w, bool) or not isinstance(w, int | float) or \
+                    not (math.isfinite(w) and w > 0):
+                raise ValueError(f"cost weight of {name!r} must be a positive number, got {w!r}")
+        object.__setattr__(self, "cost", cost)
+        if self.keep is not None:
+            object.__setattr__(self, "keep", tuple(self.keep))
+        if self.nominal_range is not None:
+            lo, hi = (float(v) for v in self.nominal_range)
+            if not lo < hi:
+                raise ValueError(f"nominal_range needs low < high, got {self.nominal_range!r}")
+            object.__setattr__(self, "nominal_range", (lo, hi))
+
+    @property
+    def level(self) -> float:
+        """The confidence level used [-]."""
+        return 0.90 if self.confidence is None else float(self.confidence)
+
+
+# ----------------------------------------------------------------------------------------------
+# Outcomes of one CRN run
+# ----------------------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True, eq=False)
+class Outcome:
+    """Statistics of one run, per exposure (arrays of shape ``(n_scenarios,)``).
+
+    Attributes
+    ----------
+    probability
+        Quantile level reported in ``quantile`` [-]: the target's level, or 0.95.
+    quantile, quantile_lower, quantile_upper
+        That quantile and its confidence interval [K] (NaN bounds when n is too small).
+    exceedance, exceedance_lower, exceedance_upper
+        P(output > limit) and its Wilson interval [-].
+    variance
+        Sample variance of the output [K^2].
+    scores
+        The target metric on the settings' basis [K or -].
+    nonconverged
+        Non-finite outputs left out [-].
+    bound
+        The target's bound [K or -].
+    """
+
+    probability: float
+    quantile: np.ndarray
+    quantile_lower: np.ndarray
+    quantile_upper: np.ndarray
+    exceedance: np.ndarray
+    exceedance_lower: np.ndarray
+    exceedance_upper: np.ndarray
+    variance: np.ndarray
+    scores: np.ndarray
+    nonconverged: np.ndarray
+    bound: float
+
+    @property
+    def scenario(self) -> int:
+        """The worst exposure: where the metric is largest (or not available) [-]."""
+        return int(np.argmax(np.where(np.isnan(self.scores), np.inf, self.scores)))
+
+    @property
+    def score(self) -> float:
+        """The metric at the worst exposure [K or -]; NaN when unavailable."""
+        return worst(self.scores)
+
+    @property
+    def worst_quantile(self) -> float:
+        """The reported quantile at the worst exposure for it [K]."""
+        return worst(self.quantile)
+
+    @property
+    def worst_exceedance(self) -> float:
+        """The exceedance probability at the worst exposure for it [-]."""
+        return worst(self.exceedance)
+
+    @property
+    def met(self) -> bool:
+        """Whether the target holds at every exposure on the settings' basis [-]."""
+        return bool(self.score <= self.bound)
+
+
+def worst(scores: np.ndarray) -> float:
+    """The largest of per-exposure values, NaN if any is NaN [unit of scores]."""
+    return math.nan if np.any(np.isnan(scores)) else float(np.max(scores))
+
+
+class Runner:
+    """One CRN design and the statistics of the problem's output on it.
+
+    Parameters
+    ----------
+    problem
+        The problem [-].
+    settings
+        Target, design (samples, method), basis and confidence [-].
+    seed
+        Seed of the design; default ``settings.seed`` [-].
+
+    Attributes
+    ----------
+    unit
+        The design, shape ``(samples, d)`` [-].
+    base
+        The inputs at the current specification [SI].
+    bound
+        The target's numeric bound [K or -].
+    runs
+        Model evaluations so far [-].
+    """
+
+    def __init__(self, problem: ToleranceProblem, settings: ToleranceSettings,
+                 seed: int | None = None) -> None:
+        seed = settings.seed if seed is None else seed
+        if seed is None:
+            raise ValueError("settings.seed is None: set a seed (settings_for_study takes the "
+                             "study's seed)")
+        self.problem, self.settings, self.seed = problem, settings, int(seed)
+        self.target: Target = settings.target  # type: ignore[assignment]
+        self.bound = self.target.bound(problem.limit)
+        self.level = settings.level
+        self.probability = (self.target.probability if self.target.kind == "quantile"
+                            else REPORT_PROBABILITY)
+        d = len(problem.names)
+        self.unit = make_design(settings.method, settings.samples, d, seed=self.seed).unit
+        self.base = np.empty_like(self.unit)
+        for j, dist in enumerate(problem.distributions):
+            self.base[:, j] = dist.ppf(self.unit[:, j])
+        self.runs = 0
+
+    def inputs(self, changes: Mapping[int, Distribution]) -> np.ndarray:
+        """Input values with the distributions of the columns in ``changes`` replaced [SI]."""
+        x = self.base.copy()
+        for j, dist in changes.items():
+            x[:, j] = dist.ppf(self.unit[:, j])
+        return x
+
+    def output(self, changes: Mapping[int, Distribution]) -> np.ndarray:
+        """The output, shape ``(n_scenarios, n)`` [K]."""
+        x = self.inputs(changes)
+        y = np.asarray(self.problem.evaluate(x), dtype=float)
+        if y.ndim == 1:
+            y = y[None, :]
+        if y.ndim != 2 or y.shape[1] != x.shape[0]:
+            raise ValueError(f"evaluate must return shape (n_scenarios, {x.shape[0]}), got "
+                             f"{y.shape}")
+        self.runs += 1
+        return y
+
+    def scores(self, y: np.ndarray) -> np.ndarray:
+        """The target metric per exposure on the settings' basis [K or -]."""
+        out = np.full(y.shape[0], math.nan)
+        t, limit = self.target, self.problem.limit
+        for s, row in enumerate(y):
+            v = row[np.isfinite(row)]
+            if v.size == 0:
+                continue
+            if t.kind == "quantile" and self.settings.basis == "estimate":
+                out[s] = float(np.quantile(v, t.probability))
+            elif t.kind == "quantile":
+                out[s] = float(quantiles(v, [t.probability], confidence=self.level).upper[0])
+            elif self.settings.basis == "estimate":
+                out[s] = float(np.count_nonzero(v > limit) / v.size)
+            else:
+                out[s] = exceedance(v, limit, confidence=self.level).upper
+        return out
+
+    def score(self, changes: Mapping[int, Distribution]) -> float:
+        """The metric at the worst exposure for modified distributions [K or -]."""
+        return worst(self.scores(self.output(changes)))
+
+    def outcome(self, changes: Mapping[int, Distribution]) -> Outcome:
+        """Full statistics of one run."""
+        return self.summarise(self.output(changes))
+
+    def summarise(self, y: np.ndarray) -> Outcome:
+        """Full statistics of an output of shape ``(n_scenarios, n)`` [K]."""
+        n_s = y.shape[0]
+        arrays = {k: np.full(n_s, math.nan) for k in (
+            "quantile", "quantile_lower", "quantile_upper", "exceedance", "exceedance_lower",
+            "exceedance_upper", "variance")}
+        bad = np.sum(~np.isfinite(y), axis=1)
+        for s, row in enumerate(y):
+            v = row[np.isfinite(row)]
+            if v.size == 0:
+                continue
+            q = quantiles(v, [self.probability], confidence=self.level)
+            e = exceedance(v, self.problem.limit, confidence=self.level)
+            for key, value in (("quantile", q.estimate[0]), ("quantile_lower", q.lower[0]),
+                               ("quantile_upper", q.upper[0]), ("exceedance", e.probability),
+                               ("exceedance_lower", e.lower), ("exceedance_upper", e.upper),
+                               ("variance", np.var(v, ddof=1) if v.size > 1 else math.nan)):
+                arrays[key][s] = value
+        return Outcome(self.probability, scores=self.scores(y), nonconverged=bad,
+                       bound=self.bound, **arrays)
+
+
+# ----------------------------------------------------------------------------------------------
+# Searches
+# ----------------------------------------------------------------------------------------------
+
+
+def boundary(met: Callable[[float], bool], good: float, bad: float, xtol: float) -> float:
+    """Bisect between a value that meets the target and one that does not; the last good."""
+    for _ in range(200):
+        if abs(bad - good) <= xtol:
+            break
+        mid = 0.5 * (good + bad)
+        if met(mid):
+            good = mid
+        else:
+            bad = mid
+    return good
+
+
+def largest_meeting(met: Callable[[float], bool], grid: Sequence[float],
+                     xtol: float) -> tuple[str, float, bool]:
+    """Largest x of the met region starting at ``grid[0]``: (status, x, monotone).
+
+    status ``"none"`` (not met at ``grid[0]``), ``"any"`` (met on the whole grid) or
+    ``"limited"``; monotone is False when a grid point beyond the first failure meets again.
+    """
+    flags = [met(g) for g in grid]
+    if not flags[0]:
+        return "none", math.nan, not any(flags)
+    if all(flags):
+        return "any", float(grid[-1]), True
+    k = flags.index(False)
+    x = boundary(met, float(grid[k - 1]), float(grid[k]), xtol)
+    return "limited", x, not any(flags[k:])
+
+
+def factor_cap(dist: Distribution, max_factor: float) -> tuple[float, bool]:
+    """Largest valid spread factor <= ``max_factor`` and whether the bounds set it [-]."""
+    def valid(f: float) -> bool:
+        try:
+            dist.with_spread(f)
+        except ValueError:
+            return False
+        return True
+
+    if valid(max_factor):
+        return float(max_factor), False
+    return boundary(valid, 1.0, float(max_factor), XTOL * max_factor), True
+
+
+def factor_grid(cap: float) -> list[float]:
+    """Spread factors scanned before bisection: 0 to 1 by quarters, then doubling to ``cap``."""
+    above = np.geomspace(1.0, cap, max(2, math.ceil(math.log2(cap)) + 1)) if cap > 1.0 else []
+    return sorted(set(_GRID_BELOW_ONE) | {float(v) for v in above} | {cap})

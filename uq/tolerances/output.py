@@ -1,0 +1,355 @@
+"""Tolerance results at the edge: the manufacturing table, its CSV file and the text report.
+
+Values are shown in the user's units: each parameter's distribution as the config gave it
+(:meth:`plyrisk.study.definition.Parameter.describe`), temperatures in the unit of ``[study]
+limit``.
+``tolerances.csv`` starts with ``#`` comment lines carrying the cautions (read it with e.g.
+``pandas.read_csv(path, comment="#")``).
+"""
+
+from __future__ import annotations
+
+import csv
+import math
+from collections.abc import Mapping, Sequence
+from dataclasses import asdict, dataclass, replace
+from pathlib import Path
+
+from plyrisk.cautions import cautions_text
+from plyrisk.study.definition import Parameter, Study
+from plyrisk.study.units import TEMPERATURE, from_si
+from plyrisk.text.tables import text_table
+from plyrisk.tolerances.study import Outcome, ToleranceReport
+
+__all__ = ["ManufacturingRow", "manufacturing_table", "tolerance_text", "write_tolerance_csv"]
+
+
+@dataclass(frozen=True)
+class ManufacturingRow:
+    """One parameter of the table for manufacturing.
+
+    Attributes
+    ----------
+    parameter, layer
+        Parameter name and its group (layer, ``hot_side`` or ``cold_side``) [-].
+    current_spec
+        The current distribution in the user's unit [-].
+    variance_share
+        Share of the output variance: Var(Y - Y_0) / Var(Y) over the CRN pairs with the
+        parameter held at its nominal (:attr:`plyrisk.tolerances.whatif.WhatIf.variance_share`),
+        or the Sobol total index when given [-].
+    share_source
+        ``"held at nominal (CRN)"`` or ``"Sobol total index"`` [-].
+    quantile_label
+        The quantile reported, e.g. ``"P95"`` [-].
+    quantile_if_halved
+        That quantile with this parameter's spread halved, worst exposure [temperature_unit].
+    temperature_unit
+        Unit of the temperatures [-].
+    recommended_spec
+        The distribution recommended by the allocation, in the user's unit [-].
+    recommended_factor
+        Recommended spread / current spread [-]; NaN when the target is not reachable.
+    target
+        The target the recommendation serves [-].
+    """
+
+    parameter: str
+    layer: str
+    current_spec: str
+    variance_share: float
+    share_source: str
+    quantile_label: str
+    quantile_if_halved: float
+    temperature_unit: str
+    recommended_spec: str
+    recommended_factor: float
+    target: str
+
+
+def target_text(report: ToleranceReport, study: Study) -> str:
+    """The target with its bound in the user's unit, e.g. ``"P95 <= limit (44 degC)"`` [-]."""
+    t = report.settings.target
+    text = t.text
+    if t.kind == "quantile" and t.uses_limit:
+        text += f" ({study.format_temperature(report.bound)})"
+    elif t.kind == "exceedance":
+        text += f" (limit {study.format_temperature(study.analysis.limit)})"
+    if study.scenarios is not None:
+        text += ", at every exposure"
+    return text
+
+
+def _recommended(p: Parameter, factor: float, status: str, kept: bool = False) -> str:
+    if status == "infeasible":
+        return "not reachable by tolerances alone"
+    if kept:
+        return f"{p.describe()} (kept)"
+    if factor == 1.0:
+        return f"{p.describe()} (unchanged)"
+    return replace(p, distribution=p.distribution.with_spread(factor)).describe()
+
+
+def manufacturing_table(report: ToleranceReport, study: Study, *,
+                        indices: Mapping[str, float] | None = None) -> list[ManufacturingRow]:
+    """One row per parameter: spec, variance share, tightened quantile, recommendation.
+
+    Parameters
+    ----------
+    report
+        The tolerance results of ``study`` [-].
+    study
+        The study [-].
+    indices
+        Sobol total index per parameter name to use as the variance share [-].
+
+    Returns
+    -------
+    list of ManufacturingRow
+    """
+    unit = study.limit_unit or "K"
+    alloc = report.allocation
+    label = f"P{100 * report.whatif.baseline.probability:.10g}"
+    rows = []
+    for j, (p, w) in enumerate(zip(study.parameters, report.whatif.rows, strict=True)):
+        share, source = w.variance_share, "held at nominal (CRN)"
+        if indices is not None and p.name in indices:
+            share, source = float(indices[p.name]), "Sobol total index"
+        factor = float(alloc.factors[j]) if alloc.status != "infeasible" else math.nan
+        rows.append(ManufacturingRow(
+            parameter=p.name, layer=p.group, current_spec=p.describe(), variance_share=share,
+            share_source=source, quantile_label=label,
+            quantile_if_halved=float(from_si(w.halved.worst_quantile, unit, TEMPERATURE)),
+            temperature_unit=unit, recommended_spec=_recommended(p, factor, alloc.status,
+                                                               p.name in alloc.kept),
+            recommended_factor=factor, target=target_text(report, study)))
+    return rows
+
+
+def write_tolerance_csv(rows: Sequence[ManufacturingRow], path: str | Path) -> Path:
+    """Write the manufacturing table as CSV, the cautions first as ``#`` lines.
+
+    Parameters
+    ----------
+    rows
+        The table [-].
+    path
+        The file to write; its folder is created [-].
+
+    Returns
+    -------
+    pathlib.Path
+        The file written.
+    """
+    path = Path(path)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    names = list(ManufacturingRow.__dataclass_fields__)
+    with path.open("w", newline="", encoding="utf-8") as f:
+        for line in cautions_text().splitlines():
+            f.write(f"# {line}\n")
+        writer = csv.DictWriter(f, fieldnames=names)
+        writer.writeheader()
+        for row in rows:
+            d = asdict(row)
+            d["variance_share"] = f"{row.variance_share:.6g}"
+            d["quantile_if_halved"] = f"{row.quantile_if_halved:.6g}"
+            d["recommended_factor"] = f"{row.recommended_factor:.6g}"
+            writer.writerow(d)
+    return path
+
+
+# ----------------------------------------------------------------------------------------------
+# Text report
+# ----------------------------------------------------------------------------------------------
+
+
+def _pct(p: float) -> str:
+    return "n/a" if not math.isfinite(p) else f"{100 * p:.3g} %"
+
+
+def _metric(report: ToleranceReport, study: Study, value: float, *,
+            difference: bool = False) -> str:
+    if not math.isfinite(value):
+        return "n/a"
+    if report.settings.target.kind == "exceedance":
+        return (f"{100 * value:+.3g} %" if difference else _pct(value))
+    if difference:
+        sign = "-" if value < 0 else "+"
+        return sign + study.format_temperature(abs(value), difference=True)
+    return study.format_temperature(value)
+
+
+def _t(study: Study, value: float, *, difference: bool = False) -> str:
+    if not math.isfinite(value):
+        return "n/a"
+    if difference:
+        return ("-" if value < 0 else "+") + study.format_temperature(abs(value), difference=True)
+    return study.format_temperature(value)
+
+
+def _exposure(study: Study, outcome: Outcome) -> str:
+    if study.scenarios is None:
+        return ""
+    s = outcome.scenario
+    return f" at {study.scenarios.quantity} = {study.scenarios.labels[s]}"
+
+
+def tolerance_text(report: ToleranceReport, study: Study, *,
+                   csv_path: Path | None = None) -> str:
+    """The report printed by ``plyrisk tolerances``, ending with the cautions.
+
+    Parameters
+    ----------
+    report
+        The tolerance results of ``study`` [-].
+    study
+        The study [-].
+    csv_path
+        The CSV file written, to mention [-].
+
+    Returns
+    -------
+    str
+    """
+    st, wi, params = report.settings, report.whatif, study.parameters
+    level = f"{100 * st.level:g} %"
+    basis = ("the upper end of the metric's confidence interval" if st.basis == "bound"
+             else "the point estimate of the metric")
+    base = wi.baseline
+    label = f"P{100 * base.probability:.10g}"
+    lim = study.format_temperature(study.analysis.limit)
+    out = [f"Tolerance study: {study.title}", f"Config: {study.source}",
+           f"Target: {target_text(report, study)}; judged on {basis} ({level})",
+           f"Design: {st.method}, {st.samples} samples, seed {st.seed}, common random numbers; "
+           f"{report.runs} model runs"]
+    out += ["", f"Baseline (current spreads){_exposure(study, base)}:",
+            f"  {label} = {_t(study, base.quantile[base.scenario])} "
+            f"[{_t(study, base.quantile_lower[base.scenario])}, "
+            f"{_t(study, base.quantile_upper[base.scenario])}] ({level} CI)",
+            f"  P(inner surface > {lim}) = {_pct(base.exceedance[base.scenario])} "
+            f"[{_pct(base.exceedance_lower[base.scenario])}, "
+            f"{_pct(base.exceedance_upper[base.scenario])}]",
+            f"  target metric = {_metric(report, study, base.score)}: "
+            + ("MET" if base.met else "NOT MET")]
+    rows = []
+    for w in wi.rows:
+        rows.append([w.name, _t(study, w.halved.worst_quantile),
+                     _t(study, w.halved.worst_quantile - base.worst_quantile, difference=True),
+                     _t(study, w.nominal.worst_quantile),
+                     _t(study, w.nominal.worst_quantile - base.worst_quantile, difference=True),
+                     _pct(w.halved.worst_exceedance), _pct(w.nominal.worst_exceedance),
+                     _pct(w.variance_share)])
+    out += ["", "What-if: one parameter tightened, the others as specified (worst exposure)"]
+    out += text_table(["parameter", f"{label} halved", "change", f"{label} at nominal", "change",
+                   "P(exceed) halved", "P(exceed) at nominal", "variance share"], rows)
+    s = base.scenario
+    half = 0.5 * (base.quantile_upper[s] - base.quantile_lower[s])
+    half_text = (_t(study, half, difference=True).lstrip("+") if math.isfinite(half)
+                 else "n/a (too few samples for this percentile's interval)")
+    out.append(f"  (baseline {label} CI half-width about {half_text};"
+               " the changes share the design (common random numbers) and are far more "
+               "precise than that)")
+    out += ["", "Allowable spread: each parameter alone, the others as specified"]
+    rows = []
+    for p, a in zip(params, report.allowable, strict=True):
+        if a.status == "none":
+            spec, note = "-", "not met even at zero spread"
+        else:
+            spec = replace(p, distribution=p.distribution.with_spread(a.factor)).describe()
+            note = (f"met at any spread up to {a.cap:.3g}x"
+                    + (" (physical bounds)" if a.bounded else " (max_factor)")
+                    if a.status == "any" else "")
+        if not a.monotone:
+            note = (note + "; " if note else "") + "metric not monotone in the spread"
+        rows.append([p.name, f"{a.factor:.3g}x" if math.isfinite(a.factor) else "-", spec,
+                     note])
+    out += text_table(["parameter", "factor", "allowable spec", "note"], rows)
+    out += [""] + _allocation_lines(report, study)
+    if report.nominal_shift is not None:
+        out += [""] + _shift_lines(report, study)
+    out += ["", "For manufacturing"]
+    table = manufacturing_table(report, study)
+    out += text_table(["parameter", "layer", "current spec", "variance share",
+                   f"{label} if halved", "recommended", "target"],
+                  [[r.parameter, r.layer, r.current_spec, _pct(r.variance_share),
+                    f"{r.quantile_if_halved:.4g} {r.temperature_unit}", r.recommended_spec,
+                    r.target] for r in table])
+    notes = _notes(report)
+    if notes:
+        out += ["", "Notes"] + [f"  - {n}" for n in notes]
+    if csv_path is not None:
+        out += ["", f"Table written: {csv_path}"]
+    out += ["", cautions_text()]
+    return "\n".join(out)
+
+
+def _allocation_lines(report: ToleranceReport, study: Study) -> list[str]:
+    a, st = report.allocation, report.settings
+    head = {"met": "meets the target at least cost",
+            "caps": "target met with every spread at its cap"
+            + ("" if st.allow_loosening else " (the current spreads; loosening is off)"),
+            "infeasible": "NOT REACHABLE: the target is not met even with every adjustable "
+            "influential parameter at its nominal; change the design (nominals), not the "
+            "tolerances"}
+    out = [f"Allocation: {head[a.status]}",
+           f"  cost sum(w/f): current {a.current_cost:.4g}, allocation {a.cost:.4g}"]
+    rows = []
+    for j, p in enumerate(study.parameters):
+        factor = "-" if a.status == "infeasible" else f"{a.factors[j]:.3g}x"
+        rows.append([p.name, f"{a.weights[j]:.3g}", factor,
+                     _recommended(p, float(a.factors[j]), a.status, p.name in a.kept)])
+    out += text_table(["parameter", "cost weight", "factor", "recommended spec"], rows)
+    if a.kept:
+        out.append(f"  kept at the current spread (not a manufacturing tolerance): "
+                   f"{', '.join(a.kept)}")
+    v = a.verification
+    t = st.target
+    if v.met:
+        verdict = "MET"
+    elif v.met_estimate:
+        verdict = "NOT VERIFIED (the point estimate meets, but not with confidence)"
+    else:
+        verdict = "NOT MET"
+    out += [f"  Independent verification (new seed {v.seed}, {v.samples} samples"
+            f"{_exposure(study, v.outcome)}): {t.label} = {_metric(report, study, v.value)} "
+            f"[{_metric(report, study, v.lower)}, {_metric(report, study, v.upper)}] "
+            f"({100 * st.level:g} % CI) -> {verdict}"
+            f" (point estimate {'meets' if v.met_estimate else 'misses'}, upper bound "
+            f"{'meets' if v.met_bound else 'misses'} the bound)"]
+    return out
+
+
+def _shift_lines(report: ToleranceReport, study: Study) -> list[str]:
+    s = report.nominal_shift
+    p = next(q for q in study.parameters if q.name == s.name)
+    rng = f"[{p.format(s.low)}, {p.format(s.high)}]"
+    if s.status == "not reachable":
+        return [f"Nominal shift of {s.name}: not reachable within {rng} at the current "
+                "tolerances"]
+    span = f"the target holds for nominals from {p.format(s.met_from)} to {p.format(s.met_to)}"
+    if s.status == "met":
+        first = f"the current nominal {p.format(s.current)} meets the target"
+    else:
+        first = (f"move the nominal from {p.format(s.current)} to {p.format(s.required)} "
+                 f"({'+' if s.required > s.current else '-'}"
+                 f"{p.format(abs(s.required - s.current), difference=True)})")
+    lines = [f"Nominal shift of {s.name} (current tolerances, searched {rng}): {first}; "
+             f"{span}"]
+    if not s.monotone:
+        lines.append("  note: the nominals meeting the target form more than one interval")
+    return lines
+
+
+def _notes(report: ToleranceReport) -> list[str]:
+    notes = []
+    bad = int(max(report.whatif.baseline.nonconverged.max(),
+                  report.allocation.verification.outcome.nonconverged.max()))
+    if bad:
+        notes.append(f"{bad} sample(s) did not converge in a run; they are left out of the "
+                     "statistics")
+    if not math.isfinite(report.whatif.baseline.score):
+        notes.append("the confidence bound of the metric needs more samples (raise samples)")
+    if not report.allocation.monotone:
+        notes.append("the metric was not monotone in the allocation multiplier; check the "
+                     "allocation by hand")
+    return notes

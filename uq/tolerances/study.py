@@ -1,0 +1,260 @@
+"""Tolerance feedback: what-if spreads, allowable spreads, a least-cost allocation, nominal shifts.
+
+Every question is answered by re-running the model on one fixed unit-hypercube design mapped
+through modified input distributions (common random numbers, CRN): the differences between two
+runs are then differences of the model, not sampling noise. The engine works on a generic
+:class:`ToleranceProblem` (distributions + an evaluation callable + a limit); wrap a study with
+:func:`problem_from_study`. The method and its choices are described in ``docs/tolerances.md``.
+
+Conventions
+-----------
+* A *spread factor* f scales a parameter's spread about its nominal
+  (:meth:`plyrisk.study.distributions.Distribution.with_spread`): f = 1 is the current
+  specification,
+  f = 0.5 halves the tolerance, f = 0 holds the parameter at its nominal value.
+* The *metric* is the target's statistic of the inner-surface temperature (a quantile [K] or
+  the exceedance probability of the limit [-]) at the worst exposure: with a scenario sweep the
+  target must hold at every exposure, so the maximum over exposures is compared with the bound.
+* The *basis* decides which number of the metric is compared: ``"bound"`` (default) the upper
+  end of its two-sided ``confidence`` interval (order statistics for a quantile, Wilson for the
+  exceedance probability), ``"estimate"`` the point estimate. The intervals assume independent
+  draws; on a Latin hypercube they are conservative.
+* Searches scan a coarse grid and bisect inside the first bracket; a metric that is not
+  monotone in the searched value is flagged (``monotone=False``), never hidden.
+
+Modules: :mod:`plyrisk.study.targets` (target grammar), :mod:`plyrisk.tolerances.core` (problem,
+settings, one
+run's statistics, searches), :mod:`plyrisk.tolerances.whatif` (what-if, allowable spreads),
+:mod:`plyrisk.tolerances.allocation` (allocation, verification), :mod:`plyrisk.tolerances.shift`
+(nominal
+shift), this module (everything together, the study wrapper) and :mod:`plyrisk.tolerances.output`
+(manufacturing table, CSV, text).
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable
+from dataclasses import dataclass, replace
+from typing import TYPE_CHECKING
+
+import numpy as np
+
+from plyrisk.study.targets import parse_target
+from plyrisk.tolerances.allocation import (
+    Allocation,
+    Verification,
+    allocate,
+    run_allocation,
+    verification_seed,
+    verify,
+)
+from plyrisk.tolerances.core import (
+    BASES,
+    DEFAULT_TARGET,
+    METHODS,
+    Outcome,
+    Runner,
+    ToleranceProblem,
+    ToleranceSettings,
+)
+from plyrisk.tolerances.shift import NominalShift, run_shift, shift_distribution, shift_nominal
+from plyrisk.tolerances.whatif import (
+    AllowableSpread,
+    WhatIf,
+    WhatIfStudy,
+    allowable_spreads,
+    run_allowable,
+    run_what_if,
+    what_if,
+)
+
+if TYPE_CHECKING:  # pragma: no cover
+    from plyrisk.study.definition import Study
+
+__all__ = [
+    "BASES", "DEFAULT_TARGET", "METHODS", "Allocation", "AllowableSpread", "NominalShift",
+    "Outcome", "ToleranceProblem", "ToleranceReport", "ToleranceSettings", "Verification",
+    "WhatIf", "WhatIfStudy", "allocate", "allowable_spreads", "analyse_tolerances",
+    "problem_from_study", "run_tolerances", "settings_for_study", "shift_distribution",
+    "shift_nominal", "verification_seed", "verify", "what_if",
+]
+
+
+# ----------------------------------------------------------------------------------------------
+# Everything together, and the study wrapper
+# ----------------------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True, eq=False)
+class ToleranceReport:
+    """Every tolerance answer for one problem, on one CRN design.
+
+    Attributes
+    ----------
+    settings
+        The settings used (seed and confidence resolved).
+    bound
+        The target's numeric bound [K or -].
+    whatif, allowable, allocation, nominal_shift
+        The answers (``nominal_shift`` is ``None`` unless configured).
+    runs
+        Model runs on the design, plus one for the verification [-].
+    """
+
+    settings: ToleranceSettings
+    bound: float
+    whatif: WhatIfStudy
+    allowable: tuple[AllowableSpread, ...]
+    allocation: Allocation
+    nominal_shift: NominalShift | None
+    runs: int
+
+
+def analyse_tolerances(problem: ToleranceProblem, settings: ToleranceSettings, *,
+                       progress: Callable[[str], None] | None = None) -> ToleranceReport:
+    """What-if, allowable spreads, allocation (verified) and the optional nominal shift.
+
+    Parameters
+    ----------
+    problem
+        The problem [-].
+    settings
+        The settings; ``seed`` must be set [-].
+    progress
+        Called with the name of each stage as it starts [-].
+
+    Returns
+    -------
+    ToleranceReport
+    """
+    run = Runner(problem, settings)
+    tell = progress or (lambda stage: None)
+    tell("what-if runs")
+    wi = run_what_if(run)
+    tell("allowable spreads")
+    allowable = run_allowable(run)
+    tell("allocation and verification")
+    alloc = run_allocation(run, wi)
+    shift = None
+    if settings.nominal_shift is not None:
+        tell("nominal shift")
+        shift = run_shift(run, settings.nominal_shift)
+    return ToleranceReport(settings, run.bound, wi, allowable, alloc, shift, run.runs + 1)
+
+
+def problem_from_study(study: Study) -> ToleranceProblem:
+    """The inner-surface temperature of a study as a :class:`ToleranceProblem`.
+
+    Non-converged samples become NaN (excluded from the statistics and counted).
+
+    Parameters
+    ----------
+    study
+        The parsed study [-].
+
+    Returns
+    -------
+    ToleranceProblem
+    """
+    from plyrisk.propagate.evaluate import evaluate
+
+    def model(values: np.ndarray) -> np.ndarray:
+        out = evaluate(study, values)
+        return np.where(out["converged"], out["inner_surface_temperature"], np.nan)
+
+    labels = tuple(study.scenarios.labels) if study.scenarios is not None else ()
+    return ToleranceProblem(tuple(p.name for p in study.parameters),
+                            tuple(p.distribution for p in study.parameters), model,
+                            float(study.analysis.limit), labels)
+
+
+def settings_for_study(study: Study, *, target: str | None = None, samples: int | None = None,
+                       seed: int | None = None) -> ToleranceSettings:
+    """The study's ``[tolerances]`` settings (or the defaults) with overrides, resolved.
+
+    Parameters
+    ----------
+    study
+        The parsed study; its ``tolerances`` attribute may be ``None`` [-].
+    target
+        Target text overriding the config [-].
+    samples
+        Design size overriding the config [-].
+    seed
+        Seed overriding the config (default: the ``[tolerances]`` seed, else the study's) [-].
+
+    Returns
+    -------
+    ToleranceSettings
+        With ``seed`` and ``confidence`` set.
+    """
+    base = getattr(study, "tolerances", None) or ToleranceSettings()
+    changes: dict = {}
+    if target is not None:
+        changes["target"] = parse_target(target)
+    if samples is not None:
+        changes["samples"] = samples
+    if base.keep is None:
+        changes["keep"] = tuple(p.name for p in study.parameters
+                                if p.group in ("hot_side", "cold_side"))
+    if seed is not None:
+        changes["seed"] = seed
+    elif base.seed is None:
+        changes["seed"] = int(study.analysis.seed)
+    if base.confidence is None:
+        changes["confidence"] = float(study.analysis.confidence)
+    settings = replace(base, **changes)
+    check_sample_size(settings)
+    return settings
+
+
+def check_sample_size(settings: ToleranceSettings) -> None:
+    """Raise ``ValueError`` when the design is too small to bound the target's percentile.
+
+    The upper order-statistic bound of the ``p`` quantile at two-sided confidence ``c`` exists
+    only when ``1 - p^n >= 1 - (1 - c)/2``, i.e. ``n >= ln((1 - c)/2) / ln p`` (distribution-free;
+    common practice, e.g. Hahn & Meeker 1991, Statistical Intervals, from memory). Searches on the
+    bound (``basis = "bound"``) cannot judge the target below that size.
+
+    Parameters
+    ----------
+    settings
+        Resolved settings [-].
+    """
+    t = settings.target
+    if settings.basis != "bound" or t.kind != "quantile":
+        return
+    alpha = 1.0 - settings.level
+    need = math.ceil(math.log(alpha / 2.0) / math.log(t.probability))
+    if settings.samples < need:
+        raise ValueError(
+            f"samples = {settings.samples} is too small to bound {t.label} at "
+            f"{100 * settings.level:g} % confidence; need at least {need}"
+        )
+
+
+def run_tolerances(study: Study, *, target: str | None = None, samples: int | None = None,
+                   seed: int | None = None,
+                   progress: Callable[[str], None] | None = None) -> ToleranceReport:
+    """:func:`analyse_tolerances` of a study (overrides as in :func:`settings_for_study`).
+
+    Parameters
+    ----------
+    study
+        The parsed study [-].
+    target, samples, seed
+        Overrides of the ``[tolerances]`` settings [-].
+    progress
+        Called with the name of each stage [-].
+
+    Returns
+    -------
+    ToleranceReport
+    """
+    settings = settings_for_study(study, target=target, samples=samples, seed=seed)
+    problem = problem_from_study(study)
+    for name in (*settings.cost, *(settings.keep or ()),
+                 *(() if settings.nominal_shift is None else (settings.nominal_shift,))):
+        problem.index(name)
+    return analyse_tolerances(problem, settings, progress=progress)
