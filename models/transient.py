@@ -15,6 +15,7 @@ certification testing by accredited laboratories.
 from __future__ import annotations
 
 from collections.abc import Sequence
+from dataclasses import replace
 
 import numpy as np
 from numpy.typing import ArrayLike
@@ -146,7 +147,7 @@ def solve_transient(
         for start in range(0, n, int(chunk_size)):
             idx = np.arange(start, min(start + int(chunk_size), n))
             p, d = problem.take(idx), drive.take(idx)
-            T0, ok = steady_state(p, d, guess[:, idx], 1e-9)
+            T0, ok = steady_state(_held(p, wearer, mesh, idx), d, guess[:, idx], 1e-9)
             T0[:, ~ok] = guess[:, idx][:, ~ok]
             burn = (BurnTracker(idx.size, parameters, third_degree, dermis_parameters)
                     if isinstance(wearer, SkinWearer) else None)
@@ -279,6 +280,21 @@ def _sample_count(layers, wearer, exposure) -> int:
     if len(sizes) > 1:
         raise StackError(f"inputs have different numbers of samples: {sorted(sizes)}")
     return sizes.pop() if sizes else 1
+
+
+def _held(p, wearer, mesh, idx):
+    """The problem with the sensor held at its initial temperature (for the initial state)."""
+    if not isinstance(wearer, SensorWearer) or wearer.sensor.initial_temperature is None:
+        return p
+    fixed = p.fixed.copy()
+    fixed[mesh.surface_node] = True
+    value = p.fixed_value.copy()
+    n = p.fixed_value.shape[1]
+    value[mesh.surface_node] = np.broadcast_to(
+        np.asarray(wearer.sensor.initial_temperature, float), (n,)) if np.ndim(
+        wearer.sensor.initial_temperature) == 0 else np.asarray(
+        wearer.sensor.initial_temperature, float)[idx]
+    return replace(p, fixed=fixed, fixed_value=value)
 
 
 def _starting_guess(mesh, wearer, drive: Drive, n: int) -> np.ndarray:

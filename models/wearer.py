@@ -111,6 +111,9 @@ class SensorWearer:
     -----
     ``(m c_p / A) dT/dt = q`` with ``q`` the flux reaching the blackened face; the energy it
     absorbed is ``(m c_p / A) (T - T_0)`` (a lumped body: common practice for the thin disc).
+    Before the exposure the disc is held at its ``initial_temperature`` when the sensor gives
+    one (the assembly in front of it in the steady state with it), else it takes the steady
+    state of the pre-exposure conditions.
     """
 
     sensor: Any
@@ -134,9 +137,7 @@ class SensorWearer:
     @property
     def heat_capacity(self) -> np.ndarray:
         """Heat capacity per unit exposed area ``m c_p / A`` [J m-2 K-1]."""
-        s = self.sensor
-        area = np.pi * 0.25 * np.asarray(s.diameter, dtype=float) ** 2
-        return np.asarray(s.mass, dtype=float) * np.asarray(s.specific_heat, dtype=float) / area
+        return self.sensor.heat_capacity_per_area
 
 
 @dataclass(frozen=True)
