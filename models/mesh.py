@@ -10,8 +10,9 @@ adjoining slice (a vertex-centred finite-volume grid).
 Within a layer the slices are refined toward both faces by geometric growth: the first slice
 is ``FIRST_CELL_FACTOR * sqrt(alpha * FIRST_CELL_TIME)`` thick, each next one ``GROWTH`` times
 the previous, capped at ``MAX_CELL_FACTOR * sqrt(alpha * horizon)`` (the penetration depth over
-the horizon). The subcutis, whose base is held at the core temperature, is refined from its top
-only. The numbers of slices (the :class:`MeshLayout`) come from the worst case over all samples,
+the horizon). The subcutis (its base held at the core temperature) is refined from its top only, its
+slices growing by ``DEEP_GROWTH`` beyond the penetration depth, and so is the dermis (its base needs no refinement: the gradients there are mild). The
+numbers of slices (the :class:`MeshLayout`) come from the worst case over all samples,
 so one layout serves every chunk of a study and a sample's grid never depends on its batch.
 """
 
@@ -28,8 +29,10 @@ FIRST_CELL_FACTOR = 0.05
 """First slice at a face, as a fraction of ``sqrt(alpha * FIRST_CELL_TIME)`` [-]."""
 FIRST_CELL_TIME = 1.0
 """Time whose penetration depth sets the first slice [s]."""
-GROWTH = 1.1
+GROWTH = 1.12
 """Ratio of consecutive slice thicknesses away from a face [-]."""
+DEEP_GROWTH = 1.5
+"""Growth of the slices of a one-sided layer beyond the penetration depth [-]."""
 MAX_CELL_FACTOR = 0.25
 """Largest slice, as a fraction of the penetration depth ``sqrt(alpha * horizon)`` [-]."""
 
@@ -132,7 +135,7 @@ def _meshed_layers(layers, wearer) -> list[tuple[str, object, object, bool]]:
         skin_layers = wearer.layers()
         for i, sl in enumerate(skin_layers):
             alpha = _diffusivity(sl["conductivity"], sl["density"], sl["specific_heat"])
-            out.append((sl["name"], sl["thickness"], alpha, i < len(skin_layers) - 1))
+            out.append((sl["name"], sl["thickness"], alpha, i == 0))
     return out
 
 
@@ -167,10 +170,15 @@ def relative_slices(thickness, diffusivity, horizon: float, *, two_sided: bool =
     sizes = []
     total = 0.0
     size = first
+    deep = np.min(np.sqrt(alpha * horizon) / L)  # penetration depth over the horizon
     while total < span * (1.0 - 1e-9):
-        sizes.append(min(size, largest))
+        if not two_sided and total > deep:  # nothing to resolve here: grow fast
+            size = max(size, largest) * DEEP_GROWTH
+            sizes.append(size)
+        else:
+            sizes.append(min(size, largest))
+            size *= GROWTH
         total += sizes[-1]
-        size *= GROWTH
     sizes = np.asarray(sizes) * (span / total)  # fill the span exactly
     if two_sided:
         # join the two halves; merge the two middle slices when they are small

@@ -63,7 +63,7 @@ def newton(p: Problem, drive_face, absorbed, T, base, theta, h, mask, tol, *, st
     for it in range(NEWTON_ITERATIONS + 1):
         F = fluxes(p, T, drive_face, absorbed)
         if it > 0:
-            rho = size / previous
+            rho = np.where(np.isfinite(previous), size / previous, np.inf)
             est = np.where(rho < 0.5, size * rho / (1.0 - rho), np.inf)
             newly = ~done & ((size <= tol) | (est <= 0.1 * tol))
             ok |= newly

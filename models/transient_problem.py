@@ -196,8 +196,17 @@ def build_problem(mesh: Mesh, layers, wearer, n: int, *, radiation: str = "exact
     if layers and isinstance(layers[0], Solid) and layers[0].radiant_transmissivity is not None:
         share = _in_depth_shares(mesh, layers[0], n)
     emissivity = _row(layers[0].emissivity_hot if layers else wearer.emissivity, n)
-    cond_arrays = {k: (np.asarray(v, dtype=np.intp) if k == "idx" else np.stack(v))
-                   for k, v in cond.items() if len(cond["idx"])}
+    # every link carries conduction parameters (zero conductance where it is a contact or a
+    # gap, whose own laws overwrite it), so the conduction law runs on slices of T
+    cond_arrays = {}
+    if cond["idx"]:
+        links = max(N - 1, 1)
+        defaults = {"thickness": 1.0, "conductivity": 0.0, "conductivity_slope": 0.0,
+                    "reference_temperature": 0.0}
+        for key, default in defaults.items():
+            full = np.full((links, n), default)
+            full[np.asarray(cond["idx"], dtype=np.intp)] = np.stack(cond[key])
+            cond_arrays[key] = full
     contact_arrays = {k: (np.asarray(v, dtype=np.intp) if k == "idx" else np.stack(v))
                       for k, v in contact.items() if len(contact["idx"])}
     return Problem(c0, c1, c0_assembly, c1_assembly, perf, arterial, share, emissivity, fixed,
@@ -286,15 +295,12 @@ def fluxes(p: Problem, T: np.ndarray, face: dict, absorbed: np.ndarray) -> Fluxe
     Fluxes
     """
     N, k = T.shape
-    q = np.empty((N - 1, k))
-    qa = np.empty((N - 1, k))
-    qb = np.empty((N - 1, k))
     if p.cond:
-        i = p.cond["idx"]
-        q[i], qa[i], qb[i] = conduction(
-            T[i], T[i + 1], thickness=p.cond["thickness"], conductivity=p.cond["conductivity"],
-            conductivity_slope=p.cond["conductivity_slope"],
-            reference_temperature=p.cond["reference_temperature"])
+        q, qa, qb = conduction(T[:-1], T[1:], **p.cond)
+    else:
+        q = np.zeros((N - 1, k))
+        qa = np.zeros((N - 1, k))
+        qb = np.zeros((N - 1, k))
     if p.contact:
         i = p.contact["idx"]
         q[i], qa[i], qb[i] = contact_heat_flux(
