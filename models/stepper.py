@@ -32,7 +32,7 @@ import numpy as np
 from plyrisk.models.mesh import Mesh
 from plyrisk.models.network import tridiagonal_solve
 from plyrisk.models.transient_drive import Drive
-from plyrisk.models.transient_problem import Problem, capacity, enthalpy, fluxes
+from plyrisk.models.transient_problem import Problem, capacity, enthalpy, fluxes, node_sum
 from plyrisk.models.transient_tracking import BurnTracker, SensorTracker, track_peak
 
 GAMMA = 2.0 - math.sqrt(2.0)
@@ -130,8 +130,8 @@ def integrate(p: Problem, drive: Drive, mesh: Mesh, T0: np.ndarray, out: dict, o
     peaks = {name: np.full(k, -np.inf) for name in ("basal", "surface")}
     peak_t = {name: np.zeros(k) for name in ("basal", "surface")}
     stored_end = np.full(k, np.nan)
-    e_assembly0 = np.sum(T0 * (p.c0_assembly + 0.5 * p.c1_assembly * T0), axis=0)
-    e0 = np.sum(enthalpy(p, T0)[free], axis=0)
+    e_assembly0 = node_sum(T0 * (p.c0_assembly + 0.5 * p.c1_assembly * T0))
+    e0 = node_sum(enthalpy(p, T0)[free])
     hist = {"face": np.full((k, K, faces.size), np.nan), "basal": np.full((k, K), np.nan),
             "surface": np.full((k, K), np.nan)}
     oidx = np.zeros(k, dtype=np.int64)
@@ -225,7 +225,7 @@ def integrate(p: Problem, drive: Drive, mesh: Mesh, T0: np.ndarray, out: dict, o
                 record(np.flatnonzero(due), Ti[:, due], nxt[due])
             ends_exposure = good & land & (t_jump == drive.rows["duration"])
             if ends_exposure.any():
-                e_as = np.sum(T2 * (p.c0_assembly + 0.5 * p.c1_assembly * T2), axis=0)
+                e_as = node_sum(T2 * (p.c0_assembly + 0.5 * p.c1_assembly * T2))
                 stored_end[ends_exposure] = (e_as - e_assembly0)[ends_exposure]
             T = np.where(good, T2, T)
             t = np.where(good, t_new, t)
@@ -244,7 +244,7 @@ def integrate(p: Problem, drive: Drive, mesh: Mesh, T0: np.ndarray, out: dict, o
             Fr = fluxes(p, T, face_r, abs_r) if restart.any() else F2
             Fn = _merge(Fn, F2, Fr, keep, restart)
     failed |= alive  # out of steps
-    e_end = np.sum(enthalpy(p, T)[free], axis=0)
+    e_end = node_sum(enthalpy(p, T)[free])
     out["heat_in"] = acc["hot"]
     out["heat_to_core"] = acc["fixed"]
     out["heat_from_perfusion"] = acc["perfusion"]

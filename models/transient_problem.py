@@ -330,8 +330,18 @@ def fluxes(p: Problem, T: np.ndarray, face: dict, absorbed: np.ndarray) -> Fluxe
         if node > 0:
             into_fixed = into_fixed + q[node - 1]
     wearer = q[p.surface - 1] if p.surface > 0 else q_face + absorbed
-    return Fluxes(rhs, sub, diag, sup, q_face + absorbed, into_fixed, source.sum(axis=0),
+    return Fluxes(rhs, sub, diag, sup, q_face + absorbed, into_fixed, node_sum(source),
                   wearer)
+
+
+def node_sum(x: np.ndarray) -> np.ndarray:
+    """Sum over nodes (axis 0), row by row, so that the result never depends on how many
+    samples share the array (numpy's pairwise summation of a single column would differ in
+    the last bit)."""
+    total = x[0].copy()
+    for row in x[1:]:
+        total += row
+    return total
 
 
 def enthalpy(p: Problem, T: np.ndarray) -> np.ndarray:
