@@ -121,6 +121,10 @@ class IndexResult:
         Quantiles from the surrogate when its error allows them [K].
     surrogate_quantile_status
         Why the surrogate's quantiles were computed or refused.
+    quality
+        Output → one line on the surrogate fit behind its indices (transient studies).
+    screening
+        Output → Morris measures (``method = "morris"`` on a transient study).
     """
 
     indices: dict[str, tuple[SobolIndices, SobolIndices | None]] = field(default_factory=dict)
@@ -130,10 +134,26 @@ class IndexResult:
     surrogate_groups: SurrogateIndices | None = None
     surrogate_quantiles: np.ndarray | None = None
     surrogate_quantile_status: str = ""
+    quality: dict[str, str] = field(default_factory=dict)
+    screening: dict[str, object] = field(default_factory=dict)
+
+
+def analysis_for(study: Study):
+    """The analysis function of a study's kind: :func:`analyse` (steady) or
+    :func:`plyrisk.analysis.transient.analyse_transient` (a study with a transient setup)."""
+    from plyrisk.analysis.transient import analyse_transient, is_transient
+
+    return analyse_transient if is_transient(study) else analyse
 
 
 def analysed_outputs(study: Study) -> tuple[str, ...]:
-    """The outputs indices are computed for: the inner-surface temperature first."""
+    """The outputs indices are computed for: the inner-surface temperature first (steady), or
+    the derived outputs of a transient study (:func:`plyrisk.analysis.transient.transient_outputs`).
+    """
+    from plyrisk.analysis.transient import is_transient, transient_outputs
+
+    if is_transient(study):
+        return transient_outputs(study)
     extra = [o for o in study.analysis.outputs if o != "inner_surface_temperature"]
     return ("inner_surface_temperature", *extra)
 

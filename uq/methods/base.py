@@ -23,6 +23,9 @@ Hooks and what calls them
 ``scenario_indices(...)``
     :func:`plyrisk.analysis.study.analyse` and :func:`plyrisk.analysis.streaming.stream_analyse`:
     the sensitivity indices of one exposure.
+``transient_indices(study, scenario, *, source, design, probabilities)``
+    :func:`plyrisk.analysis.transient.analyse_transient`: indices of the derived outputs of one
+    exposure of a transient study (by default through ``scenario_indices``).
 ``analyse(study, propagation)``, ``dataset(study, propagation, analysis)``,
 ``summary_lines(result, top)``
     :func:`plyrisk.pipeline.run.run_study` and its summary.
@@ -72,6 +75,9 @@ class Method:
         Its indices come from a surrogate fitted to the samples.
     writes_report
         ``plyrisk run`` writes an HTML report for it.
+    samples_distributions
+        Its design samples the joint input distribution, so percentiles and probabilities come
+        from it (False for a Morris grid).
     """
 
     name: ClassVar[str]
@@ -84,6 +90,7 @@ class Method:
     allows_screening: ClassVar[bool] = True
     fits_surrogate: ClassVar[bool] = False
     writes_report: ClassVar[bool] = True
+    samples_distributions: ClassVar[bool] = True
 
     # -- config facts -------------------------------------------------------------------------
     @property
@@ -121,11 +128,32 @@ class Method:
 
         return IndexResult()
 
-    def analyse(self, study: Study, propagation: Propagation) -> Any:
-        """Statistics of a propagated study (percentiles, exceedance, indices)."""
-        from plyrisk.analysis.study import analyse
+    def transient_indices(self, study: Study, scenario: int, *, source: Any, design: Any,
+                          probabilities: np.ndarray) -> IndexResult:
+        """Indices of the derived outputs of one exposure of a transient study.
 
-        return analyse(study, propagation, method=self)
+        By default :meth:`scenario_indices` on the independent rows, the first derived output
+        as ``y`` (a method that computes every analysed output from ``source`` needs nothing
+        more).
+        """
+        from plyrisk.analysis.outputs import output_column
+        from plyrisk.analysis.study import analysed_outputs
+
+        rows = design.independent_rows()
+        y = output_column(source, analysed_outputs(study)[0], scenario)[rows]
+        return self.scenario_indices(study, scenario, source=source, design=design,
+                                     unit=design.unit[rows], y=y, probabilities=probabilities,
+                                     streamed=False)
+
+    def analyse(self, study: Study, propagation: Propagation) -> Any:
+        """Statistics of a propagated study (percentiles, exceedance or P(burn), indices).
+
+        The study's kind picks the analysis (:func:`plyrisk.analysis.study.analysis_for`): the
+        steady one, or :func:`plyrisk.analysis.transient.analyse_transient`.
+        """
+        from plyrisk.analysis.study import analysis_for
+
+        return analysis_for(study)(study, propagation, method=self)
 
     def analyse_store(self, study: Study, reader: Any) -> StudyAnalysis:
         """Statistics of a stored study too large for memory, in passes."""

@@ -37,6 +37,7 @@ class Morris(Method):
     stores = False
     allows_screening = False
     writes_report = False
+    samples_distributions = False
 
     def describe(self, study: Study) -> str:
         a = study.analysis
@@ -46,13 +47,46 @@ class Morris(Method):
         """``r (d + 1)`` runs: one trajectory of d + 1 points per ``samples``."""
         return super().runs(study, samples) * (len(study.parameters) + 1)
 
-    def analyse(self, study: Study, propagation: Propagation) -> MorrisAnalysis:
+    def analyse(self, study: Study, propagation: Propagation) -> Any:
+        from plyrisk.analysis.transient import is_transient
+
+        if is_transient(study):  # the transient analysis, its indices from transient_indices
+            return super().analyse(study, propagation)
         return morris_analysis(study, propagation)
 
+    def transient_indices(self, study: Study, scenario: int, *, source: Any, design: Any,
+                          probabilities: np.ndarray) -> Any:
+        """Morris measures of every derived output of one exposure of a transient study."""
+        from plyrisk.analysis.morris import morris_indices
+        from plyrisk.analysis.outputs import output_column
+        from plyrisk.analysis.study import AnalysisError, IndexResult, analysed_outputs
+
+        a = study.analysis
+        names = [p.name for p in study.parameters]
+        screening = {}
+        for o in analysed_outputs(study):
+            try:
+                screening[o] = morris_indices(output_column(source, o, scenario), design,
+                                              names=names, levels=a.levels,
+                                              n_bootstrap=max(a.bootstrap, 2),
+                                              confidence=a.confidence, seed=a.seed)
+            except ValueError as err:
+                raise AnalysisError(f"Morris screening of {o}{_at(study, scenario)}: "
+                                    f"{err}") from None
+        return IndexResult(screening=screening)
+
     def dataset(self, study: Study, propagation: Propagation, analysis: Any) -> xr.Dataset:
+        from plyrisk.analysis.transient import is_transient
+
+        if is_transient(study):
+            return super().dataset(study, propagation, analysis)
         return morris_dataset(study, propagation, analysis)
 
     def summary_lines(self, result: Any, *, top: int) -> list[str] | None:
+        from plyrisk.analysis.transient import is_transient
+
+        if is_transient(result.study):
+            return None
         return morris_lines(result.study, result.propagation, result.analysis, top=top)
 
 

@@ -65,6 +65,30 @@ class PolynomialChaos(Method):
         return IndexResult({}, fit.ranking, fit.group_ranking, fit.indices, fit.groups,
                            fit.quantiles, fit.status)
 
+    def transient_indices(self, study: Study, scenario: int, *, source: Any, design: Any,
+                          probabilities: np.ndarray) -> IndexResult:
+        """One surrogate per derived output of a transient study, with its fit quality."""
+        from plyrisk.analysis.outputs import output_column
+        from plyrisk.analysis.study import IndexResult, analysed_outputs
+
+        if not study.parameters:
+            return IndexResult()
+        rows = design.independent_rows()
+        unit = design.unit[rows]
+        indices, ranking, groups, quality = {}, {}, {}, {}
+        for o in analysed_outputs(study):
+            fit = fit_surrogate(study, unit, output_column(source, o, scenario)[rows],
+                                probabilities, key=o, quantiles=False)
+            if fit.indices is None:
+                quality[o] = fit.status
+                continue
+            indices[o] = (fit.indices, fit.groups)
+            ranking.update(fit.ranking)
+            groups.update(fit.group_ranking)
+            quality[o] = (f"polynomial-chaos surrogate, order {fit.indices.order}, "
+                          f"{fit.indices.terms} terms, Q2 = {fit.indices.q2:.3f}")
+        return IndexResult(indices, ranking, groups, quality=quality)
+
     def dataset_variables(self, study: Study, analysis: StudyAnalysis,
                           outputs: Sequence[str]) -> dict[str, VariableRecord]:
         """Surrogate indices, their intervals and the fit's quality (see docs/results.md)."""
@@ -86,7 +110,8 @@ class SurrogateResult:
 
 
 def fit_surrogate(study: Study, unit: np.ndarray, y: np.ndarray,
-                  probabilities: np.ndarray) -> SurrogateResult:
+                  probabilities: np.ndarray, *, key: str = "inner_surface_temperature",
+                  quantiles: bool = True) -> SurrogateResult:
     """Fit the PCE of one exposure; indices per parameter and group, gated percentiles.
 
     Parameters
@@ -99,6 +124,10 @@ def fit_surrogate(study: Study, unit: np.ndarray, y: np.ndarray,
         Inner-surface temperature of those rows [K].
     probabilities
         Quantile levels [-].
+    key
+        Name of the output ``y`` (the key of the rankings) [-].
+    quantiles
+        Also compute the surrogate's gated percentiles [-].
 
     Returns
     -------
@@ -120,8 +149,8 @@ def fit_surrogate(study: Study, unit: np.ndarray, y: np.ndarray,
     grouped = surrogate_indices(unit, y, names=group_names, groups=groups,
                                 n_bootstrap=a.bootstrap, confidence=a.confidence,
                                 seed=a.seed, fit=per.fit)
-    q, status = _surrogate_percentiles(per, probabilities, a)
-    key = "inner_surface_temperature"
+    q, status = (_surrogate_percentiles(per, probabilities, a) if quantiles
+                 else (None, "not computed"))
     return SurrogateResult(per, grouped, q, status,
                            {key: rank(per, ci_threshold=a.index_ci_threshold)},
                            {key: rank(grouped, ci_threshold=a.index_ci_threshold)})

@@ -55,7 +55,14 @@ def to_dataset(study: Study, propagation: Propagation, analysis: StudyAnalysis, 
     Returns
     -------
     xarray.Dataset
+        For a transient study, :func:`plyrisk.results.transient.transient_dataset`.
     """
+    from plyrisk.analysis.transient import is_transient
+
+    if is_transient(study):
+        from plyrisk.results.transient import transient_dataset
+
+        return transient_dataset(study, propagation, analysis, method=method)
     frame = _Frame(study, propagation, analysis)
     data = {**_sample_variables(frame), **_statistics_variables(frame)}
     method = method or get_method(study.analysis.method)
