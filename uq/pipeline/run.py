@@ -198,6 +198,18 @@ def summary_text(result: StudyResult) -> str:
         return "\n".join(_closing(result, lines + own, []))
     n_eval = int(result.dataset.attrs.get("evaluations", prop.inputs.shape[0]))
     n_independent = method.independent_samples(study, n_eval)
+    from plyrisk.analysis.transient import is_transient
+
+    if is_transient(study):
+        from plyrisk.text.transient import transient_summary_lines
+
+        lines.append(f"method: {a.method}, {a.design} design, {a.samples} {method.sample_noun}, "
+                     f"{len(study.parameters)} uncertain parameters, {n_eval} model evaluations"
+                     + (f" per exposure × {len(an.scenarios)} exposures"
+                        if len(an.scenarios) > 1 else "") + f"; seed {a.seed}")
+        lines += transient_summary_lines(study, an, evaluations=n_eval,
+                                         temperature=lambda k: _t(study, k), top=TOP_COUNT)
+        return "\n".join(_closing(result, lines, an.notes, transient=True))
     lines.append(
         f"method: {a.method}, {a.design} design, {a.samples} {method.sample_noun}, "
         f"{len(study.parameters)} uncertain parameters, {n_eval} model evaluations"
@@ -268,7 +280,8 @@ def summary_text(result: StudyResult) -> str:
     return "\n".join(_closing(result, lines, an.notes))
 
 
-def _closing(result: StudyResult, lines: list[str], notes) -> list[str]:
+def _closing(result: StudyResult, lines: list[str], notes, *,
+             transient: bool = False) -> list[str]:
     """Notes, warnings, the results path and the cautions at the end of the summary."""
     for note in (*notes, *result.warnings):
         lines.append("")
@@ -277,5 +290,5 @@ def _closing(result: StudyResult, lines: list[str], notes) -> list[str]:
         lines.append("")
         lines.append(f"results: {result.path}")
     lines.append("")
-    lines.append(cautions_text())
+    lines.append(cautions_text(transient=transient))
     return lines

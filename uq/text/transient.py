@@ -1,0 +1,260 @@
+"""Terminal text of a transient study: the answer first (time to burn, P(burn), dominant layer).
+
+Shared by the summary of ``plyrisk run`` (:func:`transient_summary_lines`) and the report's
+headline (:func:`headline_sentences`), so that both say the same thing in the same words.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+import numpy as np
+
+from plyrisk.analysis.outputs import DERIVED_OUTPUTS
+from plyrisk.analysis.transient import (
+    EVENTS,
+    HEADLINE_EVENT,
+    CensoredQuantiles,
+    TransientAnalysis,
+    TransientScenarioAnalysis,
+)
+
+EVENT_TEXT = {"first_degree_burn": "first-degree burn", "second_degree_burn":
+              "second-degree burn", "third_degree_burn": "third-degree burn",
+              "sensor_criterion": "the sensor's second-degree criterion"}
+"""Words for each event."""
+
+
+def seconds(value: float, horizon: float, *, beyond: bool | None = None) -> str:
+    """A time [s] as text: ``"> 30 s"`` beyond the horizon, ``"n/a"`` for NaN [-]."""
+    if beyond or (beyond is None and math.isinf(value) and value > 0):
+        return f"> {horizon:g} s"
+    if not math.isfinite(value):
+        return "n/a"
+    return f"{value:.3g} s"
+
+
+def percent(p: float) -> str:
+    """A probability as a percentage, ``"n/a"`` for NaN [-]."""
+    return "n/a" if not math.isfinite(p) else f"{100 * p:.3g} %"
+
+
+def level_of(q: CensoredQuantiles, p: float) -> int:
+    """Index of the percentile level closest to ``p`` [-]."""
+    return int(np.argmin(np.abs(np.asarray(q.probabilities) - p)))
+
+
+def time_text(q: CensoredQuantiles, p: float) -> str:
+    """``"7.7 s [6.3 s, 8.8 s]"``: the percentile with its interval ("> horizon" if beyond)."""
+    i = level_of(q, p)
+    h = q.horizon
+    return (f"{seconds(q.estimate[i], h)} [{seconds(q.lower[i], h)}, "
+            f"{seconds(q.upper[i], h)}]")
+
+
+def dominant(study: Any, sc: TransientScenarioAnalysis, output: str) -> tuple[str, str]:
+    """The layer group (or input) that moves ``output`` most, and how it was measured [-].
+
+    By the total index per layer group (Saltelli or the surrogate); for Morris by the largest
+    mu*, naming its input and layer.
+    """
+    groups = sc.group_ranking.get(output) or []
+    first = next((g for g in groups if math.isfinite(g.total)), None)
+    if first is not None:
+        return first.name, f"total index {first.total:.2f} ± {first.total_ci:.2f}"
+    m = sc.screening.get(output)
+    if m is not None and np.isfinite(m.mu_star).any():
+        j = int(np.nanargmax(m.mu_star))
+        group = study.parameters[j].group
+        return group, f"largest Morris mu*: {m.names[j]}"
+    return "", ""
+
+
+def headline_sentences(study: Any, analysis: TransientAnalysis, s: int) -> list[str]:
+    """The answer of one exposure in three sentences: time, probability, dominant layer [-]."""
+    f = analysis.facts
+    sc = analysis.scenarios[s]
+    event = HEADLINE_EVENT.get(f.wearer_kind)
+    conf = f"{100 * study.analysis.confidence:g} %"
+    out = []
+    if event is not None and analysis.statistics:
+        q, b = sc.times[event], sc.burn[event]
+        what = EVENT_TEXT[event]
+        out.append(f"time to {what}: P5 {time_text(q, 0.05)}, median {time_text(q, 0.5)} "
+                   f"({conf} confidence; '> {f.horizon:g} s' = beyond the horizon)")
+        out.append(f"P({what} within {f.horizon:g} s) = {percent(b.probability)} "
+                   f"[{percent(b.lower)}, {percent(b.upper)}] ({b.method}; {b.count} of "
+                   f"{b.n} samples)")
+        if f.wearer_kind == "sensor" and sc.exposure_energy is not None:
+            e = sc.exposure_energy
+            out.append("rating (exposure energy when the sensor reaches the criterion): P5 "
+                       f"{_energy(e, 0.05)}, median {_energy(e, 0.5)}")
+    elif not analysis.statistics:
+        out.append("screening only: no percentiles or probabilities (a Morris design samples "
+                   "a grid, not the input distributions)")
+    primary = analysis.outputs[0] if analysis.outputs else ""
+    name, how = dominant(study, sc, primary)
+    if name:
+        rule = "" if primary not in DERIVED_OUTPUTS else DERIVED_OUTPUTS[primary].long_name
+        out.append(f"dominant layer: {name} ({how}, for the {rule})")
+    elif primary in sc.constant_outputs:
+        out.append(f"dominant layer: none ({primary} is the same in every sample)")
+    return out
+
+
+def _energy(q: CensoredQuantiles, p: float) -> str:
+    i = level_of(q, p)
+
+    def one(v: float) -> str:
+        if math.isinf(v):
+            return "not reached"
+        return "n/a" if not math.isfinite(v) else f"{v / 1e3:.4g} kJ/m²"
+
+    return f"{one(q.estimate[i])} [{one(q.lower[i])}, {one(q.upper[i])}]"
+
+
+def transient_summary_lines(study: Any, analysis: TransientAnalysis, *, evaluations: int,
+                            temperature, top: int = 5) -> list[str]:
+    """The summary of a transient study after its header: the answer first, then the rest.
+
+    Parameters
+    ----------
+    study
+        The study [-].
+    analysis
+        Its transient analysis [-].
+    evaluations
+        Model evaluations per exposure [-].
+    temperature
+        ``kelvin -> text`` in the user's unit [-].
+    top
+        Inputs listed per ranking [-].
+
+    Returns
+    -------
+    list of str
+    """
+    f = analysis.facts
+    lines = [f"transient model: {f.wearer_kind} behind the assembly, horizon {f.horizon:g} s, "
+             f"damage constants {f.damage_model or 'n/a'}"]
+    for s, sc in enumerate(analysis.scenarios):
+        lines.append("")
+        if study.scenarios is not None:
+            lines.append(f"exposure {s + 1}: {study.scenarios.quantity} = "
+                         f"{study.scenarios.labels[s]}")
+        lines.append("ANSWER")
+        lines += [f"  {t}" for t in headline_sentences(study, analysis, s)]
+        if analysis.statistics:
+            lines += _details(study, analysis, sc, temperature)
+        lines += _rankings(study, analysis, sc, top)
+        lines.append(f"non-converged samples: {sc.nonconverged} of {evaluations}"
+                     + (" (excluded from every statistic; see 'converged' in the dataset)"
+                        if sc.nonconverged else ""))
+    if analysis.limit is not None:
+        lines.append("")
+        lines += sweep_lines(study, analysis)
+    lines.append("")
+    lines.append("derived outputs (indices are of these, each with its rule):")
+    for o in analysis.outputs:
+        if o in DERIVED_OUTPUTS:
+            lines.append(f"  {o}: {DERIVED_OUTPUTS[o].rule}")
+    return lines
+
+
+def _details(study, analysis: TransientAnalysis, sc, temperature) -> list[str]:
+    f = analysis.facts
+    conf = f"{100 * study.analysis.confidence:g} %"
+    lines = [f"times to each event ({conf} confidence intervals; '> {f.horizon:g} s': no event "
+             "by the horizon at that rank):"]
+    for event, _ in EVENTS[f.wearer_kind]:
+        q, b = sc.times[event], sc.burn[event]
+        cells = "   ".join(f"P{100 * p:g} {time_text(q, p)}" for p in study.analysis.percentiles)
+        lines.append(f"  {EVENT_TEXT[event]}: {cells}")
+        lines.append(f"    P(within {f.horizon:g} s) = {percent(b.probability)} "
+                     f"[{percent(b.lower)}, {percent(b.upper)}]; no event in "
+                     f"{percent(q.no_event_fraction)} of the samples")
+    for name, label in (("peak_basal_temperature", "peak basal temperature"),
+                        ("peak_surface_temperature", "peak surface temperature")):
+        q = sc.quantiles.get(name)
+        if q is None:
+            continue
+        cells = "   ".join(
+            f"P{100 * p:g} {temperature(q.estimate[i])}"
+            for p in study.analysis.percentiles
+            for i in [int(np.argmin(np.abs(q.probabilities - p)))])
+        lines.append(f"  {label}: {cells}")
+    return lines
+
+
+def _rankings(study, analysis: TransientAnalysis, sc, top: int) -> list[str]:
+    lines = []
+    for o in analysis.outputs[:2]:
+        groups = sc.group_ranking.get(o) or []
+        params = sc.ranking.get(o) or []
+        if params:
+            fit = sc.surrogate_quality.get(o, "")
+            lines.append(f"inputs ranked by total index of {o}" + (f" ({fit})" if fit else "")
+                         + ":")
+            for r, item in enumerate(params[:top], start=1):
+                flag = "ok" if item.converged else "WIDE"
+                lines.append(f"  {r}. {item.name:<32} total {item.total:6.3f} ± "
+                             f"{item.total_ci:.3f}  first {item.first:6.3f}  {flag}")
+        if groups:
+            lines.append(f"layers ranked by total index of {o}:")
+            for r, item in enumerate(groups[:top], start=1):
+                lines.append(f"  {r}. {item.name:<32} total {item.total:6.3f} ± "
+                             f"{item.total_ci:.3f}")
+        m = sc.screening.get(o)
+        if m is not None:
+            lines.append(f"inputs ranked by Morris mu* of {o}:")
+            for r, j in enumerate(m.order()[:top], start=1):
+                lines.append(f"  {r}. {m.names[j]:<32} mu* {m.mu_star[j]:8.3g} ± "
+                             f"{m.mu_star_ci[j]:.2g}  sigma {m.sigma[j]:8.3g}")
+    return lines
+
+
+def sweep_lines(study, analysis: TransientAnalysis) -> list[str]:
+    """P(headline event) per swept level and the longest acceptable exposure [-]."""
+    f = analysis.facts
+    event = HEADLINE_EVENT[f.wearer_kind]
+    lim = analysis.limit
+    sc = study.scenarios
+    lines = [f"P({EVENT_TEXT[event]} within {f.horizon:g} s) against {sc.quantity}:"]
+    for label, s in zip(sc.labels, analysis.scenarios, strict=True):
+        b = s.burn[event]
+        lines.append(f"  {label:>12}: {percent(b.probability):>8} [{percent(b.lower)}, "
+                     f"{percent(b.upper)}]")
+    lines.append(limit_sentence(study, analysis))
+    return lines
+
+
+def limit_sentence(study, analysis: TransientAnalysis) -> str:
+    """One sentence on the longest exposure whose P(burn) stays acceptable [-]."""
+    from plyrisk.study.units import QUANTITIES, from_si
+
+    lim = analysis.limit
+    sc = study.scenarios
+    spec = QUANTITIES.get(sc.quantity)
+
+    def show(v: float) -> str:
+        if spec is not None and sc.unit:
+            return f"{float(from_si(v, sc.unit, spec)):.3g} {sc.unit}"
+        return f"{v:.3g} s" if sc.quantity == "exposure_duration" else f"{v:.3g}"
+
+    what = f"P({EVENT_TEXT[HEADLINE_EVENT[analysis.facts.wearer_kind]]})"
+    acc = percent(lim.acceptable)
+    if lim.status == "crosses":
+        text = f"{what} stays at or below {acc} up to {sc.quantity} ≈ {show(lim.value)}"
+    elif lim.status == "below":
+        text = f"{what} stays at or below {acc} over the whole swept range"
+    elif lim.status == "above":
+        text = f"{what} exceeds {acc} even at the lowest swept level"
+    else:
+        text = f"{what} is not available"
+    if lim.cautious_status == "crosses":
+        text += (f"; by the upper confidence bound of {what}, only up to ≈ "
+                 f"{show(lim.cautious_value)}")
+    elif lim.cautious_status == "above" and lim.status != "above":
+        text += "; its upper confidence bound exceeds it at every swept level"
+    return text + " (linear interpolation between swept levels; run a finer sweep around it)."
