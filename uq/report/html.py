@@ -334,7 +334,16 @@ def write_report(
     ------
     ValueError
         When ``ds`` is not a results dataset, or ``tolerance_table`` has a wrong type.
+
+    Notes
+    -----
+    A transient study's dataset (``attrs["study_kind"] == "transient"``) gets the report of
+    :func:`plyrisk.report.transient.write_transient_report`.
     """
+    if ds.attrs.get("study_kind") == "transient":
+        from plyrisk.report.transient import write_transient_report
+
+        return write_transient_report(ds, out_dir, tolerance_table=tolerance_table)
     missing = [v for v in _REQUIRED if v not in ds.variables]
     if missing or "limit" not in ds.attrs:
         raise ValueError("not a plyrisk results dataset: missing "

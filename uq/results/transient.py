@@ -336,6 +336,11 @@ def _attributes(study, propagation, analysis: TransientAnalysis, method) -> dict
         v = getattr(exposure, name, None)
         if v is not None and np.ndim(v) == 0 and not hasattr(v, "times"):
             attrs[f"exposure_{name}" if not name.startswith("exposure") else name] = float(v)
+    attrs["limit_display_unit"] = str(getattr(study, "limit_unit", "") or "degC")
+    wearer = getattr(study.transient, "wearer", None)
+    cap = getattr(wearer, "heat_capacity", None) if f.wearer_kind == "sensor" else None
+    if cap is not None and np.ndim(cap) == 0:
+        attrs["sensor_heat_capacity_per_area"] = float(cap)
     if f.acceptable_burn_probability is not None:
         attrs["acceptable_burn_probability"] = f.acceptable_burn_probability
     if study.scenarios is not None:

@@ -1,0 +1,436 @@
+"""The report of a transient study: the answer first, then figures, tables, limits, provenance.
+
+:func:`plyrisk.report.html.write_report` hands a dataset with ``attrs["study_kind"] ==
+"transient"`` to :func:`write_transient_report`, which writes into ``out_dir`` the same files
+as a steady report: ``report.html`` (self-contained), ``summary.md``, ``figures/*.png|svg`` and
+CSV tables (``event_times.csv``, ``event_probabilities.csv``, ``indices.csv``). The first section
+answers the question: time to second-degree burn (P5 with its interval, median), P(burn) within
+the horizon with its interval, the dominant layer. ``docs/report.md`` describes each section.
+"""
+
+from __future__ import annotations
+
+import math
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import xarray as xr
+
+from plyrisk.cautions import TRANSIENT_CAUTIONS
+from plyrisk.report.csv_tables import write_csv
+from plyrisk.report.figures import transient as tf
+from plyrisk.report.figures.common import format_percent, format_temperature
+from plyrisk.report.tables import Table, cell_text, provenance_table
+from plyrisk.results.dataset import scenario_slices
+
+__all__ = ["headline_lines", "transient_figures", "write_transient_report"]
+
+EVENT_TEXT = {"first_degree_burn": "first-degree burn", "second_degree_burn":
+              "second-degree burn", "third_degree_burn": "third-degree burn",
+              "sensor_criterion": "the sensor's second-degree criterion"}
+
+
+def _s(v: float, horizon: float, beyond: bool = False) -> str:
+    if beyond or (math.isinf(v) and v > 0):
+        return f"> {horizon:g} s"
+    return "n/a" if not math.isfinite(v) else f"{v:.3g} s"
+
+
+def _time(one: xr.Dataset, event: str, p: float) -> str:
+    h = float(one.attrs["horizon"])
+    parts = []
+    for sfx in ("", "_lower", "_upper"):
+        q = one[f"event_time_quantile{sfx}"].sel(event=event).sel(quantile=p, method="nearest")
+        parts.append(_s(float(q), h))
+    return f"{parts[0]} [{parts[1]}, {parts[2]}]"
+
+
+def _dominant(one: xr.Dataset) -> str:
+    if "output" not in one.coords or one.sizes.get("output", 0) == 0:
+        return ""
+    output = str(one["output"].values[0])
+    if "sobol_group_total" in one:
+        tot = np.asarray(one["sobol_group_total"].sel(output=output).values, float)
+        ci = np.asarray(one["sobol_group_total_ci"].sel(output=output).values, float)
+        if np.isfinite(tot).any():
+            j = int(np.nanargmax(tot))
+            return (f"dominant layer: {one['group'].values[j]} (total index {tot[j]:.2f} ± "
+                    f"{ci[j]:.2f} for {output})")
+        return f"dominant layer: none ({output} is the same in every sample)"
+    if "morris_mu_star" in one:
+        mu = np.asarray(one["morris_mu_star"].sel(output=output).values, float)
+        if np.isfinite(mu).any():
+            j = int(np.nanargmax(mu))
+            return (f"dominant layer: {one['parameter_group'].values[j]} (largest Morris mu* "
+                    f"of {output}: {one['parameter'].values[j]})")
+    return ""
+
+
+def headline_lines(ds: xr.Dataset) -> list[tuple[str, list[str]]]:
+    """Per exposure: its label and the answer in sentences (time, probability, layer) [-]."""
+    out = []
+    event = tf.headline_event(ds)
+    conf = f"{100 * float(ds.attrs.get('confidence', math.nan)):g} %"
+    horizon = float(ds.attrs["horizon"])
+    for label, one in scenario_slices(ds):
+        lines = []
+        if "event_time_quantile" in one:
+            what = EVENT_TEXT[event]
+            lines.append(f"Time to {what}: P5 {_time(one, event, 0.05)}, median "
+                         f"{_time(one, event, 0.5)} ({conf} confidence; '> {horizon:g} s' = "
+                         "beyond the horizon).")
+            b = {k: float(one[f"event_probability{k}"].sel(event=event)) for k in
+                 ("", "_lower", "_upper")}
+            lines.append(f"P({what} within {horizon:g} s) = {format_percent(b[''])} "
+                         f"[{format_percent(b['_lower'])}, {format_percent(b['_upper'])}] "
+                         f"({int(one['event_count'].sel(event=event))} of "
+                         f"{int(one['samples_used'])} samples).")
+        else:
+            lines.append("Screening only (method = morris): no percentiles or probabilities.")
+        if "exposure_energy_at_criterion_quantile" in one:
+            q = one["exposure_energy_at_criterion_quantile"]
+            e5 = float(q.sel(quantile=0.05, method="nearest"))
+            e50 = float(q.sel(quantile=0.5, method="nearest"))
+            lines.append("Rating (exposure energy when the sensor reaches the criterion): P5 "
+                         f"{_kj(e5)}, median {_kj(e50)}.")
+        dom = _dominant(one)
+        if dom:
+            lines.append(dom[0].upper() + dom[1:] + ".")
+        out.append((label, lines))
+    return out
+
+
+def _kj(v: float) -> str:
+    if math.isinf(v):
+        return "not reached"
+    return "n/a" if not math.isfinite(v) else f"{v / 1e3:.4g} kJ/m²"
+
+
+def _sweep_sentence(ds: xr.Dataset) -> str:
+    if "longest_acceptable_exposure" not in ds:
+        return ""
+    v = ds["longest_acceptable_exposure"]
+    c = ds["longest_acceptable_exposure_cautious"]
+    acc = format_percent(float(v.attrs.get("acceptable_probability", math.nan)))
+    q = str(ds.attrs.get("scenario_quantity", "exposure")).replace("_", " ")
+    unit = v.attrs.get("units", "")
+    status = v.attrs.get("status")
+    if status == "crosses":
+        text = f"P(burn) stays at or below {acc} up to {q} ≈ {float(v):.3g} {unit}"
+    elif status == "below":
+        text = f"P(burn) stays at or below {acc} over the whole swept range"
+    elif status == "above":
+        text = f"P(burn) exceeds {acc} even at the lowest swept level"
+    else:
+        text = "P(burn) is not available"
+    if c.attrs.get("status") == "crosses":
+        text += f"; by its upper confidence bound only up to ≈ {float(c):.3g} {unit}"
+    return text + " (linear interpolation between swept levels)."
+
+
+def transient_figures(ds: xr.Dataset) -> list[Any]:
+    """Every figure of a transient report, in order (built, not saved) [-]."""
+    from plyrisk.report.html import ReportFigure
+
+    out = []
+    stats = "event_time_quantile" in ds
+    for i, (label, one) in enumerate(scenario_slices(ds)):
+        idx = i if "scenario" in ds.dims else None
+        sfx = "" if idx is None else f"_{i + 1}"
+        at = f" — {label}" if label else ""
+        if stats and any(v in one for v in ("basal_temperature_band",
+                                            "surface_temperature_band")):
+            out.append(ReportFigure(
+                f"temperature_bands{sfx}", f"Temperature against time{at}",
+                "Median, 5–95 % and 1–99 % bands of the basal-layer (skin) or sensor "
+                "temperature at each output time, the exposure shaded and drawn beneath. For "
+                "skin the dashed line is the damage onset (44 °C), above which the damage "
+                "integral grows; for a sensor it is the criterion as a sensor temperature. The "
+                "bands are percentiles of each time taken separately, not the history of one "
+                "sample.", tf.bands_figure(ds, scenario=idx)))
+        if stats:
+            out.append(ReportFigure(
+                f"burn_time_distribution{sfx}", f"Distribution of the time to burn{at}",
+                "Cumulative share of the converged independent samples with the event by each "
+                "time; the hatched bar at the horizon is the share without it (censored: only "
+                "known to be beyond the horizon). The shaded span is the confidence interval of "
+                "P5.", tf.burn_time_figure(ds, scenario=idx)))
+        if "sobol_group_total" in one or "morris_mu_star" in one:
+            try:
+                out.append(ReportFigure(
+                    f"layer_indices{sfx}", f"Which layer buys the most time{at}",
+                    "Indices of the first derived output (the capped time to burn) per layer: "
+                    "each layer's parameters varied together. Indices of a capped output count "
+                    "every sample without a burn as burning at the horizon; see the rule in the "
+                    "title.", tf.layer_indices_figure(ds, scenario=idx, groups=True)))
+                out.append(ReportFigure(
+                    f"input_indices{sfx}", f"Indices per input{at}",
+                    "The same output's indices per uncertain input.",
+                    tf.layer_indices_figure(ds, scenario=idx, groups=False)))
+            except ValueError:
+                pass
+    if stats and "scenario" in ds.dims:
+        out.append(ReportFigure(
+            "burn_probability_sweep", "P(burn) against the exposure",
+            "Estimated probability of a second-degree burn (or of the sensor reaching the "
+            "criterion) within the horizon at each swept level, its confidence band and the "
+            "acceptable probability; the read-off interpolates linearly between levels.",
+            tf.burn_sweep_figure(ds)))
+    return out
+
+
+def _event_tables(ds: xr.Dataset) -> list[Table]:
+    tables = []
+    horizon = float(ds.attrs["horizon"])
+    conf = f"{100 * float(ds.attrs.get('confidence', math.nan)):g} %"
+    for label, one in scenario_slices(ds):
+        if "event_time_quantile" not in one:
+            continue
+        probs = [float(p) for p in one["quantile"].values]
+        rows = []
+        for e in one["event"].values:
+            e = str(e)
+            row = [EVENT_TEXT.get(e, e)]
+            row += [_time(one, e, p) for p in probs]
+            b = {k: float(one[f"event_probability{k}"].sel(event=e)) for k in
+                 ("", "_lower", "_upper")}
+            row.append(f"{format_percent(b[''])} [{format_percent(b['_lower'])}, "
+                       f"{format_percent(b['_upper'])}]")
+            rows.append(row)
+        tables.append(Table(["event"] + [f"P{100 * p:g}" for p in probs]
+                            + [f"P(within {horizon:g} s)"], rows,
+                            f"Times to each event and their probability ({conf} intervals)"
+                            + (f" — {label}" if label else "")))
+        peak = []
+        for name, what in (("peak_basal_temperature", "peak basal temperature"),
+                           ("peak_surface_temperature", "peak surface temperature")):
+            if f"{name}_quantile" in one:
+                q = one[f"{name}_quantile"]
+                peak.append([what] + [format_temperature(ds, float(q.sel(quantile=p)))
+                                      for p in probs])
+        if peak:
+            tables.append(Table(["output"] + [f"P{100 * p:g}" for p in probs], peak,
+                                "Peak temperatures" + (f" — {label}" if label else "")))
+    return tables
+
+
+def _ranking_tables(ds: xr.Dataset) -> list[Table]:
+    tables = []
+    for label, one in scenario_slices(ds):
+        if "output" not in one.coords:
+            continue
+        for o in [str(v) for v in one["output"].values][:2]:
+            if "sobol_total" in one:
+                s = one.sel(output=o)
+                tot = np.asarray(s["sobol_total"].values, float)
+                order = np.argsort(-np.nan_to_num(tot, nan=-np.inf))
+                rows = [[str(k + 1), str(s["parameter"].values[j]),
+                         str(s["parameter_group"].values[j]),
+                         cell_text(f"{tot[j]:.3f} ± {float(s['sobol_total_ci'].values[j]):.3f}"),
+                         cell_text(f"{float(s['sobol_first'].values[j]):.3f} ± "
+                                   f"{float(s['sobol_first_ci'].values[j]):.3f}")]
+                        for k, j in enumerate(order)]
+                tables.append(Table(["rank", "input", "layer", "total index", "first-order"],
+                                    rows, f"Inputs ranked for {o}"
+                                    + (f" — {label}" if label else "")))
+            elif "morris_mu_star" in one:
+                s = one.sel(output=o)
+                mu = np.asarray(s["morris_mu_star"].values, float)
+                order = np.argsort(-np.nan_to_num(mu, nan=-np.inf))
+                rows = [[str(k + 1), str(s["parameter"].values[j]),
+                         f"{mu[j]:.3g} ± {float(s['morris_mu_star_ci'].values[j]):.2g}",
+                         f"{float(s['morris_sigma'].values[j]):.3g}"] for k, j in
+                        enumerate(order)]
+                tables.append(Table(["rank", "input", "mu*", "sigma"], rows,
+                                    f"Morris screening of {o}" + (f" — {label}" if label
+                                                                  else "")))
+    return tables
+
+
+def _rules_table(ds: xr.Dataset) -> Table:
+    rows = []
+    for o in [str(v) for v in ds["output"].values] if "output" in ds.coords else []:
+        rule = ds[o].attrs.get("rule", "") if o in ds else ""
+        rows.append([o, str(ds[o].attrs.get("units", "")) if o in ds else "", rule])
+    return Table(["derived output", "units", "rule"], rows,
+                 "Outputs the indices refer to, and how each is derived")
+
+
+def _nonconverged(ds: xr.Dataset) -> Table:
+    rows = []
+    for label, one in scenario_slices(ds):
+        n = int(np.sum(~np.asarray(one["converged"].values, bool)))
+        rows.append([label or "—", str(n), str(one.sizes["sample"])])
+    return Table(["exposure", "not converged", "samples"], rows)
+
+
+def write_transient_report(ds: xr.Dataset, out_dir: str | Path, *,
+                           tolerance_table: Any = None) -> Any:
+    """Write the report of a transient results dataset (see the module docstring).
+
+    Parameters
+    ----------
+    ds
+        A transient results dataset [-].
+    out_dir
+        Folder to write into [-].
+    tolerance_table
+        Tolerance recommendations (as for :func:`plyrisk.report.html.write_report`) [-].
+
+    Returns
+    -------
+    plyrisk.report.html.ReportFiles
+    """
+    from plyrisk.report.html import (
+        _CSS,
+        ReportFiles,
+        _esc,
+        _html_table,
+        _md_table,
+        _save,
+        _tolerance_table,
+    )
+
+    missing = [v for v in ("converged", "sample_block") if v not in ds.variables]
+    if missing or "horizon" not in ds.attrs:
+        raise ValueError("not a plyrisk transient results dataset: missing "
+                         + ", ".join(missing + ([] if "horizon" in ds.attrs
+                                                else ["attrs.horizon"])))
+    tol = _tolerance_table(tolerance_table) if tolerance_table is not None else None
+    out = Path(out_dir)
+    out.mkdir(parents=True, exist_ok=True)
+    figs = transient_figures(ds)
+    fig_paths, embedded = _save(figs, out / "figures")
+    for f in figs:
+        f.figure.clear()
+    head = headline_lines(ds)
+    sweep = _sweep_sentence(ds)
+    events = _event_tables(ds)
+    ranking = _ranking_tables(ds)
+    rules = _rules_table(ds)
+    tables = _csv(ds, out)
+    if tol is not None:
+        columns, records = tol
+        tables.append(write_csv(out / "tolerances.csv", columns,
+                                [[r.get(c) for c in columns] for r in records]))
+    title = str(ds.attrs.get("title", "plyrisk study"))
+    notes = [n for n in str(ds.attrs.get("notes", "")).split("\n") if n.strip()]
+    cautions = "".join(f"<li>{_esc(c)}</li>" for c in TRANSIENT_CAUTIONS)
+    box = f'<div class="cautions"><h2>Cautions</h2><ul>{cautions}</ul></div>'
+    h = ["<!DOCTYPE html>", '<html lang="en">', "<head>", '<meta charset="utf-8">',
+         f"<title>{_esc(title)} — plyrisk report</title>", f"<style>{_CSS}</style>", "</head>",
+         "<body>", f"<h1>{_esc(title)}</h1>",
+         f'<p class="sub">plyrisk transient study report · config '
+         f"{_esc(ds.attrs.get('config_source', ''))} · method {_esc(ds.attrs.get('method'))}"
+         f" · seed {_esc(ds.attrs.get('seed'))} · {_esc(ds.attrs.get('wearer_kind'))} · "
+         f"horizon {float(ds.attrs['horizon']):g} s</p>", "<h2>Answer</h2>"]
+    for label, lines in head:
+        if label:
+            h.append(f"<h3>{_esc(label)}</h3>")
+        h += [f'<p class="headline">{_esc(t)}</p>' for t in lines]
+    if sweep:
+        h.append(f'<p class="headline"><strong>{_esc(sweep)}</strong></p>')
+    h.append('<p class="sub">Engineering estimates within the wide scatter of the published '
+             "burn criteria; the intervals cover the sampling of the inputs only. See the "
+             "cautions below.</p>")
+    h.append(box)
+    h.append("<h2>Figures</h2>")
+    for f in figs:
+        h.append(f"<figure><h3>{_esc(f.title)}</h3>"
+                 f'<img src="data:image/png;base64,{embedded[f.stem]}" alt="{_esc(f.title)}">'
+                 f"<figcaption>{_esc(f.caption)}</figcaption></figure>")
+    h.append("<h2>Times to burn and probabilities</h2>")
+    h += [_html_table(t) for t in events]
+    h.append(f"<p>{_esc(ds.attrs.get('censoring', ''))}.</p>")
+    h.append("<h2>Ranking: which inputs and layers matter</h2>")
+    h += [_html_table(t) for t in ranking]
+    h.append(_html_table(rules))
+    if tol is not None:
+        columns, records = tol
+        h.append("<h2>Tolerance recommendations</h2>")
+        h.append(_html_table(Table(columns, [[cell_text(r.get(c)) for c in columns]
+                                             for r in records])))
+    h += ["<h2>Samples that did not converge</h2>",
+          "<p>Samples whose transient solve failed are excluded from every statistic and "
+          "counted here.</p>", _html_table(_nonconverged(ds))]
+    h.append("<h2>Assumptions and limits of the model</h2><ul>"
+             + "".join(f"<li>{_esc(c)}</li>" for c in TRANSIENT_CAUTIONS[2:])
+             + "".join(f"<li>{_esc(n)}</li>" for n in notes) + "</ul>")
+    h.append(box)
+    h += ["<h2>Provenance</h2>", _html_table(_provenance(ds)), "<h3>Config text</h3>",
+          f"<pre>{_esc(ds.attrs.get('config_text', ''))}</pre>", "</body>", "</html>"]
+    html_path = out / "report.html"
+    html_path.write_text("\n".join(h) + "\n", encoding="utf-8")
+    cautions_md = "## Cautions\n\n" + "\n".join(f"- **{c}**" for c in TRANSIENT_CAUTIONS)
+    m = [f"# {title}", "", "plyrisk transient study summary; the full report is "
+         "`report.html`.", "", "## Answer", ""]
+    for label, lines in head:
+        if label:
+            m += [f"### {label}", ""]
+        m += [f"- {t}" for t in lines] + [""]
+    if sweep:
+        m += [f"**{sweep}**", ""]
+    m += [cautions_md, "", "## Times to burn", ""]
+    for t in events:
+        m += [_md_table(t), ""]
+    m += ["## Ranking", ""]
+    for t in ranking:
+        m += [_md_table(Table(t.header, t.rows[:5], t.caption)), ""]
+    m += [_md_table(rules), "", "## Samples that did not converge", "",
+          _md_table(_nonconverged(ds)), ""]
+    if notes:
+        m += ["## Notes", "", *[f"- {n}" for n in notes], ""]
+    m += ["## Files", "", *[f"- `{p.relative_to(out).as_posix()}`" for p in
+                            fig_paths + tables], "", "## Provenance", "",
+          _md_table(_provenance(ds)), "", cautions_md, ""]
+    md_path = out / "summary.md"
+    md_path.write_text("\n".join(m), encoding="utf-8")
+    return ReportFiles(html_path, md_path, fig_paths, tables)
+
+
+def _provenance(ds: xr.Dataset) -> Table:
+    t = provenance_table(ds)
+    rows = [r for r in t.rows if r[0] not in ("gap radiation", "gap convection")]
+    rows[4:4] = [["wearer", str(ds.attrs.get("wearer_kind", ""))],
+                 ["horizon", f"{float(ds.attrs.get('horizon', math.nan)):g} s"],
+                 ["damage constants", str(ds.attrs.get("damage_model", ""))]]
+    return Table(t.header, rows)
+
+
+def _csv(ds: xr.Dataset, out: Path) -> list[Path]:
+    paths = []
+    rows_t, rows_p = [], []
+    for label, one in scenario_slices(ds):
+        if "event_time_quantile" not in one:
+            continue
+        for e in one["event"].values:
+            for p in one["quantile"].values:
+                sel = {"event": e, "quantile": p}
+                rows_t.append([label, str(e), float(p)] + [
+                    float(one[f"event_time_quantile{s}"].sel(sel)) for s in
+                    ("", "_lower", "_upper")] + [
+                    bool(one["event_time_quantile_beyond_horizon"].sel(sel))])
+            rows_p.append([label, str(e)] + [float(one[f"event_probability{s}"].sel(event=e))
+                                             for s in ("", "_lower", "_upper")]
+                          + [int(one["event_count"].sel(event=e)), int(one["samples_used"])])
+    if rows_t:
+        paths.append(write_csv(out / "event_times.csv", ["exposure", "event", "quantile",
+                                                         "time_s", "lower_s", "upper_s",
+                                                         "beyond_horizon"], rows_t))
+        paths.append(write_csv(out / "event_probabilities.csv",
+                               ["exposure", "event", "probability", "lower", "upper", "count",
+                                "samples"], rows_p))
+    if "sobol_total" in ds:
+        rows = []
+        for label, one in scenario_slices(ds):
+            for o in one["output"].values:
+                for j, name in enumerate(one["parameter"].values):
+                    s = one.sel(output=o)
+                    rows.append([label, str(o), str(name)] + [
+                        float(s[v].values[j]) for v in ("sobol_first", "sobol_first_ci",
+                                                        "sobol_total", "sobol_total_ci")])
+        paths.append(write_csv(out / "indices.csv", ["exposure", "output", "parameter",
+                                                     "first", "first_ci", "total", "total_ci"],
+                               rows))
+    return paths
