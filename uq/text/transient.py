@@ -218,7 +218,6 @@ def sweep_lines(study, analysis: TransientAnalysis) -> list[str]:
     """P(headline event) per swept level and the longest acceptable exposure [-]."""
     f = analysis.facts
     event = HEADLINE_EVENT[f.wearer_kind]
-    lim = analysis.limit
     sc = study.scenarios
     lines = [f"P({EVENT_TEXT[event]} within {f.horizon:g} s) against {sc.quantity}:"]
     for label, s in zip(sc.labels, analysis.scenarios, strict=True):
