@@ -28,7 +28,7 @@ TRANSIENT_CAUTIONS = (
     "burn by a few per cent up to about 30 %.",
     "The published burn criteria scatter widely: they are fitted to different experiments "
     "(human forearm and pig skin, bare skin, constant exposures), and at a constant basal "
-    "temperature of 50 degC the Henriques (1947) and Weaver & Stoll (1969) damage constants "
+    "temperature of 50 °C the Henriques (1947) and Weaver & Stoll (1969) damage constants "
     "give times to a second-degree burn of 202 s and 20 s. A time to burn is an estimate "
     "within that scatter, not a prediction of an injury; the confidence intervals shown cover "
     "the sampling of the inputs only, not the scatter of the criteria.",

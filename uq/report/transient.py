@@ -73,7 +73,9 @@ def headline_lines(ds: xr.Dataset) -> list[tuple[str, list[str]]]:
     event = tf.headline_event(ds)
     conf = f"{100 * float(ds.attrs.get('confidence', math.nan)):g} %"
     horizon = float(ds.attrs["horizon"])
+    quantity = str(ds.attrs.get("scenario_quantity", "")).replace("_", " ")
     for label, one in scenario_slices(ds):
+        label = f"{quantity} = {label}" if label else ""
         lines = []
         if "event_time_quantile" in one:
             what = EVENT_TEXT[event]

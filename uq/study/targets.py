@@ -11,6 +11,25 @@ A target is one line of text, parsed by :func:`parse_target` into a :class:`Targ
 ``P(exceed) <= 0.01``          the same as a fraction (a bare number must lie in (0, 1))
 =============================  ==============================================================
 
+Transient studies (time to burn, :mod:`plyrisk.analysis.transient`) take two more forms:
+
+======================================  =====================================================
+``P(second_degree_burn) <= 5 %``        probability of the event within the horizon
+                                        (``first_degree_burn``, ``second_degree_burn``,
+                                        ``third_degree_burn``, ``sensor_criterion``)
+``P5(time_to_second_degree_burn) >= 12 s``  the 5th percentile of the time to the event must
+                                        be at least 12 s (``time_to_first_degree_burn``,
+                                        ``time_to_second_degree_burn``,
+                                        ``time_to_third_degree_burn``, ``sensor_criterion_time``;
+                                        any time unit pint knows)
+======================================  =====================================================
+
+A time target needs its bound below the horizon: beyond it the time is only known to exceed the
+horizon. The tolerance engine judges both on the time to the event capped at the horizon and
+negated (:func:`plyrisk.tolerances.study.problem_from_study`), so that "a burn is worse" stays
+"larger is worse": ``P5(t) >= 12 s`` is ``P95(-t) <= -12 s``, and P(burn within the horizon)
+is the probability that ``-t`` exceeds ``-horizon``.
+
 ``P`` and the words ``limit`` and ``exceed`` may be written in any case; spaces are optional
 except inside the temperature (``"44 degC"``). Only ``<=`` is accepted. "Exceed" always means
 strictly above the study's limit (``[study] limit``). Where a study sweeps exposures the target
@@ -23,12 +42,24 @@ import math
 import re
 from dataclasses import dataclass
 
-from plyrisk.study.units import TEMPERATURE, UnitError, parse_value
+from plyrisk.study.units import TEMPERATURE, QuantitySpec, UnitError, parse_value
 
-__all__ = ["TARGET_FORMS", "Target", "parse_target"]
+__all__ = ["EVENT_TIMES", "TARGET_FORMS", "Target", "parse_target"]
 
-TARGET_FORMS = ("P95 <= limit", "P99 <= 44 degC", "P(exceed) <= 1 %", "P(exceed) <= 0.01")
+TARGET_FORMS = ("P95 <= limit", "P99 <= 44 degC", "P(exceed) <= 1 %", "P(exceed) <= 0.01",
+                "P(second_degree_burn) <= 5 %", "P5(time_to_second_degree_burn) >= 12 s")
 """Examples of every valid form, quoted in error messages."""
+
+EVENT_TIMES = {"first_degree_burn": "time_to_first_degree_burn",
+               "second_degree_burn": "time_to_second_degree_burn",
+               "third_degree_burn": "time_to_third_degree_burn",
+               "sensor_criterion": "sensor_criterion_time"}
+"""Events of a transient study and the per-sample time of each."""
+
+_DURATION = QuantitySpec("a time", "s", "12 s", lower=0.0)
+_EVENT = re.compile(r"^p\s*\(\s*([a-z_]+)\s*\)\s*<=\s*(.+?)$", re.IGNORECASE)
+_TIME = re.compile(r"^p\s*(\d+(?:\.\d*)?|\.\d+)\s*\(\s*([a-z_]+)\s*\)\s*>=\s*(.+?)$",
+                   re.IGNORECASE)
 
 _QUANTILE = re.compile(r"^p\s*(\d+(?:\.\d*)?|\.\d+)\s*<=\s*(.+?)$", re.IGNORECASE)
 _EXCEED = re.compile(r"^p\s*\(\s*exceed\s*\)\s*<=\s*(.+?)$", re.IGNORECASE)
@@ -50,12 +81,35 @@ class Target:
         limit), a probability in (0, 1) [-] for an exceedance target.
     text
         The target as written, whitespace normalised [-].
+    output
+        What the target is about: ``"inner_surface_temperature"`` (steady), or for a
+        transient study the event time (``time_to_second_degree_burn``, ...) [-].
+    direction
+        ``"<="`` (steady and event probabilities) or ``">="`` (a time that must be long
+        enough) [-].
+
+    Notes
+    -----
+    For a time target the threshold is a time [s] and :meth:`bound`, :attr:`engine_probability`
+    are in the engine's negated form (see the module docstring).
     """
 
     kind: str
     probability: float
     threshold: float
     text: str
+    output: str = "inner_surface_temperature"
+    direction: str = "<="
+
+    @property
+    def transient(self) -> bool:
+        """Whether the target is about a transient study's event time [-]."""
+        return self.output != "inner_surface_temperature"
+
+    @property
+    def engine_probability(self) -> float:
+        """Quantile level the engine evaluates: ``1 - p`` for a ``>=`` target [-]."""
+        return 1.0 - self.probability if self.direction == ">=" else self.probability
 
     @property
     def uses_limit(self) -> bool:
@@ -77,14 +131,23 @@ class Target:
         """
         if self.kind == "quantile" and math.isnan(self.threshold):
             return float(limit)
+        if self.kind == "quantile" and self.direction == ">=":
+            return -self.threshold
         return self.threshold
 
     @property
     def label(self) -> str:
         """Short name of the metric, e.g. ``"P95"`` or ``"P(exceed)"`` [-]."""
         if self.kind == "exceedance":
-            return "P(exceed)"
+            return f"P({self.event})" if self.transient else "P(exceed)"
+        if self.transient:
+            return f"P{100.0 * self.probability:.10g}({self.output})"
         return f"P{100.0 * self.probability:.10g}"
+
+    @property
+    def event(self) -> str:
+        """The event of a transient target (e.g. ``"second_degree_burn"``), else ``""`` [-]."""
+        return next((e for e, t in EVENT_TIMES.items() if t == self.output), "")
 
 
 def _bad(text: str, why: str) -> ValueError:
@@ -117,6 +180,29 @@ def parse_target(text: str) -> Target:
     m = _EXCEED.match(clean)
     if m:
         return Target("exceedance", math.nan, _probability(clean, m.group(1)), clean)
+    m = _EVENT.match(clean)
+    if m:
+        event = m.group(1).lower()
+        if event not in EVENT_TIMES:
+            raise _bad(text, f"unknown event {m.group(1)!r}; valid: exceed, "
+                       + ", ".join(EVENT_TIMES))
+        return Target("exceedance", math.nan, _probability(clean, m.group(2)), clean,
+                      EVENT_TIMES[event], "<=")
+    m = _TIME.match(clean)
+    if m:
+        level, output, bound = float(m.group(1)), m.group(2).lower(), m.group(3).strip()
+        if output not in EVENT_TIMES.values():
+            raise _bad(text, f"unknown time {m.group(2)!r}; valid: "
+                       + ", ".join(EVENT_TIMES.values()))
+        if not 0.0 < level < 100.0:
+            raise _bad(text, f"percentile level {m.group(1)} must lie strictly between 0 and 100")
+        try:
+            seconds = parse_value(bound, _DURATION).si
+        except UnitError as err:
+            raise _bad(text, f"bound {bound!r} is not a time ({err})") from None
+        if not seconds > 0.0:
+            raise _bad(text, f"time {bound!r} must be positive")
+        return Target("quantile", level / 100.0, float(seconds), clean, output, ">=")
     m = _QUANTILE.match(clean)
     if m:
         level = float(m.group(1))
@@ -135,7 +221,8 @@ def parse_target(text: str) -> Target:
                 raise _bad(text, f"temperature {bound!r} is not above absolute zero")
         return Target("quantile", level / 100.0, threshold, clean)
     if "<=" not in clean:
-        raise _bad(text, "expected '<=' between the metric and its bound")
+        raise _bad(text, "expected '<=' between the metric and its bound ('>=' only for the "
+                   "time to an event, e.g. P5(time_to_second_degree_burn) >= 12 s)")
     raise _bad(text, "the metric must be P<percentile> (e.g. P95) or P(exceed)")
 
 

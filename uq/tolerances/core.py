@@ -176,7 +176,7 @@ class Runner:
         self.target: Target = settings.target  # type: ignore[assignment]
         self.bound = self.target.bound(problem.limit)
         self.level = settings.level
-        self.probability = (self.target.probability if self.target.kind == "quantile"
+        self.probability = (self.target.engine_probability if self.target.kind == "quantile"
                             else REPORT_PROBABILITY)
         d = len(problem.names)
         self.unit = make_design(settings.method, settings.samples, d, seed=self.seed).unit
@@ -213,9 +213,9 @@ class Runner:
             if v.size == 0:
                 continue
             if t.kind == "quantile" and self.settings.basis == "estimate":
-                out[s] = float(np.quantile(v, t.probability))
+                out[s] = float(np.quantile(v, self.probability))
             elif t.kind == "quantile":
-                out[s] = float(quantiles(v, [t.probability], confidence=self.level).upper[0])
+                out[s] = float(quantiles(v, [self.probability], confidence=self.level).upper[0])
             elif self.settings.basis == "estimate":
                 out[s] = float(np.count_nonzero(v > limit) / v.size)
             else:

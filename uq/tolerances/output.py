@@ -71,13 +71,32 @@ def target_text(report: ToleranceReport, study: Study) -> str:
     """The target with its bound in the user's unit, e.g. ``"P95 <= limit (44 degC)"`` [-]."""
     t = report.settings.target
     text = t.text
-    if t.kind == "quantile" and t.uses_limit:
+    if t.transient:
+        text += f" (within the horizon {-report_limit(report):g} s)"
+    elif t.kind == "quantile" and t.uses_limit:
         text += f" ({study.format_temperature(report.bound)})"
     elif t.kind == "exceedance":
         text += f" (limit {study.format_temperature(study.analysis.limit)})"
     if study.scenarios is not None:
         text += ", at every exposure"
     return text
+
+
+def report_limit(report: ToleranceReport) -> float:
+    """The problem's limit: for a transient target minus the horizon [K or s]."""
+    return float(getattr(report, "limit", math.nan))
+
+
+def _flip(report: ToleranceReport) -> bool:
+    """Engine values of a transient target are minus the capped time to the event."""
+    return bool(report.settings.target.transient)
+
+
+def _label(report: ToleranceReport, probability: float) -> str:
+    """``"P95"``, or for a time target the percentile of the time, e.g. ``"P5 time"`` [-]."""
+    if _flip(report):
+        return f"P{100 * (1 - probability):.10g} time"
+    return f"P{100 * probability:.10g}"
 
 
 def _recommended(p: Parameter, factor: float, status: str, kept: bool = False) -> str:
@@ -107,9 +126,9 @@ def manufacturing_table(report: ToleranceReport, study: Study, *,
     -------
     list of ManufacturingRow
     """
-    unit = study.limit_unit or "K"
+    unit = "s" if _flip(report) else (study.limit_unit or "K")
     alloc = report.allocation
-    label = f"P{100 * report.whatif.baseline.probability:.10g}"
+    label = _label(report, report.whatif.baseline.probability)
     rows = []
     for j, (p, w) in enumerate(zip(study.parameters, report.whatif.rows, strict=True)):
         share, source = w.variance_share, "held at nominal (CRN)"
@@ -119,7 +138,8 @@ def manufacturing_table(report: ToleranceReport, study: Study, *,
         rows.append(ManufacturingRow(
             parameter=p.name, layer=p.group, current_spec=p.describe(), variance_share=share,
             share_source=source, quantile_label=label,
-            quantile_if_halved=float(from_si(w.halved.worst_quantile, unit, TEMPERATURE)),
+            quantile_if_halved=(-float(w.halved.worst_quantile) if _flip(report) else
+                                float(from_si(w.halved.worst_quantile, unit, TEMPERATURE))),
             temperature_unit=unit, recommended_spec=_recommended(p, factor, alloc.status,
                                                                p.name in alloc.kept),
             recommended_factor=factor, target=target_text(report, study)))
@@ -145,7 +165,8 @@ def write_tolerance_csv(rows: Sequence[ManufacturingRow], path: str | Path) -> P
     path.parent.mkdir(parents=True, exist_ok=True)
     names = list(ManufacturingRow.__dataclass_fields__)
     with path.open("w", newline="", encoding="utf-8") as f:
-        for line in cautions_text().splitlines():
+        transient = any(r.temperature_unit == "s" for r in rows)
+        for line in cautions_text(transient=transient).splitlines():
             f.write(f"# {line}\n")
         writer = csv.DictWriter(f, fieldnames=names)
         writer.writeheader()
@@ -173,13 +194,15 @@ def _metric(report: ToleranceReport, study: Study, value: float, *,
         return "n/a"
     if report.settings.target.kind == "exceedance":
         return (f"{100 * value:+.3g} %" if difference else _pct(value))
+    if _flip(report):
+        return f"{-value:+.3g} s" if difference else f"{-value:.3g} s"
     if difference:
         sign = "-" if value < 0 else "+"
         return sign + study.format_temperature(abs(value), difference=True)
     return study.format_temperature(value)
 
 
-def _t(study: Study, value: float, *, difference: bool = False) -> str:
+def _temperature(study: Study, value: float, *, difference: bool = False) -> str:
     if not math.isfinite(value):
         return "n/a"
     if difference:
@@ -216,17 +239,31 @@ def tolerance_text(report: ToleranceReport, study: Study, *,
     basis = ("the upper end of the metric's confidence interval" if st.basis == "bound"
              else "the point estimate of the metric")
     base = wi.baseline
-    label = f"P{100 * base.probability:.10g}"
-    lim = study.format_temperature(study.analysis.limit)
+    label = _label(report, base.probability)
+    flip = _flip(report)
+
+    def _t(study: Study, value: float, *, difference: bool = False) -> str:
+        if flip:  # engine values are minus the capped time
+            if not math.isfinite(value):
+                return "n/a"
+            return f"{-value:+.3g} s" if difference else f"{-value:.3g} s"
+        return _temperature(study, value, difference=difference)
+
+    if flip:
+        lo_name, hi_name = "quantile_upper", "quantile_lower"
+        exceed = f"P({st.target.event or 'event'} within {-report_limit(report):g} s)"
+    else:
+        lo_name, hi_name = "quantile_lower", "quantile_upper"
+        exceed = f"P(inner surface > {study.format_temperature(study.analysis.limit)})"
     out = [f"Tolerance study: {study.title}", f"Config: {study.source}",
            f"Target: {target_text(report, study)}; judged on {basis} ({level})",
            f"Design: {st.method}, {st.samples} samples, seed {st.seed}, common random numbers; "
            f"{report.runs} model runs"]
     out += ["", f"Baseline (current spreads){_exposure(study, base)}:",
             f"  {label} = {_t(study, base.quantile[base.scenario])} "
-            f"[{_t(study, base.quantile_lower[base.scenario])}, "
-            f"{_t(study, base.quantile_upper[base.scenario])}] ({level} CI)",
-            f"  P(inner surface > {lim}) = {_pct(base.exceedance[base.scenario])} "
+            f"[{_t(study, getattr(base, lo_name)[base.scenario])}, "
+            f"{_t(study, getattr(base, hi_name)[base.scenario])}] ({level} CI)",
+            f"  {exceed} = {_pct(base.exceedance[base.scenario])} "
             f"[{_pct(base.exceedance_lower[base.scenario])}, "
             f"{_pct(base.exceedance_upper[base.scenario])}]",
             f"  target metric = {_metric(report, study, base.score)}: "
@@ -241,10 +278,14 @@ def tolerance_text(report: ToleranceReport, study: Study, *,
                      _pct(w.variance_share)])
     out += ["", "What-if: one parameter tightened, the others as specified (worst exposure)"]
     out += text_table(["parameter", f"{label} halved", "change", f"{label} at nominal", "change",
-                   "P(exceed) halved", "P(exceed) at nominal", "variance share"], rows)
+                   "P(exceed) halved" if not flip else "P(event) halved",
+                   "P(exceed) at nominal" if not flip else "P(event) at nominal",
+                   "variance share"], rows)
     s = base.scenario
     half = 0.5 * (base.quantile_upper[s] - base.quantile_lower[s])
-    half_text = (_t(study, half, difference=True).lstrip("+") if math.isfinite(half)
+    half = abs(half)
+    half_text = (_t(study, half if not flip else -half, difference=True).lstrip("+")
+                 if math.isfinite(half)
                  else "n/a (too few samples for this percentile's interval)")
     out.append(f"  (baseline {label} CI half-width about {half_text};"
                " the changes share the design (common random numbers) and are far more "
@@ -279,7 +320,7 @@ def tolerance_text(report: ToleranceReport, study: Study, *,
         out += ["", "Notes"] + [f"  - {n}" for n in notes]
     if csv_path is not None:
         out += ["", f"Table written: {csv_path}"]
-    out += ["", cautions_text()]
+    out += ["", cautions_text(transient=report.settings.target.transient)]
     return "\n".join(out)
 
 
@@ -304,6 +345,8 @@ def _allocation_lines(report: ToleranceReport, study: Study) -> list[str]:
                    f"{', '.join(a.kept)}")
     v = a.verification
     t = st.target
+    lo, hi = ((v.upper, v.lower) if _flip(report) and t.kind == "quantile"
+              else (v.lower, v.upper))
     if v.met:
         verdict = "MET"
     elif v.met_estimate:
@@ -312,7 +355,7 @@ def _allocation_lines(report: ToleranceReport, study: Study) -> list[str]:
         verdict = "NOT MET"
     out += [f"  Independent verification (new seed {v.seed}, {v.samples} samples"
             f"{_exposure(study, v.outcome)}): {t.label} = {_metric(report, study, v.value)} "
-            f"[{_metric(report, study, v.lower)}, {_metric(report, study, v.upper)}] "
+            f"[{_metric(report, study, lo)}, {_metric(report, study, hi)}] "
             f"({100 * st.level:g} % CI) -> {verdict}"
             f" (point estimate {'meets' if v.met_estimate else 'misses'}, upper bound "
             f"{'meets' if v.met_bound else 'misses'} the bound)"]

@@ -40,7 +40,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from plyrisk.study.targets import parse_target
+from plyrisk.study.targets import Target, parse_target
 from plyrisk.tolerances.allocation import (
     Allocation,
     Verification,
@@ -100,6 +100,8 @@ class ToleranceReport:
         The answers (``nominal_shift`` is ``None`` unless configured).
     runs
         Model runs on the design, plus one for the verification [-].
+    limit
+        The problem's limit [K]; for a transient target minus the horizon [s].
     """
 
     settings: ToleranceSettings
@@ -109,6 +111,7 @@ class ToleranceReport:
     allocation: Allocation
     nominal_shift: NominalShift | None
     runs: int
+    limit: float = math.nan
 
 
 def analyse_tolerances(problem: ToleranceProblem, settings: ToleranceSettings, *,
@@ -140,33 +143,81 @@ def analyse_tolerances(problem: ToleranceProblem, settings: ToleranceSettings, *
     if settings.nominal_shift is not None:
         tell("nominal shift")
         shift = run_shift(run, settings.nominal_shift)
-    return ToleranceReport(settings, run.bound, wi, allowable, alloc, shift, run.runs + 1)
+    return ToleranceReport(settings, run.bound, wi, allowable, alloc, shift, run.runs + 1,
+                           float(problem.limit))
 
 
-def problem_from_study(study: Study) -> ToleranceProblem:
-    """The inner-surface temperature of a study as a :class:`ToleranceProblem`.
+KEPT_GROUPS = ("hot_side", "cold_side", "exposure", "wearer", "skin", "sensor")
+"""Parameter groups that are conditions, not manufacturing tolerances: kept at their spread by
+default."""
 
-    Non-converged samples become NaN (excluded from the statistics and counted).
+
+def problem_from_study(study: Study, target: Target | None = None, *,
+                       evaluate: Callable | None = None) -> ToleranceProblem:
+    """The output a study's target is about, as a :class:`ToleranceProblem`.
+
+    Steady studies: the inner-surface temperature. Transient studies (``study.transient``): the
+    time to the target's event capped at the horizon and negated, ``-min(t, horizon)``, with the
+    limit ``-horizon``, so that "larger is worse" holds as for a temperature: P(event within the
+    horizon) is P(output > limit) and ``P5(t) >= 12 s`` is ``P95(output) <= -12 s``
+    (:mod:`plyrisk.study.targets`). Non-converged samples become NaN (excluded and counted).
 
     Parameters
     ----------
     study
         The parsed study [-].
+    target
+        The target (transient studies need one about an event time) [-].
+    evaluate
+        ``(study, values) -> outputs`` with ``outputs[name]`` of shape ``(n_scenarios, n)``;
+        default :func:`plyrisk.propagate.evaluate.evaluate` [-].
 
     Returns
     -------
     ToleranceProblem
+
+    Raises
+    ------
+    ValueError
+        A target that does not fit the study's kind, or a time bound beyond the horizon.
     """
-    from plyrisk.propagate.evaluate import evaluate
+    from plyrisk.analysis.transient import is_transient, transient_facts
+
+    if evaluate is None:
+        from plyrisk.propagate.evaluate import evaluate
+    labels = tuple(study.scenarios.labels) if study.scenarios is not None else ()
+    names = tuple(p.name for p in study.parameters)
+    dists = tuple(p.distribution for p in study.parameters)
+    if is_transient(study):
+        if target is None or not target.transient:
+            raise ValueError(f"target {getattr(target, 'text', None)!r} is about the "
+                             "inner-surface temperature of a steady study; a transient study "
+                             "takes e.g. 'P(second_degree_burn) <= 5 %' or "
+                             "'P5(time_to_second_degree_burn) >= 12 s'")
+        horizon = transient_facts(study).horizon
+        if target.kind == "quantile" and not target.threshold < horizon:
+            raise ValueError(f"target {target.text!r}: the bound {target.threshold:g} s is not "
+                             f"below the horizon {horizon:g} s; beyond it the time to the event "
+                             "is only known to exceed the horizon")
+        name = target.output
+
+        def timed(values: np.ndarray) -> np.ndarray:
+            out = evaluate(study, values)
+            t = np.asarray(out[name], dtype=float)
+            return np.where(np.asarray(out["converged"], bool), -np.minimum(t, horizon),
+                            np.nan)
+
+        return ToleranceProblem(names, dists, timed, -horizon, labels)
+    if target is not None and target.transient:
+        raise ValueError(f"target {target.text!r} is about a transient study's time to burn; "
+                         "this study is steady")
 
     def model(values: np.ndarray) -> np.ndarray:
         out = evaluate(study, values)
         return np.where(out["converged"], out["inner_surface_temperature"], np.nan)
 
     labels = tuple(study.scenarios.labels) if study.scenarios is not None else ()
-    return ToleranceProblem(tuple(p.name for p in study.parameters),
-                            tuple(p.distribution for p in study.parameters), model,
-                            float(study.analysis.limit), labels)
+    return ToleranceProblem(names, dists, model, float(study.analysis.limit), labels)
 
 
 def settings_for_study(study: Study, *, target: str | None = None, samples: int | None = None,
@@ -189,15 +240,22 @@ def settings_for_study(study: Study, *, target: str | None = None, samples: int 
     ToleranceSettings
         With ``seed`` and ``confidence`` set.
     """
+    from plyrisk.analysis.transient import HEADLINE_EVENT, is_transient, transient_facts
+
     base = getattr(study, "tolerances", None) or ToleranceSettings()
     changes: dict = {}
     if target is not None:
         changes["target"] = parse_target(target)
+    elif is_transient(study) and not base.target.transient and \
+            base.target.text == parse_target(DEFAULT_TARGET).text:
+        facts = transient_facts(study)
+        event = HEADLINE_EVENT.get(facts.wearer_kind, "second_degree_burn")
+        acceptable = facts.acceptable_burn_probability or 0.05
+        changes["target"] = parse_target(f"P({event}) <= {100 * acceptable:g} %")
     if samples is not None:
         changes["samples"] = samples
     if base.keep is None:
-        changes["keep"] = tuple(p.name for p in study.parameters
-                                if p.group in ("hot_side", "cold_side"))
+        changes["keep"] = tuple(p.name for p in study.parameters if p.group in KEPT_GROUPS)
     if seed is not None:
         changes["seed"] = seed
     elif base.seed is None:
@@ -226,7 +284,7 @@ def check_sample_size(settings: ToleranceSettings) -> None:
     if settings.basis != "bound" or t.kind != "quantile":
         return
     alpha = 1.0 - settings.level
-    need = math.ceil(math.log(alpha / 2.0) / math.log(t.probability))
+    need = math.ceil(math.log(alpha / 2.0) / math.log(t.engine_probability))
     if settings.samples < need:
         raise ValueError(
             f"samples = {settings.samples} is too small to bound {t.label} at "
@@ -253,7 +311,7 @@ def run_tolerances(study: Study, *, target: str | None = None, samples: int | No
     ToleranceReport
     """
     settings = settings_for_study(study, target=target, samples=samples, seed=seed)
-    problem = problem_from_study(study)
+    problem = problem_from_study(study, settings.target)
     for name in (*settings.cost, *(settings.keep or ()),
                  *(() if settings.nominal_shift is None else (settings.nominal_shift,))):
         problem.index(name)
