@@ -29,6 +29,7 @@ def stored(tmp_path_factory, reflective_garment):
     return study, reader
 
 
+@pytest.mark.slow
 def test_streamed_analysis_matches_the_in_memory_one(stored, monkeypatch):
     study, reader = stored
     memory = analyse(study, load_propagation(study, reader))
@@ -55,6 +56,7 @@ def test_streamed_analysis_matches_the_in_memory_one(stored, monkeypatch):
             assert np.all((ratio > 0.4) & (ratio < 2.5)), ratio
 
 
+@pytest.mark.slow
 def test_run_study_analyses_a_large_store_in_passes(tmp_path, monkeypatch, small_demo):
     study = small_demo
     monkeypatch.setattr(streaming, "STREAM_ROWS", 1000)
@@ -80,6 +82,7 @@ def test_order_statistic_ranks_match_the_full_binomial_search(n, p):
         assert _order_statistic_ranks(n, p, alpha) == (lower, upper)
 
 
+@pytest.mark.slow
 def test_large_in_memory_designs_use_the_jackknife(stored, monkeypatch):
     from plyrisk.analysis import study as analysis
 
@@ -97,6 +100,7 @@ def test_large_in_memory_designs_use_the_jackknife(stored, monkeypatch):
             np.testing.assert_allclose(b.first_ci, d.first_ci, rtol=1e-9, atol=1e-15)
 
 
+@pytest.mark.slow
 def test_pce_store_analysed_in_passes_fits_the_same_surrogate(tmp_path, monkeypatch, small_demo):
     study = replace(small_demo, analysis=replace(small_demo.analysis, method="pce",
                                                  design="random", samples=600))

@@ -18,6 +18,8 @@ from plyrisk.pipeline.run import run_study
 from plyrisk.propagate import compute, store
 from plyrisk.propagate.evaluate import OUTPUT_FIELDS, study_plan
 
+pytestmark = pytest.mark.slow  # dask clusters and Zarr stores
+
 ROOT = Path(__file__).resolve().parents[2]
 SMALL = ROOT / "configs" / "small_demo.toml"
 

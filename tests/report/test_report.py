@@ -23,6 +23,8 @@ from plyrisk.report.figures import outputs as fg
 from plyrisk.report.html import ReportFiles, write_report
 from plyrisk.results.dataset import read_results, write_results
 
+pytestmark = pytest.mark.slow  # every report renders a dozen figures or more (~10 s each)
+
 CASES = [("saltelli", False), ("pce", False), ("saltelli", True), ("pce", True)]
 PNG = b"\x89PNG\r\n\x1a\n"
 VOID = {"area", "base", "br", "col", "embed", "hr", "img", "input", "link", "meta", "source",
