@@ -74,7 +74,7 @@ def viscosity(temperature: ArrayLike, *, check_range: bool = True) -> np.ndarray
     temperature
         Air temperature [K].
     check_range
-        Warn when a temperature is outside ``VALID_RANGE`` [-].
+        Warn when a temperature is outside ``VALID_RANGE``.
 
     Returns
     -------
@@ -100,7 +100,7 @@ def thermal_conductivity(temperature: ArrayLike, *, check_range: bool = True) ->
     temperature
         Air temperature [K].
     check_range
-        Warn when a temperature is outside ``VALID_RANGE`` [-].
+        Warn when a temperature is outside ``VALID_RANGE``.
 
     Returns
     -------
@@ -133,7 +133,7 @@ def density(
     pressure
         Absolute pressure [Pa].
     check_range
-        Warn when a temperature is outside ``VALID_RANGE`` [-].
+        Warn when a temperature is outside ``VALID_RANGE``.
 
     Returns
     -------
@@ -156,7 +156,7 @@ def heat_capacity(temperature: ArrayLike, *, check_range: bool = True) -> np.nda
     temperature
         Air temperature [K].
     check_range
-        Warn when a temperature is outside ``VALID_RANGE`` [-].
+        Warn when a temperature is outside ``VALID_RANGE``.
 
     Returns
     -------
@@ -177,7 +177,7 @@ def expansion_coefficient(temperature: ArrayLike, *, check_range: bool = True) -
     temperature
         Air temperature [K].
     check_range
-        Warn when a temperature is outside ``VALID_RANGE`` [-].
+        Warn when a temperature is outside ``VALID_RANGE``.
 
     Returns
     -------
@@ -198,7 +198,7 @@ def thermal_diffusivity(temperature: ArrayLike, *, check_range: bool = True) -> 
     temperature
         Air temperature [K].
     check_range
-        Warn when a temperature is outside ``VALID_RANGE`` [-].
+        Warn when a temperature is outside ``VALID_RANGE``.
 
     Returns
     -------
@@ -220,7 +220,7 @@ def kinematic_viscosity(temperature: ArrayLike, *, check_range: bool = True) -> 
     temperature
         Air temperature [K].
     check_range
-        Warn when a temperature is outside ``VALID_RANGE`` [-].
+        Warn when a temperature is outside ``VALID_RANGE``.
 
     Returns
     -------

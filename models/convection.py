@@ -134,7 +134,7 @@ def nusselt(rayleigh: ArrayLike, *, orientation: str, aspect_ratio: ArrayLike) -
     rayleigh
         Rayleigh number based on the gap width [-].
     orientation
-        ``"vertical"``, ``"horizontal-up"`` (heat flows up) or ``"horizontal-down"`` [-].
+        ``"vertical"``, ``"horizontal-up"`` (heat flows up) or ``"horizontal-down"``.
     aspect_ratio
         Gap height over width, used for vertical gaps only [-].
 
@@ -168,7 +168,7 @@ def nusselt_with_slope(
     rayleigh
         Rayleigh number based on the gap width [-].
     orientation
-        ``"vertical"``, ``"horizontal-up"`` or ``"horizontal-down"`` [-].
+        ``"vertical"``, ``"horizontal-up"`` or ``"horizontal-down"``.
     aspect_ratio
         Gap height over width, used for vertical gaps only [-].
 
@@ -220,7 +220,7 @@ def convection_onset(
     rayleigh
         Rayleigh number based on the gap width [-].
     orientation
-        ``"vertical"``, ``"horizontal-up"`` or ``"horizontal-down"`` [-].
+        ``"vertical"``, ``"horizontal-up"`` or ``"horizontal-down"``.
     aspect_ratio
         Gap height over width [-].
 
@@ -264,7 +264,7 @@ def warn_outside_range(rayleigh: np.ndarray, *, orientation: str, aspect_ratio) 
     rayleigh
         Rayleigh numbers where the correlation was applied [-].
     orientation
-        ``"vertical"``, ``"horizontal-up"`` or ``"horizontal-down"`` [-].
+        ``"vertical"``, ``"horizontal-up"`` or ``"horizontal-down"``.
     aspect_ratio
         Gap height over width at the same samples [-].
     """

@@ -123,7 +123,7 @@ class GapFlow:
     nusselt
         Nusselt number applied to the still-air conduction [-] (1 with convection off).
     onset
-        Whether the gap is past the onset of convection [-].
+        Whether the gap is past the onset of convection.
     """
 
     total: np.ndarray
@@ -168,11 +168,11 @@ def gap_heat_flux(
     emissivity_cold_face
         Emissivity of the face on the cold side [-].
     radiation
-        ``"exact"`` or ``"linearized"`` [-].
+        ``"exact"`` or ``"linearized"``.
     convection_enabled
-        Apply the natural-convection correlation [-].
+        Apply the natural-convection correlation.
     orientation
-        Gap orientation, see :data:`plyrisk.models.stack.GAP_ORIENTATIONS` [-].
+        Gap orientation, see :data:`plyrisk.models.stack.GAP_ORIENTATIONS`.
     gap_height
         Height of a vertical gap [m].
 
@@ -218,7 +218,7 @@ def gap_kernel(
     aspect_ratio
         Gap height over width [-].
     radiation, convection_enabled, orientation
-        As for :func:`gap_heat_flux`. [-]
+        As for :func:`gap_heat_flux`.
 
     Returns
     -------

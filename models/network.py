@@ -71,18 +71,18 @@ class NetworkSolution:
     rayleigh_number
         Rayleigh number of each gap, ``(n, M)``, NaN for non-gaps [-].
     convection_onset
-        Whether each gap is past the onset of natural convection, ``(n, M)`` [-].
+        Whether each gap is past the onset of natural convection, ``(n, M)``.
     converged
-        Whether the sample converged to a physically valid solution, ``(n,)`` [-].
+        Whether the sample converged to a physically valid solution, ``(n,)``.
     iterations
-        Newton iterations used, ``(n,)`` [-].
+        Newton iterations used, ``(n,)``.
     air_range_exceeded
-        Whether any gap's mean temperature lies outside the air-property range, ``(n,)`` [-].
+        Whether any gap's mean temperature lies outside the air-property range, ``(n,)``.
     interface_names, element_names, element_kinds, element_layers
         Labels of the faces and elements; ``element_layers`` gives the index in the input stack
         of the layer each element belongs to (a contact belongs to the solid before it).
     inner_surface_index
-        Column of ``interface_temperature`` holding the inner-surface temperature [-].
+        Column of ``interface_temperature`` holding the inner-surface temperature.
 
     Samples that did not converge carry NaN in every numeric output.
     """
@@ -169,10 +169,10 @@ def interface_names(layers: Sequence[Element], cold_side: ColdSide) -> tuple[str
     Parameters
     ----------
     layers
-        Solids and gaps, hot side first. [-]
+        Solids and gaps, hot side first.
     cold_side
         The cold-side boundary (a :class:`~plyrisk.models.boundary.ColdSurface` adds the skin
-        face). [-]
+        face).
 
     Returns
     -------
@@ -267,27 +267,27 @@ def solve_network(
     Parameters
     ----------
     layers
-        Solids and gaps, hot (exposed) side first; numeric fields scalars or ``(n,)`` arrays. [-]
+        Solids and gaps, hot (exposed) side first; numeric fields scalars or ``(n,)`` arrays.
     hot_side
         Boundary condition of the exposed face (:class:`plyrisk.models.boundary.HotFlux`,
         :class:`~plyrisk.models.boundary.HotTemperature` or
-        :class:`~plyrisk.models.boundary.HotEnvironment`). [-]
+        :class:`~plyrisk.models.boundary.HotEnvironment`).
     cold_side
         Boundary condition on the wearer side (:class:`plyrisk.models.boundary.ColdTemperature`,
         :class:`~plyrisk.models.boundary.ColdSurface` or
-        :class:`~plyrisk.models.boundary.ColdEnvironment`). [-]
+        :class:`~plyrisk.models.boundary.ColdEnvironment`).
     radiation
-        Gap radiation: ``"exact"`` (``sigma (T1^4 - T2^4)``) or ``"linearized"`` [-].
+        Gap radiation: ``"exact"`` (``sigma (T1^4 - T2^4)``) or ``"linearized"``.
     convection_enabled
-        Apply natural-convection correlations in gaps [-].
+        Apply natural-convection correlations in gaps.
     tolerance
         Convergence: largest Newton step of any face temperature [K].
     max_iterations
-        Newton iterations before a sample is declared not converged [-].
+        Newton iterations before a sample is declared not converged.
     chunk_size
-        Samples solved together [-]; the result does not depend on it.
+        Samples solved together; the result does not depend on it.
     validate
-        Check every element, boundary and the arrangement first [-].
+        Check every element, boundary and the arrangement first.
 
     Returns
     -------
@@ -552,7 +552,7 @@ def _solve_chunk(
 
 
 PASSES = 2
-"""Passes of the linearized network that give the Newton start (N.4) [-]."""
+"""Passes of the linearized network that give the Newton start (N.4)."""
 
 
 def _starting_field(
@@ -578,23 +578,23 @@ def _starting_field(
     Parameters
     ----------
     elements
-        Network elements, hot side first [-].
+        Network elements, hot side first.
     gaps
-        Per element, the precomputed gap constants or ``None`` [-].
+        Per element, the precomputed gap constants or ``None``.
     n
-        Samples in the chunk [-].
+        Samples in the chunk.
     t_hot
         Prescribed exposed-face temperature, or ``None`` [K].
     heat_flux
         Prescribed net flux into the exposed face, or ``None`` [W m-2].
     hot_kw
-        Keyword arguments of :func:`plyrisk.models.boundary.hot_environment_flux`, or ``None`` [-].
+        Keyword arguments of :func:`plyrisk.models.boundary.hot_environment_flux`, or ``None``.
     t_cold
         Cold-side (or ambient) temperature [K].
     cold_kw
         Keyword arguments of :func:`plyrisk.models.boundary.cold_environment_flux`, or ``None`` for
         a
-        prescribed cold face [-].
+        prescribed cold face.
 
     Returns
     -------

@@ -57,10 +57,10 @@ from plyrisk.models.boundary import (
 from plyrisk.models.stack import Element, Gap, Solid, validate_stack
 
 REFERENCE_RADIATION_MODES = ("exact", "linearized")
-"""Gap radiation treatments accepted by :func:`solve_reference` [-]."""
+"""Gap radiation treatments accepted by :func:`solve_reference`."""
 
 DEFAULT_XTOL = 1e-13
-"""Relative step tolerance passed to MINPACK ``hybrd`` [-]."""
+"""Relative step tolerance passed to MINPACK ``hybrd``."""
 
 CORRECTION_TOLERANCE = 1e-9
 """Largest accepted Newton correction of any face temperature at the solution [K]."""
@@ -81,9 +81,9 @@ def select_sample(obj: _T, index: int) -> _T:
     obj
         A :class:`plyrisk.models.stack.Solid`, :class:`~plyrisk.models.stack.Gap` or boundary
         dataclass whose
-        numeric fields are scalars or 1-D arrays of samples [-].
+        numeric fields are scalars or 1-D arrays of samples.
     index
-        The sample to keep [-].
+        The sample to keep.
 
     Returns
     -------
@@ -175,9 +175,9 @@ def element_flux(
     tb
         Temperature of the cold-side face [K].
     radiation
-        ``"exact"`` or ``"linearized"`` [-].
+        ``"exact"`` or ``"linearized"``.
     convection_enabled
-        Apply the natural-convection Nusselt number in gaps [-].
+        Apply the natural-convection Nusselt number in gaps.
 
     Returns
     -------
@@ -332,21 +332,21 @@ def solve_reference(
     ----------
     layers
         Solids and gaps, hot (exposed) side first, with scalar numeric fields (see
-        :func:`select_sample`) [-].
+        :func:`select_sample`).
     hot_side
         :class:`plyrisk.models.boundary.HotFlux`, :class:`~plyrisk.models.boundary.HotTemperature`
         or
-        :class:`~plyrisk.models.boundary.HotEnvironment` with scalar fields [-].
+        :class:`~plyrisk.models.boundary.HotEnvironment` with scalar fields.
     cold_side
         :class:`plyrisk.models.boundary.ColdTemperature`,
         :class:`~plyrisk.models.boundary.ColdSurface` or
-        :class:`~plyrisk.models.boundary.ColdEnvironment` with scalar fields [-].
+        :class:`~plyrisk.models.boundary.ColdEnvironment` with scalar fields.
     radiation
-        ``"exact"`` or ``"linearized"`` gap radiation [-].
+        ``"exact"`` or ``"linearized"`` gap radiation.
     convection_enabled
-        Apply natural-convection correlations in gaps [-].
+        Apply natural-convection correlations in gaps.
     xtol
-        Relative step tolerance of the hybrid Powell iteration [-].
+        Relative step tolerance of the hybrid Powell iteration.
 
     Returns
     -------
@@ -430,15 +430,15 @@ def reference_fluxes(
     Parameters
     ----------
     layers
-        Solids and gaps with scalar fields, hot side first [-].
+        Solids and gaps with scalar fields, hot side first.
     cold_side
-        The cold-side boundary (its emissivity faces the last gap when a surface) [-].
+        The cold-side boundary (its emissivity faces the last gap when a surface).
     temperatures
         Face temperatures hot → cold, ``(M + 1,)`` [K].
     radiation
-        ``"exact"`` or ``"linearized"`` [-].
+        ``"exact"`` or ``"linearized"``.
     convection_enabled
-        Apply natural-convection correlations in gaps [-].
+        Apply natural-convection correlations in gaps.
 
     Returns
     -------

@@ -30,7 +30,7 @@ class Solid:
     Parameters
     ----------
     name
-        Label used in tables and parameter names [-].
+        Label used in tables and parameter names.
     thickness
         Layer thickness [m].
     conductivity
@@ -78,11 +78,11 @@ class Gap:
     Parameters
     ----------
     name
-        Label used in tables and parameter names [-].
+        Label used in tables and parameter names.
     width
         Gap width, face to face [m].
     orientation
-        One of ``GAP_ORIENTATIONS`` [-].
+        One of ``GAP_ORIENTATIONS``.
     height
         Height of a vertical gap, for the aspect ratio of the natural-convection correlation
         [m]; unused for horizontal gaps.
@@ -138,11 +138,11 @@ def validate_stack(layers, hot_side, cold_side) -> None:
     Parameters
     ----------
     layers
-        Solids and gaps, hot (exposed) side first [-].
+        Solids and gaps, hot (exposed) side first.
     hot_side
-        The exposed-face boundary condition [-].
+        The exposed-face boundary condition.
     cold_side
-        The wearer-side boundary condition [-].
+        The wearer-side boundary condition.
 
     Raises
     ------
@@ -215,7 +215,7 @@ def numeric_fields(element: object) -> list[str]:
     Parameters
     ----------
     element
-        A :class:`Solid`, :class:`Gap` or boundary dataclass [-].
+        A :class:`Solid`, :class:`Gap` or boundary dataclass.
 
     Returns
     -------
@@ -263,9 +263,9 @@ def check_temperature(obj: object, quantity: str) -> None:
     Parameters
     ----------
     obj
-        The element or boundary holding the value [-].
+        The element or boundary holding the value.
     quantity
-        Name of the field to check [-].
+        Name of the field to check.
     """
     v = _values(obj, quantity)
     bad = ~(v > 0) | ~np.isfinite(v)
@@ -282,9 +282,9 @@ def check_nonnegative(obj: object, quantity: str) -> None:
     Parameters
     ----------
     obj
-        The element or boundary holding the value [-].
+        The element or boundary holding the value.
     quantity
-        Name of the field to check [-].
+        Name of the field to check.
     """
     v = _values(obj, quantity)
     bad = ~(v >= 0) | ~np.isfinite(v)

@@ -23,9 +23,9 @@ def cautions_text(*, heading: str = "CAUTIONS", width: int = 92) -> str:
     Parameters
     ----------
     heading
-        First line of the block [-].
+        First line of the block.
     width
-        Maximum line length [-].
+        Maximum line length.
 
     Returns
     -------

@@ -30,13 +30,13 @@ class MorrisAnalysis:
     Attributes
     ----------
     indices
-        Per exposure: output name → :class:`plyrisk.analysis.morris.MorrisIndices` [-].
+        Per exposure: output name → :class:`plyrisk.analysis.morris.MorrisIndices`.
     fixable
-        Per parameter: safe to fix at nominal at every exposure (inner-surface temperature) [-].
+        Per parameter: safe to fix at nominal at every exposure (inner-surface temperature).
     outputs
-        Outputs analysed, the inner-surface temperature first [-].
+        Outputs analysed, the inner-surface temperature first.
     threshold
-        Share of the largest mu* used for ``fixable`` [-].
+        Share of the largest mu* used for ``fixable``.
     """
 
     indices: list[dict[str, MorrisIndices]]
@@ -52,14 +52,14 @@ def morris_analysis(study, propagation: Propagation, *, threshold: float | None 
     Parameters
     ----------
     study
-        The study (its ``analysis`` gives levels, bootstrap, confidence and seed) [-].
+        The study (its ``analysis`` gives levels, bootstrap, confidence and seed).
     propagation
-        Its propagation on a Morris design [-].
+        Its propagation on a Morris design.
     threshold
         Share of the largest mu* below which an input is safe to fix; default
-        ``analysis.screening_threshold`` [-].
+        ``analysis.screening_threshold``.
     levels
-        Grid levels of the design; default ``analysis.levels`` [-].
+        Grid levels of the design; default ``analysis.levels``.
 
     Returns
     -------
@@ -105,17 +105,17 @@ class Screening:
     Attributes
     ----------
     study
-        The study as configured (every uncertain input) [-].
+        The study as configured (every uncertain input).
     reduced
-        The study with the fixed inputs removed from ``parameters`` (they take their nominal) [-].
+        The study with the fixed inputs removed from ``parameters`` (they take their nominal).
     analysis
-        The Morris measures of the screening run [-].
+        The Morris measures of the screening run.
     fixed
-        Per parameter of ``study``: fixed at nominal [-].
+        Per parameter of ``study``: fixed at nominal.
     reasons
-        Per parameter: why it was kept or fixed [-].
+        Per parameter: why it was kept or fixed.
     runs
-        Model runs of the screening (all exposures) [-].
+        Model runs of the screening (all exposures).
     """
 
     study: object
@@ -132,11 +132,11 @@ def screen_study(study, *, chunk_size: int | None = None, workers: int = 1) -> S
     Parameters
     ----------
     study
-        A study with ``screening`` settings [-].
+        A study with ``screening`` settings.
     chunk_size
-        Samples per evaluation chunk [-].
+        Samples per evaluation chunk.
     workers
-        Worker processes of a local dask cluster [-]; results do not depend on it.
+        Worker processes of a local dask cluster; results do not depend on it.
 
     Returns
     -------
@@ -189,7 +189,7 @@ def _share(value: float, scale: float) -> str:
 
 
 def screening_lines(screening: Screening) -> list[str]:
-    """Summary lines: what the screening fixed and why [-]."""
+    """Summary lines: what the screening fixed and why."""
     s = screening.study.screening
     n_fixed = int(screening.fixed.sum())
     lines = [f"screening (Morris, {s.trajectories} trajectories of {s.levels} levels, "
@@ -208,9 +208,9 @@ def add_screening(ds: xr.Dataset, screening: Screening) -> xr.Dataset:
     Parameters
     ----------
     ds
-        The results dataset of the reduced study [-].
+        The results dataset of the reduced study.
     screening
-        The screening [-].
+        The screening.
 
     Returns
     -------
@@ -270,11 +270,11 @@ def morris_dataset(study, propagation: Propagation, analysis: MorrisAnalysis) ->
     Parameters
     ----------
     study
-        The study [-].
+        The study.
     propagation
-        Its propagation [-].
+        Its propagation.
     analysis
-        Its Morris measures [-].
+        Its Morris measures.
 
     Returns
     -------
@@ -373,7 +373,7 @@ def morris_dataset(study, propagation: Propagation, analysis: MorrisAnalysis) ->
 
 def morris_lines(study, propagation: Propagation, analysis: MorrisAnalysis, *,
                  top: int) -> list[str]:
-    """Summary lines of a Morris study (every exposure; the inner-surface temperature) [-]."""
+    """Summary lines of a Morris study (every exposure; the inner-surface temperature)."""
     a = study.analysis
     lines = [f"method: morris, {propagation.design.base_samples} trajectories of {a.levels} "
              f"levels, {len(study.parameters)} uncertain parameters, "

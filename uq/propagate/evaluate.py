@@ -48,7 +48,7 @@ class Outputs:
     interface_names, element_names, element_kinds, element_layers
         Labels from the network solution.
     inner_surface_index
-        Column of ``interface_temperature`` that is the inner surface [-].
+        Column of ``interface_temperature`` that is the inner surface.
     """
 
     fields: dict[str, np.ndarray]
@@ -92,9 +92,9 @@ def unit_to_inputs(parameters: Sequence, unit: np.ndarray) -> np.ndarray:
     Parameters
     ----------
     parameters
-        Uncertain parameters (each with a ``distribution``), one per column. [-]
+        Uncertain parameters (each with a ``distribution``), one per column.
     unit
-        Points in the open unit cube, shape ``(n, d)`` [-].
+        Points in the open unit cube, shape ``(n, d)``.
 
     Returns
     -------
@@ -114,12 +114,12 @@ def model_objects(study, values: np.ndarray | None = None, *, scenario: int | No
     Parameters
     ----------
     study
-        The parsed study (:class:`plyrisk.study.config.Study`). [-]
+        The parsed study (:class:`plyrisk.study.config.Study`).
     values
         Input values, shape ``(n, d)`` in the order of ``study.parameters`` (SI); ``None`` for
         the nominal stack. [SI]
     scenario
-        Index of the swept exposure to apply, or ``None``. [-]
+        Index of the swept exposure to apply, or ``None``.
 
     Returns
     -------
@@ -138,7 +138,7 @@ def _solve(study, values: np.ndarray | None, scenario: int | None) -> NetworkSol
 
 
 def scenario_count(study) -> int:
-    """Number of exposures evaluated: the sweep length, or 1 [-]."""
+    """Number of exposures evaluated: the sweep length, or 1."""
     return 1 if study.scenarios is None else len(study.scenarios.values)
 
 
@@ -167,18 +167,18 @@ def evaluate(
     Parameters
     ----------
     study
-        The parsed study. [-]
+        The parsed study.
     values
         Input values, shape ``(n, d)`` (SI). [SI]
     chunk_size
-        Samples per chunk [-]; default from the study. Results do not depend on it.
+        Samples per chunk; default from the study. Results do not depend on it.
     progress
-        Called with the number of samples finished after each chunk. [-]
+        Called with the number of samples finished after each chunk.
     workers
-        Worker processes of a local dask cluster solving chunks in parallel [-]; 1 solves in
+        Worker processes of a local dask cluster solving chunks in parallel; 1 solves in
         this process. Results do not depend on it: every sample is solved independently.
     scheduler
-        Address of an existing dask scheduler to solve the chunks on instead [-].
+        Address of an existing dask scheduler to solve the chunks on instead.
 
     Returns
     -------
@@ -235,7 +235,7 @@ def study_plan(study) -> DesignPlan:
     ----------
     study
         The parsed study; overrides of the sample count or seed belong in its ``analysis``
-        (see :func:`plyrisk.pipeline.run.run_study`), so that the design and the analysis agree [-].
+        (see :func:`plyrisk.pipeline.run.run_study`), so that the design and the analysis agree.
 
     Returns
     -------
@@ -295,15 +295,15 @@ def propagate(
     Parameters
     ----------
     study
-        The parsed study (sample count and seed from its ``analysis``) [-].
+        The parsed study (sample count and seed from its ``analysis``).
     chunk_size
-        Samples per chunk overriding the config [-].
+        Samples per chunk overriding the config.
     quiet
-        Suppress the progress bar (it is shown only on a terminal anyway) [-].
+        Suppress the progress bar (it is shown only on a terminal anyway).
     workers
-        Worker processes of a local dask cluster [-]; results do not depend on it.
+        Worker processes of a local dask cluster; results do not depend on it.
     scheduler
-        Address of an existing dask scheduler [-]; results do not depend on it.
+        Address of an existing dask scheduler; results do not depend on it.
 
     Returns
     -------
@@ -324,11 +324,11 @@ def progress_bar(total: int, *, quiet: bool = False, what: str = "solving"):
     Parameters
     ----------
     total
-        Samples to solve [-].
+        Samples to solve.
     quiet
-        No bar [-].
+        No bar.
     what
-        Label of the bar [-].
+        Label of the bar.
     """
     if quiet or not sys.stderr.isatty():
         yield None

@@ -31,7 +31,7 @@ def _csv(v: Any) -> str:
 
 
 def write_csv(path: Path, header: list[str], rows: list[list[Any]]) -> Path:
-    """Write one CSV file: a header row, then ``rows`` as CSV text; returns ``path`` [-]."""
+    """Write one CSV file: a header row, then ``rows`` as CSV text; returns ``path``."""
     with path.open("w", newline="", encoding="utf-8") as fh:
         w = csv.writer(fh)
         w.writerow(header)
@@ -41,7 +41,7 @@ def write_csv(path: Path, header: list[str], rows: list[list[Any]]) -> Path:
 
 def write_csv_tables(ds: xr.Dataset, out: Path) -> list[Path]:
     """Write ``quantiles.csv``, ``indices.csv``, ``group_indices.csv`` and ``ranking.csv``
-    into the folder ``out``; returns their paths [-]."""
+    into the folder ``out``; returns their paths."""
     unit = fg.temperature_unit(ds)
     quant, ind, grp, rank = [], [], [], []
 

@@ -199,7 +199,7 @@ class Distribution:
     spread : float
         Spread measure per kind (module docstring) [SI], for lognormal ln(gsd) [-].
     truncated_mass : float
-        Probability of the untruncated distribution cut off by the physical bounds [-]; for
+        Probability of the untruncated distribution cut off by the physical bounds; for
         truncnormal, of the normal already restricted to the user's [low, high]. 0 for the
         bounded kinds and ``fixed``.
     mean, std, median : float
@@ -374,7 +374,7 @@ class Distribution:
         Parameters
         ----------
         u : array_like
-            Probabilities in the open interval (0, 1) [-].
+            Probabilities in the open interval (0, 1).
 
         Returns
         -------
@@ -403,7 +403,7 @@ class Distribution:
         Returns
         -------
         numpy.ndarray
-            P(X <= x) [-], same shape as ``x``.
+            P(X <= x), same shape as ``x``.
         """
         x = np.asarray(x, dtype=float)
         if self._family == "fixed":
@@ -461,7 +461,7 @@ class Distribution:
         Parameters
         ----------
         coverage : float
-            Probability inside the interval, in (0, 1) [-]; 0.90 gives the 5-95 % range.
+            Probability inside the interval, in (0, 1); 0.90 gives the 5-95 % range.
 
         Returns
         -------
@@ -479,7 +479,7 @@ class Distribution:
         Parameters
         ----------
         factor : float
-            Spread multiplier, >= 0 [-]; 0 gives a ``fixed`` distribution at the nominal.
+            Spread multiplier, >= 0; 0 gives a ``fixed`` distribution at the nominal.
 
         Returns
         -------
@@ -526,7 +526,7 @@ def make_distribution(kind: str, params: Mapping[str, float], *,
     Parameters
     ----------
     kind : str
-        Distribution kind, one of :data:`KINDS`. [-]
+        Distribution kind, one of :data:`KINDS`.
     params : mapping of str to float
         Parameter set [SI], see the module docstring.
     bounds : Bounds

@@ -41,17 +41,17 @@ class QuantitySpec:
     Parameters
     ----------
     what
-        Description used in error messages, e.g. ``"a length"`` [-].
+        Description used in error messages, e.g. ``"a length"``.
     si_unit
-        The SI unit values are converted to, as a pint unit string [-].
+        The SI unit values are converted to, as a pint unit string.
     example
-        An example value with a unit, for error messages [-].
+        An example value with a unit, for error messages.
     lower, upper
         Physical bounds, in ``si_unit``.
     lower_open, upper_open
-        Whether the bound itself is excluded [-].
+        Whether the bound itself is excluded.
     level
-        A temperature level (offset units such as degC apply), not a difference [-].
+        A temperature level (offset units such as degC apply), not a difference.
     """
 
     what: str
@@ -65,16 +65,16 @@ class QuantitySpec:
 
     @property
     def dimensionless(self) -> bool:
-        """True for a quantity that may be given as a bare number [-]."""
+        """True for a quantity that may be given as a bare number."""
         return self.si_unit == ""
 
     @property
     def is_temperature(self) -> bool:
-        """True for a temperature level (offset units apply) [-]."""
+        """True for a temperature level (offset units apply)."""
         return self.level
 
     def bounds_text(self) -> str:
-        """The bounds in words, e.g. ``"positive"`` or ``"in (0, 1]"`` [-]."""
+        """The bounds in words, e.g. ``"positive"`` or ``"in (0, 1]"``."""
         lo, hi = self.lower, self.upper
         if self.is_temperature and lo == 0 and hi == math.inf:
             return "above absolute zero (0 K)"
@@ -87,7 +87,7 @@ class QuantitySpec:
         return f"in {left}{_g(lo)}, {_g(hi)}{right}"
 
     def within(self, value: ArrayLike) -> np.ndarray:
-        """Elementwise: is ``value`` [SI] inside the bounds and finite [-]."""
+        """Elementwise: is ``value`` [SI] inside the bounds and finite."""
         v = np.asarray(value, dtype=float)
         ok = np.isfinite(v)
         ok &= (v > self.lower) if self.lower_open else (v >= self.lower)
@@ -149,9 +149,9 @@ class Parsed:
     si
         The value in the spec's SI unit [SI].
     unit
-        The user's unit text (``"mm"``), ``""`` for a bare number [-].
+        The user's unit text (``"mm"``), ``""`` for a bare number.
     text
-        The value as the user wrote it, for messages [-].
+        The value as the user wrote it, for messages.
     """
 
     si: float
@@ -187,11 +187,11 @@ def parse_value(value: object, spec: QuantitySpec, *, difference: bool = False) 
     Parameters
     ----------
     value
-        A string ``"<number> <unit>"``, or a bare ``int``/``float`` for a dimensionless spec [-].
+        A string ``"<number> <unit>"``, or a bare ``int``/``float`` for a dimensionless spec.
     spec
-        What the value must be [-].
+        What the value must be.
     difference
-        Read a temperature as a difference: ``"2 degC"`` is 2 K, not 275.15 K [-].
+        Read a temperature as a difference: ``"2 degC"`` is 2 K, not 275.15 K.
 
     Returns
     -------
@@ -239,11 +239,11 @@ def to_si(
     values
         Magnitudes in ``unit`` [unit].
     unit
-        The user's unit text; ``""`` for dimensionless [-].
+        The user's unit text; ``""`` for dimensionless.
     spec
-        Target quantity [-].
+        Target quantity.
     difference
-        Treat a temperature unit as a difference [-].
+        Treat a temperature unit as a difference.
 
     Returns
     -------
@@ -278,11 +278,11 @@ def from_si(
     values
         Values in ``spec.si_unit`` [SI].
     unit
-        The user's unit text [-].
+        The user's unit text.
     spec
-        The quantity [-].
+        The quantity.
     difference
-        The values are temperature differences: K → degC has no offset [-].
+        The values are temperature differences: K → degC has no offset.
     """
     units = _units(unit, difference=difference)
     return ureg.Quantity(values, ureg.parse_units(spec.si_unit)).to(units).magnitude
@@ -291,20 +291,20 @@ def from_si(
 def format_value(
     value: float, unit: str, spec: QuantitySpec, *, difference: bool = False, digits: int = 4
 ) -> str:
-    """An SI value shown in the user's unit, e.g. ``"0.5 mm"`` [-].
+    """An SI value shown in the user's unit, e.g. ``"0.5 mm"``.
 
     Parameters
     ----------
     value
         Value in ``spec.si_unit`` [SI].
     unit
-        The user's unit text [-].
+        The user's unit text.
     spec
-        The quantity [-].
+        The quantity.
     difference
-        The value is a temperature difference [-].
+        The value is a temperature difference.
     digits
-        Significant digits [-].
+        Significant digits.
     """
     shown = float(from_si(value, unit, spec, difference=difference))
     return f"{_g(shown, digits)} {unit}".rstrip()

@@ -26,12 +26,12 @@ def check_text(study: Study) -> tuple[str, bool]:
     Parameters
     ----------
     study
-        The parsed study [-].
+        The parsed study.
 
     Returns
     -------
     text, converged
-        The text to print, and whether the nominal solve (and every scenario) converged [-].
+        The text to print, and whether the nominal solve (and every scenario) converged.
 
     Raises
     ------

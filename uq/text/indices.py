@@ -27,16 +27,16 @@ def _terms(surrogate) -> str:
 
 
 def ranked_line(rank: int, item: RankedIndex, *, first: bool = True) -> str:
-    """One ranked parameter or layer: total (and first-order) index, half-width, status [-].
+    """One ranked parameter or layer: total (and first-order) index, half-width, status.
 
     Parameters
     ----------
     rank
-        Position, 1 = most influential [-].
+        Position, 1 = most influential.
     item
-        The ranked index [-].
+        The ranked index.
     first
-        Show the first-order index too [-].
+        Show the first-order index too.
     """
     text = f"  {rank}. {item.name:<32} " + _index("", item.total, item.total_ci,
                                                     item.total_converged)
@@ -48,18 +48,18 @@ def ranked_line(rank: int, item: RankedIndex, *, first: bool = True) -> str:
 
 
 def index_lines(study, sc, *, top: int, temperature: Callable[[float], str]) -> list[str]:
-    """Lines of the ranking of the inner-surface temperature of one exposure [-].
+    """Lines of the ranking of the inner-surface temperature of one exposure.
 
     Parameters
     ----------
     study
-        The study [-].
+        The study.
     sc
-        Its :class:`plyrisk.analysis.study.ScenarioAnalysis` [-].
+        Its :class:`plyrisk.analysis.study.ScenarioAnalysis`.
     top
-        Parameters and layers listed [-].
+        Parameters and layers listed.
     temperature
-        Formats a temperature [K] in the display unit [-].
+        Formats a temperature [K] in the display unit.
     """
     a = study.analysis
     ranking = sc.ranking.get("inner_surface_temperature")

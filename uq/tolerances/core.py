@@ -26,9 +26,9 @@ DEFAULT_TARGET = "P95 <= limit"
 METHODS = ("lhs", "random")
 BASES = ("bound", "estimate")
 REPORT_PROBABILITY = 0.95
-"""Quantile level reported by the what-if runs when the target is an exceedance bound [-]."""
+"""Quantile level reported by the what-if runs when the target is an exceedance bound."""
 _GRID_BELOW_ONE = (0.0, 0.25, 0.5, 0.75, 1.0)
-XTOL = 1e-5          # bisection stops at this fraction of the searched range [-]
+XTOL = 1e-5          # bisection stops at this fraction of the searched range
 
 
 @dataclass(frozen=True)
@@ -38,7 +38,7 @@ class ToleranceProblem:
     Parameters
     ----------
     names
-        Parameter names, one per input column [-].
+        Parameter names, one per input column.
     distributions
         Input distributions, one per column [SI].
     evaluate
@@ -47,7 +47,7 @@ class ToleranceProblem:
     limit
         Limit of the output; "exceed" means strictly above it [K].
     scenario_labels
-        Names of the exposures, one per output row; empty for one exposure [-].
+        Names of the exposures, one per output row; empty for one exposure.
     """
 
     names: tuple[str, ...]
@@ -68,7 +68,7 @@ class ToleranceProblem:
             raise ValueError(f"limit must be finite, got {self.limit}")
 
     def index(self, name: str) -> int:
-        """Column of the parameter ``name`` [-]; ValueError naming the valid names."""
+        """Column of the parameter ``name``; ValueError naming the valid names."""
         if name not in self.names:
             raise ValueError(f"unknown parameter {name!r}; valid: {', '.join(self.names)}")
         return self.names.index(name)
@@ -81,31 +81,31 @@ class ToleranceSettings:
     Parameters
     ----------
     target
-        The target, or its text (see :mod:`plyrisk.study.targets`) [-].
+        The target, or its text (see :mod:`plyrisk.study.targets`).
     samples
-        Rows of the CRN design [-].
+        Rows of the CRN design.
     method
-        ``"lhs"`` (Latin hypercube) or ``"random"`` [-].
+        ``"lhs"`` (Latin hypercube) or ``"random"``.
     seed
-        Seed of the design; ``None`` = the study's seed (must be set before computing) [-].
+        Seed of the design; ``None`` = the study's seed (must be set before computing).
     cost
         Cost weight per parameter name (default 1); the cost of a parameter is
-        weight / spread factor [-].
+        weight / spread factor.
     max_factor
-        Largest spread factor ever tried or recommended, >= 1 [-].
+        Largest spread factor ever tried or recommended, >= 1.
     allow_loosening
         Let the allocation widen spreads (up to ``max_factor``); by default it only
-        tightens, and parameters that do not matter keep their current spread [-].
+        tightens, and parameters that do not matter keep their current spread.
     keep
         Parameters whose spread the allocation leaves as it is (e.g. exposure conditions,
         which no manufacturing tolerance controls); ``None`` = none in the engine, the
-        boundary-condition parameters (``hot_side.*``, ``cold_side.*``) for a study [-].
+        boundary-condition parameters (``hot_side.*``, ``cold_side.*``) for a study.
     basis
-        ``"bound"`` (upper confidence bound of the metric) or ``"estimate"`` [-].
+        ``"bound"`` (upper confidence bound of the metric) or ``"estimate"``.
     confidence
-        Two-sided level of the confidence intervals, in (0, 1); ``None`` = 0.90 [-].
+        Two-sided level of the confidence intervals, in (0, 1); ``None`` = 0.90.
     nominal_shift
-        Name of the parameter whose nominal is shifted to meet the target, or ``None`` [-].
+        Name of the parameter whose nominal is shifted to meet the target, or ``None``.
     nominal_range
         Range searched for that nominal ``(low, high)``; ``None`` = half to twice the nominal
         (nominal ± 10 spreads for a nominal <= 0) [SI].
@@ -159,7 +159,7 @@ class ToleranceSettings:
 
     @property
     def level(self) -> float:
-        """The confidence level used [-]."""
+        """The confidence level used."""
         return 0.90 if self.confidence is None else float(self.confidence)
 
 
@@ -175,17 +175,17 @@ class Outcome:
     Attributes
     ----------
     probability
-        Quantile level reported in ``quantile`` [-]: the target's level, or 0.95.
+        Quantile level reported in ``quantile``: the target's level, or 0.95.
     quantile, quantile_lower, quantile_upper
         That quantile and its confidence interval [K] (NaN bounds when n is too small).
     exceedance, exceedance_lower, exceedance_upper
-        P(output > limit) and its Wilson interval [-].
+        P(output > limit) and its Wilson interval.
     variance
         Sample variance of the output [K^2].
     scores
         The target metric on the settings' basis [K or -].
     nonconverged
-        Non-finite outputs left out [-].
+        Non-finite outputs left out.
     bound
         The target's bound [K or -].
     """
@@ -204,7 +204,7 @@ class Outcome:
 
     @property
     def scenario(self) -> int:
-        """The worst exposure: where the metric is largest (or not available) [-]."""
+        """The worst exposure: where the metric is largest (or not available)."""
         return int(np.argmax(np.where(np.isnan(self.scores), np.inf, self.scores)))
 
     @property
@@ -219,12 +219,12 @@ class Outcome:
 
     @property
     def worst_exceedance(self) -> float:
-        """The exceedance probability at the worst exposure for it [-]."""
+        """The exceedance probability at the worst exposure for it."""
         return worst(self.exceedance)
 
     @property
     def met(self) -> bool:
-        """Whether the target holds at every exposure on the settings' basis [-]."""
+        """Whether the target holds at every exposure on the settings' basis."""
         return bool(self.score <= self.bound)
 
 
@@ -239,22 +239,22 @@ class Runner:
     Parameters
     ----------
     problem
-        The problem [-].
+        The problem.
     settings
-        Target, design (samples, method), basis and confidence [-].
+        Target, design (samples, method), basis and confidence.
     seed
-        Seed of the design; default ``settings.seed`` [-].
+        Seed of the design; default ``settings.seed``.
 
     Attributes
     ----------
     unit
-        The design, shape ``(samples, d)`` [-].
+        The design, shape ``(samples, d)``.
     base
         The inputs at the current specification [SI].
     bound
         The target's numeric bound [K or -].
     runs
-        Model evaluations so far [-].
+        Model evaluations so far.
     """
 
     def __init__(self, problem: ToleranceProblem, settings: ToleranceSettings,
@@ -379,7 +379,7 @@ def largest_meeting(met: Callable[[float], bool], grid: Sequence[float],
 
 
 def factor_cap(dist: Distribution, max_factor: float) -> tuple[float, bool]:
-    """Largest valid spread factor <= ``max_factor`` and whether the bounds set it [-]."""
+    """Largest valid spread factor <= ``max_factor`` and whether the bounds set it."""
     def valid(f: float) -> bool:
         try:
             dist.with_spread(f)

@@ -31,27 +31,27 @@ class ManufacturingRow:
     Attributes
     ----------
     parameter, layer
-        Parameter name and its group (layer, ``hot_side`` or ``cold_side``) [-].
+        Parameter name and its group (layer, ``hot_side`` or ``cold_side``).
     current_spec
-        The current distribution in the user's unit [-].
+        The current distribution in the user's unit.
     variance_share
         Share of the output variance: Var(Y - Y_0) / Var(Y) over the CRN pairs with the
         parameter held at its nominal (:attr:`plyrisk.tolerances.whatif.WhatIf.variance_share`),
-        or the Sobol total index when given [-].
+        or the Sobol total index when given.
     share_source
-        ``"held at nominal (CRN)"`` or ``"Sobol total index"`` [-].
+        ``"held at nominal (CRN)"`` or ``"Sobol total index"``.
     quantile_label
-        The quantile reported, e.g. ``"P95"`` [-].
+        The quantile reported, e.g. ``"P95"``.
     quantile_if_halved
         That quantile with this parameter's spread halved, worst exposure [temperature_unit].
     temperature_unit
-        Unit of the temperatures [-].
+        Unit of the temperatures.
     recommended_spec
-        The distribution recommended by the allocation, in the user's unit [-].
+        The distribution recommended by the allocation, in the user's unit.
     recommended_factor
-        Recommended spread / current spread [-]; NaN when the target is not reachable.
+        Recommended spread / current spread; NaN when the target is not reachable.
     target
-        The target the recommendation serves [-].
+        The target the recommendation serves.
     """
 
     parameter: str
@@ -68,7 +68,7 @@ class ManufacturingRow:
 
 
 def target_text(report: ToleranceReport, study: Study) -> str:
-    """The target with its bound in the user's unit, e.g. ``"P95 <= limit (44 degC)"`` [-]."""
+    """The target with its bound in the user's unit, e.g. ``"P95 <= limit (44 degC)"``."""
     t = report.settings.target
     text = t.text
     if t.kind == "quantile" and t.uses_limit:
@@ -97,11 +97,11 @@ def manufacturing_table(report: ToleranceReport, study: Study, *,
     Parameters
     ----------
     report
-        The tolerance results of ``study`` [-].
+        The tolerance results of ``study``.
     study
-        The study [-].
+        The study.
     indices
-        Sobol total index per parameter name to use as the variance share [-].
+        Sobol total index per parameter name to use as the variance share.
 
     Returns
     -------
@@ -132,9 +132,9 @@ def write_tolerance_csv(rows: Sequence[ManufacturingRow], path: str | Path) -> P
     Parameters
     ----------
     rows
-        The table [-].
+        The table.
     path
-        The file to write; its folder is created [-].
+        The file to write; its folder is created.
 
     Returns
     -------
@@ -201,11 +201,11 @@ def tolerance_text(report: ToleranceReport, study: Study, *,
     Parameters
     ----------
     report
-        The tolerance results of ``study`` [-].
+        The tolerance results of ``study``.
     study
-        The study [-].
+        The study.
     csv_path
-        The CSV file written, to mention [-].
+        The CSV file written, to mention.
 
     Returns
     -------
