@@ -80,6 +80,12 @@ def viscosity(temperature: ArrayLike, *, check_range: bool = True) -> np.ndarray
     -------
     numpy.ndarray
         Dynamic viscosity [Pa s].
+
+    Examples
+    --------
+    >>> from plyrisk.models.air import viscosity
+    >>> print(f"{viscosity(300.0):.4g} Pa s")
+    1.852e-05 Pa s
     """
     t = np.asarray(temperature, dtype=float)
     if check_range:
@@ -106,6 +112,23 @@ def thermal_conductivity(temperature: ArrayLike, *, check_range: bool = True) ->
     -------
     numpy.ndarray
         Thermal conductivity [W m-1 K-1].
+
+    Examples
+    --------
+    Scalars and arrays alike (every function of this module broadcasts):
+
+    >>> from plyrisk.models.air import thermal_conductivity
+    >>> thermal_conductivity([300.0, 600.0]).round(4)
+    array([0.0264, 0.046 ])
+
+    Outside 250–1500 K the values are extrapolated, with a ``RuntimeWarning``:
+
+    >>> import warnings
+    >>> with warnings.catch_warnings(record=True) as caught:
+    ...     warnings.simplefilter("always")
+    ...     _ = thermal_conductivity(200.0)
+    >>> caught[0].category.__name__
+    'RuntimeWarning'
     """
     t = np.asarray(temperature, dtype=float)
     if check_range:
@@ -139,6 +162,14 @@ def density(
     -------
     numpy.ndarray
         Density [kg m-3].
+
+    Examples
+    --------
+    >>> from plyrisk.models.air import density
+    >>> print(f"{density(300.0):.4g} kg m-3")
+    1.176 kg m-3
+    >>> print(f"{density(300.0, pressure=50e3):.4g} kg m-3")
+    0.5805 kg m-3
     """
     t = np.asarray(temperature, dtype=float)
     if check_range:
@@ -162,6 +193,12 @@ def heat_capacity(temperature: ArrayLike, *, check_range: bool = True) -> np.nda
     -------
     numpy.ndarray
         Specific heat capacity [J kg-1 K-1].
+
+    Examples
+    --------
+    >>> from plyrisk.models.air import heat_capacity
+    >>> print(f"{heat_capacity(300.0):.4g} J kg-1 K-1")
+    1006 J kg-1 K-1
     """
     t = np.asarray(temperature, dtype=float)
     if check_range:
@@ -183,6 +220,12 @@ def expansion_coefficient(temperature: ArrayLike, *, check_range: bool = True) -
     -------
     numpy.ndarray
         Expansion coefficient [K-1].
+
+    Examples
+    --------
+    >>> from plyrisk.models.air import expansion_coefficient
+    >>> print(f"{expansion_coefficient(300.0):.4g} K-1")
+    0.003333 K-1
     """
     t = np.asarray(temperature, dtype=float)
     if check_range:
@@ -204,6 +247,12 @@ def thermal_diffusivity(temperature: ArrayLike, *, check_range: bool = True) -> 
     -------
     numpy.ndarray
         Thermal diffusivity [m2 s-1].
+
+    Examples
+    --------
+    >>> from plyrisk.models.air import thermal_diffusivity
+    >>> print(f"{thermal_diffusivity(300.0):.4g} m2 s-1")
+    2.227e-05 m2 s-1
     """
     t = np.asarray(temperature, dtype=float)
     if check_range:
@@ -226,6 +275,12 @@ def kinematic_viscosity(temperature: ArrayLike, *, check_range: bool = True) -> 
     -------
     numpy.ndarray
         Kinematic viscosity [m2 s-1].
+
+    Examples
+    --------
+    >>> from plyrisk.models.air import kinematic_viscosity
+    >>> print(f"{kinematic_viscosity(300.0):.4g} m2 s-1")
+    1.575e-05 m2 s-1
     """
     t = np.asarray(temperature, dtype=float)
     if check_range:

@@ -299,6 +299,33 @@ def solve_network(
         (a ``ValueError``) naming the layer, the quantity and the bad value.
     ValueError
         For an unknown ``radiation`` mode or a non-positive ``tolerance``.
+
+    Examples
+    --------
+    One fabric between two prescribed face temperatures conducts by Fourier's law,
+    ``q = k (T_hot - T_cold) / L``; here two samples of its conductivity:
+
+    >>> from plyrisk.models.boundary import ColdTemperature, HotTemperature
+    >>> from plyrisk.models.network import solve_network
+    >>> from plyrisk.models.stack import Gap, Solid
+    >>> fabric = Solid("fabric", thickness=1e-3, conductivity=[0.04, 0.05])
+    >>> solution = solve_network([fabric], HotTemperature(343.15), ColdTemperature(303.15))
+    >>> solution.heat_flux.round(3)
+    array([1600., 2000.])
+    >>> solution.converged
+    array([ True,  True])
+
+    A shell, an air gap and a liner; the gap passes heat by conduction and radiation:
+
+    >>> layers = [Solid("shell", thickness=1e-3, conductivity=0.05), Gap("air", width=3e-3),
+    ...           Solid("liner", thickness=2e-3, conductivity=0.04)]
+    >>> solution = solve_network(layers, HotTemperature(343.15), ColdTemperature(303.15))
+    >>> solution.interface_names
+    ('exposed face', 'shell | air', 'air | liner', 'inner face')
+    >>> (solution.interface_temperature - 273.15).round(1)
+    array([[70. , 64. , 45.1, 30. ]])
+    >>> solution.radiative_share.round(2)
+    array([[ nan, 0.41,  nan]])
     """
     if radiation not in RADIATION_MODES:
         raise ValueError(f"radiation {radiation!r} is not one of {', '.join(RADIATION_MODES)}")

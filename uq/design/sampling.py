@@ -165,14 +165,32 @@ def sobol_design(base_samples: int, n_params: int, *, seed: int,
         First base row: the design of base rows ``[start, start + base_samples)`` of the same
         scrambled sequence (``fast_forward``), e.g. to double a design while reusing the runs
         of its first half; a multiple of ``base_samples`` keeps the balance of the points.
-        First base row: the design of base rows [start, start + N) of the same scrambled
-        sequence (``fast_forward``), so that designs for [0, N) and [N, 2N) stacked are the
-        design of 2N base rows.
+        The designs for [0, N) and [N, 2N) stacked are the design of 2N base rows.
 
     Returns
     -------
     Design
         N * (d + 2 + G2) rows, G2 = number of groups with two or more members.
+
+    Examples
+    --------
+    Eight base rows for three parameters: blocks A (code 0), B (1) and one AB block per parameter
+    (2, 3, 4), eight rows each, every coordinate strictly inside (0, 1):
+
+    >>> import numpy as np
+    >>> from plyrisk.design.sampling import sobol_design
+    >>> design = sobol_design(8, 3, seed=1)
+    >>> design.unit.shape
+    (40, 3)
+    >>> np.bincount(design.block)
+    array([8, 8, 8, 8, 8])
+    >>> bool(np.all((design.unit > 0.0) & (design.unit < 1.0)))
+    True
+
+    A group of two parameters (a layer) adds one block for its joint indices:
+
+    >>> sobol_design(8, 3, seed=1, groups=[[0, 1]]).unit.shape
+    (48, 3)
     """
     n = _count("base_samples", base_samples)
     d = _count("n_params", n_params)

@@ -541,6 +541,32 @@ def make_distribution(kind: str, params: Mapping[str, float], *,
     ValueError
         Unknown kind, missing or extra parameter names, or invalid values; the message names
         the parameter, the bad value and what is valid.
+
+    Examples
+    --------
+    A gap width with a median of 2 mm and a geometric standard deviation of 1.4, which cannot be
+    negative:
+
+    >>> import numpy as np
+    >>> from plyrisk.study.distributions import Bounds, make_distribution
+    >>> width = make_distribution("lognormal", {"median": 2e-3, "gsd": 1.4},
+    ...                           bounds=Bounds(lower=0.0))
+    >>> round(width.nominal, 9)
+    0.002
+    >>> (width.ppf(np.array([0.05, 0.5, 0.95])) * 1e3).round(3)  # mm
+    array([1.15 , 2.   , 3.478])
+
+    An emissivity of 0.9 +- 0.1 (normal) is truncated at its physical bound 1, never clipped; the
+    mass cut off is ``1 - Phi(1)``:
+
+    >>> emissivity = make_distribution("normal", {"mean": 0.9, "sd": 0.1},
+    ...                                bounds=Bounds(lower=0.0, upper=1.0))
+    >>> round(emissivity.truncated_mass, 4)
+    0.1587
+    >>> make_distribution("uniform", {"low": 2.0, "high": 1.0})
+    Traceback (most recent call last):
+    ...
+    ValueError: uniform low must be below high, got low=2 high=1
     """
     if not isinstance(params, Mapping):
         raise ValueError(f"{kind} parameters must be a mapping of name to value, got {params!r}")

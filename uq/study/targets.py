@@ -73,7 +73,7 @@ class Target:
         Returns
         -------
         float
-            [K] for a quantile target, for an exceedance target.
+            [K] for a quantile target, a probability for an exceedance target.
         """
         if self.kind == "quantile" and math.isnan(self.threshold):
             return float(limit)
@@ -108,6 +108,21 @@ def parse_target(text: str) -> Target:
     ------
     ValueError
         One line naming the text, what is wrong and the valid forms.
+
+    Examples
+    --------
+    >>> from plyrisk.study.targets import parse_target
+    >>> parse_target("P95 <= limit")
+    Target(kind='quantile', probability=0.95, threshold=nan, text='P95 <= limit')
+    >>> target = parse_target("P99  <=  45 degC")
+    >>> target.label, round(target.threshold, 6), target.text
+    ('P99', 318.15, 'P99 <= 45 degC')
+    >>> parse_target("P(exceed) <= 1 %").threshold
+    0.01
+    >>> parse_target("P95 < limit")
+    Traceback (most recent call last):
+    ...
+    ValueError: bad target 'P95 < limit': expected '<=' between the metric and its bound; ...
     """
     if not isinstance(text, str):
         raise _bad(str(text), f"expected a string, got {type(text).__name__}")

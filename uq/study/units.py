@@ -202,6 +202,21 @@ def parse_value(value: object, spec: QuantitySpec, *, difference: bool = False) 
     ------
     UnitError
         For a missing unit, an unknown unit, a wrong dimension or a non-finite number.
+
+    Examples
+    --------
+    >>> from plyrisk.study.units import LENGTH, TEMPERATURE, parse_value
+    >>> parsed = parse_value("0.8 mm", LENGTH)
+    >>> round(parsed.si, 9), parsed.unit
+    (0.0008, 'mm')
+    >>> round(parse_value("34 degC", TEMPERATURE).si, 6)
+    307.15
+    >>> round(parse_value("2 degC", TEMPERATURE, difference=True).si, 6)
+    2.0
+    >>> parse_value("0.8", LENGTH)
+    Traceback (most recent call last):
+    ...
+    plyrisk.study.units.UnitError: a bare number needs a unit: expected a length such as ...
     """
     wanted = f"{spec.what} such as {spec.example!r}"
     if isinstance(value, bool) or not isinstance(value, int | float | str):
