@@ -38,7 +38,7 @@ def test_doctests(name):
     finder = doctest.DocTestFinder(exclude_empty=True)
     runner = doctest.DocTestRunner(optionflags=FLAGS)
     with np.printoptions(legacy="1.25"):  # numpy scalars print as plain numbers
-        for test in finder.find(module, name, globs={"np": np}):
+        for test in finder.find(module, name):  # globals: a copy of the module's
             runner.run(test)
     result = runner.summarize(verbose=False)
     assert result.failed == 0, f"{result.failed} of {result.attempted} doctest examples failed"

@@ -14,30 +14,16 @@ from __future__ import annotations
 import argparse
 import sys
 from collections.abc import Callable, Sequence
-from dataclasses import asdict
 from pathlib import Path
+from typing import Any
 
-from plyrisk.analysis.study import AnalysisError
 from plyrisk.cautions import cautions_text
-from plyrisk.errors import ConfigError
-from plyrisk.pipeline.run import (
-    check_memory,
-    default_output_dir,
-    memory_rows,
-    run_study,
-    summary_text,
-)
-from plyrisk.pipeline.sequential import DEFAULT_MAX_RUNS
-from plyrisk.propagate.compute import SchedulerError
-from plyrisk.propagate.store import StoreError
-from plyrisk.report.html import write_report
-from plyrisk.results.dataset import read_results
-from plyrisk.study.config import MIN_SAMPLES, load_study, override, require_runnable
-from plyrisk.study.definition import Study
-from plyrisk.study.targets import parse_target
-from plyrisk.text.check import check_text
-from plyrisk.tolerances.output import manufacturing_table, tolerance_text, write_tolerance_csv
-from plyrisk.tolerances.study import run_tolerances, settings_for_study
+from plyrisk.errors import ConfigError, PlyriskError
+from plyrisk.methods import METHODS, get_method
+from plyrisk.pipeline.options import RunOptions, default_output_dir
+
+# Heavy modules (xarray, matplotlib, SALib, dask) are imported inside the verb that needs them,
+# so that --help, --version and check start fast (benchmarks/startup.py).
 
 PROG = "plyrisk"
 
@@ -80,6 +66,9 @@ def cmd_check(args: argparse.Namespace) -> int:
     int
         0 on success, 1 when the nominal solve did not converge [-].
     """
+    from plyrisk.study.config import load_study
+    from plyrisk.text.check import check_text
+
     text, converged = check_text(load_study(args.config))
     print(text)
     return 0 if converged else 1
@@ -102,10 +91,10 @@ def _add_run(subparsers) -> None:
     p.add_argument("--out", metavar="DIR", help="output folder (default: a folder named after "
                    "the config, in the current directory)")
     p.add_argument("--samples", metavar="N", type=int, help="base sample count (overrides "
-                   "[study] samples; a power of two for method = sobol)")
+                   "[study] samples; a power of two for method = saltelli)")
     p.add_argument("--seed", metavar="S", type=int, help="seed (overrides [study] seed)")
-    p.add_argument("--method", metavar="NAME", help="analysis method: saltelli, pce or morris "
-                   "(overrides [study] method)")
+    p.add_argument("--method", metavar="NAME", help="analysis method: "
+                   + ", ".join(METHODS) + " (overrides [study] method)")
     p.add_argument("--until-converged", action="store_true", help="saltelli: double the base "
                    "samples, reusing every run, until every index interval is at most "
                    "[study] index_ci_threshold, or --max-runs is reached; prints the path")
@@ -128,51 +117,13 @@ def _add_run(subparsers) -> None:
     p.set_defaults(func=cmd_run)
 
 
-def _check_overrides(study: Study, args: argparse.Namespace) -> None:
-    n = args.samples
-    if n is not None and n < MIN_SAMPLES:
-        raise UsageError(f"--samples must be at least {MIN_SAMPLES}, got {n}")
-    if args.seed is not None and args.seed < 0:
-        raise UsageError(f"--seed must be zero or positive, got {args.seed}")
-    if args.chunk_size is not None and args.chunk_size < 1:
-        raise UsageError(f"--chunk-size must be a positive integer, got {args.chunk_size}")
-    if args.workers is not None and args.workers < 1:
-        raise UsageError(f"--workers must be a positive integer, got {args.workers}")
-    if args.resume and not (args.store or study.compute.store):
-        raise UsageError("--resume needs a store: give --store DIR (or [compute] store)")
-    if args.store or study.compute.store:
-        method = args.method or study.analysis.method
-        if args.until_converged or method == "morris":
-            raise UsageError("--store holds one fixed design: use it with method = saltelli "
-                             "or pce, without --until-converged")
-        return  # out of core: memory stays bounded by the chunk size
-    try:
-        overridden = override(study, samples=n, seed=args.seed, method=args.method)
-    except ValueError as err:
-        raise UsageError(str(err)) from None
-    if args.max_runs is not None and not args.until_converged:
-        raise UsageError("--max-runs applies to --until-converged only")
-    if args.until_converged:
-        if overridden.analysis.method != "saltelli":
-            raise UsageError(f"--until-converged needs method = saltelli, not "
-                             f"{overridden.analysis.method!r}")
-        if args.max_runs is not None and args.max_runs < 1:
-            raise UsageError(f"--max-runs must be a positive integer, got {args.max_runs}")
-        budget = args.max_runs if args.max_runs is not None else DEFAULT_MAX_RUNS
-        rows = memory_rows(overridden)
-        if rows > budget:
-            raise UsageError(f"--max-runs {budget}: the first step already needs {rows} model "
-                             "runs; raise --max-runs or lower --samples")
-        largest = overridden.analysis.samples
-        while memory_rows(overridden, 2 * largest) <= budget:
-            largest *= 2
-        n = largest  # the memory check below covers the largest step the budget allows
-    study = overridden
-    try:
-        check_memory(study, n)
-    except ValueError as err:
-        where = "--samples" if n is not None else f"{study.source}: study.samples"
-        raise UsageError(f"{where}: {err}") from None
+def run_options(args: argparse.Namespace) -> RunOptions:
+    """The run options of ``plyrisk run``'s arguments (validated by the library)."""
+    return RunOptions(samples=args.samples, seed=args.seed, method=args.method,
+                      chunk_size=args.chunk_size, workers=args.workers,
+                      scheduler=args.scheduler, store=args.store, resume=args.resume,
+                      until_converged=args.until_converged, max_runs=args.max_runs,
+                      quiet=args.quiet)
 
 
 def _check_out(out_dir: Path, what: str) -> None:
@@ -200,9 +151,16 @@ def cmd_run(args: argparse.Namespace) -> int:
     int
         0 on success; 1 when no sample converged [-].
     """
+    from plyrisk.analysis.study import AnalysisError
+    from plyrisk.pipeline.run import run_study, summary_text
+    from plyrisk.study.config import load_study, require_runnable
+    from plyrisk.tolerances.output import manufacturing_table
+    from plyrisk.tolerances.study import run_tolerances, settings_for_study
+
     study = load_study(args.config)
     require_runnable(study)
-    _check_overrides(study, args)
+    options = run_options(args)
+    options.validate(study)
     out_dir = Path(args.out) if args.out else default_output_dir(args.config)
     _check_out(out_dir, "--out" if args.out else "output folder")
     if study.tolerances is not None and not args.no_report:
@@ -211,23 +169,16 @@ def cmd_run(args: argparse.Namespace) -> int:
         except ValueError as err:
             raise UsageError(f"{study.source}: tolerances: {err}") from None
     try:
-        result = run_study(study, out_dir=out_dir, samples=args.samples, seed=args.seed,
-                           chunk_size=args.chunk_size, quiet=args.quiet,
-                           workers=args.workers or study.compute.workers,
-                           scheduler=args.scheduler or study.compute.scheduler,
-                           store=args.store or study.compute.store, resume=args.resume,
-                           method=args.method, until_converged=args.until_converged,
-                           max_runs=args.max_runs)
-    except (SchedulerError, StoreError) as err:
-        raise UsageError(str(err)) from None
+        result = run_study(study, out_dir=out_dir, options=options)
     except AnalysisError as err:
         print(f"{PROG}: {err}", file=sys.stderr)
         print(cautions_text())
         return 1
     print(summary_text(result))
-    if result.study.analysis.method == "morris" and not args.no_report:
-        print(f"report: not written for method = morris (a screening: the summary above and "
-              f"{result.path} hold its results)")
+    method = get_method(result.study.analysis.method)
+    if not method.writes_report and not args.no_report:
+        print(f"report: not written for method = {method.name} (a screening: the summary above "
+              f"and {result.path} hold its results)")
         return 0
     if not args.no_report:
         rows = None
@@ -241,8 +192,13 @@ def cmd_run(args: argparse.Namespace) -> int:
     return 0
 
 
-def _write_report(ds, out_dir: Path, rows) -> str:
+def _write_report(ds: Any, out_dir: Path, rows: Any) -> str:
     """Write the report (and the tolerance table, when given); return the line to print."""
+    from dataclasses import asdict
+
+    from plyrisk.report.html import write_report
+    from plyrisk.tolerances.output import write_tolerance_csv
+
     files = write_report(ds, out_dir, tolerance_table=None if rows is None else
                          [asdict(r) for r in rows])
     if rows is not None:  # the canonical tolerance CSV, cautions first
@@ -282,6 +238,8 @@ def cmd_report(args: argparse.Namespace) -> int:
     int
         0 on success [-].
     """
+    from plyrisk.results.dataset import read_results
+
     path = Path(args.results)
     if not path.is_file():
         raise UsageError(f"{path}: no such results file")
@@ -340,6 +298,12 @@ def cmd_tolerances(args: argparse.Namespace) -> int:
     int
         0 on success [-].
     """
+    from plyrisk.results.dataset import read_results
+    from plyrisk.study.config import load_study, require_runnable
+    from plyrisk.study.targets import parse_target
+    from plyrisk.tolerances.output import manufacturing_table, tolerance_text, write_tolerance_csv
+    from plyrisk.tolerances.study import run_tolerances, settings_for_study
+
     study = load_study(args.config)
     require_runnable(study)
     if args.samples is not None and args.samples < 2:
@@ -391,6 +355,9 @@ def build_parser() -> argparse.ArgumentParser:
         description="Uncertainty and sensitivity studies of steady heat transfer through "
         "multilayer heat-protective assemblies. Engineering estimates only.",
     )
+    from plyrisk.provenance import package_version
+
+    parser.add_argument("--version", action="version", version=f"{PROG} {package_version()}")
     sub = parser.add_subparsers(dest="verb", metavar="VERB", parser_class=_Parser)
     for add in VERBS:
         add(sub)
@@ -424,7 +391,7 @@ def main(argv: Sequence[str] | None = None) -> int:
         return int(args.func(args))
     except ConfigError as err:
         return _fail(str(err))
-    except UsageError as err:
+    except (UsageError, PlyriskError) as err:
         return _fail(f"{err} (see '{PROG} {args.verb} --help')")
     except OSError as err:  # unwritable output folder, disk full, ...
         where = f"{err.filename}: " if getattr(err, "filename", None) else ""

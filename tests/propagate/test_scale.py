@@ -16,7 +16,7 @@ import xarray as xr
 from plyrisk.cli import main
 from plyrisk.pipeline.run import run_study
 from plyrisk.propagate import compute, store
-from plyrisk.propagate.evaluate import OUTPUT_FIELDS, study_plan
+from plyrisk.propagate.evaluate import study_plan
 
 pytestmark = pytest.mark.slow  # dask clusters and Zarr stores
 
@@ -30,7 +30,7 @@ def _samples(study, samples: int):
 
 def _stored(path) -> dict[str, np.ndarray]:
     reader = store.StoreReader(path)
-    return {name: reader.read(name) for name in ("input", "sample_block", *OUTPUT_FIELDS)}
+    return {name: reader.read(name) for name in ("input", "sample_block", *reader.output_names)}
 
 
 def _assert_same(a: dict, b: dict) -> None:
