@@ -256,7 +256,8 @@ def _vertical_onset_thresholds() -> tuple[float, float, float]:
     return float(ra1), float(ra2), float(r3)
 
 
-def warn_outside_range(rayleigh: np.ndarray, *, orientation: str, aspect_ratio) -> None:
+def warn_outside_range(rayleigh: np.ndarray, *, orientation: str,
+                       aspect_ratio: ArrayLike) -> None:
     """Warn (once per message) when a correlation is used outside its validity range.
 
     Parameters

@@ -16,6 +16,7 @@ from scipy.constants import Stefan_Boltzmann as SIGMA
 from scipy.constants import g as STANDARD_GRAVITY
 
 from plyrisk.models import air, convection
+from plyrisk.models.boundary import FloatArray
 
 RADIATION_MODES = ("exact", "linearized")
 
@@ -24,10 +25,10 @@ def solid_heat_flux(
     hot_face_temperature: np.ndarray,
     cold_face_temperature: np.ndarray,
     *,
-    thickness: ArrayLike,
-    conductivity: ArrayLike,
-    conductivity_slope: ArrayLike = 0.0,
-    reference_temperature: ArrayLike = 293.15,
+    thickness: FloatArray,
+    conductivity: FloatArray,
+    conductivity_slope: FloatArray = 0.0,
+    reference_temperature: FloatArray = 293.15,
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Conduction through a slab whose conductivity is linear in temperature.
 
@@ -79,7 +80,7 @@ def contact_heat_flux(
     hot_face_temperature: np.ndarray,
     cold_face_temperature: np.ndarray,
     *,
-    contact_resistance: ArrayLike,
+    contact_resistance: FloatArray,
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Heat flow across a contact resistance, ``q = (Ta - Tb) / R_c``.                  (E.2)
 

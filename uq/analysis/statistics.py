@@ -107,7 +107,7 @@ def _order_statistic_ranks(n: int, p: float, alpha: float) -> tuple[int, int]:
     return lower, upper
 
 
-def quantiles(y: np.ndarray, probabilities: Sequence[float] = (0.05, 0.5, 0.95), *,
+def quantiles(y: np.ndarray, probabilities: Sequence[float] | np.ndarray = (0.05, 0.5, 0.95), *,
               confidence: float = 0.90) -> QuantileEstimate:
     """Sample quantiles with order-statistic confidence intervals.
 

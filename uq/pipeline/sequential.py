@@ -16,6 +16,7 @@ pass the run budget.
 from __future__ import annotations
 
 from dataclasses import dataclass, replace
+from typing import TYPE_CHECKING
 
 import numpy as np
 import xarray as xr
@@ -32,6 +33,9 @@ from plyrisk.propagate.evaluate import (
     scenario_count,
     unit_to_inputs,
 )
+
+if TYPE_CHECKING:  # pragma: no cover - for type checkers only
+    from plyrisk.study.definition import Study
 
 
 @dataclass(frozen=True)
@@ -74,7 +78,7 @@ class Growth:
         The half-width target and the run budget.
     """
 
-    study: object
+    study: Study
     propagation: Propagation
     analysis: StudyAnalysis
     steps: tuple[GrowthStep, ...]
@@ -123,8 +127,8 @@ def _stack(first: Design, second: Design) -> Design:
     return Design(unit, block, "sobol", first.base_samples + second.base_samples, first.groups)
 
 
-def grow_until_converged(study, *, max_runs: int | None = None, chunk_size: int | None = None,
-                         workers: int = 1) -> Growth:
+def grow_until_converged(study: Study, *, max_runs: int | None = None,
+                         chunk_size: int | None = None, workers: int = 1) -> Growth:
     """Double a Saltelli study's base samples until its index intervals are narrow enough.
 
     Parameters

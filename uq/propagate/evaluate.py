@@ -116,7 +116,7 @@ def unit_to_inputs(parameters: Sequence, unit: np.ndarray) -> np.ndarray:
     return out
 
 
-def model_objects(study, values: np.ndarray | None = None, *, scenario: int | None = None):
+def model_objects(study: Study, values: np.ndarray | None = None, *, scenario: int | None = None):
     """Build the model's layers and boundaries for a block of samples.
 
     Parameters
@@ -139,30 +139,30 @@ def model_objects(study, values: np.ndarray | None = None, *, scenario: int | No
     return assemble(study, columns, scenario=scenario if study.scenarios is not None else None)
 
 
-def _solve(study, values: np.ndarray | None, scenario: int | None) -> NetworkSolution:
+def _solve(study: Study, values: np.ndarray | None, scenario: int | None) -> NetworkSolution:
     layers, hot, cold = model_objects(study, values, scenario=scenario)
     # validate=False: the distributions keep every draw inside its physical bounds
     return solve_network(layers, hot, cold, validate=False, **study.model.solver_kwargs())
 
 
-def scenario_count(study) -> int:
+def scenario_count(study: Study) -> int:
     """Number of exposures evaluated: the sweep length, or 1."""
     return 1 if study.scenarios is None else len(study.scenarios.values)
 
 
-def _evaluate_block(study, block: np.ndarray) -> list[NetworkSolution]:
+def _evaluate_block(study: Study, block: np.ndarray) -> list[NetworkSolution]:
     """Solve one chunk of samples for every scenario (runs on a worker too)."""
     scenarios = [None] if study.scenarios is None else range(scenario_count(study))
     return [_solve(study, block, scenario) for scenario in scenarios]
 
 
-def _evaluate_range(study, start: int, block: np.ndarray):
+def _evaluate_range(study: Study, start: int, block: np.ndarray):
     """A task of :func:`evaluate`: the chunk's first row and its solutions."""
     return start, start + block.shape[0], _evaluate_block(study, block)
 
 
 def evaluate(
-    study,
+    study: Study,
     values: np.ndarray,
     *,
     chunk_size: int | None = None,
@@ -231,12 +231,12 @@ def evaluate(
     )
 
 
-def nominal_solution(study, *, scenario: int | None = None) -> NetworkSolution:
+def nominal_solution(study: Study, *, scenario: int | None = None) -> NetworkSolution:
     """Solve the nominal stack (every uncertain value at its distribution's nominal)."""
     return _solve(study, None, scenario)
 
 
-def study_plan(study) -> DesignPlan:
+def study_plan(study: Study) -> DesignPlan:
     """The design of a study as a :class:`plyrisk.design.sampling.DesignPlan` (per-layer groups for
     Sobol').
 
@@ -270,7 +270,7 @@ def study_plan(study) -> DesignPlan:
     )
 
 
-def study_design(study) -> Design:
+def study_design(study: Study) -> Design:
     """The whole unit-hypercube design of a study (see :func:`study_plan`)."""
     a = study.analysis
     if a.design == "morris":
@@ -279,7 +279,7 @@ def study_design(study) -> Design:
     return study_plan(study).design()
 
 
-def parameter_groups(study) -> tuple[list[str], list[tuple[int, ...]]]:
+def parameter_groups(study: Study) -> tuple[list[str], list[tuple[int, ...]]]:
     """Group names (layers, ``hot_side``, ``cold_side``) and the parameter indices in each."""
     names: list[str] = []
     members: dict[str, list[int]] = {}
@@ -292,7 +292,7 @@ def parameter_groups(study) -> tuple[list[str], list[tuple[int, ...]]]:
 
 
 def propagate(
-    study,
+    study: Study,
     *,
     chunk_size: int | None = None,
     quiet: bool = False,

@@ -91,8 +91,8 @@ def write_csv_tables(ds: xr.Dataset, out: Path) -> list[Path]:
                 rank.append([label, PRIMARY, "parameter", r, names[j],
                              "spearman_rank_correlation", rho[j], None, None])
     first_seen: dict[tuple, int] = {}
-    for r in rank:
-        first_seen.setdefault((r[0], r[1], r[2], r[5]), len(first_seen))
+    for row in rank:
+        first_seen.setdefault((row[0], row[1], row[2], row[5]), len(first_seen))
     rank.sort(key=lambda r: (first_seen[(r[0], r[1], r[2], r[5])], r[3]))
     return [
         write_csv(out / "quantiles.csv", ["scenario", "quantity", "interface", "probability",

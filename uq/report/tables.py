@@ -13,7 +13,7 @@ import math
 import tomllib
 from collections.abc import Mapping
 from dataclasses import dataclass, fields
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 import xarray as xr
@@ -22,6 +22,9 @@ from plyrisk.report.figures import outputs as fg
 from plyrisk.report.figures.common import PRIMARY
 from plyrisk.results.dataset import scenario_slices
 from plyrisk.study.units import QUANTITIES, TEMPERATURE, format_value
+
+if TYPE_CHECKING:  # pragma: no cover - for type checkers only
+    from plyrisk.study.definition import Study
 
 __all__ = ["INDEX_KEYS", "IndexSet", "Table", "cell_text", "convergence_summary",
            "exposure_text", "headline_table", "index_sets", "nonconverged_table",
@@ -88,7 +91,7 @@ def exposure_text(ds: xr.Dataset, label: str) -> str:
 # ----------------------------------------------------------------------------------------------
 
 
-def stack_tables(study, ds: xr.Dataset) -> list[Table]:
+def stack_tables(study: Study, ds: xr.Dataset) -> list[Table]:
     """The hot side, the assembly and the cold side: each quantity's nominal value and
     uncertainty in the user's units, from the re-read ``study``."""
     raw = tomllib.loads(study.text)
@@ -112,7 +115,7 @@ def stack_tables(study, ds: xr.Dataset) -> list[Table]:
             if key in given:
                 shown = given[key] if isinstance(given[key], str) else cell_text(given[key])
                 note = ""
-                if where == ("hot_side",) and key == swept:
+                if where == ("hot_side",) and key == swept and study.scenarios is not None:
                     note = "swept: " + ", ".join(study.scenarios.labels)
                 rows.append([key, shown, note or "fixed", ""])
                 continue
@@ -345,6 +348,7 @@ def convergence_summary(ds: xr.Dataset) -> tuple[list[str], Table | None]:
     rows = []
     for _, label, one in scenario_values(ds):
         for ix in index_sets(one):
+            assert ix.p_converged is not None and ix.g_converged is not None  # Sobol indices
             s = one.sel(output=ix.output)
             bad_p = [str(n) for n, c in zip(one["parameter"].values, ix.p_converged,
                                             strict=True) if not c]

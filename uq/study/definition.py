@@ -338,8 +338,8 @@ def assemble(
     if unknown:
         raise ValueError(f"unknown parameter(s) {unknown}; valid: {', '.join(by_name)}")
     layers = list(study.layers)
-    sides = {"hot_side": {}, "cold_side": {}}
-    per_layer: dict[int, dict] = {}
+    sides: dict[str, dict[str, Any]] = {"hot_side": {}, "cold_side": {}}
+    per_layer: dict[int, dict[str, Any]] = {}
     for name, v in values.items():
         p = by_name[name]
         arr = np.asarray(v, dtype=float)

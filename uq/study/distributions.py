@@ -61,6 +61,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
+from numpy.typing import ArrayLike
 from scipy import stats
 
 __all__ = ["KINDS", "Bounds", "Distribution", "make_distribution"]
@@ -368,7 +369,7 @@ class Distribution:
             return self._loc + self._scale * z
         return self._loc * np.exp(self._scale * z)
 
-    def ppf(self, u: np.ndarray) -> np.ndarray:
+    def ppf(self, u: ArrayLike) -> np.ndarray:
         """Quantile function of the (truncated) distribution.
 
         Parameters

@@ -18,6 +18,7 @@ import re
 import sys
 from dataclasses import dataclass
 from types import ModuleType
+from typing import TYPE_CHECKING
 
 import numpy as np
 from numpy.typing import ArrayLike
@@ -46,9 +47,12 @@ def _import_pint_without_dask() -> ModuleType:
     return pint
 
 
-pint = _import_pint_without_dask()
+if TYPE_CHECKING:  # pragma: no cover - type checkers see the module itself
+    import pint
+else:
+    pint = _import_pint_without_dask()
 
-ureg = pint.UnitRegistry()
+ureg: pint.UnitRegistry = pint.UnitRegistry()
 """The one unit registry of plyrisk."""
 
 _EXPONENT = re.compile(r"(?<=[A-Za-z])(-?\d+)(?![\w.])")
@@ -303,7 +307,7 @@ def to_si(
             f"unit {unit or '(none)'!r} has dimension {_dim(units)}, not {_dim(target)}"
         )
     try:
-        return ureg.Quantity(values, units).to(target).magnitude
+        return ureg.Quantity(_magnitudes(values), units).to(target).magnitude
     except Exception as err:  # e.g. an offset unit inside a product
         raise UnitError(f"cannot convert {unit!r} to {spec.si_unit} ({err})") from None
 
@@ -325,7 +329,7 @@ def from_si(
         The values are temperature differences: K → degC has no offset.
     """
     units = _units(unit, difference=difference)
-    return ureg.Quantity(values, ureg.parse_units(spec.si_unit)).to(units).magnitude
+    return ureg.Quantity(_magnitudes(values), ureg.parse_units(spec.si_unit)).to(units).magnitude
 
 
 def format_value(
@@ -348,6 +352,11 @@ def format_value(
     """
     shown = float(from_si(value, unit, spec, difference=difference))
     return f"{_g(shown, digits)} {unit}".rstrip()
+
+
+def _magnitudes(values: ArrayLike) -> float | np.ndarray:
+    """Numbers stay numbers, anything else becomes a float array (as pint would make it)."""
+    return values if isinstance(values, int | float) else np.asarray(values, dtype=float)
 
 
 def _units(unit: str, *, difference: bool) -> pint.Unit:

@@ -4,10 +4,14 @@ index with its convergence status, and of the surrogate's percentiles."""
 from __future__ import annotations
 
 from collections.abc import Callable
+from typing import TYPE_CHECKING
 
 import numpy as np
 
 from plyrisk.analysis.sobol import RankedIndex
+
+if TYPE_CHECKING:  # pragma: no cover - for type checkers only
+    from plyrisk.study.definition import Study
 
 
 def _flag(value: float, converged: bool) -> str:
@@ -47,7 +51,7 @@ def ranked_line(rank: int, item: RankedIndex, *, first: bool = True) -> str:
     return text
 
 
-def index_lines(study, sc, *, top: int, temperature: Callable[[float], str]) -> list[str]:
+def index_lines(study: Study, sc, *, top: int, temperature: Callable[[float], str]) -> list[str]:
     """Lines of the ranking of the inner-surface temperature of one exposure.
 
     Parameters

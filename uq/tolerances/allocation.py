@@ -201,8 +201,8 @@ def run_allocation(run: Runner, whatif: WhatIfStudy | None) -> Allocation:
                       float(np.sum(weights)), monotone, ver)
 
 
-def verify(problem: ToleranceProblem, settings: ToleranceSettings, factors: Sequence[float], *,
-           seed: int) -> Verification:
+def verify(problem: ToleranceProblem, settings: ToleranceSettings,
+           factors: Sequence[float] | np.ndarray, *, seed: int) -> Verification:
     """Re-run the model with given spread factors on an independent design.
 
     Parameters
@@ -220,16 +220,16 @@ def verify(problem: ToleranceProblem, settings: ToleranceSettings, factors: Sequ
     -------
     Verification
     """
-    factors = np.asarray(factors, dtype=float)
-    if factors.shape != (len(problem.names),):
+    f = np.asarray(factors, dtype=float)
+    if f.shape != (len(problem.names),):
         raise ValueError(f"need one factor per parameter ({len(problem.names)}), got shape "
-                         f"{factors.shape}")
+                         f"{f.shape}")
     # A design VERIFICATION_SCALE times larger than the search's, so that the new run's own
     # confidence interval is narrower than the one the allocation was sized on.
     settings = replace(settings, samples=VERIFICATION_SCALE * settings.samples)
     run = Runner(problem, settings, seed=seed)
-    out = run.outcome({j: d.with_spread(float(factors[j]))
-                       for j, d in enumerate(problem.distributions) if factors[j] != 1.0})
+    out = run.outcome({j: d.with_spread(float(f[j]))
+                       for j, d in enumerate(problem.distributions) if f[j] != 1.0})
     s = out.scenario
     if run.target.kind == "quantile":
         value, lower, upper = out.quantile[s], out.quantile_lower[s], out.quantile_upper[s]

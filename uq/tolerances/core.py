@@ -303,5 +303,5 @@ def factor_cap(dist: Distribution, max_factor: float) -> tuple[float, bool]:
 
 def factor_grid(cap: float) -> list[float]:
     """Spread factors scanned before bisection: 0 to 1 by quarters, then doubling to ``cap``."""
-    above = np.geomspace(1.0, cap, max(2, math.ceil(math.log2(cap)) + 1)) if cap > 1.0 else []
+    above = np.geomspace(1.0, cap, max(2, math.ceil(math.log2(cap)) + 1)) if cap > 1.0 else ()
     return sorted(set(_GRID_BELOW_ONE) | {float(v) for v in above} | {cap})

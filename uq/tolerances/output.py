@@ -17,6 +17,7 @@ from pathlib import Path
 
 from plyrisk.cautions import cautions_text
 from plyrisk.study.definition import Parameter, Study
+from plyrisk.study.targets import Target
 from plyrisk.study.units import TEMPERATURE, from_si
 from plyrisk.text.tables import text_table
 from plyrisk.tolerances.study import Outcome, ToleranceReport
@@ -67,9 +68,15 @@ class ManufacturingRow:
     target: str
 
 
+def _target(report: ToleranceReport) -> Target:
+    t = report.settings.target
+    assert isinstance(t, Target), "a report's settings hold the parsed target"
+    return t
+
+
 def target_text(report: ToleranceReport, study: Study) -> str:
     """The target with its bound in the user's unit, e.g. ``"P95 <= limit (44 degC)"``."""
-    t = report.settings.target
+    t = _target(report)
     text = t.text
     if t.kind == "quantile" and t.uses_limit:
         text += f" ({study.format_temperature(report.bound)})"
@@ -171,7 +178,7 @@ def _metric(report: ToleranceReport, study: Study, value: float, *,
             difference: bool = False) -> str:
     if not math.isfinite(value):
         return "n/a"
-    if report.settings.target.kind == "exceedance":
+    if _target(report).kind == "exceedance":
         return (f"{100 * value:+.3g} %" if difference else _pct(value))
     if difference:
         sign = "-" if value < 0 else "+"
@@ -303,7 +310,7 @@ def _allocation_lines(report: ToleranceReport, study: Study) -> list[str]:
         out.append(f"  kept at the current spread (not a manufacturing tolerance): "
                    f"{', '.join(a.kept)}")
     v = a.verification
-    t = st.target
+    t = _target(report)
     if v.met:
         verdict = "MET"
     elif v.met_estimate:
@@ -321,6 +328,7 @@ def _allocation_lines(report: ToleranceReport, study: Study) -> list[str]:
 
 def _shift_lines(report: ToleranceReport, study: Study) -> list[str]:
     s = report.nominal_shift
+    assert s is not None, "called for a report with a nominal shift"
     p = next(q for q in study.parameters if q.name == s.name)
     rng = f"[{p.format(s.low)}, {p.format(s.high)}]"
     if s.status == "not reachable":

@@ -40,7 +40,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from plyrisk.study.targets import parse_target
+from plyrisk.study.targets import Target, parse_target
 from plyrisk.tolerances.allocation import (
     Allocation,
     Verification,
@@ -223,6 +223,7 @@ def check_sample_size(settings: ToleranceSettings) -> None:
         Resolved settings.
     """
     t = settings.target
+    assert isinstance(t, Target), "resolved settings hold the parsed target"
     if settings.basis != "bound" or t.kind != "quantile":
         return
     alpha = 1.0 - settings.level

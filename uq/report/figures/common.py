@@ -15,10 +15,12 @@ from __future__ import annotations
 
 from collections.abc import Iterator
 from contextlib import contextmanager
+from typing import Any
 
 import matplotlib as mpl
 import numpy as np
 import xarray as xr
+from matplotlib.rcsetup import cycler
 
 from plyrisk.study.units import QUANTITIES, TEMPERATURE, from_si
 
@@ -57,7 +59,7 @@ SOLID_FILL = "#ece8e1"
 GAP_FILL = "#f7f9fc"
 PRIMARY = "inner_surface_temperature"
 
-STYLE = {
+STYLE: dict[Any, Any] = {  # rcParams (matplotlib types their names as literals)
     "font.family": "DejaVu Sans",
     "font.size": 9.0,
     "axes.titlesize": 10.0,
@@ -84,7 +86,7 @@ STYLE = {
     "hatch.linewidth": 0.6,
     "svg.fonttype": "path",
     "svg.hashsalt": "plyrisk",
-    "axes.prop_cycle": mpl.cycler(color=[BLUE, ORANGE, GREY]),
+    "axes.prop_cycle": cycler(color=[BLUE, ORANGE, GREY]),
 }
 """The plyrisk look: rcParams applied while a figure is built (and saved, by
 :mod:`plyrisk.report.html`)."""

@@ -233,8 +233,9 @@ def surrogate_indices_figure(ds: xr.Dataset, *, scenario: int | None = None,
         fig = Figure(figsize=(8.0, 1.9 + 0.42 * len(names)), layout="constrained")
         ax = fig.add_subplot()
         ax.set_label("surrogate group indices" if groups else "surrogate indices")
-        _paired_bars(ax, names, *(one[f"{prefix}_{v}"].values for v in
-                                  ("first", "first_ci", "total", "total_ci")), None, None)
+        first, first_ci, total, total_ci = (one[f"{prefix}_{v}"].values for v in
+                                            ("first", "first_ci", "total", "total_ci"))
+        _paired_bars(ax, names, first, first_ci, total, total_ci, None, None)
         ax.set_xlabel("Sobol index from the surrogate")
         fit = (f"polynomial-chaos surrogate of order {order}, leave-one-out Q2 = {q2:.3f}"
                if np.isfinite(q2) else "no surrogate could be fitted")
