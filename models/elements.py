@@ -72,7 +72,9 @@ def solid_heat_flux(
                           conductivity_slope, reference_temperature)
 
 
-def conduction_law(ta, tb, thickness, conductivity, conductivity_slope, reference_temperature):
+def conduction_law(ta: np.ndarray, tb: np.ndarray, thickness: FloatArray, conductivity: FloatArray,
+                   conductivity_slope: FloatArray, reference_temperature: FloatArray,
+                   ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Eq. (E.1) with positional arguments (the form compiled for the transient kernels).
 
     Parameters and returns as for :func:`solid_heat_flux`.
