@@ -14,26 +14,25 @@ CAUTIONS = (
     "or sweat; still air in gaps unless convection is enabled; grey, diffuse, opaque surfaces; "
     "one-dimensional heat flow; dry-air properties checked for 250-1500 K only.",
 )
-"""The cautions, one sentence group per item."""
+"""The cautions of a steady study, one sentence group per item."""
 
 TRANSIENT_CAUTIONS = (
     CAUTIONS[0],
     CAUTIONS[1],
-    "Transient model limits: one-dimensional heat flow; dry fabrics (no moisture, sweat or "
-    "evaporation); no melting, shrinkage, charring or degradation; no compression of layers or "
-    "gaps during the exposure; constant thermal properties apart from the linear temperature "
-    "terms given; still air in gaps unless convection is enabled; grey, diffuse surfaces; a "
-    "three-layer skin with published property sets, or a lumped copper-disc sensor standing in "
-    "for skin; the initial skin profile, perfusion and skin emissivity each move the time to "
-    "burn by a few per cent up to about 30 %.",
-    "The published burn criteria scatter widely: they are fitted to different experiments "
-    "(human forearm and pig skin, bare skin, constant exposures), and at a constant basal "
-    "temperature of 50 °C the Henriques (1947) and Weaver & Stoll (1969) damage constants "
-    "give times to a second-degree burn of 202 s and 20 s. A time to burn is an estimate "
-    "within that scatter, not a prediction of an injury; the confidence intervals shown cover "
-    "the sampling of the inputs only, not the scatter of the criteria.",
+    "Times to burn are model estimates: the published burn criteria they rest on (the "
+    "Henriques-type damage integral and its parameter sets, the Stoll & Chianta curve) scatter "
+    "widely between sources and people. At a constant basal temperature of 50 °C the Henriques "
+    "(1947) and Weaver & Stoll (1969) constants give 202 s and 20 s to a second-degree burn; "
+    "the skin properties, initial skin profile and perfusion move the answer by tens of per "
+    "cent. The confidence intervals shown cover the sampling of the inputs only, not that "
+    "scatter.",
+    "Model limits: one-dimensional heat flow; dry fabrics (no moisture, sweat or vapour); no "
+    "compression; no degradation, shrinkage, charring or melting; grey, diffuse surfaces "
+    "(in-depth absorption only where configured); still air in gaps unless convection is "
+    "enabled; a three-layer skin with published property sets, or a lumped copper-disc sensor "
+    "standing in for skin; dry-air properties checked for 250-1500 K only.",
 )
-"""The cautions of a transient study: the model's limits and the scatter of the burn criteria."""
+"""The cautions of a transient study (times to burn, sensor criterion)."""
 
 
 def cautions_text(*, heading: str = "CAUTIONS", width: int = 92,
@@ -43,11 +42,11 @@ def cautions_text(*, heading: str = "CAUTIONS", width: int = 92,
     Parameters
     ----------
     heading
-        First line of the block [-].
+        First line of the block.
     width
-        Maximum line length [-].
+        Maximum line length.
     transient
-        The cautions of a transient study (:data:`TRANSIENT_CAUTIONS`) [-].
+        The cautions of a transient study (times to burn) instead of a steady one.
 
     Returns
     -------

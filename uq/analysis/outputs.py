@@ -40,18 +40,18 @@ class DerivedOutput:
     Attributes
     ----------
     name
-        Output name (``[study] outputs``, the dataset's ``output`` coordinate) [-].
+        Output name (``[study] outputs``, the dataset's ``output`` coordinate).
     source
-        The per-sample transient output it is computed from [-].
+        The per-sample transient output it is computed from.
     units
-        Units (UDUNITS spelling) [-].
+        Units (UDUNITS spelling).
     long_name
-        Description [-].
+        Description.
     rule
         How it is derived: said in the dataset and the report, since indices of a capped or
-        floored output mean something different from those of the output itself [-].
+        floored output mean something different from those of the output itself.
     transform
-        ``(values, horizon) -> values``; NaN (not converged) stays NaN [-].
+        ``(values, horizon) -> values``; NaN (not converged) stays NaN.
     """
 
     name: str

@@ -50,7 +50,7 @@ __all__ = ["BAND_PROBABILITIES", "BurnProbability", "CensoredQuantiles", "Exposu
            "is_transient", "temperature_bands", "transient_facts"]
 
 BAND_PROBABILITIES = (0.01, 0.05, 0.5, 0.95, 0.99)
-"""Percentiles of the temperature bands over time [-]."""
+"""Percentiles of the temperature bands over time."""
 
 EVENTS: dict[str, tuple[tuple[str, str], ...]] = {
     "skin": (("first_degree_burn", "time_to_first_degree_burn"),
@@ -84,7 +84,7 @@ BAND_HISTORIES = {"skin": ("basal_temperature", "surface_temperature"),
 
 
 def is_transient(study: Any) -> bool:
-    """Whether a study runs the transient model (it has a ``transient`` setup) [-]."""
+    """Whether a study runs the transient model (it has a ``transient`` setup)."""
     return getattr(study, "transient", None) is not None
 
 
@@ -97,11 +97,11 @@ class TransientFacts:
     horizon
         End of the simulated time, shared by every sample [s].
     wearer_kind
-        ``"skin"``, ``"sensor"`` or ``"prescribed"`` [-].
+        ``"skin"``, ``"sensor"`` or ``"prescribed"``.
     acceptable_burn_probability
-        Largest acceptable P(headline event) for the exposure read-off; ``None`` for none [-].
+        Largest acceptable P(headline event) for the exposure read-off; ``None`` for none.
     damage_model
-        Damage parameter set at the basal depth [-].
+        Damage parameter set at the basal depth.
     """
 
     horizon: float
@@ -111,7 +111,7 @@ class TransientFacts:
 
 
 def transient_facts(study: Any) -> TransientFacts:
-    """The horizon, wearer kind, acceptable probability and damage model of a study [-]."""
+    """The horizon, wearer kind, acceptable probability and damage model of a study."""
     t = study.transient
     kind = getattr(t, "wearer_kind", None) or getattr(getattr(t, "wearer", None), "kind", None)
     if kind not in EVENTS:
@@ -135,18 +135,18 @@ class CensoredQuantiles:
     Attributes
     ----------
     probabilities
-        Probability levels [-].
+        Probability levels.
     estimate, lower, upper
         Percentile and its distribution-free confidence bounds [s]; ``+inf`` where beyond the
         horizon, NaN where the sample is too small for a bound.
     estimate_beyond, lower_beyond, upper_beyond
-        Where the value is only known to exceed the horizon ("> horizon") [-].
+        Where the value is only known to exceed the horizon ("> horizon").
     confidence
-        Confidence level of the bounds [-].
+        Confidence level of the bounds.
     n
-        Converged samples used [-].
+        Converged samples used.
     events
-        Samples in which the event occurred within the horizon [-].
+        Samples in which the event occurred within the horizon.
     horizon
         The shared horizon [s].
     """
@@ -165,7 +165,7 @@ class CensoredQuantiles:
 
     @property
     def no_event_fraction(self) -> float:
-        """Share of the converged samples without the event by the horizon [-]."""
+        """Share of the converged samples without the event by the horizon."""
         return (self.n - self.events) / self.n if self.n else math.nan
 
 
@@ -186,11 +186,11 @@ def censored_quantiles(times: np.ndarray, probabilities: Sequence[float], *, hor
         Time of the event per sample, ``+inf`` where it does not occur, NaN where the sample did
         not converge (excluded) [s].
     probabilities
-        Levels in (0, 1) [-].
+        Levels in (0, 1).
     horizon
         The horizon every sample was followed to; finite times must not exceed it [s].
     confidence
-        Two-sided confidence level of the bounds [-].
+        Two-sided confidence level of the bounds.
 
     Returns
     -------
@@ -253,17 +253,17 @@ class BurnProbability:
     Attributes
     ----------
     event
-        E.g. ``"second_degree_burn"`` or ``"sensor_criterion"`` [-].
+        E.g. ``"second_degree_burn"`` or ``"sensor_criterion"``.
     probability, lower, upper
-        Share of converged samples with the event, and its confidence bounds [-].
+        Share of converged samples with the event, and its confidence bounds.
     confidence
-        Confidence level [-].
+        Confidence level.
     n
-        Converged samples [-].
+        Converged samples.
     count
-        Samples with the event [-].
+        Samples with the event.
     method
-        ``"wilson"`` or ``"clopper-pearson"`` [-].
+        ``"wilson"`` or ``"clopper-pearson"``.
     """
 
     event: str
@@ -285,14 +285,14 @@ def burn_probability(times: np.ndarray, event: str, *, horizon: float,
     times
         Event time per sample [s].
     event
-        Name of the event [-].
+        Name of the event.
     horizon
         The horizon [s].
     confidence
-        Two-sided confidence level [-].
+        Two-sided confidence level.
     method
         ``"wilson"`` or ``"clopper-pearson"`` (:func:`plyrisk.analysis.statistics.exceedance`)
-        [-].
+       .
 
     Returns
     -------
@@ -322,15 +322,15 @@ class TemperatureBands:
     Attributes
     ----------
     history
-        ``"basal_temperature"`` or ``"surface_temperature"`` [-].
+        ``"basal_temperature"`` or ``"surface_temperature"``.
     time
         Output times [s].
     probabilities
-        Levels [-].
+        Levels.
     values
         Shape ``(len(probabilities), len(time))`` [K].
     n
-        Converged samples used [-].
+        Converged samples used.
     """
 
     history: str
@@ -351,9 +351,9 @@ def temperature_bands(history: np.ndarray, time: np.ndarray, name: str,
     time
         Output times [s].
     name
-        Name of the history [-].
+        Name of the history.
     probabilities
-        Levels in (0, 1) [-].
+        Levels in (0, 1).
 
     Returns
     -------
@@ -385,7 +385,7 @@ class ExposureLimit:
     status
         ``"crosses"`` (read off between two levels), ``"below"`` (acceptable over the whole
         sweep: the limit lies beyond it), ``"above"`` (not acceptable even at the lowest level)
-        or ``"unavailable"`` [-].
+        or ``"unavailable"``.
     value
         The exposure at which the estimated P reaches the acceptable probability, by linear
         interpolation between the last acceptable level and the next; NaN unless ``"crosses"``
@@ -394,9 +394,9 @@ class ExposureLimit:
         The same read-off for the upper confidence bound of P; NaN when it does not cross
         inside the sweep [unit of the sweep].
     cautious_status
-        Status of the upper-bound read-off [-].
+        Status of the upper-bound read-off.
     acceptable
-        The acceptable probability [-].
+        The acceptable probability.
     """
 
     status: str
@@ -430,11 +430,11 @@ def exposure_limit(levels: Sequence[float], probability: Sequence[float],
     levels
         Swept exposure levels (duration or flux), any order [unit of the sweep].
     probability
-        Estimated P(event) per level [-].
+        Estimated P(event) per level.
     upper
-        Upper confidence bound of P per level [-].
+        Upper confidence bound of P per level.
     acceptable
-        The acceptable probability, in (0, 1) [-].
+        The acceptable probability, in (0, 1).
 
     Returns
     -------
@@ -486,9 +486,9 @@ class TransientScenarioAnalysis:
     screening
         Derived output → Morris measures (``method = "morris"``).
     nonconverged
-        Samples that did not converge (excluded from every statistic) [-].
+        Samples that did not converge (excluded from every statistic).
     constant_outputs
-        Derived outputs with no spread in this exposure (no indices: e.g. no sample burns) [-].
+        Derived outputs with no spread in this exposure (no indices: e.g. no sample burns).
     """
 
     times: dict[str, CensoredQuantiles]
@@ -514,20 +514,20 @@ class TransientAnalysis:
     scenarios
         One :class:`TransientScenarioAnalysis` per exposure.
     probabilities
-        Percentile levels of the times and outputs [-].
+        Percentile levels of the times and outputs.
     outputs
-        Derived outputs with indices, the headline one first [-].
+        Derived outputs with indices, the headline one first.
     group_names
-        Parameter groups (layers) of the grouped indices [-].
+        Parameter groups (layers) of the grouped indices.
     facts
         Horizon, wearer kind, acceptable probability, damage model.
     statistics
         Whether the design samples the input distributions (False for Morris: no percentiles or
-        probabilities) [-].
+        probabilities).
     limit
         The exposure read-off of a sweep, else ``None``.
     notes
-        Notes for the summary and the dataset [-].
+        Notes for the summary and the dataset.
     """
 
     scenarios: list[TransientScenarioAnalysis]

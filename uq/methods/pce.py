@@ -125,9 +125,9 @@ def fit_surrogate(study: Study, unit: np.ndarray, y: np.ndarray,
     probabilities
         Quantile levels [-].
     key
-        Name of the output ``y`` (the key of the rankings) [-].
+        Name of the output ``y`` (the key of the rankings).
     quantiles
-        Also compute the surrogate's gated percentiles [-].
+        Also compute the surrogate's gated percentiles.
 
     Returns
     -------

@@ -68,7 +68,7 @@ def _dominant(one: xr.Dataset) -> str:
 
 
 def headline_lines(ds: xr.Dataset) -> list[tuple[str, list[str]]]:
-    """Per exposure: its label and the answer in sentences (time, probability, layer) [-]."""
+    """Per exposure: its label and the answer in sentences (time, probability, layer)."""
     out = []
     event = tf.headline_event(ds)
     conf = f"{100 * float(ds.attrs.get('confidence', math.nan)):g} %"
@@ -132,7 +132,7 @@ def _sweep_sentence(ds: xr.Dataset) -> str:
 
 
 def transient_figures(ds: xr.Dataset) -> list[Any]:
-    """Every figure of a transient report, in order (built, not saved) [-]."""
+    """Every figure of a transient report, in order (built, not saved)."""
     from plyrisk.report.html import ReportFigure
 
     out = []
@@ -274,11 +274,11 @@ def write_transient_report(ds: xr.Dataset, out_dir: str | Path, *,
     Parameters
     ----------
     ds
-        A transient results dataset [-].
+        A transient results dataset.
     out_dir
-        Folder to write into [-].
+        Folder to write into.
     tolerance_table
-        Tolerance recommendations (as for :func:`plyrisk.report.html.write_report`) [-].
+        Tolerance recommendations (as for :func:`plyrisk.report.html.write_report`).
 
     Returns
     -------

@@ -51,13 +51,13 @@ def transient_dataset(study: Study, propagation: Propagation, analysis: Transien
     Parameters
     ----------
     study
-        The transient study [-].
+        The transient study.
     propagation
-        Its propagation (transient outputs, ``outputs.time``) [-].
+        Its propagation (transient outputs, ``outputs.time``).
     analysis
-        Its :class:`~plyrisk.analysis.transient.TransientAnalysis` [-].
+        Its :class:`~plyrisk.analysis.transient.TransientAnalysis`.
     method
-        The analysis method (recorded in the attributes) [-].
+        The analysis method (recorded in the attributes).
 
     Returns
     -------

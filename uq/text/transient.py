@@ -27,7 +27,7 @@ EVENT_TEXT = {"first_degree_burn": "first-degree burn", "second_degree_burn":
 
 
 def seconds(value: float, horizon: float, *, beyond: bool | None = None) -> str:
-    """A time [s] as text: ``"> 30 s"`` beyond the horizon, ``"n/a"`` for NaN [-]."""
+    """A time [s] as text: ``"> 30 s"`` beyond the horizon, ``"n/a"`` for NaN."""
     if beyond or (beyond is None and math.isinf(value) and value > 0):
         return f"> {horizon:g} s"
     if not math.isfinite(value):
@@ -36,12 +36,12 @@ def seconds(value: float, horizon: float, *, beyond: bool | None = None) -> str:
 
 
 def percent(p: float) -> str:
-    """A probability as a percentage, ``"n/a"`` for NaN [-]."""
+    """A probability as a percentage, ``"n/a"`` for NaN."""
     return "n/a" if not math.isfinite(p) else f"{100 * p:.3g} %"
 
 
 def level_of(q: CensoredQuantiles, p: float) -> int:
-    """Index of the percentile level closest to ``p`` [-]."""
+    """Index of the percentile level closest to ``p``."""
     return int(np.argmin(np.abs(np.asarray(q.probabilities) - p)))
 
 
@@ -54,7 +54,7 @@ def time_text(q: CensoredQuantiles, p: float) -> str:
 
 
 def dominant(study: Any, sc: TransientScenarioAnalysis, output: str) -> tuple[str, str]:
-    """The layer group (or input) that moves ``output`` most, and how it was measured [-].
+    """The layer group (or input) that moves ``output`` most, and how it was measured.
 
     By the total index per layer group (Saltelli or the surrogate); for Morris by the largest
     mu*, naming its input and layer.
@@ -72,7 +72,7 @@ def dominant(study: Any, sc: TransientScenarioAnalysis, output: str) -> tuple[st
 
 
 def headline_sentences(study: Any, analysis: TransientAnalysis, s: int) -> list[str]:
-    """The answer of one exposure in three sentences: time, probability, dominant layer [-]."""
+    """The answer of one exposure in three sentences: time, probability, dominant layer."""
     f = analysis.facts
     sc = analysis.scenarios[s]
     event = HEADLINE_EVENT.get(f.wearer_kind)
@@ -121,15 +121,15 @@ def transient_summary_lines(study: Any, analysis: TransientAnalysis, *, evaluati
     Parameters
     ----------
     study
-        The study [-].
+        The study.
     analysis
-        Its transient analysis [-].
+        Its transient analysis.
     evaluations
-        Model evaluations per exposure [-].
+        Model evaluations per exposure.
     temperature
-        ``kelvin -> text`` in the user's unit [-].
+        ``kelvin -> text`` in the user's unit.
     top
-        Inputs listed per ranking [-].
+        Inputs listed per ranking.
 
     Returns
     -------
@@ -215,7 +215,7 @@ def _rankings(study, analysis: TransientAnalysis, sc, top: int) -> list[str]:
 
 
 def sweep_lines(study, analysis: TransientAnalysis) -> list[str]:
-    """P(headline event) per swept level and the longest acceptable exposure [-]."""
+    """P(headline event) per swept level and the longest acceptable exposure."""
     f = analysis.facts
     event = HEADLINE_EVENT[f.wearer_kind]
     sc = study.scenarios
@@ -229,7 +229,7 @@ def sweep_lines(study, analysis: TransientAnalysis) -> list[str]:
 
 
 def limit_sentence(study, analysis: TransientAnalysis) -> str:
-    """One sentence on the longest exposure whose P(burn) stays acceptable [-]."""
+    """One sentence on the longest exposure whose P(burn) stays acceptable."""
     from plyrisk.study.units import QUANTITIES, from_si
 
     lim = analysis.limit

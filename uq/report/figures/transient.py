@@ -43,7 +43,7 @@ the onset of both published parameter sets)."""
 
 
 def headline_event(ds: xr.Dataset) -> str:
-    """``"second_degree_burn"`` (skin) or ``"sensor_criterion"`` (sensor) [-]."""
+    """``"second_degree_burn"`` (skin) or ``"sensor_criterion"`` (sensor)."""
     return "sensor_criterion" if ds.attrs.get("wearer_kind") == "sensor" else \
         "second_degree_burn"
 
@@ -56,7 +56,7 @@ def _event_source(event: str) -> str:
 
 
 def independent_rows(one: xr.Dataset) -> np.ndarray:
-    """Converged rows drawn from the joint input distribution, for one exposure [-]."""
+    """Converged rows drawn from the joint input distribution, for one exposure."""
     rows = np.ones(one.sizes["sample"], dtype=bool)
     if one.attrs.get("method") == "saltelli":
         rows = np.asarray(one["sample_block"].values) <= 1
@@ -80,9 +80,9 @@ def bands_figure(ds: xr.Dataset, *, scenario: int | None = None) -> Figure:
     Parameters
     ----------
     ds
-        A transient results dataset [-].
+        A transient results dataset.
     scenario
-        Index of the exposure of a swept dataset, ``None`` otherwise [-].
+        Index of the exposure of a swept dataset, ``None`` otherwise.
 
     Returns
     -------
@@ -169,9 +169,9 @@ def burn_time_figure(ds: xr.Dataset, *, scenario: int | None = None) -> Figure:
     Parameters
     ----------
     ds
-        A transient results dataset [-].
+        A transient results dataset.
     scenario
-        Index of the exposure of a swept dataset, ``None`` otherwise [-].
+        Index of the exposure of a swept dataset, ``None`` otherwise.
 
     Returns
     -------
@@ -230,7 +230,7 @@ def burn_sweep_figure(ds: xr.Dataset) -> Figure:
     Parameters
     ----------
     ds
-        A swept transient results dataset [-].
+        A swept transient results dataset.
 
     Returns
     -------
@@ -295,13 +295,13 @@ def layer_indices_figure(ds: xr.Dataset, *, scenario: int | None = None,
     Parameters
     ----------
     ds
-        A transient results dataset [-].
+        A transient results dataset.
     scenario
-        Index of the exposure of a swept dataset, ``None`` otherwise [-].
+        Index of the exposure of a swept dataset, ``None`` otherwise.
     output
-        The derived output (default: the first, the capped time to burn) [-].
+        The derived output (default: the first, the capped time to burn).
     groups
-        Per layer group (True) or per input (False) [-].
+        Per layer group (True) or per input (False).
 
     Returns
     -------
