@@ -16,8 +16,30 @@ CAUTIONS = (
 )
 """The cautions, one sentence group per item."""
 
+TRANSIENT_CAUTIONS = (
+    CAUTIONS[0],
+    CAUTIONS[1],
+    "Model limits (transient): one-dimensional heat flow; dry fabrics (no moisture, sweat or "
+    "steam); no compression, shrinkage, degradation, charring or melting; gaps of fixed width "
+    "with still air (conduction and radiation) unless convection is enabled; grey, diffuse "
+    "surfaces; properties constant apart from the given temperature slopes; skin as three "
+    "layers with Pennes perfusion and a fixed core temperature, a sensor as a lumped copper "
+    "disc.",
+    "Burn criteria: the published damage-integral constants and the copper-disc criterion "
+    "scatter widely (at one basal temperature the times to a second-degree burn of two "
+    "published parameter sets differ by up to a factor of 10); a time to burn is an estimate "
+    "within that scatter, not a prediction of injury.",
+)
+"""The cautions of a transient study (time to burn), one sentence group per item."""
 
-def cautions_text(*, heading: str = "CAUTIONS", width: int = 92) -> str:
+
+def cautions_for(study: object) -> tuple[str, ...]:
+    """The cautions that apply to a study: :data:`TRANSIENT_CAUTIONS` for a transient one."""
+    return TRANSIENT_CAUTIONS if getattr(study, "transient", None) is not None else CAUTIONS
+
+
+def cautions_text(*, heading: str = "CAUTIONS", width: int = 92,
+                  items: tuple[str, ...] = CAUTIONS) -> str:
     """The cautions as a plain-text block, lines wrapped at ``width`` characters.
 
     Parameters
@@ -26,6 +48,8 @@ def cautions_text(*, heading: str = "CAUTIONS", width: int = 92) -> str:
         First line of the block [-].
     width
         Maximum line length [-].
+    items
+        The cautions (:data:`CAUTIONS`, or :data:`TRANSIENT_CAUTIONS`) [-].
 
     Returns
     -------
@@ -33,7 +57,7 @@ def cautions_text(*, heading: str = "CAUTIONS", width: int = 92) -> str:
         The block, ending without a newline.
     """
     lines = [heading]
-    for item in CAUTIONS:
+    for item in items:
         lines.extend(
             textwrap.wrap(item, width=width, initial_indent="  - ", subsequent_indent="    ")
         )
