@@ -187,6 +187,9 @@ def parse_exposure(ctx: Context, raw: Any, parsed: dict) -> dict:
         output_times = output_grid(horizon.si, step.si)
     else:
         output_times = output_grid(horizon.si, horizon.si / (DEFAULT_POINTS - 1))
+    if mode == "absorbed_flux":  # not used in this mode; the model's fields need a value
+        kwargs.update(gas_temperature=kwargs.get("ambient_temperature", 297.15),
+                      convection_coefficient=0.0)
     exposure = TransientExposure(horizon=horizon.si, **kwargs)
     return {"_exposure": exposure, "_exposure_units": units, "_output_times": output_times,
             "parameters": params}
