@@ -10,7 +10,7 @@ from plyrisk.models.boundary import ColdTemperature, HotEnvironment
 from plyrisk.models.exposure import TransientExposure
 from plyrisk.models.mesh import MeshLayout, mesh_layout
 from plyrisk.models.network import solve_network
-from plyrisk.models.sensor import criterion_energy, copper_disc
+from plyrisk.models.sensor import copper_disc, criterion_energy
 from plyrisk.models.skin import skin_properties
 from plyrisk.models.stack import Gap, Solid
 from plyrisk.models.transient import solve_transient
