@@ -10,8 +10,11 @@ adjoining slice (a vertex-centred finite-volume grid).
 Within a layer the slices are refined toward both faces by geometric growth: the first slice
 is ``FIRST_CELL_FACTOR * sqrt(alpha * FIRST_CELL_TIME)`` thick, each next one ``GROWTH`` times
 the previous, capped at ``MAX_CELL_FACTOR * sqrt(alpha * horizon)`` (the penetration depth over
-the horizon). The subcutis (its base held at the core temperature) is refined from its top only, its
-slices growing by ``DEEP_GROWTH`` beyond the penetration depth, and so is the dermis (its base needs no refinement: the gradients there are mild). The
+the horizon). A solid thinner than its penetration depth over the horizon (a fabric) starts
+from ``THIN_FIRST_CELL_FACTOR`` and grows by ``THIN_GROWTH``. The dermis and the subcutis are
+refined from their top only (their bases see mild gradients; the subcutis base is held at the
+core temperature), the subcutis with the thin-solid rule and its slices growing by
+``DEEP_GROWTH`` beyond the penetration depth. The
 numbers of slices (the :class:`MeshLayout`) come from the worst case over all samples,
 so one layout serves every chunk of a study and a sample's grid never depends on its batch.
 """
@@ -33,6 +36,11 @@ GROWTH = 1.12
 """Ratio of consecutive slice thicknesses away from a face [-]."""
 DEEP_GROWTH = 1.5
 """Growth of the slices of a one-sided layer beyond the penetration depth [-]."""
+THIN_FIRST_CELL_FACTOR = 0.1
+"""First slice in a thin solid (thinner than its penetration depth over the horizon: a
+fabric), whose through-flux matters more than its steepest early gradient [-]."""
+THIN_GROWTH = 1.25
+"""Growth of the slices in a thin solid, and in the subcutis (deep, mild gradients) [-]."""
 MAX_CELL_FACTOR = 0.25
 """Largest slice, as a fraction of the penetration depth ``sqrt(alpha * horizon)`` [-]."""
 
@@ -124,23 +132,26 @@ def _diffusivity(conductivity, density, specific_heat) -> np.ndarray:
     )
 
 
-def _meshed_layers(layers, wearer) -> list[tuple[str, object, object, bool]]:
-    """(name, thickness, diffusivity, two_sided) of every layer that gets slices."""
+def _meshed_layers(layers, wearer, horizon) -> list[tuple[str, object, object, bool, bool]]:
+    """(name, thickness, diffusivity, two_sided, thin) of every layer that gets slices."""
     out = []
     for layer in layers:
         if isinstance(layer, Solid):
-            out.append((layer.name, layer.thickness,
-                        _diffusivity(layer.conductivity, layer.density, layer.specific_heat), True))
+            alpha = _diffusivity(layer.conductivity, layer.density, layer.specific_heat)
+            thin = bool(np.max(np.asarray(layer.thickness, float) / np.sqrt(alpha * horizon))
+                        < 1.0)
+            out.append((layer.name, layer.thickness, alpha, True, thin))
     if isinstance(wearer, SkinWearer):
         skin_layers = wearer.layers()
         for i, sl in enumerate(skin_layers):
             alpha = _diffusivity(sl["conductivity"], sl["density"], sl["specific_heat"])
-            out.append((sl["name"], sl["thickness"], alpha, i == 0))
+            out.append((sl["name"], sl["thickness"], alpha, i == 0, i == 2))
     return out
 
 
 def relative_slices(thickness, diffusivity, horizon: float, *, two_sided: bool = True,
-                    refinement: int = 1) -> tuple[float, ...]:
+                    refinement: int = 1, first_cell_factor: float | None = None,
+                    growth: float | None = None) -> tuple[float, ...]:
     """Slice boundaries of one layer as fractions of its thickness, fine enough for all samples.
 
     Parameters
@@ -163,7 +174,9 @@ def relative_slices(thickness, diffusivity, horizon: float, *, two_sided: bool =
     """
     L = np.asarray(thickness, float)
     alpha = np.asarray(diffusivity, float)
-    first = np.min(FIRST_CELL_FACTOR * np.sqrt(alpha * FIRST_CELL_TIME) / L)
+    factor = FIRST_CELL_FACTOR if first_cell_factor is None else first_cell_factor
+    ratio = GROWTH if growth is None else growth
+    first = np.min(factor * np.sqrt(alpha * FIRST_CELL_TIME) / L)
     largest = np.min(MAX_CELL_FACTOR * np.sqrt(alpha * horizon) / L)
     largest = max(largest, first)
     span = 0.5 if two_sided else 1.0
@@ -177,7 +190,7 @@ def relative_slices(thickness, diffusivity, horizon: float, *, two_sided: bool =
             sizes.append(size)
         else:
             sizes.append(min(size, largest))
-            size *= GROWTH
+            size *= ratio
         total += sizes[-1]
     sizes = np.asarray(sizes) * (span / total)  # fill the span exactly
     if two_sided:
@@ -214,10 +227,12 @@ def mesh_layout(layers, wearer, horizon: float, *, refinement: int = 1) -> MeshL
     MeshLayout
     """
     names, fractions = [], []
-    for name, L, alpha, two_sided in _meshed_layers(layers, wearer):
+    for name, L, alpha, two_sided, thin in _meshed_layers(layers, wearer, horizon):
         names.append(name)
-        fractions.append(relative_slices(L, alpha, horizon, two_sided=two_sided,
-                                         refinement=int(refinement)))
+        fractions.append(relative_slices(
+            L, alpha, horizon, two_sided=two_sided, refinement=int(refinement),
+            first_cell_factor=THIN_FIRST_CELL_FACTOR if thin else None,
+            growth=THIN_GROWTH if thin else None))
     return MeshLayout(tuple(names), tuple(fractions))
 
 

@@ -11,7 +11,7 @@ F(T, t)``, are integrated per sample with its own time and step:
 * backward Euler for the first ``BACKWARD_EULER_STEPS`` steps and after every jump of the
   exposure (start, end, table kinks), which the steps land on exactly (S.2);
 * a Newton iteration per stage on the tridiagonal Jacobian, one Thomas sweep per iteration
-  (:func:`plyrisk.models.network.tridiagonal_solve`), each sample frozen once its update is
+  (:func:`plyrisk.models.kernels.implicit_solve`), each sample frozen once its update is
   below the Newton tolerance (S.3);
 * step control per sample from the local error estimate against ``temperature_tolerance``
   (S.4). Each sample keeps its own ``t`` and ``h``, and no quantity mixes samples, so a
@@ -29,8 +29,8 @@ import math
 
 import numpy as np
 
+from plyrisk.models.kernels import implicit_solve
 from plyrisk.models.mesh import Mesh
-from plyrisk.models.network import tridiagonal_solve
 from plyrisk.models.transient_drive import Drive
 from plyrisk.models.transient_problem import Problem, capacity, enthalpy, fluxes, node_sum
 from plyrisk.models.transient_tracking import BurnTracker, SensorTracker, track_peak
@@ -43,6 +43,8 @@ BACKWARD_EULER_STEPS = 2
 """Backward-Euler steps at the start and after each jump of the exposure [-]."""
 NEWTON_ITERATIONS = 8
 """Newton iterations per stage before the step is rejected [-]."""
+NEWTON_TOLERANCE = 1e-2
+"""Newton tolerance as a fraction of the step's temperature tolerance [-]."""
 MAX_NEWTON_MOVE = 50.0
 """Largest change of any node temperature in one Newton iteration [K]."""
 
@@ -71,17 +73,11 @@ def newton(p: Problem, drive_face, absorbed, T, base, theta, h, mask, tol, *, st
             if done.all() or it == NEWTON_ITERATIONS:
                 break
         if steady:
-            R = -F.rhs
-            a, b, c = -F.sub, -F.diag, -F.sup
+            step = implicit_solve(T, p.c0, p.c1, np.ones(k), F.sub, F.diag, F.sup, fixed, F.rhs,
+                                  None, 2)
         else:
-            th = theta * h
-            R = enthalpy(p, T) - base - th * F.rhs
-            a, b, c = -th * F.sub, capacity(p, T) - th * F.diag, -th * F.sup
-        R[fixed] = 0.0
-        a[fixed] = 0.0
-        c[fixed] = 0.0
-        b[fixed] = 1.0
-        step = tridiagonal_solve(a, b, c, -R)
+            step = implicit_solve(T, p.c0, p.c1, theta * h, F.sub, F.diag, F.sup, fixed, F.rhs,
+                                  base, 0)
         move = np.max(np.abs(step), axis=0)
         scale = np.where(move > MAX_NEWTON_MOVE, MAX_NEWTON_MOVE / move, 1.0)
         live = ~done
@@ -110,7 +106,7 @@ def integrate(p: Problem, drive: Drive, mesh: Mesh, T0: np.ndarray, out: dict, o
     """Step every sample from 0 to the horizon; write the per-sample outputs into ``out``."""
     k = T0.shape[1]
     tol = opts["temperature_tolerance"]
-    newton_tol = 1e-3 * tol
+    newton_tol = NEWTON_TOLERANCE * tol
     horizon = drive.horizon
     tout = opts["output_times"]
     K = tout.size
@@ -189,9 +185,8 @@ def integrate(p: Problem, drive: Drive, mesh: Mesh, T0: np.ndarray, out: dict, o
         # local error (S.1), in kelvin
         est = hh * (_E[0] * Fn.rhs + _E[1] * F1.rhs + _E[2] * F2.rhs)
         est[p.fixed] = 0.0
-        a2, b2, c2 = -_D * hh * F2.sub, capacity(p, T2) - _D * hh * F2.diag, -_D * hh * F2.sup
-        a2[p.fixed], c2[p.fixed], b2[p.fixed] = 0.0, 0.0, 1.0
-        err_tr = tridiagonal_solve(a2, b2, c2, est)
+        err_tr = implicit_solve(T2, p.c0, p.c1, _D * hh, F2.sub, F2.diag, F2.sup, p.fixed, est,
+                                None, 1)
         err_be = 0.5 * ((T2 - T) - hh * slope)
         err = np.where(be, err_be, err_tr)
         enorm = np.max(np.abs(err), axis=0) / tol
@@ -241,8 +236,11 @@ def integrate(p: Problem, drive: Drive, mesh: Mesh, T0: np.ndarray, out: dict, o
             phase_new = drive.phase(t)
             keep = good & ~restart
             face_r, abs_r, _ = drive.conditions(t, phase_new)
-            Fr = fluxes(p, T, face_r, abs_r) if restart.any() else F2
-            Fn = _merge(Fn, F2, Fr, keep, restart)
+            if keep.all():
+                Fn = F2
+            else:
+                Fr = fluxes(p, T, face_r, abs_r) if restart.any() else F2
+                Fn = _merge(Fn, F2, Fr, keep, restart)
     failed |= alive  # out of steps
     e_end = node_sum(enthalpy(p, T)[free])
     out["heat_in"] = acc["hot"]

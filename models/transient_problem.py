@@ -24,10 +24,11 @@ from scipy.constants import Stefan_Boltzmann as SIGMA
 
 from plyrisk.models.boundary import hot_environment_flux
 from plyrisk.models.elements import contact_heat_flux, effective_emissivity, gap_kernel
-from plyrisk.models.elements import solid_heat_flux as conduction
+from plyrisk.models.kernels import assemble
 from plyrisk.models.mesh import Mesh
 from plyrisk.models.stack import Solid
 from plyrisk.models.wearer import SensorWearer, SkinWearer
+
 
 def _row(value, n: int) -> np.ndarray:
     return np.broadcast_to(np.asarray(value, dtype=float), (n,)).copy()
@@ -84,9 +85,10 @@ class Problem:
     def take(self, idx: np.ndarray) -> Problem:
         """The problem restricted to the samples ``idx`` (last axis)."""
 
-        def t(x):
-            return x[..., idx] if isinstance(x, np.ndarray) and x.ndim >= 1 and x.shape[-1] \
-                == self.c0.shape[1] else x
+        def t(x):  # C order kept: the kernels run over samples innermost
+            if isinstance(x, np.ndarray) and x.ndim >= 1 and x.shape[-1] == self.c0.shape[1]:
+                return np.ascontiguousarray(x[..., idx])
+            return x
 
         def td(d):
             return {k: t(v) for k, v in d.items()}
@@ -199,14 +201,14 @@ def build_problem(mesh: Mesh, layers, wearer, n: int, *, radiation: str = "exact
     # every link carries conduction parameters (zero conductance where it is a contact or a
     # gap, whose own laws overwrite it), so the conduction law runs on slices of T
     cond_arrays = {}
-    if cond["idx"]:
-        links = max(N - 1, 1)
-        defaults = {"thickness": 1.0, "conductivity": 0.0, "conductivity_slope": 0.0,
-                    "reference_temperature": 0.0}
-        for key, default in defaults.items():
-            full = np.full((links, n), default)
+    links = N - 1
+    defaults = {"thickness": 1.0, "conductivity": 0.0, "conductivity_slope": 0.0,
+                "reference_temperature": 0.0}
+    for key, default in defaults.items():
+        full = np.full((links, n), default)
+        if cond["idx"]:
             full[np.asarray(cond["idx"], dtype=np.intp)] = np.stack(cond[key])
-            cond_arrays[key] = full
+        cond_arrays[key] = full
     contact_arrays = {k: (np.asarray(v, dtype=np.intp) if k == "idx" else np.stack(v))
                       for k, v in contact.items() if len(contact["idx"])}
     return Problem(c0, c1, c0_assembly, c1_assembly, perf, arterial, share, emissivity, fixed,
@@ -295,43 +297,44 @@ def fluxes(p: Problem, T: np.ndarray, face: dict, absorbed: np.ndarray) -> Fluxe
     Fluxes
     """
     N, k = T.shape
-    if p.cond:
-        q, qa, qb = conduction(T[:-1], T[1:], **p.cond)
-    else:
-        q = np.zeros((N - 1, k))
-        qa = np.zeros((N - 1, k))
-        qb = np.zeros((N - 1, k))
+    q = np.empty((N - 1, k))
+    rhs = np.empty((N, k))
+    sub = np.empty((N, k))
+    diag = np.empty((N, k))
+    sup = np.empty((N, k))
+    psum = np.empty(k)
+    c = p.cond
+    assemble(T, c["thickness"], c["conductivity"], c["conductivity_slope"],
+             c["reference_temperature"], p.perfusion, p.arterial, p.radiant_share,
+             np.broadcast_to(np.asarray(absorbed, dtype=float), (k,)), q, rhs, sub, diag, sup,
+             psum)
+    others = []
     if p.contact:
         i = p.contact["idx"]
-        q[i], qa[i], qb[i] = contact_heat_flux(
-            T[i], T[i + 1], contact_resistance=p.contact["contact_resistance"])
+        others.append((i, contact_heat_flux(T[i], T[i + 1],
+                                            contact_resistance=p.contact["contact_resistance"])))
     for i, g in p.gaps:
-        q[i], qa[i], qb[i] = gap_kernel(T[i], T[i + 1], radiation=p.radiation,
-                                        convection_enabled=p.convection_enabled, **g)
-    rhs = np.zeros((N, k))
-    diag = np.zeros((N, k))
-    sub = np.zeros((N, k))
-    sup = np.zeros((N, k))
-    rhs[:-1] -= q
-    rhs[1:] += q
-    diag[:-1] -= qa
-    diag[1:] += qb
-    sub[1:] = qa
-    sup[:-1] = -qb
-    source = p.perfusion * (p.arterial - T)
-    rhs += source
-    diag -= p.perfusion
+        others.append(([i], [x[None] for x in gap_kernel(
+            T[i], T[i + 1], radiation=p.radiation, convection_enabled=p.convection_enabled,
+            **g)]))
+    for idx, (qo, qa, qb) in others:  # massless links with their own laws
+        for m, j in enumerate(idx):
+            q[j] = qo[m]
+            rhs[j] -= qo[m]
+            rhs[j + 1] += qo[m]
+            diag[j] -= qa[m]
+            diag[j + 1] += qb[m]
+            sub[j + 1] = qa[m]
+            sup[j] = -qb[m]
     q_face, dq_face = hot_environment_flux(T[0], incident_flux=0.0, **face)
     rhs[0] += q_face
     diag[0] += dq_face
-    rhs += p.radiant_share * absorbed
     into_fixed = np.zeros(k)
     for node in np.flatnonzero(p.fixed):
         if node > 0:
             into_fixed = into_fixed + q[node - 1]
     wearer = q[p.surface - 1] if p.surface > 0 else q_face + absorbed
-    return Fluxes(rhs, sub, diag, sup, q_face + absorbed, into_fixed, node_sum(source),
-                  wearer)
+    return Fluxes(rhs, sub, diag, sup, q_face + absorbed, into_fixed, psum, wearer)
 
 
 def node_sum(x: np.ndarray) -> np.ndarray:

@@ -239,11 +239,7 @@ def reference_solution(mesh: Mesh, layers, exposure: TransientExposure, wearer, 
             dO = float(damage_rate(T[basal], parameters=params)) if skin else 0.0
             return np.concatenate([dT, [dO]])
 
-        events = []
-        for thr in thresholds:
-            ev = (lambda t, y, thr=thr: y[-1] - thr)
-            ev.direction = 1.0
-            events.append(ev)
+        events = [_threshold_event(thr) for thr in thresholds]
         inside = tout[(tout > a) & (tout <= b)]
         r = solve_ivp(rhs, (a, b), y, method=method, rtol=rtol,
                       atol=np.concatenate([np.full(nf, atol), [1e-12]]),
@@ -273,3 +269,12 @@ def reference_solution(mesh: Mesh, layers, exposure: TransientExposure, wearer, 
         "sensor": isinstance(wearer, SensorWearer),
     }
 
+
+def _threshold_event(threshold: float):
+    """A rising-crossing event of the damage state at ``threshold``."""
+
+    def event(t, y):
+        return y[-1] - threshold
+
+    event.direction = 1.0
+    return event

@@ -14,42 +14,35 @@ CAUTIONS = (
     "or sweat; still air in gaps unless convection is enabled; grey, diffuse, opaque surfaces; "
     "one-dimensional heat flow; dry-air properties checked for 250-1500 K only.",
 )
-"""The cautions, one sentence group per item."""
+"""The cautions of a steady study, one sentence group per item."""
 
 TRANSIENT_CAUTIONS = (
     CAUTIONS[0],
     CAUTIONS[1],
-    "Model limits (transient): one-dimensional heat flow; dry fabrics (no moisture, sweat or "
-    "steam); no compression, shrinkage, degradation, charring or melting; gaps of fixed width "
-    "with still air (conduction and radiation) unless convection is enabled; grey, diffuse "
-    "surfaces; properties constant apart from the given temperature slopes; skin as three "
-    "layers with Pennes perfusion and a fixed core temperature, a sensor as a lumped copper "
-    "disc.",
-    "Burn criteria: the published damage-integral constants and the copper-disc criterion "
-    "scatter widely (at one basal temperature the times to a second-degree burn of two "
-    "published parameter sets differ by up to a factor of 10); a time to burn is an estimate "
-    "within that scatter, not a prediction of injury.",
+    "Times to burn are model estimates: the published burn criteria they rest on (the "
+    "Henriques-type damage integral and its parameter sets, the Stoll & Chianta curve) scatter "
+    "widely between sources and people, and the skin properties, initial skin profile and "
+    "perfusion move the answer by tens of per cent.",
+    "Model limits: one-dimensional heat flow; dry fabrics (no moisture, sweat or vapour); no "
+    "compression; no degradation, shrinkage, charring or melting; grey, diffuse surfaces "
+    "(in-depth absorption only where configured); still air in gaps unless convection is "
+    "enabled; a lumped copper-disc sensor; dry-air properties checked for 250-1500 K only.",
 )
-"""The cautions of a transient study (time to burn), one sentence group per item."""
-
-
-def cautions_for(study: object) -> tuple[str, ...]:
-    """The cautions that apply to a study: :data:`TRANSIENT_CAUTIONS` for a transient one."""
-    return TRANSIENT_CAUTIONS if getattr(study, "transient", None) is not None else CAUTIONS
+"""The cautions of a transient study (times to burn, sensor criterion)."""
 
 
 def cautions_text(*, heading: str = "CAUTIONS", width: int = 92,
-                  items: tuple[str, ...] = CAUTIONS) -> str:
+                  transient: bool = False) -> str:
     """The cautions as a plain-text block, lines wrapped at ``width`` characters.
 
     Parameters
     ----------
     heading
-        First line of the block [-].
+        First line of the block.
     width
-        Maximum line length [-].
-    items
-        The cautions (:data:`CAUTIONS`, or :data:`TRANSIENT_CAUTIONS`) [-].
+        Maximum line length.
+    transient
+        The cautions of a transient study (times to burn) instead of a steady one.
 
     Returns
     -------
@@ -57,7 +50,7 @@ def cautions_text(*, heading: str = "CAUTIONS", width: int = 92,
         The block, ending without a newline.
     """
     lines = [heading]
-    for item in items:
+    for item in TRANSIENT_CAUTIONS if transient else CAUTIONS:
         lines.extend(
             textwrap.wrap(item, width=width, initial_indent="  - ", subsequent_indent="    ")
         )

@@ -66,9 +66,11 @@ def test_grid_and_step_refinement_change_little():
     base = solve_transient(layers, exposure, skin, output_times=times)
     fine = solve_transient(layers, exposure, skin, output_times=times, refinement=2,
                            temperature_tolerance=0.005)
-    assert np.all(np.isfinite(base.time_to_second_degree_burn))
+    assert np.sum(np.isfinite(base.time_to_second_degree_burn)) >= 2
     for name in ("time_to_first_degree_burn", "time_to_second_degree_burn"):
-        np.testing.assert_allclose(getattr(base, name), getattr(fine, name), rtol=0.01)
+        a, b = getattr(base, name), getattr(fine, name)
+        np.testing.assert_array_equal(np.isfinite(a), np.isfinite(b))
+        np.testing.assert_allclose(a[np.isfinite(a)], b[np.isfinite(b)], rtol=0.01)
     assert np.max(np.abs(base.basal_temperature - fine.basal_temperature)) < 0.05
 
 
@@ -133,7 +135,7 @@ def test_reference_integrator_agrees_on_random_assemblies():
 
 @pytest.mark.slow
 def test_reference_integrator_agrees_on_many_random_assemblies():
-    assert _compare_with_reference(150, seed=22) > 0
+    assert _compare_with_reference(60, seed=22) > 0
 
 
 def test_exposure_tables_and_the_dermis_base_rule_run():
