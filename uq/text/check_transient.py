@@ -11,7 +11,7 @@ import warnings
 
 import numpy as np
 
-from plyrisk.cautions import TRANSIENT_CAUTIONS, cautions_text
+from plyrisk.cautions import cautions_text
 from plyrisk.errors import ConfigError
 from plyrisk.methods import get_method
 from plyrisk.models.stack import Solid, StackError
@@ -60,7 +60,7 @@ def transient_check_text(study: Study, parameter_lines: list[str]) -> tuple[str,
         converged &= bool(np.all(swept.converged))
     if notes:
         out += ["", "Notes"] + [f"  - {n}" for n in dict.fromkeys(notes)]
-    out += ["", cautions_text(items=TRANSIENT_CAUTIONS)]
+    out += ["", cautions_text(transient=True)]
     return "\n".join(out), converged
 
 
