@@ -7,31 +7,9 @@ from dataclasses import dataclass
 import numpy as np
 
 from plyrisk.models.mesh import MeshLayout
+from plyrisk.models.outputs import OutputSpec
 
-
-@dataclass(frozen=True)
-class OutputSpec:
-    """One output of the transient model.
-
-    Attributes
-    ----------
-    name
-        Field of :class:`TransientSolution` and dataset variable name [-].
-    dims
-        Dimension names (``sample`` first; ``time``, ``face`` for histories) [-].
-    units
-        Units (UDUNITS spelling; ``1`` for dimensionless) [-].
-    long_name
-        Human-readable description [-].
-    """
-
-    name: str
-    dims: tuple[str, ...]
-    units: str
-    long_name: str
-
-
-_S = ("sample",)
+_S: tuple[str, ...] = ()
 TRANSIENT_OUTPUTS: tuple[OutputSpec, ...] = (
     OutputSpec("time_to_first_degree_burn", _S, "s",
                "time to first-degree burn (damage 0.53 at the basal depth); inf if not reached"),
@@ -68,16 +46,18 @@ TRANSIENT_OUTPUTS: tuple[OutputSpec, ...] = (
                "change of the heat stored in the assembly and wearer, start to horizon"),
     OutputSpec("initial_surface_temperature", _S, "K",
                "wearer-surface temperature of the initial steady state"),
-    OutputSpec("converged", _S, "1", "whether the sample's integration succeeded"),
-    OutputSpec("steps", _S, "1", "accepted time steps"),
-    OutputSpec("rejected_steps", _S, "1", "rejected time steps"),
-    OutputSpec("face_temperature", ("sample", "time", "face"), "K",
+    OutputSpec("converged", _S, "1", "whether the sample's integration succeeded", "bool"),
+    OutputSpec("steps", _S, "1", "accepted time steps", "i4"),
+    OutputSpec("rejected_steps", _S, "1", "rejected time steps", "i4"),
+    OutputSpec("face_temperature", ("time", "face"), "K",
                "temperature of every assembly face and the wearer surface"),
-    OutputSpec("basal_temperature", ("sample", "time"), "K", "temperature at the basal depth"),
-    OutputSpec("surface_temperature", ("sample", "time"), "K",
+    OutputSpec("basal_temperature", ("time",), "K", "temperature at the basal depth"),
+    OutputSpec("surface_temperature", ("time",), "K",
                "temperature of the wearer's surface (skin surface or sensor)"),
 )
-"""Every per-sample output of :func:`plyrisk.models.transient.solve_transient`."""
+"""Every per-sample output of :func:`plyrisk.models.transient.solve_transient`, as the records of
+the project's output table (:class:`plyrisk.models.outputs.OutputSpec`: dimensions after the
+sample axis, ``time`` and ``face`` for histories)."""
 
 HISTORY_OUTPUTS = tuple(o.name for o in TRANSIENT_OUTPUTS if "time" in o.dims)
 
@@ -86,9 +66,9 @@ HISTORY_OUTPUTS = tuple(o.name for o in TRANSIENT_OUTPUTS if "time" in o.dims)
 class TransientSolution:
     """Result of :func:`plyrisk.models.transient.solve_transient` for ``n`` samples.
 
-    Every field named in :data:`TRANSIENT_OUTPUTS` is an array with those dimensions (sample
-    first). Samples that did not converge carry NaN in every float output. Outputs that do not
-    apply to the wearer (burn times for a sensor, the sensor criterion for skin) are NaN.
+    Every field named in :data:`TRANSIENT_OUTPUTS` is an array of shape ``(n, *dims)``. Samples
+    that did not converge carry NaN in every float output. Outputs that do not apply to the
+    wearer (burn times for a sensor, the sensor criterion for skin) are NaN.
 
     Attributes
     ----------
@@ -137,8 +117,8 @@ def empty_outputs(n: int, k_time: int, n_faces: int) -> dict[str, np.ndarray]:
     """Allocate every output of :data:`TRANSIENT_OUTPUTS` for ``n`` samples."""
     out: dict[str, np.ndarray] = {}
     for spec in TRANSIENT_OUTPUTS:
-        shape = {"sample": n, "time": k_time, "face": n_faces}
-        dims = tuple(shape[d] for d in spec.dims)
+        shape = {"time": k_time, "face": n_faces}
+        dims = (n, *(shape[d] for d in spec.dims))
         if spec.name == "converged":
             out[spec.name] = np.zeros(dims, dtype=bool)
         elif spec.name in ("steps", "rejected_steps"):

@@ -56,3 +56,37 @@ def panel(**kw) -> str:
     }
     values.update(kw)
     return PANEL.format(**values)
+
+FLASH = """
+[study]
+title = "Invented test: one fabric over a gap to skin, short exposure"
+method = "saltelli"
+samples = {samples}
+seed = 5
+
+[exposure]
+incident_flux = {{ uniform = ["20 kW/m^2", "40 kW/m^2"] }}
+gas_temperature = "700 degC"
+convection_coefficient = "30 W/m^2/K"
+surroundings_temperature = "25 degC"
+duration = {{ uniform = ["3 s", "6 s"] }}
+horizon = "12 s"
+output_step = "0.5 s"
+
+[[layer]]
+name = "fabric"
+kind = "solid"
+thickness = "0.6 mm"
+conductivity = "0.05 W/m/K"
+density = {{ uniform = ["250 kg/m^3", "350 kg/m^3"] }}
+specific_heat = "1300 J/kg/K"
+
+[[layer]]
+name = "gap"
+kind = "gap"
+width = "2 mm"
+
+[wearer]
+kind = "skin"
+"""
+"""A small transient study (invented): 3 uncertain inputs, skin behind one fabric and a gap."""

@@ -382,8 +382,8 @@ def test_duplicate_scenario_level():
 
 
 def test_sections_registry_order():
-    assert list(SECTIONS) == ["study", "model", "hot_side", "layer", "cold_side", "scenarios",
-                             "tolerances", "screening", "compute"]
+    assert list(SECTIONS) == ["study", "model", "exposure", "hot_side", "layer", "wearer",
+                             "cold_side", "scenarios", "tolerances", "screening", "compute"]
 
 
 def test_every_bad_config_is_labelled():

@@ -211,6 +211,11 @@ def memory_estimate(study: Study, samples: int | None = None) -> int:
 
     rows = planned_runs(study, samples) // scenario_count(study)
     d = len(study.parameters)
+    if study.transient is not None:  # histories: (time, face) and two (time) per sample
+        faces = 2 * len(study.layers) + 1
+        times = len(study.transient.output_times)
+        per_row = 16 * d + scenario_count(study) * 8 * (times * (faces + 2) + 24)
+        return int(1.5 * rows * per_row)
     faces = len(interface_names(study.layers, study.cold_side))
     per_row = 16 * d + scenario_count(study) * 8 * (6 * faces + 4)
     return int(1.5 * rows * per_row)

@@ -12,6 +12,7 @@ import xarray as xr
 
 from plyrisk.analysis.study import StudyAnalysis
 from plyrisk.cautions import cautions_text
+from plyrisk.errors import PlyriskError
 from plyrisk.methods import get_method
 from plyrisk.pipeline.options import RunOptions
 from plyrisk.pipeline.screening import Screening, add_screening, screen_study, screening_lines
@@ -88,6 +89,8 @@ def run_study(
     """
     opts = replace(options or RunOptions(), **overrides).with_defaults(study)
     study = opts.validate(study)
+    if study.transient is not None:
+        _propagate_transient_only(study, opts)
     chosen = get_method(study.analysis.method)
     chunk_size, workers, scheduler, store = (opts.chunk_size, int(opts.workers or 1),
                                              opts.scheduler, opts.store)
@@ -132,6 +135,40 @@ def run_study(
     if out_dir is not None:
         path = write_results(ds, Path(out_dir) / "results.nc")
     return StudyResult(study, prop, analysis, ds, path, messages, screening, growth)
+
+
+class TransientAnalysisPending(PlyriskError):
+    """A transient study was propagated, but its analysis is not part of this build yet."""
+
+
+def _propagate_transient_only(study, opts: RunOptions) -> None:
+    """Propagate a transient study (in memory or into the store), then stop with one line.
+
+    Raises
+    ------
+    TransientAnalysisPending
+        Always, after the propagation: the statistics, indices and report of transient
+        outputs are not available in this build.
+    """
+    if opts.until_converged:
+        raise TransientAnalysisPending(f"{study.source}: --until-converged is not available "
+                                       "for transient studies yet")
+    workers = int(opts.workers or 1)
+    if opts.store is not None:
+        from plyrisk.propagate.store import solve_to_store
+
+        reader = solve_to_store(study, opts.store, chunk_size=opts.chunk_size,
+                                resume=opts.resume, workers=workers, scheduler=opts.scheduler,
+                                quiet=opts.quiet)
+        done = f"{reader.n_rows} samples solved into the store {opts.store}"
+    else:
+        prop = propagate(study, chunk_size=opts.chunk_size, quiet=opts.quiet, workers=workers,
+                         scheduler=opts.scheduler)
+        done = f"{prop.inputs.shape[0]} samples solved"
+    raise TransientAnalysisPending(
+        f"{study.source}: transient study propagated ({done}), but the analysis of transient "
+        "outputs (statistics, indices, report) is not available in this build yet; "
+        "'plyrisk check' prints the nominal history")
 
 
 def _scheduling_noise(w: warnings.WarningMessage) -> bool:

@@ -20,6 +20,8 @@ from plyrisk.design.sampling import Design, DesignPlan
 from plyrisk.methods import get_method
 from plyrisk.models.network import NETWORK_OUTPUTS, NetworkSolution, solve_network
 from plyrisk.models.outputs import OutputSpec
+from plyrisk.models.transient import solve_transient
+from plyrisk.models.transient_outputs import TRANSIENT_OUTPUTS, TransientSolution
 from plyrisk.propagate.compute import run_tasks
 from plyrisk.study.definition import assemble
 
@@ -37,10 +39,28 @@ def output_table(study: Study) -> tuple[OutputSpec, ...]:
     Returns
     -------
     tuple of OutputSpec
-        :data:`plyrisk.models.network.NETWORK_OUTPUTS` for the steady network.
+        :data:`plyrisk.models.network.NETWORK_OUTPUTS` for the steady network,
+        :data:`plyrisk.models.transient_outputs.TRANSIENT_OUTPUTS` for a transient study.
     """
+    if study.transient is not None:
+        return TRANSIENT_OUTPUTS
     return NETWORK_OUTPUTS
 
+
+def solution_labels(solution: NetworkSolution | TransientSolution) -> dict:
+    """The labels of :class:`Outputs` taken from one model solution.
+
+    A transient solution has no network elements: its faces are the interfaces, the element
+    labels are empty, ``inner_surface_index`` is -1 and ``time`` is its history grid [s].
+    """
+    if isinstance(solution, TransientSolution):
+        return {"interface_names": tuple(solution.face_names), "element_names": (),
+                "element_kinds": (), "element_layers": (), "inner_surface_index": -1,
+                "time": np.asarray(solution.time, dtype=float)}
+    return {"interface_names": solution.interface_names,
+            "element_names": solution.element_names, "element_kinds": solution.element_kinds,
+            "element_layers": solution.element_layers,
+            "inner_surface_index": solution.inner_surface_index}
 
 
 @dataclass(frozen=True)
@@ -52,11 +72,18 @@ class Outputs:
     fields
         Name → array of shape ``(n_scenarios, n_samples, ...)`` for each output of
         :func:`output_table`
-        (units as in :class:`plyrisk.models.network.NetworkSolution`).
+        (units as in :class:`plyrisk.models.network.NetworkSolution` or
+        :class:`plyrisk.models.transient_outputs.TransientSolution`).
     interface_names, element_names, element_kinds, element_layers
-        Labels from the network solution.
+        Labels from the network solution; a transient study's ``interface_names`` are its
+        face names (the ``face`` axis of ``face_temperature``) and its element labels are
+        empty.
     inner_surface_index
-        Column of ``interface_temperature`` that is the inner surface.
+        Column of ``interface_temperature`` that is the inner surface; -1 for a transient
+        study.
+    time
+        The history grid of a transient study (the ``time`` axis of its histories) [s];
+        ``None`` for a steady study.
     """
 
     fields: dict[str, np.ndarray]
@@ -65,6 +92,7 @@ class Outputs:
     element_kinds: tuple[str, ...]
     element_layers: tuple[int, ...]
     inner_surface_index: int
+    time: np.ndarray | None = None
 
     def __getitem__(self, name: str) -> np.ndarray:
         return self.fields[name]
@@ -132,6 +160,7 @@ def model_objects(study: Study, values: np.ndarray | None = None, *, scenario: i
     Returns
     -------
     layers, hot_side, cold_side
+        For a transient study ``layers, exposure, wearer``.
     """
     columns = {} if values is None else {
         p.name: values[:, j] for j, p in enumerate(study.parameters)
@@ -139,7 +168,14 @@ def model_objects(study: Study, values: np.ndarray | None = None, *, scenario: i
     return assemble(study, columns, scenario=scenario if study.scenarios is not None else None)
 
 
-def _solve(study: Study, values: np.ndarray | None, scenario: int | None) -> NetworkSolution:
+def _solve(study: Study, values: np.ndarray | None, scenario: int | None
+           ) -> NetworkSolution | TransientSolution:
+    if study.transient is not None:
+        layers, exposure, wearer = model_objects(study, values, scenario=scenario)
+        # the study's one grid layout: results do not depend on how samples are chunked
+        return solve_transient(layers, exposure, wearer, radiation=study.model.radiation,
+                               convection_enabled=study.model.convection,
+                               **study.transient.solver_kwargs())
     layers, hot, cold = model_objects(study, values, scenario=scenario)
     # validate=False: the distributions keep every draw inside its physical bounds
     return solve_network(layers, hot, cold, validate=False, **study.model.solver_kwargs())
@@ -150,7 +186,8 @@ def scenario_count(study: Study) -> int:
     return 1 if study.scenarios is None else len(study.scenarios.values)
 
 
-def _evaluate_block(study: Study, block: np.ndarray) -> list[NetworkSolution]:
+def _evaluate_block(study: Study, block: np.ndarray
+                    ) -> list[NetworkSolution | TransientSolution]:
     """Solve one chunk of samples for every scenario (runs on a worker too)."""
     scenarios = [None] if study.scenarios is None else range(scenario_count(study))
     return [_solve(study, block, scenario) for scenario in scenarios]
@@ -170,7 +207,8 @@ def evaluate(
     workers: int = 1,
     scheduler: str | None = None,
 ) -> Outputs:
-    """Evaluate the network for every sample and every scenario, in chunks of bounded memory.
+    """Evaluate the model (the steady network, or the transient model of a transient study) for
+    every sample and every scenario, in chunks of bounded memory.
 
     Parameters
     ----------
@@ -202,7 +240,7 @@ def evaluate(
     n_s = scenario_count(study)
     bounds = [(start, min(start + chunk, n)) for start in range(0, max(n, 1), chunk)]
     store: dict[str, np.ndarray] = {}
-    meta: list[NetworkSolution] = []
+    meta: list = []
     names = [spec.name for spec in output_table(study)]
 
     def keep(result) -> None:
@@ -220,18 +258,11 @@ def evaluate(
 
     run_tasks(_evaluate_range, [(start, values[start:stop]) for start, stop in bounds], keep,
               shared=(study,), workers=workers, scheduler=scheduler)
-    first = meta[0]
-    return Outputs(
-        fields=store,
-        interface_names=first.interface_names,
-        element_names=first.element_names,
-        element_kinds=first.element_kinds,
-        element_layers=first.element_layers,
-        inner_surface_index=first.inner_surface_index,
-    )
+    return Outputs(fields=store, **solution_labels(meta[0]))
 
 
-def nominal_solution(study: Study, *, scenario: int | None = None) -> NetworkSolution:
+def nominal_solution(study, *, scenario: int | None = None
+                     ) -> NetworkSolution | TransientSolution:
     """Solve the nominal stack (every uncertain value at its distribution's nominal)."""
     return _solve(study, None, scenario)
 

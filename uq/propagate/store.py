@@ -36,6 +36,7 @@ from plyrisk.propagate.evaluate import (
     output_table,
     progress_bar,
     scenario_count,
+    solution_labels,
     study_plan,
     unit_to_inputs,
 )
@@ -151,11 +152,14 @@ def _create(study: Study, plan: DesignPlan, layout: StoreLayout, digest: str) ->
 
     unit, _ = plan.rows(0, 1)
     first = _evaluate_block(study, unit_to_inputs(study.parameters, unit))[0]
+    labels = solution_labels(first)
+    time = labels.pop("time", None)
     n, c, n_s = layout.n_rows, layout.chunk_size, scenario_count(study)
     group = zarr.open_group(layout.path, mode="w", zarr_format=3)
     sizes = {"sample": n, "parameter": len(study.parameters), "scenario": n_s,
-             "interface": len(first.interface_names), "layer": len(first.element_names),
-             "chunk": layout.n_chunks}
+             "interface": len(labels["interface_names"]),
+             "layer": len(labels["element_names"]), "chunk": layout.n_chunks,
+             "face": len(labels["interface_names"]), "time": 0 if time is None else time.size}
 
     def array(name, dims, dtype, fill, **attrs):
         shape = tuple(sizes[d] for d in dims)
@@ -175,13 +179,19 @@ def _create(study: Study, plan: DesignPlan, layout: StoreLayout, digest: str) ->
               units=spec.units, long_name=spec.long_name)
     array("chunk_done", ("chunk",), "u1", 0, units="1",
           long_name="chunk of samples stored (1) or not yet (0)")
+    if time is not None:
+        array("time", ("time",), "f8", np.nan, units="s",
+              long_name="time from the start of the exposure (history grid)")
+        group["time"][:] = time
     group.attrs.update({
         "plyrisk_study": digest, "chunk_size": c, "evaluations": n, "title": study.title,
-        "config_text": study.text, "interface_names": list(first.interface_names),
-        "element_names": list(first.element_names), "element_kinds": list(first.element_kinds),
-        "element_layers": [int(x) for x in first.element_layers],
-        "inner_surface_index": int(first.inner_surface_index),
+        "config_text": study.text, "interface_names": list(labels["interface_names"]),
+        "element_names": list(labels["element_names"]),
+        "element_kinds": list(labels["element_kinds"]),
+        "element_layers": [int(x) for x in labels["element_layers"]],
+        "inner_surface_index": int(labels["inner_surface_index"]),
         "output_names": [spec.name for spec in output_table(study)],
+        "study_kind": "steady" if time is None else "transient",
     })
 
 
@@ -240,11 +250,13 @@ class StoreReader:
 
         self.path = Path(path)
         self.group = zarr.open_group(str(path), mode="r")
-        self.swept = "scenario" in self.group["inner_surface_temperature"].metadata.dimension_names
         self.n_rows = int(self.group.attrs["evaluations"])
         self.chunk_size = int(self.group.attrs["chunk_size"])
         names = self.group.attrs.get("output_names", [s.name for s in NETWORK_OUTPUTS])
         self.output_names = tuple(str(n) for n in names)
+        dims = self.group["converged"].metadata.dimension_names
+        self.swept = "scenario" in dims
+        self.time = np.asarray(self.group["time"][:]) if "time" in self.group else None
         self.interface_names = tuple(str(n) for n in self.group.attrs["interface_names"])
 
     def read(self, name: str, start: int = 0, stop: int | None = None) -> np.ndarray:
@@ -271,6 +283,7 @@ class StoreReader:
             element_kinds=tuple(attrs["element_kinds"]),
             element_layers=tuple(int(x) for x in attrs["element_layers"]),
             inner_surface_index=int(attrs["inner_surface_index"]),
+            time=self.time,
         )
 
 

@@ -50,6 +50,7 @@ from plyrisk.study.sections_analysis import (
     parse_tolerances,
 )
 from plyrisk.study.sections_assembly import Parser, parse_layers, parse_scenarios, side_parser
+from plyrisk.study.sections_transient import check_outputs, parse_exposure, parse_wearer
 from plyrisk.study.values import Context, join, suggest
 
 __all__ = [
@@ -196,7 +197,8 @@ def loads_study(text: str, *, source: str = "<string>") -> Study:
         msg = re.sub(r"\s*\(at (line \d+, column \d+|end of document)\)", "", msg)
         raise ConfigError(source, path, f"invalid TOML: {msg}") from None
     cv.check_keys(ctx, data, cv.TOP, SECTIONS, what="section")
-    parsed: dict[str, Any] = {"source": source, "text": text, "parameters": []}
+    parsed: dict[str, Any] = {"source": source, "text": text, "parameters": [],
+                              "_transient": "exposure" in data}
     for name, parse in SECTIONS.items():
         for key, value in parse(ctx, data.get(name), parsed).items():
             if key == "parameters":
@@ -204,7 +206,7 @@ def loads_study(text: str, *, source: str = "<string>") -> Study:
             else:
                 parsed[key] = value
     parsed["parameters"] = tuple(parsed["parameters"])
-    study = Study(**parsed)
+    study = Study(**{k: v for k, v in parsed.items() if not k.startswith("_")})
     _check_study(ctx, study)
     return study
 
@@ -212,8 +214,10 @@ def loads_study(text: str, *, source: str = "<string>") -> Study:
 SECTIONS: dict[str, Parser] = {
     "study": parse_study_section,
     "model": parse_model_section,
+    "exposure": parse_exposure,
     "hot_side": side_parser("hot_side", HOT_SIDE_KINDS),
     "layer": parse_layers,
+    "wearer": parse_wearer,
     "cold_side": side_parser("cold_side", COLD_SIDE_KINDS),
     "scenarios": parse_scenarios,
     "tolerances": parse_tolerances,
@@ -239,6 +243,9 @@ def stack_key_path(err: StackError) -> str:
 
 
 def _check_study(ctx: Context, study: Study) -> None:
+    if study.transient is not None:
+        _check_transient(ctx, study)
+        return
     try:
         validate_stack(study.layers, study.hot_side, study.cold_side)
     except StackError as err:
@@ -275,6 +282,50 @@ def require_runnable(study: Study) -> None:
     if study.analysis.lhs_optimization == "lloyd" and d < 2:
         raise ctx.error("study.lhs_optimization", f"'lloyd' needs at least 2 uncertain "
                         f"parameters, got {d}; use 'random-cd' or 'none'")
+
+
+def _check_transient(ctx: Context, study: Study) -> None:
+    """Rules of a transient study spanning sections: the layers, the wearer, the supports."""
+    check_transient_models(ctx, study.layers, study.transient.wearer)
+    if study.parameters:
+        u = np.array([1e-9, 1.0 - 1e-9])
+        values = {p.name: np.asarray(p.distribution.ppf(u), dtype=float)
+                  for p in study.parameters}
+        layers, _, wearer = assemble(study, values)
+        check_transient_models(ctx, layers, wearer, prefix="the distribution reaches invalid "
+                               "values: ")
+    check_outputs(ctx, study.analysis.outputs)
+
+
+def check_transient_models(ctx: Context, layers, wearer, *, prefix: str = "") -> None:
+    """Validate the layers and wearer of a transient study, as one-line config errors.
+
+    Parameters
+    ----------
+    ctx
+        The config [-].
+    layers, wearer
+        Model objects (nominal, or sampled values) [-].
+    prefix
+        Text put before the model's message [-].
+    """
+    from plyrisk.models.skin import SkinPropertyError
+    from plyrisk.models.transient import validate_transient_stack
+    from plyrisk.models.wearer import check_wearer
+
+    try:
+        check_wearer(wearer)
+    except SkinPropertyError as err:
+        path = ".".join(x for x in ("wearer", err.layer, err.quantity) if x)
+        raise ctx.error(path, f"{prefix}{err}") from None
+    except ValueError as err:
+        quantity = getattr(err, "quantity", None)
+        raise ctx.error(f"wearer.{quantity}" if quantity else "wearer", f"{prefix}{err}"
+                        ) from None
+    try:
+        validate_transient_stack(list(layers), wearer)
+    except StackError as err:
+        raise ctx.error(stack_key_path(err), f"{prefix}{err}") from None
 
 
 def _check_support(ctx: Context, study: Study) -> None:

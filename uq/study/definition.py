@@ -1,22 +1,29 @@
 """The validated study: what :func:`plyrisk.study.config.load_study` returns, all values SI.
 
 :class:`Study` holds the nominal model objects, the uncertain :class:`Parameter` list, the
-solver options, the analysis settings and an optional scenario sweep. :func:`assemble` puts
-sampled parameter values into the model objects for :func:`plyrisk.models.network.solve_network`.
+solver options, the analysis settings and an optional scenario sweep; a transient study (one
+with an ``[exposure]`` section) also holds a :class:`TransientSetup`. :func:`assemble` puts
+sampled parameter values into the model objects for
+:func:`plyrisk.models.network.solve_network` or, for a transient study,
+:func:`plyrisk.models.transient.solve_transient`.
 """
 
 from __future__ import annotations
 
 import math
 from collections.abc import Mapping
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, field, replace
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
 from numpy.typing import ArrayLike
 
 from plyrisk.models.boundary import ColdSide, HotSide
+from plyrisk.models.exposure import TransientExposure
+from plyrisk.models.mesh import MeshLayout
+from plyrisk.models.sensor import CopperDisc
 from plyrisk.models.stack import Gap, Solid
+from plyrisk.models.wearer import PrescribedWearer, SensorWearer, SkinWearer
 from plyrisk.study.distributions import Distribution
 from plyrisk.study.units import QUANTITIES, TEMPERATURE, QuantitySpec, format_value, from_si
 
@@ -24,7 +31,7 @@ if TYPE_CHECKING:  # pragma: no cover
     from plyrisk.study.settings import ScreeningSettings, ToleranceSettings
 
 __all__ = ["Analysis", "ComputeOptions", "ModelOptions", "Parameter", "Scenarios", "Study",
-           "assemble"]
+           "TransientSetup", "assemble", "exposure_field", "sensor_disc"]
 
 _SPREADS = frozenset({"sd", "tolerance", "upper", "lower"})
 _PLAIN = frozenset({"gsd", "cv", "a", "b", "coverage"})  # dimensionless distribution parameters
@@ -267,13 +274,111 @@ class ComputeOptions:
     store: str | None = None
 
 
+EXPOSURE_FIELDS = {"duration": "exposure_duration"}
+"""``[exposure]`` keys whose :class:`~plyrisk.models.exposure.TransientExposure` field is named
+differently (every other key is the field's name)."""
+
+
+def exposure_field(key: str) -> str:
+    """The :class:`~plyrisk.models.exposure.TransientExposure` field of an ``[exposure]`` key."""
+    return EXPOSURE_FIELDS.get(key, key)
+
+
+def sensor_disc(inputs: Mapping[str, Any]) -> CopperDisc:
+    """The copper disc of a ``[wearer] kind = "sensor"`` section.
+
+    Parameters
+    ----------
+    inputs
+        ``diameter`` [m], ``thickness`` [m], ``mass`` [kg] (``None``: copper of that diameter
+        and thickness), ``specific_heat`` [J kg-1 K-1], ``emissivity`` [-],
+        ``initial_temperature`` [K] (or ``None``); each a scalar or one value per sample.
+
+    Returns
+    -------
+    CopperDisc
+        With the mass per exposed area of the disc [kg m-2].
+    """
+    from plyrisk.models.sensor import COPPER_DENSITY
+
+    area = np.pi * np.asarray(inputs["diameter"], dtype=float) ** 2 / 4.0
+    mass = inputs.get("mass")
+    if mass is None:
+        per_area = COPPER_DENSITY * np.asarray(inputs["thickness"], dtype=float)
+    else:
+        per_area = np.asarray(mass, dtype=float) / area
+    return CopperDisc(per_area, inputs["specific_heat"], inputs["emissivity"],
+                      inputs.get("initial_temperature"))
+
+
+@dataclass(frozen=True)
+class TransientSetup:
+    """What makes a study transient (the ``[exposure]`` and ``[wearer]`` sections), SI units.
+
+    Parameters
+    ----------
+    exposure
+        The nominal exposure, cool-down and horizon (uncertain values at their nominal) [-].
+    wearer
+        The nominal wearer side: a :class:`~plyrisk.models.wearer.SkinWearer`,
+        :class:`~plyrisk.models.wearer.SensorWearer` or
+        :class:`~plyrisk.models.wearer.PrescribedWearer` [-].
+    damage_model
+        Damage parameter set at the basal depth (skin) [-].
+    third_degree
+        Third-degree rule, ``"basal"`` or ``"dermis_base"`` (skin) [-].
+    output_times
+        The history grid, from 0 to the horizon [s].
+    acceptable_burn_probability
+        Target for P(second-degree burn) within the horizon (sensor: P(criterion reached)) [-].
+    layout
+        The one grid layout every chunk of the study is solved on (from the nominal study), so
+        results do not depend on how samples are chunked [-].
+    skin_properties
+        Name of the skin property set (skin wearer), else ``None`` [-].
+    sensor_inputs
+        The sensor's ``diameter``, ``thickness``, ``mass``, ``specific_heat``, ``emissivity``,
+        ``initial_temperature`` (sensor wearer; see :func:`sensor_disc`), else empty [SI].
+    units
+        The unit text the user wrote for each ``[exposure]`` key, for display [-].
+    """
+
+    exposure: TransientExposure
+    wearer: SkinWearer | SensorWearer | PrescribedWearer
+    damage_model: str
+    third_degree: str
+    output_times: np.ndarray
+    acceptable_burn_probability: float
+    layout: MeshLayout
+    skin_properties: str | None = None
+    sensor_inputs: Mapping[str, Any] = field(default_factory=dict)
+    units: Mapping[str, str] = field(default_factory=dict)
+
+    @property
+    def wearer_kind(self) -> str:
+        """``"skin"``, ``"sensor"`` or ``"prescribed"`` [-]."""
+        return self.wearer.kind
+
+    @property
+    def horizon(self) -> float:
+        """End of the simulated time, from the start of the exposure [s]."""
+        return float(self.exposure.horizon)
+
+    def solver_kwargs(self) -> dict[str, Any]:
+        """Keyword arguments for :func:`plyrisk.models.transient.solve_transient` [-]."""
+        return {"output_times": self.output_times, "damage_model": self.damage_model,
+                "third_degree": self.third_degree, "layout": self.layout}
+
+
 @dataclass(frozen=True)
 class Study:
     """A validated study, all values SI.
 
     ``layers``, ``hot_side`` and ``cold_side`` are the nominal model objects: every uncertain
-    value is replaced by its distribution's nominal. ``parameters`` lists the uncertain inputs,
-    hot side first, then the layers hot → cold, then the cold side. ``tolerances`` holds the
+    value is replaced by its distribution's nominal. A transient study has ``transient`` (its
+    :class:`TransientSetup`) and no ``hot_side`` or ``cold_side`` (``None``). ``parameters``
+    lists the uncertain inputs, hot side first, then the layers hot → cold, then the cold side
+    (transient: the exposure, the layers, the wearer). ``tolerances`` holds the
     ``[tolerances]`` settings (:class:`plyrisk.study.settings.ToleranceSettings`) and ``screening``
     the ``[screening]`` settings (:class:`plyrisk.study.settings.ScreeningSettings`), ``None``
     when the
@@ -284,8 +389,8 @@ class Study:
     text: str
     title: str
     layers: tuple[Solid | Gap, ...]
-    hot_side: HotSide
-    cold_side: ColdSide
+    hot_side: HotSide | None
+    cold_side: ColdSide | None
     parameters: tuple[Parameter, ...]
     model: ModelOptions
     analysis: Analysis
@@ -294,6 +399,12 @@ class Study:
     tolerances: ToleranceSettings | None = None
     compute: ComputeOptions = ComputeOptions()
     screening: ScreeningSettings | None = None
+    transient: TransientSetup | None = None
+
+    @property
+    def is_transient(self) -> bool:
+        """True for a transient study (time to burn), False for the steady network [-]."""
+        return self.transient is not None
 
     @property
     def parameter_names(self) -> tuple[str, ...]:
@@ -315,7 +426,7 @@ def assemble(
     values: Mapping[str, ArrayLike],
     *,
     scenario: int | None = None,
-) -> tuple[list[Solid | Gap], HotSide, ColdSide]:
+) -> tuple[list[Solid | Gap], Any, Any]:
     """Model objects with sampled values in place of the nominal ones.
 
     Parameters
@@ -331,12 +442,16 @@ def assemble(
     Returns
     -------
     layers, hot_side, cold_side
-        Ready for :func:`plyrisk.models.network.solve_network`.
+        Ready for :func:`plyrisk.models.network.solve_network`; for a transient study
+        ``layers, exposure, wearer``, ready for
+        :func:`plyrisk.models.transient.solve_transient`.
     """
     by_name = {p.name: p for p in study.parameters}
     unknown = sorted(set(values) - set(by_name))
     if unknown:
         raise ValueError(f"unknown parameter(s) {unknown}; valid: {', '.join(by_name)}")
+    if study.transient is not None:
+        return _assemble_transient(study, values, by_name, scenario)
     layers = list(study.layers)
     sides: dict[str, dict[str, Any]] = {"hot_side": {}, "cold_side": {}}
     per_layer: dict[int, dict[str, Any]] = {}
@@ -357,3 +472,56 @@ def assemble(
     hot = replace(study.hot_side, **sides["hot_side"])
     cold = replace(study.cold_side, **sides["cold_side"])
     return layers, hot, cold
+
+
+def _assemble_transient(study: Study, values: Mapping[str, ArrayLike], by_name: dict,
+                        scenario: int | None) -> tuple[list[Solid | Gap], Any, Any]:
+    """Layers, exposure and wearer of a transient study with sampled values in place."""
+    setup = study.transient
+    assert setup is not None
+    layers = list(study.layers)
+    per_layer: dict[int, dict] = {}
+    exposure: dict[str, Any] = {}
+    wearer: dict[str, Any] = {}
+    skin_layers: dict[str, dict] = {}
+    for name, v in values.items():
+        p = by_name[name]
+        arr = np.asarray(v, dtype=float)
+        where = p.target[0]
+        if where == "layer":
+            for f in p.fields:
+                per_layer.setdefault(p.target[1], {})[f] = arr
+        elif where == "exposure":
+            exposure[exposure_field(p.quantity)] = arr
+        elif len(p.target) == 3:
+            skin_layers.setdefault(p.target[1], {})[p.quantity] = arr
+        else:
+            wearer[p.quantity] = arr
+    if scenario is not None:
+        if study.scenarios is None:
+            raise ValueError("the study has no scenarios")
+        exposure[exposure_field(study.scenarios.quantity)] = float(
+            study.scenarios.values[scenario])
+    for i, changes in per_layer.items():
+        layers[i] = replace(layers[i], **changes)
+    return layers, replace(setup.exposure, **exposure), _wearer(setup, wearer, skin_layers)
+
+
+def _wearer(setup: TransientSetup, values: dict[str, Any], skin_layers: dict[str, dict]):
+    """The nominal wearer of ``setup`` with sampled values in place."""
+    w = setup.wearer
+    if isinstance(w, SkinWearer):
+        skin = w.skin
+        changes = {name: replace(getattr(skin, name), **c) for name, c in skin_layers.items()}
+        if "core_temperature" in values:
+            t = values.pop("core_temperature")
+            changes.update(core_temperature=t, arterial_temperature=t)
+        if "emissivity" in values:
+            changes["emissivity"] = values.pop("emissivity")
+        return replace(w, skin=replace(skin, **changes) if changes else skin, **values)
+    if isinstance(w, SensorWearer):
+        sensor = {k: values.pop(k) for k in list(values) if k in setup.sensor_inputs}
+        if sensor:
+            w = replace(w, sensor=sensor_disc({**setup.sensor_inputs, **sensor}))
+        return replace(w, **values)
+    return replace(w, **values)

@@ -17,7 +17,7 @@ from plyrisk.study.definition import Analysis, ComputeOptions, ModelOptions, Par
 from plyrisk.study.settings import BASES, ScreeningSettings, ToleranceSettings
 from plyrisk.study.settings import METHODS as TOLERANCE_METHODS
 from plyrisk.study.targets import parse_target
-from plyrisk.study.units import TEMPERATURE, TEMPERATURE_DIFFERENCE
+from plyrisk.study.units import TEMPERATURE, TEMPERATURE_DIFFERENCE, Parsed
 from plyrisk.study.values import Context, join, show, suggest
 
 RADIATION = ("exact", "linearized")
@@ -35,6 +35,15 @@ _STUDY_OPTIONAL = (
     "lhs_optimization", "outputs", "design", "levels", "screening_threshold",
     "pce_max_loo_error",
 )  # fmt: skip
+_TRANSIENT_OPTIONAL = ("acceptable_burn_probability",)
+TRANSIENT_CHUNK_SIZE = 256
+"""Default ``study.chunk_size`` of a transient study: a chunk keeps its samples' histories
+(``face_temperature`` is samples x times x faces) and takes seconds to solve, so chunks are
+small enough for bounded memory and for two workers to share a small study [-]."""
+TRANSIENT_TEMPERATURE_UNIT = "degC"
+"""Display unit of temperatures in a transient study (which has no ``limit`` to take it from)."""
+
+
 def _method(ctx: Context, raw: Any) -> Method:
     if isinstance(raw, str) and raw in RENAMED_METHODS:
         raise ctx.error("study.method", f'"{raw}" {RENAMED_METHODS[raw]}')
@@ -60,8 +69,24 @@ def parse_study_section(ctx: Context, raw: Any, parsed: dict) -> dict:
     if raw is None:
         raise ctx.error("study", f"missing section [study] ({', '.join(_STUDY_REQUIRED)})")
     t = cv.table(ctx, raw, "study", "[study]")
-    cv.check_keys(ctx, t, "study", (*_STUDY_REQUIRED, *_STUDY_OPTIONAL),
-                  required=_STUDY_REQUIRED)
+    transient = bool(parsed.get("_transient"))
+    required = tuple(k for k in _STUDY_REQUIRED if k != "limit" or not transient)
+    cv.check_keys(ctx, t, "study", (*_STUDY_REQUIRED, *_STUDY_OPTIONAL, *_TRANSIENT_OPTIONAL),
+                  required=required)
+    extra: dict[str, Any] = {}
+    if transient and "limit" in t:
+        raise ctx.error("study.limit", "a transient study has no temperature limit; its target "
+                        "is study.acceptable_burn_probability (P(second-degree burn) within the "
+                        "horizon, default 5 %); remove limit")
+    if "acceptable_burn_probability" in t:
+        if not transient:
+            raise ctx.error("study.acceptable_burn_probability", "applies only to transient "
+                            "studies (with an [exposure] section); a steady study's target is "
+                            "study.limit")
+        from plyrisk.study.sections_transient import probability
+
+        extra["_acceptable_burn_probability"] = probability(
+            ctx, t["acceptable_burn_probability"], "study.acceptable_burn_probability")
     title = cv.string(ctx, t["title"], "study.title")
     method = _method(ctx, t["method"])
     for key in t:
@@ -71,7 +96,8 @@ def parse_study_section(ctx: Context, raw: Any, parsed: dict) -> dict:
                             f"{method.name!r}; remove it")
     design = (cv.choice(ctx, t["design"], "study.design", method.designs, "design")
               if "design" in t else method.default_design)
-    limit = cv.fixed(ctx, t["limit"], "study.limit", TEMPERATURE)
+    limit = (cv.fixed(ctx, t["limit"], "study.limit", TEMPERATURE) if not transient
+             else Parsed(float("nan"), TRANSIENT_TEMPERATURE_UNIT, "none"))
     kw: dict[str, Any] = {
         "method": method.name,
         "design": design,
@@ -99,6 +125,8 @@ def parse_study_section(ctx: Context, raw: Any, parsed: dict) -> dict:
         )
     if "chunk_size" in t:
         kw["chunk_size"] = cv.integer(ctx, t["chunk_size"], "study.chunk_size", minimum=1)
+    elif transient:
+        kw["chunk_size"] = TRANSIENT_CHUNK_SIZE
     if "lhs_optimization" in t:
         path = "study.lhs_optimization"
         opt = cv.choice(ctx, t["lhs_optimization"], path, LHS_OPTIMIZATIONS, "lhs_optimization")
@@ -110,7 +138,7 @@ def parse_study_section(ctx: Context, raw: Any, parsed: dict) -> dict:
         kw["lhs_optimization"] = None if opt == "none" else opt
     if "outputs" in t:
         kw["outputs"] = _outputs(ctx, t["outputs"], "study.outputs")
-    return {"title": title, "analysis": Analysis(**kw), "limit_unit": limit.unit}
+    return {"title": title, "analysis": Analysis(**kw), "limit_unit": limit.unit, **extra}
 
 
 MIN_SAMPLES = 8

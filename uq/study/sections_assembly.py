@@ -21,7 +21,10 @@ from plyrisk.study.units import QUANTITIES
 from plyrisk.study.values import Context, join, show, suggest
 
 LAYER_KINDS = {"solid": Solid, "gap": Gap}
-RESERVED_NAMES = ("hot_side", "cold_side")
+RESERVED_NAMES = ("hot_side", "cold_side", "exposure", "wearer")
+TRANSIENT_LAYER_KEYS = ("density", "specific_heat", "specific_heat_slope",
+                        "radiant_transmissivity")
+"""``[[layer]]`` keys used by transient studies only (refused in a steady study)."""
 
 Parser = Callable[[Context, Any, dict], dict]
 """A section parser: ``parse(ctx, raw, parsed) -> dict`` of Study fields."""
@@ -71,6 +74,13 @@ def _numeric(
 
 def side_parser(side: str, kinds: dict[str, type]) -> Parser:
     def parse(ctx: Context, raw: Any, parsed: dict) -> dict:
+        if parsed.get("_transient"):
+            if raw is not None:
+                instead = "[exposure]" if side == "hot_side" else "[wearer]"
+                raise ctx.error(side, f"[{side}] belongs to a steady study; a transient study "
+                                f"(one with [exposure]) describes this side in {instead}; "
+                                "remove it")
+            return {side: None}
         kinds_text = " | ".join(repr(k) for k in kinds)
         if raw is None:
             raise ctx.error(side, f"missing section [{side}]; add one with kind = {kinds_text}")
@@ -118,6 +128,11 @@ def parse_layers(ctx: Context, raw: Any, parsed: dict) -> dict:
                 raise ctx.error(f"{path}.emissivity", "sets both faces; give either emissivity "
                                 "or emissivity_hot/emissivity_cold, not both")
         cv.check_keys(ctx, t, path, ["name", "kind", *extra, *names], required=required)
+        if not parsed.get("_transient"):
+            for key in TRANSIENT_LAYER_KEYS:
+                if key in t:
+                    raise ctx.error(join(path, key), "used only by transient studies (with an "
+                                    "[exposure] section); remove it from this steady study")
         kwargs, ps = _numeric(ctx, t, path, name, ("layer", i), names)
         if "orientation" in t:
             kwargs["orientation"] = cv.choice(ctx, t["orientation"], f"{path}.orientation",
@@ -137,6 +152,10 @@ def parse_scenarios(ctx: Context, raw: Any, parsed: dict) -> dict:
         return {"scenarios": None}
     t = cv.table(ctx, raw, "scenarios", "[scenarios]")
     cv.check_keys(ctx, t, "scenarios", ("quantity", "values"), required=("quantity", "values"))
+    if parsed.get("_transient"):
+        from plyrisk.study.sections_transient import parse_transient_scenarios
+
+        return {"scenarios": parse_transient_scenarios(ctx, t, parsed)}
     hot = parsed["hot_side"]
     names, _ = _model_fields(type(hot))
     quantity = t["quantity"]

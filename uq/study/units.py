@@ -144,6 +144,21 @@ TEMPERATURE_DIFFERENCE = QuantitySpec(
     "a temperature difference", "K", "1e-6 K", lower=0.0
 )
 DIMENSIONLESS = QuantitySpec("a dimensionless number", "", "1.4")
+TIME = QuantitySpec("a time", "s", "8 s", lower=0.0)
+TIME_POINT = QuantitySpec("a time from the start of the exposure", "s", "2 s", lower=0.0,
+                          lower_open=False)
+DENSITY = QuantitySpec("a density", "kg/m^3", "300 kg/m^3", lower=0.0)
+SPECIFIC_HEAT = QuantitySpec("a specific heat capacity", "J/kg/K", "1300 J/kg/K", lower=0.0)
+SPECIFIC_HEAT_SLOPE = QuantitySpec(
+    "a specific-heat slope (specific heat per kelvin)", "J/kg/K^2", "1.5 J/kg/K^2"
+)
+TRANSMISSIVITY = QuantitySpec("a transmissivity (dimensionless)", "", "0.2", lower=0.0,
+                              upper=1.0)
+PERFUSION_RATE = QuantitySpec(
+    "a blood perfusion rate (blood volume per tissue volume per time)", "1/s", "1.25e-3 1/s",
+    lower=0.0, lower_open=False,
+)
+MASS = QuantitySpec("a mass", "kg", "18 g", lower=0.0)
 
 QUANTITIES: dict[str, QuantitySpec] = {
     "thickness": LENGTH,
@@ -163,10 +178,29 @@ QUANTITIES: dict[str, QuantitySpec] = {
     "surroundings_temperature": TEMPERATURE,
     "ambient_temperature": TEMPERATURE,
     "convection_coefficient": COEFFICIENT,
+    # transient studies: layers
+    "density": DENSITY,
+    "specific_heat": SPECIFIC_HEAT,
+    "specific_heat_slope": SPECIFIC_HEAT_SLOPE,
+    "radiant_transmissivity": TRANSMISSIVITY,
+    # transient studies: [exposure]
+    "duration": TIME,
+    "horizon": TIME,
+    "output_step": TIME,
+    "ambient_convection_coefficient": COEFFICIENT,
+    "cooldown_temperature": TEMPERATURE,
+    "cooldown_convection_coefficient": COEFFICIENT,
+    "cooldown_surroundings_temperature": TEMPERATURE,
+    # transient studies: [wearer]
+    "core_temperature": TEMPERATURE,
+    "initial_temperature": TEMPERATURE,
+    "perfusion_rate": PERFUSION_RATE,
+    "diameter": LENGTH,
+    "mass": MASS,
 }
-"""Spec of every numeric field of :mod:`plyrisk.models.stack` and :mod:`plyrisk.models.boundary` by
-field name
-(plus the ``emissivity`` shorthand of a solid)."""
+"""Spec of every numeric config key by name: the fields of :mod:`plyrisk.models.stack` and
+:mod:`plyrisk.models.boundary` (plus the ``emissivity`` shorthand of a solid) and the keys of a
+transient study's ``[exposure]`` and ``[wearer]`` sections."""
 
 
 @dataclass(frozen=True)

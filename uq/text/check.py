@@ -40,6 +40,10 @@ def check_text(study: Study) -> tuple[str, bool]:
     plyrisk.errors.ConfigError
         When the nominal stack is invalid (naming the key path).
     """
+    if study.transient is not None:
+        from plyrisk.text.check_transient import transient_check_text
+
+        return transient_check_text(study, _parameter_lines(study))
     solution, notes = _nominal_solve(study)
     if study.cold_side.kind == "temperature":
         notes.append("the cold side prescribes the innermost face's temperature, so the "
