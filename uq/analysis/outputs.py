@@ -196,7 +196,7 @@ def output_column(source: Any, output: str, scenario: int, start: int = 0,
 def _transient_scalars() -> tuple[str, ...]:
     from plyrisk.models.transient_outputs import TRANSIENT_OUTPUTS
 
-    return tuple(o.name for o in TRANSIENT_OUTPUTS if o.dims == ("sample",))
+    return tuple(o.name for o in TRANSIENT_OUTPUTS if tuple(o.dims) in ((), ("sample",)))
 
 
 def output_values(propagation: Propagation, output: str, scenario: int, *,

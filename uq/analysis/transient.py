@@ -61,6 +61,10 @@ EVENTS: dict[str, tuple[tuple[str, str], ...]] = {
 }
 """Per wearer kind: (event name, per-sample time of the event) pairs."""
 
+CONDITION_GROUPS = ("exposure", "wearer", "skin", "sensor", "hot_side", "cold_side")
+"""Parameter groups that are conditions of the exposure or the wearer, not layers of the
+assembly: never named the dominant *layer* (their influence is said beside it)."""
+
 HEADLINE_EVENT = {"skin": "second_degree_burn", "sensor": "sensor_criterion"}
 """The event the headline and the exposure read-off are about, per wearer kind."""
 

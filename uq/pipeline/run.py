@@ -90,7 +90,7 @@ def run_study(
     opts = replace(options or RunOptions(), **overrides).with_defaults(study)
     study = opts.validate(study)
     if study.transient is not None:
-        _propagate_transient_only(study, opts)
+        _check_transient_options(study, opts)
     chosen = get_method(study.analysis.method)
     chunk_size, workers, scheduler, store = (opts.chunk_size, int(opts.workers or 1),
                                              opts.scheduler, opts.store)
@@ -137,38 +137,25 @@ def run_study(
     return StudyResult(study, prop, analysis, ds, path, messages, screening, growth)
 
 
-class TransientAnalysisPending(PlyriskError):
-    """A transient study was propagated, but its analysis is not part of this build yet."""
+class TransientOptionError(PlyriskError):
+    """A run option that transient studies do not support yet (one line)."""
 
 
-def _propagate_transient_only(study, opts: RunOptions) -> None:
-    """Propagate a transient study (in memory or into the store), then stop with one line.
+def _check_transient_options(study: Study, opts: RunOptions) -> None:
+    """Refuse, in one line, the run options a transient study cannot use yet.
 
     Raises
     ------
-    TransientAnalysisPending
-        Always, after the propagation: the statistics, indices and report of transient
-        outputs are not available in this build.
+    TransientOptionError
+        For ``--until-converged`` and a ``[screening]`` section.
     """
     if opts.until_converged:
-        raise TransientAnalysisPending(f"{study.source}: --until-converged is not available "
-                                       "for transient studies yet")
-    workers = int(opts.workers or 1)
-    if opts.store is not None:
-        from plyrisk.propagate.store import solve_to_store
-
-        reader = solve_to_store(study, opts.store, chunk_size=opts.chunk_size,
-                                resume=opts.resume, workers=workers, scheduler=opts.scheduler,
-                                quiet=opts.quiet)
-        done = f"{reader.n_rows} samples solved into the store {opts.store}"
-    else:
-        prop = propagate(study, chunk_size=opts.chunk_size, quiet=opts.quiet, workers=workers,
-                         scheduler=opts.scheduler)
-        done = f"{prop.inputs.shape[0]} samples solved"
-    raise TransientAnalysisPending(
-        f"{study.source}: transient study propagated ({done}), but the analysis of transient "
-        "outputs (statistics, indices, report) is not available in this build yet; "
-        "'plyrisk check' prints the nominal history")
+        raise TransientOptionError(f"{study.source}: --until-converged is not available for "
+                                   "transient studies yet; give [study] samples")
+    if study.screening is not None:
+        raise TransientOptionError(f"{study.source}: screening: a [screening] section is not "
+                                   "available for transient studies yet; run method = "
+                                   "\"morris\" as a study of its own")
 
 
 def _scheduling_noise(w: warnings.WarningMessage) -> bool:
@@ -189,6 +176,11 @@ def _run_to_store(study: Study, store, *, chunk_size, resume, workers, scheduler
     if reader.n_rows <= streaming.STREAM_ROWS:
         prop = load_propagation(study, reader)
         return prop, method.analyse(study, prop), reader
+    if study.transient is not None:
+        raise TransientOptionError(
+            f"{study.source}: {reader.n_rows} samples are stored in {store}, more than the "
+            f"{streaming.STREAM_ROWS} a transient study can analyse in memory yet; the samples "
+            "stay in the store")
     analysis = method.analyse_store(study, reader)
     return load_propagation(study, reader, stop=FILE_SAMPLE_ROWS), analysis, reader
 

@@ -17,6 +17,7 @@ from typing import Any
 import numpy as np
 import xarray as xr
 
+from plyrisk.analysis.transient import CONDITION_GROUPS
 from plyrisk.cautions import TRANSIENT_CAUTIONS
 from plyrisk.report.csv_tables import write_csv
 from plyrisk.report.figures import transient as tf
@@ -53,10 +54,17 @@ def _dominant(one: xr.Dataset) -> str:
     if "sobol_group_total" in one:
         tot = np.asarray(one["sobol_group_total"].sel(output=output).values, float)
         ci = np.asarray(one["sobol_group_total_ci"].sel(output=output).values, float)
-        if np.isfinite(tot).any():
-            j = int(np.nanargmax(tot))
-            return (f"dominant layer: {one['group'].values[j]} (total index {tot[j]:.2f} ± "
-                    f"{ci[j]:.2f} for {output})")
+        names = [str(g) for g in one["group"].values]
+        layer = np.array([n not in CONDITION_GROUPS for n in names])
+        if np.isfinite(tot[layer]).any():
+            j = int(np.nanargmax(np.where(layer, tot, np.nan)))
+            text = (f"dominant layer: {names[j]} (total index {tot[j]:.2f} ± {ci[j]:.2f} for "
+                    f"{output}")
+            k = int(np.nanargmax(tot))
+            if not layer[k]:
+                text += (f"; the {names[k]} itself moves it more: total index {tot[k]:.2f} ± "
+                         f"{ci[k]:.2f}")
+            return text + ")"
         return f"dominant layer: none ({output} is the same in every sample)"
     if "morris_mu_star" in one:
         mu = np.asarray(one["morris_mu_star"].sel(output=output).values, float)

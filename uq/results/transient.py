@@ -144,7 +144,9 @@ def _sample_variables(study, propagation, analysis, sd, per) -> dict[str, xr.Var
         if spec.name not in f:
             continue
         values = per(f[spec.name])
-        dims = tuple("face" if d == "face" else d for d in spec.dims)
+        dims = ("sample", *(d for d in spec.dims if d != "sample"))
+        if getattr(spec, "dtype", "") == "i4":
+            values = values.astype(np.int32)
         extra = {"censoring": "+inf where not reached by the horizon"} if spec.name.startswith(
             ("time_to_", "sensor_criterion_time")) else {}
         data[spec.name] = _var((*sd, *dims), values, spec.units, spec.long_name, **extra)

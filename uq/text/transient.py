@@ -13,6 +13,7 @@ import numpy as np
 
 from plyrisk.analysis.outputs import DERIVED_OUTPUTS
 from plyrisk.analysis.transient import (
+    CONDITION_GROUPS,
     EVENTS,
     HEADLINE_EVENT,
     CensoredQuantiles,
@@ -59,10 +60,15 @@ def dominant(study: Any, sc: TransientScenarioAnalysis, output: str) -> tuple[st
     By the total index per layer group (Saltelli or the surrogate); for Morris by the largest
     mu*, naming its input and layer.
     """
-    groups = sc.group_ranking.get(output) or []
-    first = next((g for g in groups if math.isfinite(g.total)), None)
-    if first is not None:
-        return first.name, f"total index {first.total:.2f} ± {first.total_ci:.2f}"
+    groups = [g for g in sc.group_ranking.get(output) or [] if math.isfinite(g.total)]
+    layers = [g for g in groups if g.name not in CONDITION_GROUPS]
+    if layers:
+        first = layers[0]
+        how = f"total index {first.total:.2f} ± {first.total_ci:.2f}"
+        if groups[0].name in CONDITION_GROUPS:
+            how += (f"; the {groups[0].name} itself moves it more: total index "
+                    f"{groups[0].total:.2f} ± {groups[0].total_ci:.2f}")
+        return first.name, how
     m = sc.screening.get(output)
     if m is not None and np.isfinite(m.mu_star).any():
         j = int(np.nanargmax(m.mu_star))
@@ -97,7 +103,7 @@ def headline_sentences(study: Any, analysis: TransientAnalysis, s: int) -> list[
     name, how = dominant(study, sc, primary)
     if name:
         rule = "" if primary not in DERIVED_OUTPUTS else DERIVED_OUTPUTS[primary].long_name
-        out.append(f"dominant layer: {name} ({how}, for the {rule})")
+        out.append(f"dominant layer: {name} (for the {rule}: {how})")
     elif primary in sc.constant_outputs:
         out.append(f"dominant layer: none ({primary} is the same in every sample)")
     return out
