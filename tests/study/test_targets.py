@@ -79,3 +79,38 @@ def test_bad_forms_raise_one_line(text, why):
 def test_not_a_string():
     with pytest.raises(ValueError, match="expected a string"):
         parse_target(95)
+
+
+# ----------------------------------------------------------------------------------------------
+# Transient targets
+# ----------------------------------------------------------------------------------------------
+
+
+def test_transient_event_probability_target():
+    t = parse_target("P(second_degree_burn) <= 5 %")
+    assert (t.kind, t.output, t.direction, t.event) == (
+        "exceedance", "time_to_second_degree_burn", "<=", "second_degree_burn")
+    assert t.threshold == pytest.approx(0.05) and t.transient
+
+
+def test_transient_time_target_is_negated_for_the_engine():
+    # P5(t) >= 12 s  <=>  P95(-t) <= -12 s
+    t = parse_target("P5(time_to_second_degree_burn) >= 0.2 min")
+    assert (t.kind, t.direction, t.probability) == ("quantile", ">=", 0.05)
+    assert t.threshold == pytest.approx(12.0)
+    assert t.engine_probability == pytest.approx(0.95)
+    assert t.bound(float("nan")) == pytest.approx(-12.0)
+    assert not parse_target("P95 <= limit").transient
+
+
+@pytest.mark.parametrize("text,why", [
+    ("P(burn) <= 5 %", "unknown event"),
+    ("P5(time_to_burn) >= 12 s", "unknown time"),
+    ("P5(time_to_second_degree_burn) >= 12 K", "not a time"),
+    ("P5(time_to_second_degree_burn) >= -3 s", "must be positive"),
+    ("P0(time_to_second_degree_burn) >= 3 s", "strictly between 0 and 100"),
+])
+def test_bad_transient_targets_raise_one_line(text, why):
+    with pytest.raises(ValueError, match=why) as err:
+        parse_target(text)
+    assert "\n" not in str(err.value)

@@ -153,6 +153,8 @@ def _sample_variables(study, propagation, analysis, sd, per) -> dict[str, xr.Var
     source = _Rows(propagation, horizon=analysis.facts.horizon)
     n_s = f["converged"].shape[0]
     for name in analysis.outputs:
+        if name in data and name in DERIVED_OUTPUTS:  # an output of the model used as it is
+            data[name].attrs["rule"] = DERIVED_OUTPUTS[name].rule
         if name in data or name not in DERIVED_OUTPUTS:
             continue
         d = DERIVED_OUTPUTS[name]

@@ -1,0 +1,66 @@
+"""The report of a transient study: figures draw, the answer comes first, cautions present."""
+
+from __future__ import annotations
+
+import pytest
+from matplotlib.figure import Figure
+
+from plyrisk.methods import get_method
+from plyrisk.report.figures import transient as tf
+from plyrisk.report.html import write_report
+from plyrisk.results.dataset import read_results, write_results
+from plyrisk.study.config import load_study
+from tests import transient_study as ts
+from tests.conftest import CONFIGS
+
+
+def _dataset(which):
+    study, prop = which()
+    method = get_method(study.analysis.method)
+    return method.dataset(study, prop, method.analyse(study, prop))
+
+
+@pytest.mark.slow
+def test_transient_figures_draw():
+    skin, sweep, sensor = (_dataset(w) for w in (ts.skin_saltelli, ts.skin_sweep,
+                                                 ts.sensor_pce))
+    figs = [tf.bands_figure(skin), tf.burn_time_figure(skin), tf.layer_indices_figure(skin),
+            tf.layer_indices_figure(skin, groups=False), tf.bands_figure(sensor),
+            tf.burn_time_figure(sensor), tf.bands_figure(sweep, scenario=3),
+            tf.burn_sweep_figure(sweep)]
+    for f in figs:
+        assert isinstance(f, Figure) and f.axes
+    labels = {a.get_label() for a in figs[0].axes}
+    assert labels == {"bands", "exposure"}
+    with pytest.raises(ValueError, match="sweeps no exposure"):
+        tf.burn_sweep_figure(skin)
+
+
+@pytest.mark.slow
+def test_transient_report_answers_first_and_carries_the_cautions(tmp_path):
+    ds = read_results(write_results(_dataset(ts.skin_sweep), tmp_path / "results.nc"))
+    files = write_report(ds, tmp_path / "report")
+    html = files.html.read_text(encoding="utf-8")
+    assert html.index("<h2>Answer</h2>") < html.index("<h2>Figures</h2>")
+    assert "Time to second-degree burn: P5" in html and "P(second-degree burn within 30 s)" \
+        in html
+    assert "scatter widely" in html and "not a substitute for certification" in html
+    assert "Dominant layer" in html
+    md = files.markdown.read_text(encoding="utf-8")
+    assert md.index("## Answer") < md.index("## Cautions") < md.index("## Times to burn")
+    assert {p.name for p in files.tables} >= {"event_times.csv", "event_probabilities.csv"}
+    assert any(p.name == "burn_probability_sweep.png" for p in files.figures)
+
+
+@pytest.mark.slow
+def test_turnout_demo_runs_end_to_end(tmp_path):
+    # the invented demo, at a small sample count: run, dataset, summary, report
+    from plyrisk.pipeline.run import run_study, summary_text
+
+    study = load_study(CONFIGS / "turnout_flash.toml")
+    result = run_study(study, out_dir=tmp_path, samples=8, quiet=True)
+    text = summary_text(result)
+    assert text.index("ANSWER") < text.index("CAUTIONS")
+    assert "time to second-degree burn: P5" in text and "dominant layer:" in text
+    files = write_report(read_results(result.path), tmp_path)
+    assert files.html.exists() and files.markdown.exists()
