@@ -16,6 +16,12 @@
    (``fit_pce(sparse=False)``, full sets of at most n / 1.5 terms) on the same samples.
    Last line: ``pce_runs_ratio: <PCE runs / Saltelli runs>``.
 
+4. ``--transient``: a transient Saltelli study (an invented three-layer ensemble on skin, 12
+   uncertain inputs, N = ``--transient-samples`` base rows, default 2048) end to end: propagate
+   on ``--workers`` dask workers, analyse, write ``results.nc`` and the report; the stages are
+   timed separately. Last line: ``transient_study_seconds: <float>`` (the whole run). With
+   ``--transient-only`` the steady parts are skipped.
+
 Run from the repository root::
 
     /tmp/venv5/bin/python benchmarks/study.py [--repeat 3] [--profile]
@@ -107,6 +113,101 @@ temperature = { normal = { mean = "34 degC", sd = "0.5 K" } }
 emissivity = { uniform = [0.95, 0.99] }
 """
 
+TRANSIENT_STACK = """
+# INVENTED benchmark study: every value is invented; it describes no real garment.
+[study]
+title = "Invented benchmark: three-layer ensemble on skin, 12 uncertain inputs"
+method = "saltelli"
+samples = 2048
+seed = 2026
+acceptable_burn_probability = "5 %"
+
+[exposure]
+incident_flux = { uniform = ["36 kW/m^2", "48 kW/m^2"] }
+gas_temperature = "860 degC"
+convection_coefficient = "50 W/m^2/K"
+surroundings_temperature = "25 degC"
+duration = { uniform = ["6 s", "14 s"] }
+horizon = "60 s"
+ambient_temperature = "25 degC"
+cooldown_convection_coefficient = "10 W/m^2/K"
+
+[[layer]]
+name = "outer shell"
+kind = "solid"
+thickness = { nominal = "0.75 mm", tolerance = "0.08 mm" }
+conductivity = "0.065 W/m/K"
+density = { normal = { mean = "320 kg/m^3", sd = "20 kg/m^3" } }
+specific_heat = { uniform = ["1200 J/kg/K", "1400 J/kg/K"] }
+emissivity = 0.88
+
+[[layer]]
+name = "shell gap"
+kind = "gap"
+width = { lognormal = { median = "1 mm", gsd = 1.4 } }
+
+[[layer]]
+name = "moisture barrier"
+kind = "solid"
+thickness = { nominal = "0.45 mm", tolerance = "0.05 mm" }
+conductivity = "0.05 W/m/K"
+density = "380 kg/m^3"
+specific_heat = { uniform = ["1150 J/kg/K", "1450 J/kg/K"] }
+
+[[layer]]
+name = "thermal liner"
+kind = "solid"
+thickness = { nominal = "1.8 mm", tolerance = "0.25 mm" }
+conductivity = { uniform = ["0.038 W/m/K", "0.046 W/m/K"] }
+density = { uniform = ["85 kg/m^3", "115 kg/m^3"] }
+specific_heat = "1350 J/kg/K"
+
+[[layer]]
+name = "skin gap"
+kind = "gap"
+width = { lognormal = { median = "3 mm", gsd = 1.5 } }
+
+[wearer]
+kind = "skin"
+properties = "jiang_2002"
+damage_model = "henriques_1947"
+"""
+
+
+def transient_benchmark(samples: int, workers: int) -> float:
+    """Run the transient Saltelli study end to end, print the stage times; total [s]."""
+    from plyrisk.methods import get_method
+    from plyrisk.propagate.evaluate import propagate
+    from plyrisk.report.html import write_report
+    from plyrisk.results.dataset import write_results
+
+    study = loads_study(TRANSIENT_STACK.replace("samples = 2048", f"samples = {samples}"),
+                        source="<transient benchmark>")
+    method = get_method("saltelli")
+    with tempfile.TemporaryDirectory() as tmp:
+        stages = {}
+        start = time.perf_counter()
+        prop = propagate(study, quiet=True, workers=workers)
+        stages["propagate"] = time.perf_counter() - start
+        t = time.perf_counter()
+        analysis = method.analyse(study, prop)
+        stages["analyse"] = time.perf_counter() - t
+        t = time.perf_counter()
+        ds = method.dataset(study, prop, analysis)
+        write_results(ds, Path(tmp) / "results.nc")
+        stages["dataset"] = time.perf_counter() - t
+        t = time.perf_counter()
+        write_report(ds, Path(tmp) / "report")
+        stages["report"] = time.perf_counter() - t
+        total = time.perf_counter() - start
+    runs = prop.inputs.shape[0]
+    print(f"transient saltelli study: {len(study.parameters)} inputs, N = {samples}, "
+          f"{runs} model runs, {workers} worker(s)")
+    print("  " + ", ".join(f"{k} {v:.1f} s" for k, v in stages.items())
+          + f"; {runs / stages['propagate']:.1f} runs/s in the propagation")
+    return total
+
+
 PCE_SIZES = (60, 80, 100, 150, 200, 300, 400, 600, 800, 1200, 1600, 2400, 3200)
 """Latin-hypercube sizes tried for the PCE [-]."""
 
@@ -154,8 +255,19 @@ def main() -> int:
     parser.add_argument("--profile", action="store_true", help="print the cProfile of a run")
     parser.add_argument("--reference-samples", type=int, default=2**16)
     parser.add_argument("--tolerance", type=float, default=0.02)
+    parser.add_argument("--transient", action="store_true",
+                        help="also run the transient Saltelli study")
+    parser.add_argument("--transient-only", action="store_true",
+                        help="run only the transient Saltelli study")
+    parser.add_argument("--transient-samples", type=int, default=2048)
+    parser.add_argument("--workers", type=int, default=2,
+                        help="dask workers of the transient study")
     args = parser.parse_args()
     warnings.simplefilter("ignore")
+    if args.transient_only:
+        total = transient_benchmark(args.transient_samples, args.workers)
+        print(f"transient_study_seconds: {total:.2f}")
+        return 0
     study = loads_study(STACK, source="<benchmark stack>")
 
     with tempfile.TemporaryDirectory() as tmp:
@@ -216,6 +328,9 @@ def main() -> int:
     print(f"runs for every index within {args.tolerance} of the reference: saltelli "
           f"{salt_runs} (N = {n_salt}), pce {pce_runs}")
     print(f"pce_runs_ratio: {pce_runs / salt_runs:.4f}")
+    if args.transient:
+        total = transient_benchmark(args.transient_samples, args.workers)
+        print(f"transient_study_seconds: {total:.2f}")
     return 0
 
 
