@@ -464,6 +464,15 @@ def scenario_slices(ds: xr.Dataset) -> Iterator[tuple[str, xr.Dataset]]:
         yield "", ds
 
 
+STORE_MARK = "plyrisk_store"
+"""Root attribute that marks a Zarr group as a plyrisk store (value: layout version) [-]."""
+
+STORE_OWN_ATTRS = (STORE_MARK, "plyrisk_study", "chunk_size", "evaluations", "interface_names",
+                   "element_names", "element_kinds", "element_layers", "inner_surface_index")
+"""Root attributes of a store itself (:mod:`plyrisk.propagate.store`), kept for the store's
+life whatever the analysis adds: the fingerprint above all, so that a finished store can be
+resumed [-]."""
+
 PER_SAMPLE_DIMS = ("sample",)
 """Variables along these dimensions are the store's own; the rest is the analysis [-]."""
 
@@ -484,13 +493,16 @@ def write_store_analysis(ds: xr.Dataset, path: str | Path) -> None:
     part = ds[[n for n in keep if n in ds.data_vars]]
     part = part.assign_coords({n: ds[n] for n in keep if n in ds.coords})
     part = part.drop_vars([n for n in part.coords if "sample" in part[n].dims])
-    part.attrs = {}
+    group = zarr.open_group(str(path), mode="r")
+    own = {k: group.attrs[k] for k in STORE_OWN_ATTRS if k in group.attrs}
+    # the group's attributes are replaced in one write, the store's own ones kept: a kill at
+    # any point leaves the fingerprint in place
+    part.attrs = {**{k: (v.tolist() if isinstance(v, np.ndarray) else
+                         v.item() if isinstance(v, np.generic) else v)
+                     for k, v in ds.attrs.items()}, **own}
     # variable-length strings: fixed-width unicode has no Zarr v3 specification yet
     part = part.assign({n: v.astype(object) for n, v in part.data_vars.items()
                         if v.dtype.kind == "U"})
     part = part.assign_coords({n: part[n].astype(object) for n in part.coords
                                if part[n].dtype.kind == "U"})
     part.to_zarr(str(path), mode="a", consolidated=False, zarr_format=3)
-    group = zarr.open_group(str(path), mode="r+")
-    group.attrs.update({k: (v.tolist() if isinstance(v, np.ndarray) else v)
-                        for k, v in ds.attrs.items()})
