@@ -18,7 +18,9 @@ Every mistake raises :class:`~plyrisk.errors.ConfigError`, one line:
 
 from __future__ import annotations
 
+import os
 import re
+import stat
 import tomllib
 from collections.abc import Callable
 from dataclasses import MISSING, fields, replace
@@ -96,6 +98,14 @@ def load_study(path: str | Path) -> Study:
         For a missing or unreadable file or any mistake in it.
     """
     source = str(path)
+    try:  # a FIFO, device or folder would hang or fail half-way when read
+        if not stat.S_ISREG(os.stat(path).st_mode):
+            raise ConfigError(source, "", "not a regular file (a FIFO, device or folder); give "
+                              "a TOML config file")
+    except FileNotFoundError:
+        raise ConfigError(source, "", "no such file") from None
+    except OSError as err:
+        raise ConfigError(source, "", f"cannot read the file ({err.strerror or err})") from None
     try:
         text = Path(path).read_text(encoding="utf-8")
     except FileNotFoundError:
@@ -217,7 +227,7 @@ def _parse_study_section(ctx: Context, raw: Any, parsed: dict) -> dict:
         "method": method,
         "design": design,
         "samples": _samples(ctx, t["samples"], method, design),
-        "seed": cv.integer(ctx, t["seed"], "study.seed", minimum=0),
+        "seed": cv.integer(ctx, t["seed"], "study.seed", minimum=0, maximum=MAX_SEED),
         "limit": limit.si,
     }
     if "levels" in t:
@@ -256,6 +266,34 @@ def _parse_study_section(ctx: Context, raw: Any, parsed: dict) -> dict:
 
 MIN_SAMPLES = 8
 """Fewest samples (Sobol: base rows) a study may ask for: fewer give no usable interval [-]."""
+
+MAX_SEED = 2**64 - 1
+"""Largest seed: seeds are stored as unsigned 64-bit integers in ``results.nc`` [-]."""
+
+
+def check_seed(seed: int, where: str) -> int:
+    """Return ``seed`` when it is a whole number in 0 … 2^64 − 1, else raise ``ValueError``.
+
+    Parameters
+    ----------
+    seed
+        The seed [-].
+    where
+        How it is named in the message (``"--seed"``, ``"study.seed"``) [-].
+
+    Examples
+    --------
+    >>> check_seed(2**64 - 1, "--seed")
+    18446744073709551615
+    >>> check_seed(2**64, "--seed")  # doctest: +ELLIPSIS
+    Traceback (most recent call last):
+    ...
+    ValueError: --seed must be a whole number from 0 to 2^64 - 1 (...), got 18446744073709551616
+    """
+    if isinstance(seed, bool) or not isinstance(seed, int) or not 0 <= seed <= MAX_SEED:
+        raise ValueError(f"{where} must be a whole number from 0 to 2^64 - 1 ({MAX_SEED}), "
+                         f"got {seed}")
+    return seed
 
 
 def _samples(ctx: Context, raw: Any, method: str, design: str) -> int:
@@ -482,7 +520,8 @@ def _parse_tolerances(ctx: Context, raw: Any, parsed: dict) -> dict:
         kw["method"] = cv.choice(ctx, t["method"], "tolerances.method", TOLERANCE_METHODS,
                                  "method")
     if "seed" in t:
-        kw["seed"] = cv.integer(ctx, t["seed"], "tolerances.seed", minimum=0)
+        kw["seed"] = cv.integer(ctx, t["seed"], "tolerances.seed", minimum=0,
+                                maximum=MAX_SEED)
     if "cost" in t:
         cost = cv.table(ctx, t["cost"], "tolerances.cost",
                         '{ "<parameter name>" = <weight>, ... }')
@@ -740,6 +779,7 @@ def override(study: Study, *, samples: int | None = None, seed: int | None = Non
     if samples is not None:
         changes["samples"] = int(samples)
     if seed is not None:
+        check_seed(seed, "--seed")
         changes["seed"] = int(seed)
     if not changes:
         return study

@@ -94,12 +94,15 @@ def choice(ctx: Context, raw: Any, path: str, valid: Iterable[str], what: str) -
     return raw
 
 
-def integer(ctx: Context, raw: Any, path: str, *, minimum: int) -> int:
-    """A whole number ``>= minimum`` [-]."""
+def integer(ctx: Context, raw: Any, path: str, *, minimum: int,
+            maximum: int | None = None) -> int:
+    """A whole number ``>= minimum`` (and ``<= maximum`` when given) [-]."""
     if isinstance(raw, bool) or not isinstance(raw, int):
         raise ctx.error(path, f"expected a whole number >= {minimum}, got {show(raw)}")
     if raw < minimum:
         raise ctx.error(path, f"must be at least {minimum}, got {raw}")
+    if maximum is not None and raw > maximum:
+        raise ctx.error(path, f"must be at most {maximum}, got {raw}")
     return raw
 
 
