@@ -149,7 +149,7 @@ def needed(sizes, errors, tolerance: float) -> int | None:
 
 
 def main() -> int:
-    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0], allow_abbrev=False)
     parser.add_argument("--repeat", type=int, default=3, help="timed runs of the study (best)")
     parser.add_argument("--profile", action="store_true", help="print the cProfile of a run")
     parser.add_argument("--reference-samples", type=int, default=2**16)

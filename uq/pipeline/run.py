@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import os
 import warnings
+from contextlib import ExitStack
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -145,6 +146,7 @@ def run_study(
     scheduler: str | None = None,
     store: str | Path | None = None,
     resume: bool = False,
+    overwrite: bool = False,
     method: str | None = None,
     until_converged: bool = False,
     max_runs: int | None = None,
@@ -173,7 +175,10 @@ def run_study(
         Zarr store folder to stream the per-sample results to (out of core); the analysis
         reads them from there and is added to it [-].
     resume
-        Keep the chunks an interrupted run already put in ``store`` [-].
+        Keep the chunks an interrupted run already put in ``store``; on a finished store
+        only the analysis runs again [-].
+    overwrite
+        Replace a plyrisk store already at ``store`` [-].
     method
         Analysis method overriding the config (``saltelli``, ``pce``, ``morris``) [-].
     until_converged
@@ -196,46 +201,52 @@ def run_study(
         raise ValueError("a store holds one fixed design: use it with method = saltelli or "
                          "pce, without until_converged")
     screening = growth = reader = None
-    with warnings.catch_warnings(record=True) as caught:  # reported in the summary, once each
-        warnings.simplefilter("always")
-        if study.screening is not None:
-            screening = screen_study(study, chunk_size=chunk_size, workers=workers)
-            study = screening.reduced
-        if until_converged:
-            growth = grow_until_converged(study, max_runs=max_runs, chunk_size=chunk_size,
-                                          workers=workers)
-            study, prop, analysis = growth.study, growth.propagation, growth.analysis
-        elif store is not None:
-            prop, analysis, reader = _run_to_store(study, store, chunk_size=chunk_size,
-                                                   resume=resume, workers=workers,
-                                                   scheduler=scheduler, quiet=quiet)
-        else:
-            prop = propagate(study, chunk_size=chunk_size, quiet=quiet, workers=workers,
-                             scheduler=scheduler)
-            if study.analysis.method == "morris":
-                analysis = morris_analysis(study, prop)
+    with ExitStack() as held:
+        if store is not None:  # one run per store, until its analysis is stored
+            from plyrisk.propagate.store import store_lock
+
+            held.enter_context(store_lock(store, resume=resume))
+        with warnings.catch_warnings(record=True) as caught:  # reported in the summary, once each
+            warnings.simplefilter("always")
+            if study.screening is not None:
+                screening = screen_study(study, chunk_size=chunk_size, workers=workers)
+                study = screening.reduced
+            if until_converged:
+                growth = grow_until_converged(study, max_runs=max_runs, chunk_size=chunk_size,
+                                              workers=workers)
+                study, prop, analysis = growth.study, growth.propagation, growth.analysis
+            elif store is not None:
+                prop, analysis, reader = _run_to_store(study, store, chunk_size=chunk_size,
+                                                       resume=resume, overwrite=overwrite,
+                                                       workers=workers, scheduler=scheduler,
+                                                       quiet=quiet)
             else:
-                analysis = analyse(study, prop)
-    messages = tuple(dict.fromkeys(" ".join(str(w.message).split()) for w in caught
-                                   if not _scheduling_noise(w)))
-    if study.analysis.method == "morris":
-        ds = morris_dataset(study, prop, analysis)
-    else:
-        ds = to_dataset(study, prop, analysis)
-    if screening is not None:
-        ds = add_screening(ds, screening)
-    if growth is not None:
-        ds = add_growth(ds, growth)
-    if store is not None:
-        ds.attrs["sample_store"] = str(store)
-        if prop.inputs.shape[0] < reader.n_rows:  # analysed in passes; the file has a part
-            ds.attrs["sample_rows_in_file"] = int(prop.inputs.shape[0])
-            ds.attrs["notes"] += (f"\nresults.nc and the figures hold the first "
-                                  f"{prop.inputs.shape[0]} of the {reader.n_rows} samples; "
-                                  f"all of them are in the store {store}")
-            ds.attrs["evaluations"] = int(reader.n_rows)
-            ds.attrs["base_samples"] = int(study.analysis.samples)
-        write_store_analysis(ds, store)
+                prop = propagate(study, chunk_size=chunk_size, quiet=quiet, workers=workers,
+                                 scheduler=scheduler)
+                if study.analysis.method == "morris":
+                    analysis = morris_analysis(study, prop)
+                else:
+                    analysis = analyse(study, prop)
+        messages = tuple(dict.fromkeys(" ".join(str(w.message).split()) for w in caught
+                                       if not _scheduling_noise(w)))
+        if study.analysis.method == "morris":
+            ds = morris_dataset(study, prop, analysis)
+        else:
+            ds = to_dataset(study, prop, analysis)
+        if screening is not None:
+            ds = add_screening(ds, screening)
+        if growth is not None:
+            ds = add_growth(ds, growth)
+        if store is not None:
+            ds.attrs["sample_store"] = str(store)
+            if prop.inputs.shape[0] < reader.n_rows:  # analysed in passes; the file has a part
+                ds.attrs["sample_rows_in_file"] = int(prop.inputs.shape[0])
+                ds.attrs["notes"] += (f"\nresults.nc and the figures hold the first "
+                                      f"{prop.inputs.shape[0]} of the {reader.n_rows} samples; "
+                                      f"all of them are in the store {store}")
+                ds.attrs["evaluations"] = int(reader.n_rows)
+                ds.attrs["base_samples"] = int(study.analysis.samples)
+            write_store_analysis(ds, store)
     ds.attrs["warnings"] = "\n".join(messages)
     path = None
     if out_dir is not None:
@@ -250,13 +261,13 @@ def _scheduling_noise(w: warnings.WarningMessage) -> bool:
         f"/{name}/" in where for name in ("distributed", "dask", "tornado"))
 
 
-def _run_to_store(study, store, *, chunk_size, resume, workers, scheduler, quiet):
+def _run_to_store(study, store, *, chunk_size, resume, overwrite, workers, scheduler, quiet):
     """Solve into the store, then analyse: loaded whole when small, in passes when large."""
     from plyrisk.analysis import streaming
     from plyrisk.propagate.store import load_propagation, solve_to_store
 
     reader = solve_to_store(study, store, chunk_size=chunk_size, resume=resume,
-                            workers=workers, scheduler=scheduler, quiet=quiet)
+                            overwrite=overwrite, workers=workers, scheduler=scheduler, quiet=quiet)
     if reader.n_rows <= streaming.STREAM_ROWS:
         prop = load_propagation(study, reader)
         return prop, analyse(study, prop), reader

@@ -182,7 +182,7 @@ def folder_lock(folder: str | Path, *, what: str = "output folder") -> Iterator[
     folder
         The folder to lock; the lock file :data:`LOCK_NAME` is created inside it [-].
     what
-        How the folder is named in the error ("output folder", "store") [-].
+        How the folder is named in the error ("output folder", "--out") [-].
 
     Raises
     ------
@@ -207,16 +207,18 @@ def folder_lock(folder: str | Path, *, what: str = "output folder") -> Iterator[
         folder.mkdir(parents=True, exist_ok=True)
         fh = open(folder / LOCK_NAME, "a+", encoding="utf-8")  # held to the end
     except OSError as err:
-        raise OutputError(f"{folder}: cannot write there ({err.strerror or err})") from None
+        raise OutputError(f"{what} {folder}: cannot write there ({err.strerror or err})"
+                          ) from None
     try:
         try:
             fcntl.flock(fh.fileno(), fcntl.LOCK_EX | fcntl.LOCK_NB)
         except OSError as err:
             if err.errno not in (errno.EWOULDBLOCK, errno.EACCES, errno.EAGAIN):
-                raise OutputError(f"{folder}: cannot lock it ({err.strerror or err})") from None
+                raise OutputError(f"{what} {folder}: cannot lock it ({err.strerror or err})"
+                                  ) from None
             fh.seek(0)
             holder = _describe_holder(fh.read())
-            raise FolderBusy(f"{folder}: {what} in use by another plyrisk run ({holder}); wait "
+            raise FolderBusy(f"{what} {folder}: in use by another plyrisk run ({holder}); wait "
                              "for it to finish or choose another folder") from None
         fh.seek(0)
         fh.truncate()
@@ -448,6 +450,52 @@ def decide(folder: str | Path, *, fingerprint: str, overwrite: bool,
     return Decision(False, m)
 
 
+def decide_update(folder: str | Path, *, fingerprint: str,
+                  names: Iterable[str] = ()) -> Manifest | None:
+    """Check that files may be added to ``folder``'s result (a report, a tolerance table).
+
+    Call it holding :func:`folder_lock`; commit with ``OutputSet(..., keep_earlier=True)``.
+
+    Parameters
+    ----------
+    folder
+        The output folder [-].
+    fingerprint
+        Fingerprint of the result the new files belong to; ``""`` when unknown [-].
+    names
+        File names to be written, checked for clashes with files plyrisk did not write [-].
+
+    Returns
+    -------
+    Manifest or None
+        The folder's manifest.
+
+    Raises
+    ------
+    OutputError
+        One line: an interrupted replacement, a folder holding another study's result, a
+        changed or foreign file in the way.
+    """
+    folder = Path(folder)
+    clear_stale(folder)
+    m = read_manifest(folder)
+    if m is not None:
+        if m.state != "complete":
+            raise OutputError(f"{folder}: an earlier run was interrupted while replacing its "
+                              f"files ({MANIFEST} is marked incomplete); run it again with "
+                              "--overwrite, or choose another folder")
+        if fingerprint and m.fingerprint and m.fingerprint != fingerprint:
+            raise OutputError(f"{folder}: holds the result of another study ({m.describe()}); "
+                              "write into another folder")
+        for name in set(names) & m.names:
+            if (folder / name).exists() and not _unchanged(
+                    folder, [e for e in m.files if e.name == name]):
+                raise OutputError(f"{folder / name}: changed since plyrisk wrote it, so plyrisk "
+                                  "will not replace it; move it away first")
+    _refuse_foreign(folder, names, m)
+    return m
+
+
 def _refuse_changed(folder: Path, m: Manifest) -> None:
     """Refuse to remove a file of the earlier result that changed since plyrisk wrote it."""
     for name in sorted(m.names):
@@ -587,16 +635,3 @@ def _remove_if_empty(root: Path, folder: Path) -> None:
         except OSError:  # not empty, or gone
             return
         folder = folder.parent
-
-
-def remove_set(folder: str | Path, manifest: Manifest) -> None:
-    """Remove the files a manifest lists (each checked unchanged) and the manifest itself.
-
-    Call it holding :func:`folder_lock`.
-    """
-    folder = Path(folder)
-    _refuse_changed(folder, manifest)
-    for name in sorted(manifest.names):
-        (folder / name).unlink(missing_ok=True)
-        _remove_if_empty(folder, (folder / name).parent)
-    (folder / MANIFEST).unlink(missing_ok=True)
