@@ -145,8 +145,9 @@ def _add_run(subparsers) -> None:
                    "interrupted run of the same study already stored (a finished store: "
                    "only the analysis runs again)")
     p.add_argument("--overwrite", action="store_true", help="replace the earlier result in "
-                   "--out (only the files its plyrisk-manifest.json lists) and a plyrisk store "
-                   "at --store; files plyrisk did not write are never touched")
+                   "--out (only the files its plyrisk-manifest.json lists) and, without "
+                   "--resume, a plyrisk store at --store; files plyrisk did not write are never "
+                   "touched")
     p.add_argument("--no-report", action="store_true", help="write results.nc only")
     p.add_argument("--quiet", action="store_true", help="no progress bar")
     p.set_defaults(func=cmd_run)
@@ -161,9 +162,6 @@ def _check_overrides(study: Study, args: argparse.Namespace) -> None:
             check_seed(args.seed, "--seed")
         except ValueError as err:
             raise UsageError(str(err)) from None
-    if args.resume and args.overwrite:
-        raise UsageError("--resume and --overwrite exclude each other: continue the store or "
-                         "replace it")
     if args.chunk_size is not None and args.chunk_size < 1:
         raise UsageError(f"--chunk-size must be a positive integer, got {args.chunk_size}")
     if args.workers is not None and args.workers < 1:

@@ -178,7 +178,7 @@ def run_study(
         Keep the chunks an interrupted run already put in ``store``; on a finished store
         only the analysis runs again [-].
     overwrite
-        Replace a plyrisk store already at ``store`` [-].
+        Replace a plyrisk store already at ``store`` (ignored with ``resume``) [-].
     method
         Analysis method overriding the config (``saltelli``, ``pce``, ``morris``) [-].
     until_converged

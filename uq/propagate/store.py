@@ -223,7 +223,7 @@ def open_store(study, plan: DesignPlan, path: str | Path, *, chunk_size: int,
     resume
         Reuse the chunks an earlier run of the same study finished [-].
     overwrite
-        Replace a plyrisk store already at ``path`` [-].
+        Replace a plyrisk store already at ``path`` (ignored with ``resume``) [-].
 
     Returns
     -------
