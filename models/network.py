@@ -20,6 +20,7 @@ from __future__ import annotations
 import warnings
 from collections.abc import Sequence
 from dataclasses import dataclass, fields, replace
+from typing import Any
 
 import numpy as np
 from scipy.constants import Stefan_Boltzmann as SIGMA
@@ -44,40 +45,47 @@ from plyrisk.models.elements import (
     gap_kernel,
     solid_heat_flux,
 )
+from plyrisk.models.outputs import OutputSpec
 from plyrisk.models.stack import Element, Gap, Solid, StackError, validate_stack
 
 DEFAULT_CHUNK_SIZE = 8192
 """Samples solved together; small enough for the working arrays to stay in cache."""
 
 
+NETWORK_OUTPUTS: tuple[OutputSpec, ...] = (
+    OutputSpec("inner_surface_temperature", (), "K", "inner-surface temperature"),
+    OutputSpec("heat_flux", (), "W m-2", "heat flux through the assembly"),
+    OutputSpec("interface_temperature", ("interface",), "K", "face temperature"),
+    OutputSpec("layer_temperature_drop", ("layer",), "K",
+               "temperature drop across each element"),
+    OutputSpec("layer_resistance", ("layer",), "m2 K W-1",
+               "effective thermal resistance of each element"),
+    OutputSpec("radiative_share", ("layer",), "1",
+               "fraction of each gap's heat flow carried by radiation"),
+    OutputSpec("rayleigh_number", ("layer",), "1", "Rayleigh number of each gap"),
+    OutputSpec("convection_onset", ("layer",), "1", "gap past the onset of natural convection",
+               "bool"),
+    OutputSpec("converged", (), "1", "sample converged to a physically valid solution", "bool"),
+    OutputSpec("iterations", (), "1", "Newton iterations", "i4"),
+    OutputSpec("air_range_exceeded", (), "1", "a gap's mean temperature was outside 250-1500 K",
+               "bool"),
+)
+"""The per-sample outputs of :class:`NetworkSolution` (its array fields), declared once: the
+engine derives the propagation's fields, the store and the dataset variables from this table."""
+
+
 @dataclass(frozen=True)
 class NetworkSolution:
     """Steady solution of the network for ``n`` samples.
 
+    The array fields are the per-sample outputs declared in :data:`NETWORK_OUTPUTS` (name,
+    dimensions after the sample axis, units, meaning): e.g. ``interface_temperature`` has shape
+    ``(n, M + 1)`` [K], face temperatures hot → cold, and ``layer_resistance`` ``(n, M)``
+    [m2 K W-1], the effective resistance ``(T_a - T_b) / q`` of each element. Gap-only outputs
+    are NaN for other elements.
+
     Attributes
     ----------
-    interface_temperature
-        Face temperatures hot → cold, shape ``(n, M + 1)`` [K].
-    heat_flux
-        Heat flux through the assembly, shape ``(n,)`` [W m-2].
-    inner_surface_temperature
-        Temperature of the assembly's innermost face (toward the wearer), ``(n,)`` [K].
-    layer_resistance
-        Effective thermal resistance ``(T_a - T_b) / q`` of each element, ``(n, M)`` [m2 K W-1].
-    layer_temperature_drop
-        Temperature drop across each element, ``(n, M)`` [K].
-    radiative_share
-        Fraction of each gap's heat flow carried by radiation, ``(n, M)``, NaN for non-gaps [-].
-    rayleigh_number
-        Rayleigh number of each gap, ``(n, M)``, NaN for non-gaps [-].
-    convection_onset
-        Whether each gap is past the onset of natural convection, ``(n, M)`` [-].
-    converged
-        Whether the sample converged to a physically valid solution, ``(n,)`` [-].
-    iterations
-        Newton iterations used, ``(n,)`` [-].
-    air_range_exceeded
-        Whether any gap's mean temperature lies outside the air-property range, ``(n,)`` [-].
     interface_names, element_names, element_kinds, element_layers
         Labels of the faces and elements; ``element_layers`` gives the index in the input stack
         of the layer each element belongs to (a contact belongs to the solid before it).
@@ -363,6 +371,58 @@ def _full(value, n: int) -> np.ndarray:
     return np.broadcast_to(np.asarray(value, dtype=float), (n,)).copy()
 
 
+@dataclass(frozen=True)
+class _Boundaries:
+    """The boundary data of one chunk, in the form the residual needs."""
+
+    hot_fixed: bool
+    cold_fixed: bool
+    hot_flux: Any          # HotFlux: the imposed flux [W m-2]; else None
+    hot_kw: dict | None    # HotEnvironment: keywords of hot_environment_flux
+    cold_kw: dict | None   # ColdEnvironment: keywords of cold_environment_flux
+    t_cold: np.ndarray     # reference cold-side temperature of the starting field [K]
+
+
+def _boundaries(layers: list[Element], hot_side: HotSide, cold_side: ColdSide,
+                n: int) -> _Boundaries:
+    """Boundary data and the reference (cold) temperature for the starting field."""
+    cold_kw = None
+    if isinstance(cold_side, ColdEnvironment):
+        t_cold = _full(cold_side.ambient_temperature, n)
+        cold_surround = (
+            cold_side.surroundings_temperature
+            if cold_side.surroundings_temperature is not None
+            else cold_side.ambient_temperature
+        )
+        cold_kw = {
+            "ambient_temperature": cold_side.ambient_temperature,
+            "convection_coefficient": cold_side.convection_coefficient,
+            "surroundings_temperature": cold_surround,
+            "emissivity": layers[-1].emissivity_cold,
+        }
+    else:
+        t_cold = _full(cold_side.temperature, n)
+    hot_kw = None
+    if isinstance(hot_side, HotEnvironment):
+        hot_kw = {
+            "incident_flux": hot_side.incident_flux,
+            "gas_temperature": hot_side.gas_temperature,
+            "convection_coefficient": hot_side.convection_coefficient,
+            "surroundings_temperature": (
+                hot_side.surroundings_temperature
+                if hot_side.surroundings_temperature is not None
+                else hot_side.gas_temperature
+            ),
+            "emissivity": layers[0].emissivity_hot,
+        }
+    return _Boundaries(
+        hot_fixed=isinstance(hot_side, HotTemperature),
+        cold_fixed=not isinstance(cold_side, ColdEnvironment),
+        hot_flux=hot_side.heat_flux if isinstance(hot_side, HotFlux) else None,
+        hot_kw=hot_kw, cold_kw=cold_kw, t_cold=t_cold,
+    )
+
+
 def _solve_chunk(
     layers: list[Element],
     hot_side: HotSide,
@@ -377,160 +437,25 @@ def _solve_chunk(
 ) -> int:
     """Solve one chunk of samples; write its rows into ``out``; return the inner-face index."""
     elements = _build_elements(layers, cold_side)
-    m = len(elements)
-    nodes = m + 1
-    eps_out = layers[0].emissivity_hot
-
-    # Boundary data and the reference (cold) temperature for the starting field.
-    if isinstance(cold_side, ColdEnvironment):
-        t_cold = _full(cold_side.ambient_temperature, n)
-        cold_surround = (
-            cold_side.surroundings_temperature
-            if cold_side.surroundings_temperature is not None
-            else cold_side.ambient_temperature
-        )
-        last = layers[-1]
-        cold_kw = {
-            "ambient_temperature": cold_side.ambient_temperature,
-            "convection_coefficient": cold_side.convection_coefficient,
-            "surroundings_temperature": cold_surround,
-            "emissivity": last.emissivity_cold,
-        }
-    else:
-        t_cold = _full(cold_side.temperature, n)
-    if isinstance(hot_side, HotEnvironment):
-        hot_kw = {
-            "incident_flux": hot_side.incident_flux,
-            "gas_temperature": hot_side.gas_temperature,
-            "convection_coefficient": hot_side.convection_coefficient,
-            "surroundings_temperature": (
-                hot_side.surroundings_temperature
-                if hot_side.surroundings_temperature is not None
-                else hot_side.gas_temperature
-            ),
-            "emissivity": eps_out,
-        }
-    hot_fixed = isinstance(hot_side, HotTemperature)
-    cold_fixed = not isinstance(cold_side, ColdEnvironment)
+    bc = _boundaries(layers, hot_side, cold_side, n)
+    kw = {"radiation": radiation, "convection_enabled": convection_enabled}
 
     # Starting field (N.4): the series network with radiation linearized at a mean temperature.
     gaps = [_gap_constants(el) if el.kind == "gap" else None for el in elements]
     t = _starting_field(
         elements, gaps, n,
-        t_hot=_full(hot_side.temperature, n) if hot_fixed else None,
-        heat_flux=_full(hot_side.heat_flux, n) if isinstance(hot_side, HotFlux) else None,
-        hot_kw=hot_kw if isinstance(hot_side, HotEnvironment) else None,
-        t_cold=t_cold,
-        cold_kw=None if cold_fixed else cold_kw,
+        t_hot=_full(hot_side.temperature, n) if bc.hot_fixed else None,
+        heat_flux=_full(bc.hot_flux, n) if bc.hot_flux is not None else None,
+        hot_kw=bc.hot_kw,
+        t_cold=bc.t_cold,
+        cold_kw=bc.cold_kw,
     )
-
-    active = np.ones(n, dtype=bool)
-    converged = np.zeros(n, dtype=bool)
-    iterations = np.zeros(n, dtype=np.int64)
-    previous = np.full(n, np.nan)  # no previous step yet: (N.2) needs two
-    kw = {"radiation": radiation, "convection_enabled": convection_enabled}
-
-    a = np.zeros((nodes, n))  # sub-diagonal   dF_j/dT_{j-1}
-    b = np.empty((nodes, n))  # diagonal       dF_j/dT_j
-    c = np.zeros((nodes, n))  # super-diagonal dF_j/dT_{j+1}
-    f = np.empty((nodes, n))  # minus the residual, -F_j
     with np.errstate(all="ignore"):
-        for _ in range(max_iterations):
-            f[0] = 0.0
-            b[0] = 0.0
-            for j, el in enumerate(elements):  # (N.1), element j joins faces j and j+1
-                q, dqa, dqb = _element_flux(el, t[j], t[j + 1], gap=gaps[j], **kw)
-                f[j] += q
-                b[j] -= dqa
-                c[j] = -dqb
-                f[j + 1] = -q
-                a[j + 1] = dqa
-                b[j + 1] = dqb
-            if hot_fixed:
-                f[0], b[0], c[0] = 0.0, 1.0, 0.0
-            elif isinstance(hot_side, HotFlux):
-                f[0] -= hot_side.heat_flux
-            else:
-                q_in, dq_in = hot_environment_flux(t[0], **hot_kw)
-                f[0] -= q_in
-                b[0] += dq_in
-            if cold_fixed:
-                f[-1], a[-1], b[-1] = 0.0, 0.0, 1.0
-            else:
-                q_out, dq_out = cold_environment_flux(t[-1], **cold_kw)
-                f[-1] += q_out
-                b[-1] -= dq_out
-            step = _thomas(a, b, c, f)
-            abs_step = np.abs(step)
-            size = np.max(abs_step, axis=0)
-            # (N.2) a posteriori error after this step for a contracting iteration,
-            # e <= |s_k| rho / (1 - rho), rho = |s_k| / |s_k-1|; exact steps below tol also pass
-            rho = size / previous
-            estimate = np.where(rho < 0.5, size * rho / (1.0 - rho), np.inf)
-            done = active & ((size <= tolerance) | (estimate <= tolerance))
-            previous = size
-            # (N.3) damping: no face changes by more than half its temperature in one step
-            ratio = np.max(abs_step / t, axis=0)
-            move = np.where(ratio > 0.5, 0.5 / ratio, 1.0)
-            bad = active & ~np.isfinite(size)
-            move[~active | bad] = 0.0
-            t += step * move
-            iterations += active
-            converged |= done
-            active &= ~done & ~bad
-            if not active.any():
-                break
-
-        # Fluxes, resistances and gap details at the solution.
-        q_el = np.empty((m, n))
-        drop = t[:-1] - t[1:]
-        resistance = np.empty((m, n))
-        rad_share = np.full((m, n), np.nan)
-        rayleigh = np.full((m, n), np.nan)
-        onset = np.zeros((m, n), dtype=bool)
-        range_out = np.zeros(n, dtype=bool)
-        lo, hi = air.VALID_RANGE
-        valid = converged & np.all(np.isfinite(t), axis=0) & np.all(t > 0, axis=0)
-        for j, el in enumerate(elements):
-            ta, tb = t[j], t[j + 1]
-            if el.kind == "gap":
-                parts = gap_heat_flow_parts(ta, tb, radiation=radiation, convection_enabled=(
-                    convection_enabled), **el.params)
-                q = parts.total
-            else:
-                q = _element_flux(el, ta, tb, **kw)[0]
-            q_el[j] = q
-            resistance[j] = drop[j] / q
-            flat = np.abs(drop[j]) <= 1e-12 * ta  # no drop: the resistance is 1 / (dq/dTa)
-            if flat.any():
-                dqa = _element_flux(el, ta, tb, gap=gaps[j], **kw)[1]
-                resistance[j][flat] = 1.0 / dqa[flat]
-            if el.kind == "solid":
-                p = el.params
-                for face in (ta, tb):  # k(T) must stay positive across the slab
-                    k_face = p["conductivity"] + p["conductivity_slope"] * (
-                        face - p["reference_temperature"]
-                    )
-                    valid &= k_face > 0
-            if el.kind == "gap":
-                rad_share[j] = parts.radiation / parts.total
-                rayleigh[j] = parts.rayleigh
-                onset[j] = parts.onset
-                tm = 0.5 * (ta + tb)
-                range_out |= (tm < lo) | (tm > hi)
-                if convection_enabled:
-                    matters = valid & (parts.nusselt > 1.0 + convection.VERTICAL_ONSET_EXCESS)
-                    convection.warn_outside_range(
-                        parts.rayleigh[matters],
-                        orientation=el.params["orientation"],
-                        aspect_ratio=np.broadcast_to(
-                            np.asarray(el.params["gap_height"]) / el.params["gap_width"], (n,)
-                        )[matters],
-                    )
-        if isinstance(cold_side, ColdSurface):
-            inner = nodes - 2
-        else:
-            inner = nodes - 1
+        converged, iterations = _newton(elements, gaps, t, bc, kw, tolerance=tolerance,
+                                        max_iterations=max_iterations)
+        details = _solution_details(elements, gaps, t, converged, kw)
+    inner = len(elements) - 1 if isinstance(cold_side, ColdSurface) else len(elements)
+    valid = details["valid"]
 
     def put(name: str, x: np.ndarray) -> None:  # (m, n) or (n,) working array → (n, ...) rows
         dst = out[name]
@@ -538,17 +463,135 @@ def _solve_chunk(
         dst[~valid] = np.nan
 
     put("interface_temperature", t)
-    put("heat_flux", q_el[0])
+    put("heat_flux", details["q"][0])
     put("inner_surface_temperature", t[inner])
-    put("layer_resistance", resistance)
-    put("layer_temperature_drop", drop)
-    put("radiative_share", rad_share)
-    put("rayleigh_number", rayleigh)
-    out["convection_onset"][...] = onset.T & valid[:, None]
+    put("layer_resistance", details["resistance"])
+    put("layer_temperature_drop", details["drop"])
+    put("radiative_share", details["radiative_share"])
+    put("rayleigh_number", details["rayleigh"])
+    out["convection_onset"][...] = details["onset"].T & valid[:, None]
     out["converged"][...] = valid
     out["iterations"][...] = iterations
-    out["air_range_exceeded"][...] = range_out & valid
+    out["air_range_exceeded"][...] = details["range_out"] & valid
     return inner
+
+
+def _newton(elements: list[_Element], gaps: list, t: np.ndarray, bc: _Boundaries, kw: dict, *,
+            tolerance: float, max_iterations: int) -> tuple[np.ndarray, np.ndarray]:
+    """Damped Newton iterations on the face temperatures ``t`` (updated in place), (N.1)–(N.3).
+
+    Each sample is frozen as soon as it converges, so its result does not depend on the others
+    in the chunk. Returns the converged flags and the iterations used per sample.
+    """
+    nodes, n = t.shape
+    active = np.ones(n, dtype=bool)
+    converged = np.zeros(n, dtype=bool)
+    iterations = np.zeros(n, dtype=np.int64)
+    previous = np.full(n, np.nan)  # no previous step yet: (N.2) needs two
+    a = np.zeros((nodes, n))  # sub-diagonal   dF_j/dT_{j-1}
+    b = np.empty((nodes, n))  # diagonal       dF_j/dT_j
+    c = np.zeros((nodes, n))  # super-diagonal dF_j/dT_{j+1}
+    f = np.empty((nodes, n))  # minus the residual, -F_j
+    for _ in range(max_iterations):
+        f[0] = 0.0
+        b[0] = 0.0
+        for j, el in enumerate(elements):  # (N.1), element j joins faces j and j+1
+            q, dqa, dqb = _element_flux(el, t[j], t[j + 1], gap=gaps[j], **kw)
+            f[j] += q
+            b[j] -= dqa
+            c[j] = -dqb
+            f[j + 1] = -q
+            a[j + 1] = dqa
+            b[j + 1] = dqb
+        if bc.hot_fixed:
+            f[0], b[0], c[0] = 0.0, 1.0, 0.0
+        elif bc.hot_flux is not None:
+            f[0] -= bc.hot_flux
+        else:
+            q_in, dq_in = hot_environment_flux(t[0], **bc.hot_kw)
+            f[0] -= q_in
+            b[0] += dq_in
+        if bc.cold_fixed:
+            f[-1], a[-1], b[-1] = 0.0, 0.0, 1.0
+        else:
+            q_out, dq_out = cold_environment_flux(t[-1], **bc.cold_kw)
+            f[-1] += q_out
+            b[-1] -= dq_out
+        step = _thomas(a, b, c, f)
+        abs_step = np.abs(step)
+        size = np.max(abs_step, axis=0)
+        # (N.2) a posteriori error after this step for a contracting iteration,
+        # e <= |s_k| rho / (1 - rho), rho = |s_k| / |s_k-1|; exact steps below tol also pass
+        rho = size / previous
+        estimate = np.where(rho < 0.5, size * rho / (1.0 - rho), np.inf)
+        done = active & ((size <= tolerance) | (estimate <= tolerance))
+        previous = size
+        # (N.3) damping: no face changes by more than half its temperature in one step
+        ratio = np.max(abs_step / t, axis=0)
+        move = np.where(ratio > 0.5, 0.5 / ratio, 1.0)
+        bad = active & ~np.isfinite(size)
+        move[~active | bad] = 0.0
+        t += step * move
+        iterations += active
+        converged |= done
+        active &= ~done & ~bad
+        if not active.any():
+            break
+    return converged, iterations
+
+
+def _solution_details(elements: list[_Element], gaps: list, t: np.ndarray,
+                      converged: np.ndarray, kw: dict) -> dict[str, np.ndarray]:
+    """Fluxes, resistances, gap details and validity at the solution ``t``."""
+    radiation, convection_enabled = kw["radiation"], kw["convection_enabled"]
+    m, n = len(elements), t.shape[1]
+    q_el = np.empty((m, n))
+    drop = t[:-1] - t[1:]
+    resistance = np.empty((m, n))
+    rad_share = np.full((m, n), np.nan)
+    rayleigh = np.full((m, n), np.nan)
+    onset = np.zeros((m, n), dtype=bool)
+    range_out = np.zeros(n, dtype=bool)
+    lo, hi = air.VALID_RANGE
+    valid = converged & np.all(np.isfinite(t), axis=0) & np.all(t > 0, axis=0)
+    for j, el in enumerate(elements):
+        ta, tb = t[j], t[j + 1]
+        if el.kind == "gap":
+            parts = gap_heat_flow_parts(ta, tb, radiation=radiation, convection_enabled=(
+                convection_enabled), **el.params)
+            q = parts.total
+        else:
+            q = _element_flux(el, ta, tb, **kw)[0]
+        q_el[j] = q
+        resistance[j] = drop[j] / q
+        flat = np.abs(drop[j]) <= 1e-12 * ta  # no drop: the resistance is 1 / (dq/dTa)
+        if flat.any():
+            dqa = _element_flux(el, ta, tb, gap=gaps[j], **kw)[1]
+            resistance[j][flat] = 1.0 / dqa[flat]
+        if el.kind == "solid":
+            p = el.params
+            for face in (ta, tb):  # k(T) must stay positive across the slab
+                k_face = p["conductivity"] + p["conductivity_slope"] * (
+                    face - p["reference_temperature"]
+                )
+                valid &= k_face > 0
+        if el.kind == "gap":
+            rad_share[j] = parts.radiation / parts.total
+            rayleigh[j] = parts.rayleigh
+            onset[j] = parts.onset
+            tm = 0.5 * (ta + tb)
+            range_out |= (tm < lo) | (tm > hi)
+            if convection_enabled:
+                matters = valid & (parts.nusselt > 1.0 + convection.VERTICAL_ONSET_EXCESS)
+                convection.warn_outside_range(
+                    parts.rayleigh[matters],
+                    orientation=el.params["orientation"],
+                    aspect_ratio=np.broadcast_to(
+                        np.asarray(el.params["gap_height"]) / el.params["gap_width"], (n,)
+                    )[matters],
+                )
+    return {"q": q_el, "drop": drop, "resistance": resistance, "radiative_share": rad_share,
+            "rayleigh": rayleigh, "onset": onset, "range_out": range_out, "valid": valid}
 
 
 PASSES = 2

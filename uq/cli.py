@@ -12,48 +12,19 @@ A verb is added by writing ``_add_<verb>(subparsers)`` (which sets ``func``) and
 from __future__ import annotations
 
 import argparse
-import dataclasses
 import shlex
 import sys
 from collections.abc import Callable, Sequence
-from dataclasses import asdict
 from pathlib import Path
+from typing import Any
 
-from plyrisk.analysis.study import AnalysisError
 from plyrisk.cautions import cautions_text
-from plyrisk.errors import PlyriskError
-from plyrisk.pipeline.run import (
-    check_memory,
-    default_output_dir,
-    memory_rows,
-    run_study,
-    summary_text,
-)
-from plyrisk.pipeline.sequential import DEFAULT_MAX_RUNS
-from plyrisk.propagate.compute import SchedulerError
-from plyrisk.propagate.store import StoreError
-from plyrisk.report.html import write_report
-from plyrisk.results.dataset import read_results, write_results
-from plyrisk.results.files import (
-    OutputSet,
-    decide,
-    decide_update,
-    fingerprint_of,
-    folder_lock,
-    plyrisk_version,
-)
-from plyrisk.study.config import (
-    MIN_SAMPLES,
-    check_seed,
-    load_study,
-    override,
-    require_runnable,
-)
-from plyrisk.study.definition import Study
-from plyrisk.study.targets import parse_target
-from plyrisk.text.check import check_text
-from plyrisk.tolerances.output import manufacturing_table, tolerance_text, write_tolerance_csv
-from plyrisk.tolerances.study import run_tolerances, settings_for_study
+from plyrisk.errors import ConfigError, PlyriskError
+from plyrisk.methods import METHODS, get_method
+from plyrisk.pipeline.options import MAX_SEED, RunOptions, default_output_dir
+
+# Heavy modules (xarray, matplotlib, SALib, dask) are imported inside the verb that needs them,
+# so that --help, --version and check start fast (benchmarks/startup.py).
 
 PROG = "plyrisk"
 
@@ -100,6 +71,9 @@ def cmd_check(args: argparse.Namespace) -> int:
     int
         0 on success, 1 when the nominal solve did not converge [-].
     """
+    from plyrisk.study.config import load_study
+    from plyrisk.text.check import check_text
+
     text, converged = check_text(load_study(args.config))
     print(text)
     return 0 if converged else 1
@@ -122,10 +96,10 @@ def _add_run(subparsers) -> None:
     p.add_argument("--out", metavar="DIR", help="output folder (default: a folder named after "
                    "the config, in the current directory)")
     p.add_argument("--samples", metavar="N", type=int, help="base sample count (overrides "
-                   "[study] samples; a power of two for method = sobol)")
+                   "[study] samples; a power of two for method = saltelli)")
     p.add_argument("--seed", metavar="S", type=int, help="seed (overrides [study] seed)")
-    p.add_argument("--method", metavar="NAME", help="analysis method: saltelli, pce or morris "
-                   "(overrides [study] method)")
+    p.add_argument("--method", metavar="NAME", help="analysis method: "
+                   + ", ".join(METHODS) + " (overrides [study] method)")
     p.add_argument("--until-converged", action="store_true", help="saltelli: double the base "
                    "samples, reusing every run, until every index interval is at most "
                    "[study] index_ci_threshold, or --max-runs is reached; prints the path")
@@ -153,64 +127,25 @@ def _add_run(subparsers) -> None:
     p.set_defaults(func=cmd_run)
 
 
-def _check_overrides(study: Study, args: argparse.Namespace) -> None:
-    n = args.samples
-    if n is not None and n < MIN_SAMPLES:
-        raise UsageError(f"--samples must be at least {MIN_SAMPLES}, got {n}")
-    if args.seed is not None:
-        try:
-            check_seed(args.seed, "--seed")
-        except ValueError as err:
-            raise UsageError(str(err)) from None
-    if args.chunk_size is not None and args.chunk_size < 1:
-        raise UsageError(f"--chunk-size must be a positive integer, got {args.chunk_size}")
-    if args.workers is not None and args.workers < 1:
-        raise UsageError(f"--workers must be a positive integer, got {args.workers}")
-    if args.resume and not (args.store or study.compute.store):
-        raise UsageError("--resume needs a store: give --store DIR (or [compute] store)")
-    if args.store or study.compute.store:
-        method = args.method or study.analysis.method
-        if args.until_converged or method == "morris":
-            raise UsageError("--store holds one fixed design: use it with method = saltelli "
-                             "or pce, without --until-converged")
-        return  # out of core: memory stays bounded by the chunk size
-    try:
-        overridden = override(study, samples=n, seed=args.seed, method=args.method)
-    except ValueError as err:
-        raise UsageError(str(err)) from None
-    if args.max_runs is not None and not args.until_converged:
-        raise UsageError("--max-runs applies to --until-converged only")
-    if args.until_converged:
-        if overridden.analysis.method != "saltelli":
-            raise UsageError(f"--until-converged needs method = saltelli, not "
-                             f"{overridden.analysis.method!r}")
-        if args.max_runs is not None and args.max_runs < 1:
-            raise UsageError(f"--max-runs must be a positive integer, got {args.max_runs}")
-        budget = args.max_runs if args.max_runs is not None else DEFAULT_MAX_RUNS
-        rows = memory_rows(overridden)
-        if rows > budget:
-            raise UsageError(f"--max-runs {budget}: the first step already needs {rows} model "
-                             "runs; raise --max-runs or lower --samples")
-        largest = overridden.analysis.samples
-        while memory_rows(overridden, 2 * largest) <= budget:
-            largest *= 2
-        n = largest  # the memory check below covers the largest step the budget allows
-    study = overridden
-    try:
-        check_memory(study, n)
-    except ValueError as err:
-        where = "--samples" if n is not None else f"{study.source}: study.samples"
-        raise UsageError(f"{where}: {err}") from None
+def run_options(args: argparse.Namespace) -> RunOptions:
+    """The run options of ``plyrisk run``'s arguments (validated by the library)."""
+    return RunOptions(samples=args.samples, seed=args.seed, method=args.method,
+                      chunk_size=args.chunk_size, workers=args.workers,
+                      scheduler=args.scheduler, store=args.store, resume=args.resume,
+                      overwrite=args.overwrite, until_converged=args.until_converged,
+                      max_runs=args.max_runs, quiet=args.quiet)
 
 
-def _run_fingerprint(study: Study, args: argparse.Namespace) -> str:
+def _run_fingerprint(study: Any, options: RunOptions) -> str:
     """Digest of everything that fixes a run's result: the config text, method, design,
     samples, seed, growth options and the plyrisk version [-]."""
+    from plyrisk.results.files import fingerprint_of, plyrisk_version
+
     a = study.analysis
     return fingerprint_of({
         "config_text": study.text, "method": a.method, "design": a.design,
         "samples": int(a.samples), "seed": int(a.seed), "lhs_optimization": a.lhs_optimization,
-        "until_converged": bool(args.until_converged), "max_runs": args.max_runs,
+        "until_converged": bool(options.until_converged), "max_runs": options.max_runs,
         "version": plyrisk_version()})
 
 
@@ -222,7 +157,7 @@ _interrupt_note: str | None = None
 """What a Ctrl-C now leaves behind, for the one line :func:`main` prints [-]."""
 
 
-def _resume_command(args: argparse.Namespace, out_dir: Path, store: str) -> str:
+def _resume_command(args: argparse.Namespace, out_dir: Path, store: Any) -> str:
     words = [PROG, "run", args.config, "--out", str(out_dir), "--store", str(store), "--resume"]
     for option in ("samples", "seed", "method", "chunk_size"):
         value = getattr(args, option)
@@ -231,7 +166,7 @@ def _resume_command(args: argparse.Namespace, out_dir: Path, store: str) -> str:
     return " ".join(shlex.quote(w) for w in words)
 
 
-def _kept(out_dir: Path, earlier: bool, store: str | None, args) -> str:
+def _kept(out_dir: Path, earlier: bool, store: Any, args: argparse.Namespace) -> str:
     kept = (f"the earlier result in {out_dir} is unchanged" if earlier
             else f"nothing was written to {out_dir}")
     if store:
@@ -259,22 +194,30 @@ def cmd_run(args: argparse.Namespace) -> int:
         0 on success or when up to date; 1 when no sample converged [-].
     """
     global _interrupt_note
+    import dataclasses
+
+    from plyrisk.analysis.study import AnalysisError
+    from plyrisk.pipeline.run import run_study, summary_text
+    from plyrisk.results.dataset import write_results
+    from plyrisk.results.files import OutputSet, decide, folder_lock
+    from plyrisk.study.config import load_study, require_runnable
+    from plyrisk.tolerances.output import manufacturing_table
+    from plyrisk.tolerances.study import run_tolerances, settings_for_study
+
     study = load_study(args.config)
     require_runnable(study)
-    _check_overrides(study, args)
+    options = run_options(args)
+    final = options.validate(study)
     out_dir = Path(args.out) if args.out else default_output_dir(args.config)
     if study.tolerances is not None and not args.no_report:
         try:
             settings_for_study(study)
         except ValueError as err:
             raise UsageError(f"{study.source}: tolerances: {err}") from None
-    store = args.store or study.compute.store
-    try:
-        final = override(study, samples=args.samples, seed=args.seed, method=args.method)
-    except ValueError as err:
-        raise UsageError(str(err)) from None
-    fingerprint = _run_fingerprint(final, args)
-    report = not args.no_report and final.analysis.method != "morris"
+    store = options.with_defaults(study).store
+    fingerprint = _run_fingerprint(final, options)
+    method = get_method(final.analysis.method)
+    report = not args.no_report and method.writes_report
     with folder_lock(out_dir, what="--out" if args.out else "output folder"):
         decision = decide(out_dir, fingerprint=fingerprint, overwrite=args.overwrite,
                           names=RUN_NAMES, needs={"report": report})
@@ -289,15 +232,7 @@ def cmd_run(args: argparse.Namespace) -> int:
         _interrupt_note = _kept(out_dir, decision.manifest is not None, store, args)
         with OutputSet(out_dir, decision.manifest) as out:
             try:
-                result = run_study(study, samples=args.samples, seed=args.seed,
-                                   chunk_size=args.chunk_size, quiet=args.quiet,
-                                   workers=args.workers or study.compute.workers,
-                                   scheduler=args.scheduler or study.compute.scheduler,
-                                   store=store, resume=args.resume, overwrite=args.overwrite,
-                                   method=args.method, until_converged=args.until_converged,
-                                   max_runs=args.max_runs)
-            except (SchedulerError, StoreError) as err:
-                raise UsageError(str(err)) from None
+                result = run_study(study, options=options)
             except AnalysisError as err:
                 print(f"{PROG}: {err}", file=sys.stderr)
                 print(cautions_text())
@@ -306,9 +241,9 @@ def cmd_run(args: argparse.Namespace) -> int:
             write_results(result.dataset, out.staging / "results.nc")
             result = dataclasses.replace(result, path=out_dir / "results.nc")
             lines = [summary_text(result)]
-            if result.study.analysis.method == "morris" and not args.no_report:
-                lines.append(f"report: not written for method = morris (a screening: the "
-                             f"summary above and {result.path} hold its results)")
+            if not method.writes_report and not args.no_report:
+                lines.append(f"report: not written for method = {method.name} (a screening: "
+                             f"the summary above and {result.path} hold its results)")
             elif report:
                 rows = None
                 if study.tolerances is not None:
@@ -331,9 +266,14 @@ def cmd_run(args: argparse.Namespace) -> int:
     return 0
 
 
-def _write_report(ds, out_dir: Path, rows, *, shown: Path | None = None) -> str:
+def _write_report(ds: Any, out_dir: Path, rows: Any, *, shown: Path | None = None) -> str:
     """Write the report (and the tolerance table, when given) into ``out_dir``; return the
     line to print, naming the files in ``shown`` (where they end up) [-]."""
+    from dataclasses import asdict
+
+    from plyrisk.report.html import write_report
+    from plyrisk.tolerances.output import write_tolerance_csv
+
     files = write_report(ds, out_dir, tolerance_table=None if rows is None else
                          [asdict(r) for r in rows])
     if rows is not None:  # the canonical tolerance CSV, cautions first
@@ -343,11 +283,14 @@ def _write_report(ds, out_dir: Path, rows, *, shown: Path | None = None) -> str:
            f"CSV tables in {where})"
 
 
-def _update_folder(out_dir: Path, fingerprint: str, ds, write, what: str) -> str:
+def _update_folder(out_dir: Path, fingerprint: str, ds: Any, write: Callable[[Path], str],
+                   what: str) -> str:
     """Add files to an output folder as one set under its lock, keeping its other files.
 
     ``write(staging)`` writes the files into the staging folder and returns the line to print.
     """
+    from plyrisk.results.files import OutputSet, decide_update, folder_lock
+
     with folder_lock(out_dir, what=what):
         earlier = decide_update(out_dir, fingerprint=fingerprint, names=RUN_NAMES[2:])
         with OutputSet(out_dir, earlier, keep_earlier=True) as out:
@@ -392,6 +335,8 @@ def cmd_report(args: argparse.Namespace) -> int:
     int
         0 on success [-].
     """
+    from plyrisk.results.dataset import read_results
+
     path = Path(args.results)
     if not path.is_file():
         raise UsageError(f"{path}: no such results file")
@@ -454,15 +399,18 @@ def cmd_tolerances(args: argparse.Namespace) -> int:
     int
         0 on success [-].
     """
+    from plyrisk.results.dataset import read_results
+    from plyrisk.study.config import load_study, require_runnable
+    from plyrisk.study.targets import parse_target
+    from plyrisk.tolerances.output import manufacturing_table, tolerance_text, write_tolerance_csv
+    from plyrisk.tolerances.study import run_tolerances, settings_for_study
+
     study = load_study(args.config)
     require_runnable(study)
     if args.samples is not None and args.samples < 2:
         raise UsageError(f"--samples must be an integer >= 2, got {args.samples}")
-    if args.seed is not None:
-        try:
-            check_seed(args.seed, "--seed")
-        except ValueError as err:
-            raise UsageError(str(err)) from None
+    if args.seed is not None and not 0 <= args.seed <= MAX_SEED:
+        raise UsageError(f"--seed must be a whole number from 0 to 2**64 - 1, got {args.seed}")
     if args.target is not None:
         try:
             parse_target(args.target)
@@ -490,13 +438,13 @@ def cmd_tolerances(args: argparse.Namespace) -> int:
                     f"this study ({err})")
 
     def write(staging: Path) -> str:
+        nonlocal note
         path = write_tolerance_csv(rows, staging / "tolerances.csv")
         text = tolerance_text(report, study, csv_path=out_dir / path.name)
         if ds is not None:
             try:
                 text += "\n" + _write_report(ds, staging, rows, shown=out_dir)
             except (KeyError, TypeError, ValueError) as err:
-                nonlocal note
                 note = (f"{PROG}: note: the report in {out_dir} was left as it is: {results} is "
                         f"not a complete results file ({err})")
         return text
@@ -524,6 +472,9 @@ def build_parser() -> argparse.ArgumentParser:
         description="Uncertainty and sensitivity studies of steady heat transfer through "
         "multilayer heat-protective assemblies. Engineering estimates only.",
     )
+    from plyrisk import __version__
+
+    parser.add_argument("--version", action="version", version=f"{PROG} {__version__}")
     sub = parser.add_subparsers(dest="verb", metavar="VERB", parser_class=_Parser)
     for add in VERBS:
         add(sub)
@@ -562,9 +513,9 @@ def main(argv: Sequence[str] | None = None) -> int:
         kept = _interrupt_note or "nothing was written"
         print(f"{PROG}: interrupted: {kept}", file=sys.stderr)
         return 130
-    except PlyriskError as err:  # config, output folder in use, earlier result, store ...
+    except ConfigError as err:
         return _fail(str(err))
-    except UsageError as err:
+    except (UsageError, PlyriskError) as err:
         return _fail(f"{err} (see '{PROG} {args.verb} --help')")
     except OSError as err:  # unwritable output folder, disk full, ...
         where = f"{err.filename}: " if getattr(err, "filename", None) else ""

@@ -3,7 +3,8 @@
 import numpy as np
 import pytest
 
-from plyrisk.analysis.morris import morris_design, morris_indices, safe_to_fix
+from plyrisk.analysis.morris import morris_indices, safe_to_fix
+from plyrisk.design.morris import morris_design
 from plyrisk.pipeline.run import run_study, summary_text
 from plyrisk.study.config import loads_study
 from tests.study_texts import panel

@@ -145,7 +145,7 @@ def test_cross_validation_of_a_selection_and_the_percentile_gate():
     # gate's logic: the larger of the two must be below the threshold.
     from types import SimpleNamespace
 
-    from plyrisk.analysis.study import _surrogate_percentiles
+    from plyrisk.methods.pce import _surrogate_percentiles
 
     design = latin_hypercube_design(100, 3, seed=5)
     y = ishigami(-np.pi + 2 * np.pi * design.unit)

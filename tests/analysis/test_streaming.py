@@ -86,13 +86,13 @@ def test_order_statistic_ranks_match_the_full_binomial_search(n, p):
 
 
 def test_large_in_memory_designs_use_the_jackknife(stored, monkeypatch):
-    from plyrisk.analysis import study as analysis
+    from plyrisk.methods import saltelli
 
     study, reader = stored
     prop = load_propagation(study, reader)
     monkeypatch.setattr(streaming, "BLOCK_ROWS", 3000)
     passes = streaming.stream_analyse(study, reader)
-    monkeypatch.setattr(analysis, "SALIB_BOOTSTRAP_ROWS", 64)
+    monkeypatch.setattr(saltelli, "SALIB_BOOTSTRAP_ROWS", 64)
     memory = analyse(study, prop)
     assert any("batch jackknife" in n for n in memory.notes)
     for m, p in zip(memory.scenarios, passes.scenarios, strict=True):

@@ -142,7 +142,7 @@ def test_two_runs_into_one_folder_and_ctrl_c(tmp_path):
 def test_seed_of_2_to_the_64_is_refused_before_computing(tmp_path, capsys):
     assert main(["run", str(SMALL), "--out", str(tmp_path / "o"), "--seed", str(2**64),
                  "--quiet"]) == 2
-    assert "--seed must be a whole number from 0 to 2^64 - 1" in one_line(
+    assert "--seed must be a whole number from 0 to 2**64 - 1" in one_line(
         capsys.readouterr().err)
     assert not (tmp_path / "o").exists()
     config = tmp_path / "big_seed.toml"

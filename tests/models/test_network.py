@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import itertools
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -206,3 +207,19 @@ def test_surface_cold_side_inner_face_is_last_solid():
     assert sol.inner_surface_index == 1
     assert sol.interface_temperature[0, -1] == 306.0
     assert sol.inner_surface_temperature[0] == sol.interface_temperature[0, 1]
+
+
+def test_output_table_declares_every_array_field_of_the_solution_once():
+    # The table is what the engine derives the store and the dataset from (models/outputs.py).
+    from dataclasses import fields
+
+    from plyrisk.models.network import NETWORK_OUTPUTS, NetworkSolution
+
+    labels = {"interface_names", "element_names", "element_kinds", "element_layers",
+              "inner_surface_index"}
+    arrays = [f.name for f in fields(NetworkSolution) if f.name not in labels]
+    declared = [spec.name for spec in NETWORK_OUTPUTS]
+    assert sorted(declared) == sorted(arrays)
+    assert len(set(declared)) == len(declared)
+    docs = (Path(__file__).resolve().parents[2] / "docs" / "results.md").read_text()
+    assert [name for name in declared if f"`{name}`" not in docs] == []

@@ -16,7 +16,7 @@ import xarray as xr
 from plyrisk.cli import main
 from plyrisk.pipeline.run import run_study
 from plyrisk.propagate import compute, store
-from plyrisk.propagate.evaluate import OUTPUT_FIELDS, study_plan
+from plyrisk.propagate.evaluate import study_plan
 from plyrisk.study.config import load_study
 
 ROOT = Path(__file__).resolve().parents[2]
@@ -31,7 +31,7 @@ def _small(samples: int = 64):
 
 def _stored(path) -> dict[str, np.ndarray]:
     reader = store.StoreReader(path)
-    return {name: reader.read(name) for name in ("input", "sample_block", *OUTPUT_FIELDS)}
+    return {name: reader.read(name) for name in ("input", "sample_block", *reader.output_names)}
 
 
 def _assert_same(a: dict, b: dict) -> None:

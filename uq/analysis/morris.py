@@ -39,34 +39,11 @@ from dataclasses import dataclass
 
 import numpy as np
 from SALib.analyze import morris as salib_morris
-from SALib.sample import morris as salib_morris_sample
 
+from plyrisk.design.morris import _check_levels, _grid
 from plyrisk.design.sampling import Design
 
-__all__ = ["MorrisIndices", "ScreeningSettings", "morris_design", "morris_indices",
-           "safe_to_fix"]
-
-
-@dataclass(frozen=True)
-class ScreeningSettings:
-    """The ``[screening]`` section: Morris first, then the study's method on what is kept.
-
-    Attributes
-    ----------
-    trajectories
-        Morris trajectories r (model runs: r (d + 1) per exposure) [-].
-    levels
-        Grid levels p (even) [-].
-    threshold
-        Share of the largest mu* below which an input is fixed at nominal [-].
-    keep
-        Parameter names always retained, whatever the screening says [-].
-    """
-
-    trajectories: int
-    levels: int = 4
-    threshold: float = 0.1
-    keep: tuple[str, ...] = ()
+__all__ = ["MorrisIndices", "morris_indices", "safe_to_fix"]
 
 
 @dataclass(frozen=True, eq=False)
@@ -114,61 +91,6 @@ class MorrisIndices:
     def order(self) -> np.ndarray:
         """Parameter indices by mu*, largest first (sigma breaks ties) [-]."""
         return np.lexsort((-self.sigma, -self.mu_star))
-
-
-def _grid_step(levels: int) -> float:
-    return levels / (2.0 * (levels - 1))
-
-
-def _check_levels(levels: int) -> int:
-    if isinstance(levels, bool) or not isinstance(levels, int | np.integer) or levels < 2 \
-            or levels % 2:
-        raise ValueError(f"levels must be an even integer >= 2, got {levels!r}")
-    return int(levels)
-
-
-def morris_design(trajectories: int, n_params: int, *, seed: int, levels: int = 4) -> Design:
-    """Morris trajectories in the open unit hypercube.
-
-    Parameters
-    ----------
-    trajectories
-        Number of trajectories r, >= 2 [-].
-    n_params
-        Number of parameters d, >= 1 [-].
-    seed
-        Non-negative seed of the ``numpy.random.Generator`` handed to SALib [-].
-    levels
-        Even number of grid levels p [-].
-
-    Returns
-    -------
-    Design
-        ``r (d + 1)`` rows, trajectory after trajectory; ``method = "morris"``,
-        ``base_samples = r``; blocks are all 0.
-    """
-    levels = _check_levels(levels)
-    if isinstance(trajectories, bool) or not isinstance(trajectories, int | np.integer) \
-            or trajectories < 2:
-        raise ValueError(f"trajectories must be an integer >= 2, got {trajectories!r}")
-    if isinstance(n_params, bool) or not isinstance(n_params, int | np.integer) or n_params < 1:
-        raise ValueError(f"n_params must be an integer >= 1, got {n_params!r}")
-    if isinstance(seed, bool) or not isinstance(seed, int | np.integer) or seed < 0:
-        raise ValueError(f"seed must be a non-negative integer, got {seed!r}")
-    problem = {"num_vars": int(n_params), "names": [f"x{i}" for i in range(n_params)],
-               "bounds": [[0.0, 1.0]] * int(n_params)}
-    grid = salib_morris_sample.sample(problem, int(trajectories), num_levels=levels,
-                                      seed=np.random.default_rng(int(seed)))
-    unit = (np.rint(grid * (levels - 1)) + 0.5) / levels
-    unit.setflags(write=False)
-    block = np.zeros(unit.shape[0], dtype=np.int64)
-    block.setflags(write=False)
-    return Design(unit, block, "morris", int(trajectories), ())
-
-
-def _grid(design: Design, levels: int) -> np.ndarray:
-    """SALib's grid coordinates k / (p - 1) of a Morris design."""
-    return np.rint(design.unit * levels - 0.5) / (levels - 1)
 
 
 def morris_indices(y: np.ndarray, design: Design, *, names: Sequence[str], levels: int = 4,
@@ -259,8 +181,3 @@ def safe_to_fix(indices: MorrisIndices, *, threshold: float) -> np.ndarray:
         return np.zeros(len(indices.names), dtype=bool)
     cut = threshold * float(np.max(indices.mu_star))
     return (indices.mu_star + indices.mu_star_ci < cut) & (indices.sigma < cut)
-
-
-def step_size(levels: int) -> float:
-    """Morris step Delta on SALib's grid, ``p / (2 (p - 1))`` [-]."""
-    return _grid_step(_check_levels(levels))

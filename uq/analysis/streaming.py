@@ -23,9 +23,12 @@ on the study's size, never on how or where it was solved. Memory is bounded by t
 
 from __future__ import annotations
 
+from typing import TYPE_CHECKING
+
 import numpy as np
 from scipy import stats
 
+from plyrisk.analysis.outputs import output_column
 from plyrisk.analysis.sobol import SobolIndices
 from plyrisk.analysis.statistics import (
     QuantileEstimate,
@@ -33,17 +36,20 @@ from plyrisk.analysis.statistics import (
     exceedance_from_counts,
 )
 from plyrisk.analysis.study import (
-    BAND_PROBABILITIES,
     AnalysisError,
     ScenarioAnalysis,
     StudyAnalysis,
-    SurrogateResult,
-    _rank_correlation,
-    _scenario_text,
-    fit_surrogate,
-    rank_indices,
+    analysed_outputs,
+    analysis_probabilities,
+    rank_correlation,
+    scenario_text,
 )
 from plyrisk.propagate.evaluate import parameter_groups, study_plan
+
+if TYPE_CHECKING:  # pragma: no cover
+    from plyrisk.methods.base import Method
+    from plyrisk.propagate.store import StoreReader
+    from plyrisk.study.definition import Study
 
 STREAM_ROWS = 2**21
 """Stores with more rows than this are analysed in passes rather than loaded [-]."""
@@ -153,20 +159,6 @@ class _Quantiles:
         return QuantileEstimate(probabilities, est, lower, upper, confidence, n)
 
 
-class MemoryRows:
-    """An in-memory propagation read like a store, for the jackknife estimator."""
-
-    def __init__(self, propagation) -> None:
-        self.propagation = propagation
-        self.group = type("Attrs", (), {"attrs": {
-            "interface_names": list(propagation.outputs.interface_names)}})()
-
-    def read(self, name: str, start: int = 0, stop: int | None = None) -> np.ndarray:
-        if name == "input":
-            return self.propagation.inputs[start:stop]
-        return self.propagation.outputs[name][:, start:stop]
-
-
 def sobol_jackknife(rows, output: str, scenario: int, study, *, confidence: float):
     """Sobol' indices of one output with batch-jackknife intervals, in blocks of rows.
 
@@ -196,7 +188,6 @@ def sobol_jackknife(rows, output: str, scenario: int, study, *, confidence: floa
 
 def _sobol_streamed(reader, output, s, study, plan, names, group_names, confidence, step):
     """Streamed Sobol' indices of one output of one scenario (per parameter, per group)."""
-    from plyrisk.analysis.study import output_column
 
     d = plan.n_params
     n_base = plan.samples
@@ -263,7 +254,8 @@ def _sobol_streamed(reader, output, s, study, plan, names, group_names, confiden
     return out[0], (out[1] if plan.groups else None)
 
 
-def stream_analyse(study, reader) -> StudyAnalysis:
+def stream_analyse(study: Study, reader: StoreReader, *,
+                   method: Method | None = None) -> StudyAnalysis:
     """Percentiles, exceedance, Sobol' indices and rankings of a stored study, in passes.
 
     Parameters
@@ -272,6 +264,8 @@ def stream_analyse(study, reader) -> StudyAnalysis:
         The parsed study [-].
     reader
         The filled store (:class:`plyrisk.propagate.store.StoreReader`) [-].
+    method
+        The analysis method, which computes the indices; default: the study's.
 
     Returns
     -------
@@ -280,23 +274,20 @@ def stream_analyse(study, reader) -> StudyAnalysis:
         batch
         jackknife.
     """
-    from plyrisk.analysis.study import output_column
+    from plyrisk.methods import get_method
 
+    method = method or get_method(study.analysis.method)
     a = study.analysis
     plan = study_plan(study)
     step = plan.rows_per_base
-    probabilities = np.array(sorted(set(a.percentiles) | set(BAND_PROBABILITIES)))
-    outputs = ("inner_surface_temperature",
-               *[o for o in a.outputs if o != "inner_surface_temperature"])
-    group_names = parameter_groups(study)[0]
-    names = [p.name for p in study.parameters]
+    probabilities = analysis_probabilities(study)
+    independent = plan.independent_in_base()
     n_s = 1 if study.scenarios is None else len(study.scenarios.values)
-    independent = (np.arange(step) == 0) | (np.arange(step) == step - 1) if plan.method == \
-        "sobol" else np.ones(1, dtype=bool)
     n_independent = plan.n_rows // step * int(independent.sum())
+    fit = " and the polynomial-chaos fit" if method.fits_surrogate else ""
     notes = [f"{plan.n_rows} evaluations were analysed from the store in passes: exact "
              f"percentiles; Sobol index intervals from a {JACKKNIFE_BATCHES}-batch jackknife; "
-             f"rank correlations{' and the polynomial-chaos fit' if a.method == 'pce' else ''} "
+             f"rank correlations{fit} "
              f"from the first {min(SUBSAMPLE_ROWS, n_independent)} independent samples"]
     result = []
     for s in range(n_s):
@@ -320,7 +311,7 @@ def stream_analyse(study, reader) -> StudyAnalysis:
             counts[2] += int(np.sum(reader.read("convection_onset", start, stop)[s].any(axis=1)))
             counts[3] += int(np.sum(reader.read("air_range_exceeded", start, stop)[s]))
         if counts[4] == 0:
-            raise AnalysisError(f"no sample converged{_scenario_text(study, s)}")
+            raise AnalysisError(f"no sample converged{scenario_text(study, s)}")
         for start, stop in blocks:
             q.histogram_pass(columns(start, stop))
         q.wanted(probabilities, a.confidence)
@@ -331,24 +322,19 @@ def stream_analyse(study, reader) -> StudyAnalysis:
         rows = np.tile(independent, sub // independent.size)
         y_sub = output_column(reader, "inner_surface_temperature", s, 0, sub)[rows]
         x_sub = reader.read("input", 0, sub)[rows]
-        indices = {}
-        if a.method == "saltelli" and names:
-            indices = {o: _sobol_streamed(reader, o, s, study, plan, names, group_names,
-                                          a.confidence, step) for o in outputs}
-        ranking, group_ranking = rank_indices(indices, a.index_ci_threshold)
-        pce = SurrogateResult()
-        if a.method == "pce" and names:
-            pce = fit_surrogate(study, plan.rows(0, sub)[0][rows], y_sub, probabilities)
-            ranking.update(pce.ranking)
-            group_ranking.update(pce.group_ranking)
+        unit = plan.rows(0, sub)[0][rows] if method.fits_surrogate else None
+        ix = method.scenario_indices(study, s, source=reader, design=plan, unit=unit, y=y_sub,
+                                     probabilities=probabilities, streamed=True)
         result.append(ScenarioAnalysis(
             inner_quantiles=quant[0], interface_quantiles=quant[1:],
             exceedance=exceedance_from_counts(int(counts[0]), int(counts[4]), a.limit,
                                               confidence=a.confidence),
-            indices=indices, ranking=ranking, group_ranking=group_ranking,
-            rank_correlation=_rank_correlation(x_sub, y_sub), nonconverged=int(counts[1]),
-            surrogate=pce.indices, surrogate_groups=pce.groups,
-            surrogate_quantiles=pce.quantiles, surrogate_quantile_status=pce.status,
+            indices=ix.indices, ranking=ix.ranking, group_ranking=ix.group_ranking,
+            rank_correlation=rank_correlation(x_sub, y_sub), nonconverged=int(counts[1]),
+            surrogate=ix.surrogate, surrogate_groups=ix.surrogate_groups,
+            surrogate_quantiles=ix.surrogate_quantiles,
+            surrogate_quantile_status=ix.surrogate_quantile_status,
             onset_samples=int(counts[2]), air_range_samples=int(counts[3]),
         ))
-    return StudyAnalysis(result, probabilities, outputs, tuple(group_names), notes)
+    return StudyAnalysis(result, probabilities, analysed_outputs(study),
+                         tuple(parameter_groups(study)[0]), notes)

@@ -10,15 +10,22 @@ estimator structure stays intact) and report the count.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from typing import TYPE_CHECKING
 
 import numpy as np
 from scipy import stats
 
-from plyrisk.analysis.pce import CV_FOLDS, SurrogateIndices, surrogate_indices, surrogate_quantiles
-from plyrisk.analysis.sobol import RankedIndex, SobolIndices, rank, sobol_indices
+from plyrisk.analysis.outputs import MemoryRows, output_column
+from plyrisk.analysis.pce import SurrogateIndices
+from plyrisk.analysis.sobol import RankedIndex, SobolIndices, rank
 from plyrisk.analysis.statistics import Exceedance, QuantileEstimate, exceedance, quantiles
 from plyrisk.errors import PlyriskError
+from plyrisk.methods import get_method
 from plyrisk.propagate.evaluate import Propagation, parameter_groups
+
+if TYPE_CHECKING:  # pragma: no cover
+    from plyrisk.methods.base import Method
+    from plyrisk.study.definition import Study
 
 SALIB_BOOTSTRAP_ROWS = 2**17
 """Largest base-row count whose Sobol' intervals come from SALib's bootstrap (it holds
@@ -98,103 +105,78 @@ class StudyAnalysis:
     notes: list[str] = field(default_factory=list)
 
 
-def output_values(propagation: Propagation, output: str, scenario: int) -> np.ndarray:
-    """One scalar output per sample: ``inner_surface_temperature``, ``heat_flux`` or a face name.
+@dataclass(frozen=True)
+class IndexResult:
+    """Sensitivity indices of one exposure, as a method computes them.
 
-    Parameters
+    Attributes
     ----------
-    propagation
-        The propagated study. [-]
-    output
-        Output name [-].
-    scenario
-        Scenario index [-].
-
-    Returns
-    -------
-    numpy.ndarray
-        Shape ``(n_samples,)``, SI.
+    indices
+        Output name → (per-parameter, per-group or ``None``) Sobol indices.
+    ranking, group_ranking
+        Output name → parameters (groups) ranked.
+    surrogate, surrogate_groups
+        Surrogate indices of the inner-surface temperature, per parameter and per group.
+    surrogate_quantiles
+        Quantiles from the surrogate when its error allows them [K].
+    surrogate_quantile_status
+        Why the surrogate's quantiles were computed or refused.
     """
-    out = propagation.outputs
-    if output in ("inner_surface_temperature", "heat_flux"):
-        return out[output][scenario]
-    if output in out.interface_names:
-        return out["interface_temperature"][scenario][:, out.interface_names.index(output)]
-    raise ValueError(
-        f"output {output!r} is not one of inner_surface_temperature, heat_flux, "
-        + ", ".join(out.interface_names)
-    )
+
+    indices: dict[str, tuple[SobolIndices, SobolIndices | None]] = field(default_factory=dict)
+    ranking: dict[str, list[RankedIndex]] = field(default_factory=dict)
+    group_ranking: dict[str, list[RankedIndex]] = field(default_factory=dict)
+    surrogate: SurrogateIndices | None = None
+    surrogate_groups: SurrogateIndices | None = None
+    surrogate_quantiles: np.ndarray | None = None
+    surrogate_quantile_status: str = ""
 
 
-def output_column(reader, output: str, scenario: int, start: int, stop: int) -> np.ndarray:
-    """Rows ``[start, stop)`` of one scalar output of a store
-    (:class:`plyrisk.propagate.store.StoreReader`).
-
-    Parameters
-    ----------
-    reader
-        The store [-].
-    output
-        ``inner_surface_temperature``, ``heat_flux`` or a face name [-].
-    scenario
-        Scenario index [-].
-    start, stop
-        Row range [-].
-
-    Returns
-    -------
-    numpy.ndarray
-        Shape ``(stop - start,)``, SI.
-    """
-    if output in ("inner_surface_temperature", "heat_flux"):
-        return reader.read(output, start, stop)[scenario]
-    faces = list(reader.group.attrs["interface_names"])
-    if output in faces:
-        return reader.read("interface_temperature", start, stop)[scenario][:, faces.index(output)]
-    raise ValueError(f"output {output!r} is not one of inner_surface_temperature, heat_flux, "
-                     + ", ".join(faces))
+def analysed_outputs(study: Study) -> tuple[str, ...]:
+    """The outputs indices are computed for: the inner-surface temperature first."""
+    extra = [o for o in study.analysis.outputs if o != "inner_surface_temperature"]
+    return ("inner_surface_temperature", *extra)
 
 
-def analyse(study, propagation: Propagation) -> StudyAnalysis:
-    """Percentiles, exceedance, Sobol indices and rankings for every scenario.
+def analysis_probabilities(study: Study) -> np.ndarray:
+    """Quantile levels: the study's percentiles and the figure bands [-]."""
+    return np.array(sorted(set(study.analysis.percentiles) | set(BAND_PROBABILITIES)))
+
+
+def analyse(study: Study, propagation: Propagation, *,
+            method: Method | None = None) -> StudyAnalysis:
+    """Percentiles, exceedance, sensitivity indices and rankings for every scenario.
 
     Parameters
     ----------
     study
-        The parsed study (:class:`plyrisk.study.config.Study`). [-]
+        The parsed study.
     propagation
-        Its propagation. [-]
+        Its propagation.
+    method
+        The analysis method (:data:`plyrisk.methods.METHODS`), which computes the indices;
+        default: the study's.
 
     Returns
     -------
     StudyAnalysis
     """
     a = study.analysis
-    probabilities = np.array(sorted(set(a.percentiles) | set(BAND_PROBABILITIES)))
-    extra = [o for o in a.outputs if o != "inner_surface_temperature"]
-    outputs = ("inner_surface_temperature", *extra)
+    method = method or get_method(a.method)
+    probabilities = analysis_probabilities(study)
+    outputs = analysed_outputs(study)
     group_names, _ = parameter_groups(study)
     design = propagation.design
     rows = design.independent_rows()
-    names = [p.name for p in study.parameters]
-    notes: list[str] = []
-    if a.method == "pce":
-        notes.append(
-            f"method = pce ({a.design} design): percentiles and exceedance come straight from "
-            "the samples; the Sobol indices shown are from a polynomial-chaos surrogate fitted "
-            "to them: trust them only when its leave-one-out error is small (Q2 close to 1); "
-            "rank correlations are a screening measure only."
-        )
-    if a.method == "saltelli" and design.base_samples > SALIB_BOOTSTRAP_ROWS:
-        notes.append(f"{design.base_samples} base samples: Sobol index intervals from a "
-                     "batch jackknife (plyrisk.analysis.streaming) rather than the bootstrap")
+    source = MemoryRows(propagation)
+    notes = method.notes(study, design.base_samples)
     result = []
     n_s = propagation.outputs["converged"].shape[0]
     for s in range(n_s):
-        y = output_values(propagation, "inner_surface_temperature", s)
+        y = output_column(source, "inner_surface_temperature", s)
         if not np.any(np.isfinite(y[rows])):
             raise AnalysisError(
-                f"no sample converged{_scenario_text(study, s)}: the solver gave up on all "
+                f"no sample converged{scenario_text(study, s)}: the solver gave up on all "
                 f"{y.size} samples; raise [model] max_iterations or check the inputs"
             )
         inner_q = quantiles(y[rows], probabilities, confidence=a.confidence)
@@ -204,37 +186,23 @@ def analyse(study, propagation: Propagation) -> StudyAnalysis:
             for i in range(faces.shape[1])
         ]
         exc = exceedance(y[rows], a.limit, confidence=a.confidence)
-        indices: dict[str, tuple[SobolIndices, SobolIndices | None]] = {}
-        if a.method == "saltelli" and names and design.base_samples > SALIB_BOOTSTRAP_ROWS:
-            from plyrisk.analysis.streaming import MemoryRows, sobol_jackknife
-
-            indices = {o: sobol_jackknife(MemoryRows(propagation), o, s, study,
-                                          confidence=a.confidence) for o in outputs}
-        elif a.method == "saltelli" and names:
-            indices = {o: sobol_indices(output_values(propagation, o, s), design, names=names,
-                                        group_names=group_names, n_bootstrap=a.bootstrap,
-                                        confidence=a.confidence, seed=a.seed)
-                       for o in outputs}
-        ranking, group_ranking = rank_indices(indices, a.index_ci_threshold)
-        pce = SurrogateResult()
-        if a.method == "pce" and names:
-            pce = fit_surrogate(study, design.unit[rows], y[rows], probabilities)
-            ranking.update(pce.ranking)
-            group_ranking.update(pce.group_ranking)
+        ix = method.scenario_indices(study, s, source=source, design=design,
+                                     unit=design.unit[rows], y=y[rows],
+                                     probabilities=probabilities, streamed=False)
         result.append(
             ScenarioAnalysis(
                 inner_quantiles=inner_q,
                 interface_quantiles=face_q,
                 exceedance=exc,
-                indices=indices,
-                ranking=ranking,
-                group_ranking=group_ranking,
-                rank_correlation=_rank_correlation(propagation.inputs[rows], y[rows]),
+                indices=ix.indices,
+                ranking=ix.ranking,
+                group_ranking=ix.group_ranking,
+                rank_correlation=rank_correlation(propagation.inputs[rows], y[rows]),
                 nonconverged=int(np.sum(~propagation.outputs["converged"][s])),
-                surrogate=pce.indices,
-                surrogate_groups=pce.groups,
-                surrogate_quantiles=pce.quantiles,
-                surrogate_quantile_status=pce.status,
+                surrogate=ix.surrogate,
+                surrogate_groups=ix.surrogate_groups,
+                surrogate_quantiles=ix.surrogate_quantiles,
+                surrogate_quantile_status=ix.surrogate_quantile_status,
                 onset_samples=int(np.sum(np.any(
                     propagation.outputs["convection_onset"][s], axis=1))),
                 air_range_samples=int(np.sum(propagation.outputs["air_range_exceeded"][s])),
@@ -264,84 +232,15 @@ def rank_indices(indices: dict, ci_threshold: float) -> tuple[dict, dict]:
     return ranking, groups
 
 
-@dataclass(frozen=True)
-class SurrogateResult:
-    """Polynomial-chaos indices of the inner-surface temperature, gated percentiles, rankings."""
-
-    indices: SurrogateIndices | None = None
-    groups: SurrogateIndices | None = None
-    quantiles: np.ndarray | None = None
-    status: str = ""
-    ranking: dict = field(default_factory=dict)
-    group_ranking: dict = field(default_factory=dict)
-
-
-def fit_surrogate(study, unit: np.ndarray, y: np.ndarray,
-                  probabilities: np.ndarray) -> SurrogateResult:
-    """Fit the PCE of one exposure; indices per parameter and group, gated percentiles.
-
-    Parameters
-    ----------
-    study
-        The parsed study [-].
-    unit
-        Independent design rows in the unit hypercube, ``(n, d)`` [-].
-    y
-        Inner-surface temperature of those rows [K].
-    probabilities
-        Quantile levels [-].
-
-    Returns
-    -------
-    SurrogateResult
-    """
-    a = study.analysis
-    names = [p.name for p in study.parameters]
-    group_names, groups = parameter_groups(study)
-    per = surrogate_indices(unit, y, names=names, n_bootstrap=a.bootstrap,
-                            confidence=a.confidence, seed=a.seed)
-    if per is None:
-        return SurrogateResult(status="refused: no surrogate could be fitted (too few "
-                               "converged samples or a constant output)")
-    grouped = surrogate_indices(unit, y, names=group_names, groups=groups,
-                                n_bootstrap=a.bootstrap, confidence=a.confidence,
-                                seed=a.seed, fit=per.fit)
-    q, status = _surrogate_percentiles(per, probabilities, a)
-    key = "inner_surface_temperature"
-    return SurrogateResult(per, grouped, q, status,
-                           {key: rank(per, ci_threshold=a.index_ci_threshold)},
-                           {key: rank(grouped, ci_threshold=a.index_ci_threshold)})
-
-
-def _surrogate_percentiles(surrogate: SurrogateIndices, probabilities: np.ndarray,
-                           a) -> tuple[np.ndarray | None, str]:
-    """Percentiles from the surrogate, only when its error is small enough.
-
-    The error is the leave-one-out error, and for terms selected by least-angle regression the
-    larger of it and the cross-validation error (the leave-one-out error of a selection is
-    optimistic; :mod:`plyrisk.analysis.pce`).
-    """
-    err, limit = surrogate.largest_error, a.pce_max_loo_error
-    what = f"leave-one-out error {surrogate.loo_error:.2g}"
-    if surrogate.candidates > surrogate.terms:  # terms selected: leave-one-out is optimistic
-        what = (f"error {err:.2g} (the larger of its {what} and its {CV_FOLDS}-fold "
-                f"cross-validation error {surrogate.cross_validation_error:.2g}, terms "
-                "selected anew in each fold)")
-    if not err <= limit:
-        return None, (f"refused: the surrogate's {what} is above pce_max_loo_error = "
-                      f"{limit:g}; the percentiles from the samples stand")
-    q = surrogate_quantiles(surrogate.fit, probabilities, seed=a.seed)
-    return q, (f"computed: the surrogate's {what} <= pce_max_loo_error = {limit:g}; no "
-               "interval (the surrogate's own error is not bounded)")
-
-
-def _scenario_text(study, s: int) -> str:
+def scenario_text(study: Study, s: int) -> str:
+    """' at <swept quantity> = <label>' for a swept study, else ''."""
     if study.scenarios is None:
         return ""
     return f" at {study.scenarios.quantity} = {study.scenarios.labels[s]}"
 
 
-def _rank_correlation(inputs: np.ndarray, y: np.ndarray) -> np.ndarray:
+def rank_correlation(inputs: np.ndarray, y: np.ndarray) -> np.ndarray:
+    """Spearman rank correlation of each input column with ``y`` (NaN where undefined) [-]."""
     ok = np.isfinite(y)
     d = inputs.shape[1]
     if d == 0 or ok.sum() < 3 or np.ptp(y[ok]) == 0:

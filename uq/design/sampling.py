@@ -370,6 +370,20 @@ class DesignPlan:
         """Number of rows (model evaluations) of the whole design [-]."""
         return int(self.samples) * self.rows_per_base
 
+    def independent_in_base(self) -> np.ndarray:
+        """Which rows of each base row are draws from the joint distribution (A and B).
+
+        Returns
+        -------
+        numpy.ndarray
+            Boolean mask of length :attr:`rows_per_base`: for ``sobol`` the A row (first) and
+            the B row (last); for other designs the one row.
+        """
+        step = self.rows_per_base
+        if self.method != "sobol":
+            return np.ones(1, dtype=bool)
+        return (np.arange(step) == 0) | (np.arange(step) == step - 1)
+
     @property
     def drawn_in_pieces(self) -> bool:
         """Whether :meth:`rows` draws a range without drawing the whole design [-]."""

@@ -2,31 +2,28 @@
 
 from __future__ import annotations
 
-import os
 import warnings
 from contextlib import ExitStack
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 import xarray as xr
 
-from plyrisk.analysis.study import StudyAnalysis, analyse
+from plyrisk.analysis.study import StudyAnalysis
 from plyrisk.cautions import cautions_text
-from plyrisk.pipeline.screening import (
-    add_screening,
-    morris_analysis,
-    morris_dataset,
-    morris_lines,
-    screen_study,
-    screening_lines,
-)
+from plyrisk.methods import get_method
+from plyrisk.pipeline.options import RunOptions
+from plyrisk.pipeline.screening import add_screening, screen_study, screening_lines
 from plyrisk.pipeline.sequential import add_growth, grow_until_converged, growth_lines
 from plyrisk.propagate.evaluate import Propagation, propagate
-from plyrisk.results.dataset import to_dataset, write_results, write_store_analysis
-from plyrisk.study.config import override
+from plyrisk.results.dataset import write_results, write_store_analysis
 from plyrisk.study.units import TEMPERATURE, from_si
 from plyrisk.text.indices import index_lines
+
+if TYPE_CHECKING:  # pragma: no cover
+    from plyrisk.study.definition import Study
 
 TOP_COUNT = 5
 """Parameters and layers listed in the summary [-]."""
@@ -53,186 +50,76 @@ class StudyResult:
     growth: object | None = None
 
 
-MEMORY_SHARE = 0.7
-"""Largest share of this machine's memory a study may plan to use [-]."""
-
-
-def memory_estimate(study, samples: int | None = None) -> int:
-    """Bytes a run will hold at its peak: the design, the inputs and every output [B].
-
-    Parameters
-    ----------
-    study
-        The parsed study. [-]
-    samples
-        Base sample count overriding the config [-].
-
-    Returns
-    -------
-    int
-        Estimated peak memory [B] (with a 50 % margin for the analysis and the dataset).
-    """
-    from plyrisk.models.network import interface_names
-    from plyrisk.propagate.evaluate import scenario_count
-
-    rows = memory_rows(study, samples) // scenario_count(study)
-    d = len(study.parameters)
-    faces = len(interface_names(study.layers, study.cold_side))
-    per_row = 16 * d + scenario_count(study) * 8 * (6 * faces + 4)
-    return int(1.5 * rows * per_row)
-
-
-def memory_rows(study, samples: int | None = None) -> int:
-    """Model runs of a study, every exposure counted [-].
-
-    Parameters
-    ----------
-    study
-        The parsed study. [-]
-    samples
-        Sample count overriding the config [-].
-    """
-    from plyrisk.propagate.evaluate import parameter_groups, scenario_count
-
-    n = int(samples if samples is not None else study.analysis.samples)
-    d = len(study.parameters)
-    if study.analysis.method == "saltelli":
-        groups = [g for g in parameter_groups(study)[1] if len(g) > 1]
-        rows = n * (d + len(groups) + 2)
-    elif study.analysis.method == "morris":
-        rows = n * (d + 1)
-    else:
-        rows = n
-    return rows * scenario_count(study)
-
-
-def check_memory(study, samples: int | None = None) -> None:
-    """Raise ``ValueError`` when a run would not fit in this machine's memory.
-
-    Parameters
-    ----------
-    study
-        The parsed study. [-]
-    samples
-        Base sample count overriding the config [-].
-    """
-    need = memory_estimate(study, samples)
-    try:
-        have = os.sysconf("SC_PHYS_PAGES") * os.sysconf("SC_PAGE_SIZE")
-    except (ValueError, OSError, AttributeError):  # not available: do not guess
-        return
-    if need > MEMORY_SHARE * have:
-        n = samples if samples is not None else study.analysis.samples
-        raise ValueError(
-            f"{n} samples need about {need / 2**30:.1f} GiB of memory and this machine has "
-            f"{have / 2**30:.1f} GiB; use fewer samples"
-        )
-
-
-def default_output_dir(config_path: str | Path) -> Path:
-    """The default output folder: named after the config, next to where plyrisk runs."""
-    return Path(Path(config_path).stem)
-
-
 def run_study(
-    study,
+    study: Study,
     *,
     out_dir: str | Path | None = None,
-    samples: int | None = None,
-    seed: int | None = None,
-    chunk_size: int | None = None,
-    quiet: bool = False,
-    workers: int = 1,
-    scheduler: str | None = None,
-    store: str | Path | None = None,
-    resume: bool = False,
-    overwrite: bool = False,
-    method: str | None = None,
-    until_converged: bool = False,
-    max_runs: int | None = None,
+    options: RunOptions | None = None,
+    **overrides: Any,
 ) -> StudyResult:
     """Propagate, analyse and (when ``out_dir`` is given) write ``out_dir/results.nc``.
 
     Parameters
     ----------
     study
-        The parsed study (:class:`plyrisk.study.config.Study`). [-]
+        The parsed study (:func:`plyrisk.load_study`).
     out_dir
-        Output folder, or ``None`` to keep the results in memory only [-].
-    samples
-        Base sample count overriding the config [-].
-    seed
-        Seed overriding the config [-].
-    chunk_size
-        Samples per evaluation chunk overriding the config [-].
-    quiet
-        No progress bar [-].
-    workers
-        Worker processes of a local dask cluster [-]; results do not depend on it.
-    scheduler
-        Address of an existing dask scheduler to solve on [-]; results do not depend on it.
-    store
-        Zarr store folder to stream the per-sample results to (out of core); the analysis
-        reads them from there and is added to it [-].
-    resume
-        Keep the chunks an interrupted run already put in ``store``; on a finished store
-        only the analysis runs again [-].
-    overwrite
-        Replace a plyrisk store already at ``store`` (ignored with ``resume``) [-].
-    method
-        Analysis method overriding the config (``saltelli``, ``pce``, ``morris``) [-].
-    until_converged
-        Saltelli only: double the base samples, reusing every run, until every index
-        interval is narrower than ``index_ci_threshold`` or ``max_runs`` is reached
-        (:mod:`plyrisk.pipeline.sequential`) [-].
-    max_runs
-        Model-run budget of ``until_converged`` (default
-        :data:`plyrisk.pipeline.sequential.DEFAULT_MAX_RUNS`) [-].
+        Output folder, or ``None`` to keep the results in memory only.
+    options
+        How to run it (:class:`plyrisk.pipeline.options.RunOptions`); default: as configured.
+    **overrides
+        Fields of :class:`~plyrisk.pipeline.options.RunOptions` given directly, e.g.
+        ``samples=256, seed=1`` (applied on top of ``options``).
 
     Returns
     -------
     StudyResult
+
+    Raises
+    ------
+    OptionError
+        One line naming an option that does not fit the study.
+
+    Examples
+    --------
+    >>> import plyrisk
+    >>> study = plyrisk.load_study("configs/small_demo.toml")      # doctest: +SKIP
+    >>> result = plyrisk.run_study(study, samples=64, quiet=True)  # doctest: +SKIP
+    >>> result.dataset["sobol_total"].sel(output="inner_surface_temperature")  # doctest: +SKIP
     """
-    study = override(study, samples=samples, seed=seed, method=method)
-    if until_converged and study.analysis.method != "saltelli":
-        raise ValueError(f"until_converged needs method = saltelli, not "
-                         f"{study.analysis.method!r}")
-    if store is not None and (until_converged or study.analysis.method == "morris"):
-        raise ValueError("a store holds one fixed design: use it with method = saltelli or "
-                         "pce, without until_converged")
+    opts = replace(options or RunOptions(), **overrides).with_defaults(study)
+    study = opts.validate(study)
+    chosen = get_method(study.analysis.method)
+    chunk_size, workers, scheduler, store = (opts.chunk_size, int(opts.workers or 1),
+                                             opts.scheduler, opts.store)
+    quiet = opts.quiet
     screening = growth = reader = None
     with ExitStack() as held:
         if store is not None:  # one run per store, until its analysis is stored
             from plyrisk.propagate.store import store_lock
 
-            held.enter_context(store_lock(store, resume=resume))
+            held.enter_context(store_lock(store, resume=opts.resume))
         with warnings.catch_warnings(record=True) as caught:  # reported in the summary, once each
             warnings.simplefilter("always")
             if study.screening is not None:
                 screening = screen_study(study, chunk_size=chunk_size, workers=workers)
                 study = screening.reduced
-            if until_converged:
-                growth = grow_until_converged(study, max_runs=max_runs, chunk_size=chunk_size,
+            if opts.until_converged:
+                growth = grow_until_converged(study, max_runs=opts.max_runs, chunk_size=chunk_size,
                                               workers=workers)
                 study, prop, analysis = growth.study, growth.propagation, growth.analysis
             elif store is not None:
                 prop, analysis, reader = _run_to_store(study, store, chunk_size=chunk_size,
-                                                       resume=resume, overwrite=overwrite,
-                                                       workers=workers, scheduler=scheduler,
-                                                       quiet=quiet)
+                                                       resume=opts.resume, overwrite=opts.overwrite,
+                                                       workers=workers,
+                                                       scheduler=scheduler, quiet=quiet)
             else:
                 prop = propagate(study, chunk_size=chunk_size, quiet=quiet, workers=workers,
                                  scheduler=scheduler)
-                if study.analysis.method == "morris":
-                    analysis = morris_analysis(study, prop)
-                else:
-                    analysis = analyse(study, prop)
+                analysis = chosen.analyse(study, prop)
         messages = tuple(dict.fromkeys(" ".join(str(w.message).split()) for w in caught
                                        if not _scheduling_noise(w)))
-        if study.analysis.method == "morris":
-            ds = morris_dataset(study, prop, analysis)
-        else:
-            ds = to_dataset(study, prop, analysis)
+        ds = chosen.dataset(study, prop, analysis)
         if screening is not None:
             ds = add_screening(ds, screening)
         if growth is not None:
@@ -266,12 +153,13 @@ def _run_to_store(study, store, *, chunk_size, resume, overwrite, workers, sched
     from plyrisk.analysis import streaming
     from plyrisk.propagate.store import load_propagation, solve_to_store
 
+    method = get_method(study.analysis.method)
     reader = solve_to_store(study, store, chunk_size=chunk_size, resume=resume,
                             overwrite=overwrite, workers=workers, scheduler=scheduler, quiet=quiet)
     if reader.n_rows <= streaming.STREAM_ROWS:
         prop = load_propagation(study, reader)
-        return prop, analyse(study, prop), reader
-    analysis = streaming.stream_analyse(study, reader)
+        return prop, method.analyse(study, prop), reader
+    analysis = method.analyse_store(study, reader)
     return load_propagation(study, reader, stop=FILE_SAMPLE_ROWS), analysis, reader
 
 
@@ -311,14 +199,14 @@ def summary_text(result: StudyResult) -> str:
         lines += screening_lines(result.screening)
     if result.growth is not None:
         lines += growth_lines(result.growth)
-    if a.method == "morris":
-        return "\n".join(_closing(result, lines + morris_lines(study, prop, an, top=TOP_COUNT),
-                                   []))
+    method = get_method(a.method)
+    own = method.summary_lines(result, top=TOP_COUNT)
+    if own is not None:
+        return "\n".join(_closing(result, lines + own, []))
     n_eval = int(result.dataset.attrs.get("evaluations", prop.inputs.shape[0]))
-    n_independent = 2 * int(a.samples) if a.method == "saltelli" else n_eval
+    n_independent = method.independent_samples(study, n_eval)
     lines.append(
-        f"method: {a.method}, {a.design} design, {a.samples} "
-        + {"saltelli": "base samples", "morris": "trajectories"}.get(a.method, "samples") + ", "
+        f"method: {a.method}, {a.design} design, {a.samples} {method.sample_noun}, "
         f"{len(study.parameters)} uncertain parameters, {n_eval} model evaluations"
         + (f" per exposure × {len(an.scenarios)} exposures" if len(an.scenarios) > 1 else "")
         + f"; seed {a.seed}"

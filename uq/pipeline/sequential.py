@@ -22,6 +22,8 @@ import xarray as xr
 
 from plyrisk.analysis.study import StudyAnalysis, analyse
 from plyrisk.design.sampling import Design, sobol_design
+from plyrisk.methods import get_method
+from plyrisk.pipeline.options import DEFAULT_MAX_RUNS
 from plyrisk.propagate.evaluate import (
     Outputs,
     Propagation,
@@ -30,9 +32,6 @@ from plyrisk.propagate.evaluate import (
     scenario_count,
     unit_to_inputs,
 )
-
-DEFAULT_MAX_RUNS = 1_000_000
-"""Model-run budget of a growth when none is given (all exposures) [-]."""
 
 
 @dataclass(frozen=True)
@@ -146,7 +145,7 @@ def grow_until_converged(study, *, max_runs: int | None = None, chunk_size: int 
     Growth
     """
     a = study.analysis
-    if a.method != "saltelli":
+    if not get_method(a.method).grows:
         raise ValueError(f"sequential growth needs method = 'saltelli', got {a.method!r}")
     budget = DEFAULT_MAX_RUNS if max_runs is None else int(max_runs)
     d = len(study.parameters)

@@ -11,29 +11,36 @@ import sys
 from collections.abc import Callable, Sequence
 from contextlib import contextmanager
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
 
-from plyrisk.analysis.morris import morris_design
+from plyrisk.design.morris import morris_design
 from plyrisk.design.sampling import Design, DesignPlan
-from plyrisk.models.network import NetworkSolution, solve_network
+from plyrisk.methods import get_method
+from plyrisk.models.network import NETWORK_OUTPUTS, NetworkSolution, solve_network
+from plyrisk.models.outputs import OutputSpec
 from plyrisk.propagate.compute import run_tasks
 from plyrisk.study.definition import assemble
 
-OUTPUT_FIELDS = (
-    "inner_surface_temperature",
-    "heat_flux",
-    "interface_temperature",
-    "layer_temperature_drop",
-    "layer_resistance",
-    "radiative_share",
-    "rayleigh_number",
-    "convection_onset",
-    "converged",
-    "iterations",
-    "air_range_exceeded",
-)
-"""Per-sample fields of :class:`plyrisk.models.network.NetworkSolution` kept by a propagation."""
+if TYPE_CHECKING:
+    from plyrisk.study.definition import Study
+
+def output_table(study: Study) -> tuple[OutputSpec, ...]:
+    """The per-sample outputs a study's model produces (declared next to the model).
+
+    Parameters
+    ----------
+    study
+        The parsed study.
+
+    Returns
+    -------
+    tuple of OutputSpec
+        :data:`plyrisk.models.network.NETWORK_OUTPUTS` for the steady network.
+    """
+    return NETWORK_OUTPUTS
+
 
 
 @dataclass(frozen=True)
@@ -43,7 +50,8 @@ class Outputs:
     Attributes
     ----------
     fields
-        Name → array of shape ``(n_scenarios, n_samples, ...)`` for each of ``OUTPUT_FIELDS``
+        Name → array of shape ``(n_scenarios, n_samples, ...)`` for each output of
+        :func:`output_table`
         (units as in :class:`plyrisk.models.network.NetworkSolution`).
     interface_names, element_names, element_kinds, element_layers
         Labels from the network solution.
@@ -195,16 +203,17 @@ def evaluate(
     bounds = [(start, min(start + chunk, n)) for start in range(0, max(n, 1), chunk)]
     store: dict[str, np.ndarray] = {}
     meta: list[NetworkSolution] = []
+    names = [spec.name for spec in output_table(study)]
 
     def keep(result) -> None:
         start, stop, solutions = result
         if not meta:
             meta.append(solutions[0])
-            for name in OUTPUT_FIELDS:
+            for name in names:
                 v = getattr(solutions[0], name)
                 store[name] = np.empty((n_s, n, *v.shape[1:]), dtype=v.dtype)
         for s_index, sol in enumerate(solutions):
-            for name in OUTPUT_FIELDS:
+            for name in names:
                 store[name][s_index, start:stop] = getattr(sol, name)
         if progress is not None:
             progress(stop - start)
@@ -249,7 +258,7 @@ def study_plan(study) -> DesignPlan:
     a = study.analysis
     if a.design == "morris":
         raise ValueError("Morris trajectories are built whole; they have no design plan")
-    kind = "sobol-sequence" if (a.design == "sobol" and a.method == "pce") else a.design
+    kind = get_method(a.method).design_kind(study)
     groups = parameter_groups(study)[1]
     return DesignPlan(
         kind,

@@ -37,18 +37,27 @@ import numpy as np
 
 from plyrisk.design.sampling import Design, DesignPlan
 from plyrisk.errors import PlyriskError
+from plyrisk.models.network import NETWORK_OUTPUTS
+from plyrisk.models.outputs import OutputSpec
 from plyrisk.propagate.compute import run_tasks
 from plyrisk.propagate.evaluate import (
-    OUTPUT_FIELDS,
     Outputs,
     Propagation,
     _evaluate_block,
+    output_table,
     progress_bar,
     scenario_count,
     study_plan,
     unit_to_inputs,
 )
-from plyrisk.results.dataset import SAMPLE_OUTPUTS, STORE_MARK
+
+STORE_MARK = "plyrisk_store"
+"""Root attribute that marks a Zarr group as a plyrisk store (value: layout version) [-]."""
+
+STORE_OWN_ATTRS = (STORE_MARK, "plyrisk_study", "chunk_size", "evaluations", "interface_names",
+                   "element_names", "element_kinds", "element_layers", "inner_surface_index")
+"""Root attributes of a store itself, kept for the store's life whatever the analysis adds:
+the fingerprint above all, so that a finished store can be resumed [-]."""
 
 COMPRESSION = {"cname": "lz4", "clevel": 1, "shuffle": "shuffle"}
 """Blosc settings of every stored array: on the demo outputs about 1.7 x faster to write than
@@ -202,8 +211,8 @@ def fingerprint(study, chunk_size: int) -> str:
     return hashlib.sha256(text.encode()).hexdigest()
 
 
-def _dims(name: str, swept: bool) -> tuple[str, ...]:
-    return (*(("scenario",) if swept else ()), "sample", *SAMPLE_OUTPUTS[name][0])
+def _dims(spec: OutputSpec, swept: bool) -> tuple[str, ...]:
+    return (*(("scenario",) if swept else ()), "sample", *spec.dims)
 
 
 def open_store(study, plan: DesignPlan, path: str | Path, *, chunk_size: int,
@@ -293,12 +302,9 @@ def _create(study, plan: DesignPlan, layout: StoreLayout, digest: str) -> None:
     array("sample_block", ("sample",), "i2", -1, units="1",
           long_name="design block of each sample (0 = A, 1 = B, 2+j = A with column j "
           "from B, 2+d+g = A with group g from B)")
-    for name in OUTPUT_FIELDS:
-        v = np.asarray(getattr(first, name))
-        dtype = "i4" if name == "iterations" else v.dtype.str
-        fill = np.nan if v.dtype.kind == "f" else False if v.dtype.kind == "b" else -1
-        array(name, _dims(name, layout.swept), dtype, fill, units=SAMPLE_OUTPUTS[name][1],
-              long_name=SAMPLE_OUTPUTS[name][2])
+    for spec in output_table(study):
+        array(spec.name, _dims(spec, layout.swept), spec.dtype, spec.fill_value,
+              units=spec.units, long_name=spec.long_name)
     array("chunk_done", ("chunk",), "u1", 0, units="1",
           long_name="chunk of samples stored (1) or not yet (0)")
     group.attrs.update({
@@ -308,6 +314,7 @@ def _create(study, plan: DesignPlan, layout: StoreLayout, digest: str) -> None:
         "element_names": list(first.element_names), "element_kinds": list(first.element_kinds),
         "element_layers": [int(x) for x in first.element_layers],
         "inner_surface_index": int(first.inner_surface_index),
+        "output_names": [spec.name for spec in output_table(study)],
     })
 
 
@@ -347,10 +354,9 @@ def store_chunk(study, plan: DesignPlan, layout: StoreLayout, index: int,
     group = zarr.open_group(layout.path, mode="r+")
     group["input"][start:stop] = inputs
     group["sample_block"][start:stop] = block.astype(np.int16)
-    for name in OUTPUT_FIELDS:
-        values = np.stack([np.asarray(getattr(s, name)) for s in solutions])
-        if name == "iterations":
-            values = values.astype(np.int32)
+    for spec in output_table(study):
+        name = spec.name
+        values = np.stack([np.asarray(getattr(s, name)) for s in solutions]).astype(spec.dtype)
         if layout.swept:
             group[name][:, start:stop] = values
         else:
@@ -370,6 +376,9 @@ class StoreReader:
         self.swept = "scenario" in self.group["inner_surface_temperature"].metadata.dimension_names
         self.n_rows = int(self.group.attrs["evaluations"])
         self.chunk_size = int(self.group.attrs["chunk_size"])
+        names = self.group.attrs.get("output_names", [s.name for s in NETWORK_OUTPUTS])
+        self.output_names = tuple(str(n) for n in names)
+        self.interface_names = tuple(str(n) for n in self.group.attrs["interface_names"])
 
     def read(self, name: str, start: int = 0, stop: int | None = None) -> np.ndarray:
         """Rows ``[start, stop)`` of ``name``; outputs get a leading scenario axis [-]."""
@@ -389,7 +398,7 @@ class StoreReader:
         """The model outputs of rows ``[0, stop)`` in memory [-]."""
         attrs = self.group.attrs
         return Outputs(
-            fields={name: self.read(name, 0, stop) for name in OUTPUT_FIELDS},
+            fields={name: self.read(name, 0, stop) for name in self.output_names},
             interface_names=tuple(attrs["interface_names"]),
             element_names=tuple(attrs["element_names"]),
             element_kinds=tuple(attrs["element_kinds"]),
@@ -466,7 +475,7 @@ def load_propagation(study, reader: StoreReader, *, stop: int | None = None) -> 
         unit = plan.rows(0, n)[0]
     else:
         unit = plan.design().unit[:n]
-    base = n // plan.rows_per_base if plan.method == "sobol" else n
+    base = n // plan.rows_per_base
     design = Design(unit, block, plan.method, base, plan.groups)
     return Propagation(design=design, inputs=reader.read("input", 0, n),
                        outputs=reader.outputs(n))

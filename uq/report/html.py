@@ -349,15 +349,53 @@ def write_report(
         columns, records = tol
         tables.append(write_csv(out / "tolerances.csv", columns,
                                 [[r.get(c) for c in columns] for r in records]))
-    study, why = _study(ds)
-    headline, verdicts = headline_table(ds)
-    crossing = fg.limit_crossing(ds) if "scenario" in ds.dims else None
-    conv_text, conv_table = convergence_summary(ds)
-    ranking = ranking_tables(ds)
-    title = str(ds.attrs.get("title", "plyrisk study"))
-    notes = [n for n in str(ds.attrs.get("notes", "")).split("\n") if n.strip()]
+    content = _Content.of(ds, figs, embedded, tol)
+    html_path = out / "report.html"
+    html_path.write_text("\n".join(_html_lines(ds, content)) + "\n", encoding="utf-8")
+    md_path = out / "summary.md"
+    md_path.write_text("\n".join(_markdown_lines(ds, content, out, fig_paths + tables)),
+                       encoding="utf-8")
+    return ReportFiles(html_path, md_path, fig_paths, tables)
 
-    # --- HTML -----------------------------------------------------------------------------
+
+@dataclass(frozen=True)
+class _Content:
+    """What both the HTML report and the Markdown summary are made of."""
+
+    study: Any
+    why: str
+    headline: Any
+    verdicts: list[str]
+    crossing: Any
+    conv_text: list[str]
+    conv_table: Any
+    ranking: list[Any]
+    title: str
+    notes: list[str]
+    figs: list[Any]
+    embedded: dict[str, str]
+    tol: Any
+
+    @classmethod
+    def of(cls, ds: xr.Dataset, figs: list[Any], embedded: dict[str, str],
+           tol: Any) -> _Content:
+        study, why = _study(ds)
+        headline, verdicts = headline_table(ds)
+        crossing = fg.limit_crossing(ds) if "scenario" in ds.dims else None
+        conv_text, conv_table = convergence_summary(ds)
+        ranking = ranking_tables(ds)
+        title = str(ds.attrs.get("title", "plyrisk study"))
+        notes = [n for n in str(ds.attrs.get("notes", "")).split("\n") if n.strip()]
+        return cls(study, why, headline, verdicts, crossing, conv_text, conv_table, ranking,
+                   title, notes, figs, embedded, tol)
+
+
+def _html_lines(ds: xr.Dataset, c: _Content) -> list[str]:
+    """The lines of the self-contained HTML report."""
+    study, why, headline, verdicts, crossing = c.study, c.why, c.headline, c.verdicts, c.crossing
+    conv_text, conv_table, ranking, title, notes = (c.conv_text, c.conv_table, c.ranking,
+                                                    c.title, c.notes)
+    figs, embedded, tol = c.figs, c.embedded, c.tol
     h: list[str] = ["<!DOCTYPE html>", '<html lang="en">', "<head>", '<meta charset="utf-8">',
                     f"<title>{_esc(title)} — plyrisk report</title>", f"<style>{_CSS}</style>",
                     "</head>", "<body>", f"<h1>{_esc(title)}</h1>",
@@ -412,10 +450,14 @@ def write_report(
     h += ["<h2>Provenance</h2>", _html_table(provenance_table(ds)),
           "<h3>Config text</h3>", f"<pre>{_esc(ds.attrs.get('config_text', ''))}</pre>",
           "</body>", "</html>"]
-    html_path = out / "report.html"
-    html_path.write_text("\n".join(h) + "\n", encoding="utf-8")
+    return h
 
-    # --- Markdown summary ------------------------------------------------------------------
+
+def _markdown_lines(ds: xr.Dataset, c: _Content, out: Path, files: list[Path]) -> list[str]:
+    """The lines of ``summary.md``."""
+    headline, verdicts, crossing = c.headline, c.verdicts, c.crossing
+    conv_text, conv_table, ranking, title, notes = (c.conv_text, c.conv_table, c.ranking,
+                                                    c.title, c.notes)
     m = [f"# {title}", "", "plyrisk study summary; the full report is `report.html`.", "",
          _cautions_md(), "", "## Headline", "", _md_table(headline), ""]
     m += [f"- {v}" for v in verdicts]
@@ -431,8 +473,6 @@ def write_report(
     m += ["## Samples that did not converge", "", _md_table(nonconverged_table(ds)), ""]
     if notes:
         m += ["## Notes", "", *[f"- {n}" for n in notes], ""]
-    m += ["## Files", "", *[f"- `{p.relative_to(out).as_posix()}`" for p in fig_paths + tables],
+    m += ["## Files", "", *[f"- `{p.relative_to(out).as_posix()}`" for p in files],
           "", "## Provenance", "", _md_table(provenance_table(ds)), "", _cautions_md(), ""]
-    md_path = out / "summary.md"
-    md_path.write_text("\n".join(m), encoding="utf-8")
-    return ReportFiles(html_path, md_path, fig_paths, tables)
+    return m

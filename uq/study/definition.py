@@ -21,8 +21,7 @@ from plyrisk.study.distributions import Distribution
 from plyrisk.study.units import QUANTITIES, TEMPERATURE, QuantitySpec, format_value, from_si
 
 if TYPE_CHECKING:  # pragma: no cover
-    from plyrisk.analysis.morris import ScreeningSettings
-    from plyrisk.tolerances.core import ToleranceSettings
+    from plyrisk.study.settings import ScreeningSettings, ToleranceSettings
 
 __all__ = ["Analysis", "ComputeOptions", "ModelOptions", "Parameter", "Scenarios", "Study",
            "assemble"]
@@ -275,8 +274,8 @@ class Study:
     ``layers``, ``hot_side`` and ``cold_side`` are the nominal model objects: every uncertain
     value is replaced by its distribution's nominal. ``parameters`` lists the uncertain inputs,
     hot side first, then the layers hot → cold, then the cold side. ``tolerances`` holds the
-    ``[tolerances]`` settings (:class:`plyrisk.tolerances.core.ToleranceSettings`) and ``screening``
-    the ``[screening]`` settings (:class:`plyrisk.analysis.morris.ScreeningSettings`), ``None``
+    ``[tolerances]`` settings (:class:`plyrisk.study.settings.ToleranceSettings`) and ``screening``
+    the ``[screening]`` settings (:class:`plyrisk.study.settings.ScreeningSettings`), ``None``
     when the
     section is absent.
     """

@@ -13,6 +13,7 @@ import numpy as np
 
 from plyrisk.cautions import cautions_text
 from plyrisk.errors import ConfigError
+from plyrisk.methods import get_method
 from plyrisk.models.network import NetworkSolution, solve_network
 from plyrisk.models.stack import StackError
 from plyrisk.study.config import require_runnable, stack_key_path
@@ -81,14 +82,7 @@ def _nominal_solve(study: Study) -> tuple[NetworkSolution, list[str]]:
 
 def _analysis_lines(study: Study) -> list[str]:
     a, m = study.analysis, study.model
-    designs = {"lhs": f"Latin hypercube, {a.samples} samples"
-               + (f", {a.lhs_optimization} optimization" if a.lhs_optimization else ""),
-               "random": f"plain Monte Carlo, {a.samples} samples",
-               "sobol": f"scrambled Sobol' sequence, {a.samples} samples"}
-    method = {"saltelli": f"Sobol indices, {a.samples} base rows (Saltelli design)",
-              "pce": f"polynomial-chaos surrogate on a {designs.get(a.design, a.design)}",
-              "morris": f"Morris screening, {a.samples} trajectories of {a.levels} levels"
-              }[a.method]
+    method = get_method(a.method).describe(study)
     lines = [
         f"Analysis: {method}; seed {a.seed}",
         f"  limit: inner-surface temperature {study.format_temperature(a.limit)}",
