@@ -77,9 +77,9 @@ def test_a_kill_at_any_stage_keeps_the_earlier_result_and_a_resumable_store(tmp_
     stages = [  # (what is killed, hook); each run resumes the store the previous one left
         ("solve", "kill", "plyrisk.propagate.store:store_chunk", 2),
         ("store write", "kill", "zarr:Array.__setitem__", 3),
-        ("analysis", "kill", "plyrisk.pipeline.run:analyse", 1),
+        ("analysis", "kill", "plyrisk.analysis.study:analyse", 1),
         ("analysis stored", "kill-after", "plyrisk.pipeline.run:write_store_analysis", 1),
-        ("results write", "kill-after", "plyrisk.cli:write_results", 1),
+        ("results write", "kill-after", "plyrisk.results.dataset:write_results", 1),
     ]
     for k, (stage, action, target, nth) in enumerate(stages):
         argv = [*run, "--overwrite"] + (["--resume"] if k else [])
