@@ -11,6 +11,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 import xarray as xr
 
+from plyrisk.analysis.direction import gap_directions
 from plyrisk.analysis.study import StudyAnalysis
 from plyrisk.cautions import cautions_text
 from plyrisk.methods import get_method
@@ -180,6 +181,16 @@ def _pct(p: float) -> str:
     return f"{100 * p:.3g} %"
 
 
+def _onset_gaps(prop: Propagation, scenario: int) -> set[str]:
+    """Names of the gaps past the onset of natural convection in any sample of a scenario."""
+    out = prop.outputs
+    onset = np.asarray(out.fields["convection_onset"])
+    onset = onset[scenario] if onset.ndim == 3 else onset
+    return {name for name, kind, flag in zip(out.element_names, out.element_kinds,
+                                               np.any(onset, axis=0), strict=True)
+            if kind == "gap" and flag}
+
+
 def summary_text(result: StudyResult) -> str:
     """The summary printed at the end of ``plyrisk run``.
 
@@ -213,6 +224,7 @@ def summary_text(result: StudyResult) -> str:
     )
     lim = _t(study, a.limit)
     conf = f"{100 * a.confidence:g} %"
+    directions = gap_directions(study)  # which way an underestimated gap flow moves the limit
     for s, sc in enumerate(an.scenarios):
         lines.append("")
         if study.scenarios is not None:
@@ -249,13 +261,17 @@ def summary_text(result: StudyResult) -> str:
                 for r, j in enumerate(order[:TOP_COUNT], start=1):
                     lines.append(f"  {r}. {names[j]:<32} {sc.rank_correlation[j]:+.3f}")
         if sc.onset_samples:
-            lines.append(
-                f"WARNING: {sc.onset_samples} of {n_eval} samples have a gap past the onset of "
-                "natural convection"
-                + ("; still-air conduction underestimates the heat flow there, so those "
-                   "temperatures are not conservative — consider [model] convection = true"
-                   if not study.model.convection else " (convection correlations applied)")
-            )
+            if study.model.convection:
+                lines.append(f"note: {sc.onset_samples} of {n_eval} samples have a gap past the "
+                             "onset of natural convection (convection correlations applied)")
+            else:
+                effects = "; ".join(d.less_heat_effect("inner-surface temperature")
+                                    for d in directions if d.gap in _onset_gaps(prop, s))
+                lines.append(
+                    f"WARNING: {sc.onset_samples} of {n_eval} samples have a gap past the onset "
+                    "of natural convection; still-air conduction carries too little heat across "
+                    f"it there ({effects or 'gap not identified'}); consider [model] "
+                    "convection = true")
         if sc.air_range_samples:
             lines.append(
                 f"note: {sc.air_range_samples} samples have a gap mean temperature outside "
@@ -266,12 +282,12 @@ def summary_text(result: StudyResult) -> str:
             + (" (excluded from the statistics; see 'converged' in the dataset)"
                if sc.nonconverged else "")
         )
-    if study.model.radiation == "linearized":
+    if study.model.radiation == "linearized" and directions:
         lines.append("")
         lines.append(
             "note: radiation = \"linearized\" (4 eps sigma Tm^3) always carries less heat across "
-            "a gap than the exact form, so it predicts a cooler inner surface: not conservative"
-        )
+            "a gap than the exact form; at the nominal point: "
+            + "; ".join(d.less_heat_effect("inner-surface temperature") for d in directions))
     return "\n".join(_closing(result, lines, an.notes))
 
 
