@@ -181,6 +181,31 @@ def sobol_indices(y: np.ndarray, design: Design, *, names: Sequence[str],
     return first, grouped
 
 
+def not_resolved(value: float, half_width: float) -> bool:
+    """Whether an index estimate lies outside [0, 1] by more than its interval half-width.
+
+    A Sobol index is a variance share, so an estimate above 1 or below 0 beyond its interval
+    is not noise around a true value inside the range: the estimator has not settled (too few
+    samples for the model's interactions). Such an index is reported as "not resolved: more
+    samples", never as a value.
+
+    Parameters
+    ----------
+    value
+        The estimate [-].
+    half_width
+        Its confidence half-width [-].
+
+    Examples
+    --------
+    >>> not_resolved(1.615, 0.054), not_resolved(1.02, 0.05), not_resolved(-0.2, 0.1)
+    (True, False, True)
+    """
+    if not (np.isfinite(value) and np.isfinite(half_width)):
+        return False
+    return bool(value - half_width > 1.0 or value + half_width < 0.0)
+
+
 @dataclass(frozen=True)
 class RankedIndex:
     """One parameter's indices with a convergence verdict.

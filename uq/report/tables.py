@@ -18,6 +18,7 @@ from typing import Any
 import numpy as np
 import xarray as xr
 
+from plyrisk.analysis.sobol import not_resolved
 from plyrisk.report.figures import outputs as fg
 from plyrisk.report.figures.common import PRIMARY
 from plyrisk.results.dataset import scenario_slices
@@ -273,7 +274,11 @@ def index_sets(one: xr.Dataset) -> list[IndexSet]:
     return []
 
 
-def _status(conv: np.ndarray | None, j: int) -> str:
+def _status(conv: np.ndarray | None, j: int, values: dict | None = None) -> str:
+    if values is not None and any(
+            not_resolved(float(values[k][j]), float(values[f"{k}_ci"][j]))
+            for k in ("total", "first")):
+        return "NOT RESOLVED: more samples (estimate outside [0, 1] beyond its interval)"
     if conv is None:
         return "surrogate"
     return "converged" if conv[j] else "UNCONVERGED"
@@ -301,7 +306,7 @@ def ranking_tables(ds: xr.Dataset) -> list[Table]:
                      str(one["parameter_group"].values[j]).replace("_", " "),
                      _idx(float(ix.p["total"][j]), float(ix.p["total_ci"][j])),
                      _idx(float(ix.p["first"][j]), float(ix.p["first_ci"][j])),
-                     _status(ix.p_converged, j)]
+                     _status(ix.p_converged, j, ix.p)]
                     for j in np.argsort(ix.p_rank, kind="stable")]
             out.append(Table(["rank", "parameter", "layer", "total index ± CI",
                               "first-order index ± CI", "status"], rows,
@@ -310,7 +315,7 @@ def ranking_tables(ds: xr.Dataset) -> list[Table]:
             rows = [[str(int(ix.g_rank[j])), groups[j],
                      _idx(float(ix.g["total"][j]), float(ix.g["total_ci"][j])),
                      _idx(float(ix.g["first"][j]), float(ix.g["first_ci"][j])),
-                     _status(ix.g_converged, j)]
+                     _status(ix.g_converged, j, ix.g)]
                     for j in np.argsort(ix.g_rank, kind="stable")]
             out.append(Table(["rank", "layer", "total index ± CI", "first-order index ± CI",
                               "status"], rows,
