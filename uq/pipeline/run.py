@@ -21,6 +21,7 @@ from plyrisk.pipeline.sequential import add_growth, grow_until_converged, growth
 from plyrisk.propagate.evaluate import Propagation, propagate
 from plyrisk.results.dataset import write_results, write_store_analysis
 from plyrisk.study.units import TEMPERATURE, from_si
+from plyrisk.study.values import truncation_warnings
 from plyrisk.text.indices import index_lines
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -225,6 +226,9 @@ def summary_text(result: StudyResult) -> str:
     lim = _t(study, a.limit)
     conf = f"{100 * a.confidence:g} %"
     directions = gap_directions(study)  # which way an underestimated gap flow moves the limit
+    cut = truncation_warnings(study.parameters)
+    if cut:
+        lines += ["", *cut]
     for s, sc in enumerate(an.scenarios):
         lines.append("")
         if study.scenarios is not None:
