@@ -19,7 +19,12 @@ from plyrisk.pipeline.options import RunOptions
 from plyrisk.pipeline.screening import add_screening, screen_study, screening_lines
 from plyrisk.pipeline.sequential import add_growth, grow_until_converged, growth_lines
 from plyrisk.propagate.evaluate import Propagation, propagate
-from plyrisk.results.dataset import write_results, write_store_analysis
+from plyrisk.results.dataset import (
+    subset_warning,
+    subset_warnings,
+    write_results,
+    write_store_analysis,
+)
 from plyrisk.study.units import TEMPERATURE, from_si
 from plyrisk.study.values import truncation_warnings
 from plyrisk.text.indices import index_lines
@@ -136,7 +141,7 @@ def run_study(
                 ds.attrs["evaluations"] = int(reader.n_rows)
                 ds.attrs["base_samples"] = int(study.analysis.samples)
             write_store_analysis(ds, store)
-    ds.attrs["warnings"] = "\n".join(messages)
+    ds.attrs["warnings"] = "\n".join((*messages, *subset_warnings(ds)))
     path = None
     if out_dir is not None:
         path = write_results(ds, Path(out_dir) / "results.nc")
@@ -254,6 +259,9 @@ def summary_text(result: StudyResult) -> str:
                 f"  {left_out} non-converged samples are left out above; counting them as "
                 f"exceeding, P(inner surface > {lim}) = {_pct(worst)}"
             )
+            lost = subset_warning(e.n, n_independent)
+            if lost:
+                lines.append(f"  {lost}")
         ranking = sc.ranking.get("inner_surface_temperature")
         lines += index_lines(study, sc, top=TOP_COUNT, temperature=lambda k: _t(study, k))
         if not ranking or sc.surrogate is not None:

@@ -21,7 +21,7 @@ import xarray as xr
 from plyrisk.analysis.sobol import not_resolved
 from plyrisk.report.figures import outputs as fg
 from plyrisk.report.figures.common import PRIMARY
-from plyrisk.results.dataset import scenario_slices
+from plyrisk.results.dataset import scenario_slices, subset_warnings
 from plyrisk.study.units import QUANTITIES, TEMPERATURE, format_value
 
 __all__ = ["INDEX_KEYS", "IndexSet", "Table", "cell_text", "convergence_summary",
@@ -191,6 +191,7 @@ def headline_table(ds: xr.Dataset) -> tuple[Table, list[str]]:
                             "lies inside the confidence "
                             f"interval of P95 ({_t(ds, q)}): these samples cannot tell whether "
                             "P95 is above or below it; more samples narrow the interval.")
+    verdicts += subset_warnings(ds)
     conf = f"{100 * float(ds.attrs.get('confidence', math.nan)):g} %"
     header = ["exposure", "P95", f"P95 {conf} interval", f"P(T > {_t(ds, limit)})",
               f"{conf} interval", "independent samples used", "evaluations not converged"]

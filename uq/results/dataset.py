@@ -326,6 +326,63 @@ def read_results(path: str | Path) -> xr.Dataset:
         return ds.load()
 
 
+SUBSET_WARNING = 0.01
+"""Share of the independent samples lost (not converged) above which every output warns that
+the percentiles describe a reduced subset [-]."""
+
+
+def subset_warning(used: int, independent: int, where: str = "") -> str:
+    """The warning of percentiles from a subset that lost more than :data:`SUBSET_WARNING` of
+    the samples, or ``""`` [-].
+
+    Parameters
+    ----------
+    used
+        Converged independent samples the percentiles come from [-].
+    independent
+        Independent samples drawn [-].
+    where
+        The exposure, e.g. ``"at incident_flux = 10 kW/m^2: "`` [-].
+
+    Examples
+    --------
+    >>> subset_warning(990, 1000)
+    ''
+    >>> subset_warning(600, 1000)[:60]
+    'WARNING: the percentiles and P(exceed) come from 600 of 1000'
+    """
+    if independent <= 0 or (independent - used) <= SUBSET_WARNING * independent:
+        return ""
+    lost = independent - used
+    return (f"WARNING: {where}the percentiles and P(exceed) come from {used} of {independent} "
+            f"samples ({100 * lost / independent:.3g} % did not converge and are left out): "
+            "they describe the converged subset only, which is biased when the samples lost "
+            "are the hot ones")
+
+
+def independent_samples(ds: xr.Dataset) -> int:
+    """Independent samples of a results dataset: the A and B rows of a Saltelli design, every
+    sample otherwise [-]."""
+    n = int(ds.attrs.get("evaluations", ds.sizes.get("sample", 0)))
+    if ds.attrs.get("method") == "saltelli":
+        return 2 * int(ds.attrs.get("base_samples", 0))
+    return n
+
+
+def subset_warnings(ds: xr.Dataset) -> list[str]:
+    """:func:`subset_warning` of every exposure of a results dataset [-]."""
+    if "samples_used" not in ds:
+        return []
+    out = []
+    n = independent_samples(ds)
+    for label, one in scenario_slices(ds):
+        where = f"at {ds.attrs.get('scenario_quantity', 'scenario')} = {label}: " if label else ""
+        text = subset_warning(int(one["samples_used"].item()), n, where)
+        if text:
+            out.append(text)
+    return out
+
+
 def scenario_slices(ds: xr.Dataset) -> Iterator[tuple[str, xr.Dataset]]:
     """Yield ``(label, dataset of one exposure)`` for swept and unswept results alike."""
     if "scenario" in ds.dims:
