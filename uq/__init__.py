@@ -18,15 +18,12 @@ True
 from __future__ import annotations
 
 import importlib
-from importlib.metadata import PackageNotFoundError, version
 from typing import TYPE_CHECKING, Any
 
 from plyrisk.errors import PlyriskError
+from plyrisk.provenance import package_version
 
-try:
-    __version__ = version("plyrisk")
-except PackageNotFoundError:  # pragma: no cover - a source tree that is not installed
-    __version__ = "0+unknown"
+__version__ = package_version()
 
 # public name -> (module, attribute), imported on first access
 _API = {

@@ -472,9 +472,9 @@ def build_parser() -> argparse.ArgumentParser:
         description="Uncertainty and sensitivity studies of steady heat transfer through "
         "multilayer heat-protective assemblies. Engineering estimates only.",
     )
-    from plyrisk import __version__
+    from plyrisk.provenance import package_version
 
-    parser.add_argument("--version", action="version", version=f"{PROG} {__version__}")
+    parser.add_argument("--version", action="version", version=f"{PROG} {package_version()}")
     sub = parser.add_subparsers(dest="verb", metavar="VERB", parser_class=_Parser)
     for add in VERBS:
         add(sub)

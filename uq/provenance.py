@@ -17,3 +17,11 @@ def library_versions() -> dict[str, str]:
         except metadata.PackageNotFoundError:
             out[name] = "not installed"
     return out
+
+
+def package_version() -> str:
+    """The installed version of plyrisk (``0+unknown`` for a source tree not installed)."""
+    try:
+        return metadata.version("plyrisk")
+    except metadata.PackageNotFoundError:  # pragma: no cover - not installed
+        return "0+unknown"
