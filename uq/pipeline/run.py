@@ -12,6 +12,7 @@ import numpy as np
 import xarray as xr
 
 from plyrisk.analysis.direction import gap_directions
+from plyrisk.analysis.ratings import rating_check
 from plyrisk.analysis.study import StudyAnalysis
 from plyrisk.cautions import cautions_text
 from plyrisk.methods import get_method
@@ -141,6 +142,8 @@ def run_study(
                 ds.attrs["evaluations"] = int(reader.n_rows)
                 ds.attrs["base_samples"] = int(study.analysis.samples)
             write_store_analysis(ds, store)
+    if "exceedance_probability" in ds:
+        ds = _add_ratings(ds, study, prop)
     ds.attrs["warnings"] = "\n".join((*messages, *subset_warnings(ds)))
     path = None
     if out_dir is not None:
@@ -185,6 +188,45 @@ def _pct(p: float) -> str:
     if not np.isfinite(p):
         return "n/a"
     return f"{100 * p:.3g} %"
+
+
+def _add_ratings(ds: xr.Dataset, study: Study, prop: Propagation) -> xr.Dataset:
+    """Add the rated-temperature check (``max_temperature`` of the layers) to the dataset."""
+    checks = [rating_check(study, prop, s) for s in range(prop.outputs["converged"].shape[0])]
+    if checks[0] is None:
+        return ds
+    swept = "scenario" in ds.dims
+    sd = ("scenario",) if swept else ()
+
+    def per(values):
+        return np.asarray(values) if swept else np.asarray(values)[0]
+
+    margin = per([c.margin for c in checks])
+    ds = ds.copy()
+    ds["layer_rating_margin"] = ((*sd, "sample"), margin[..., :ds.sizes["sample"]], {
+        "units": "K", "long_name": "largest excess of a rated layer's hotter face over its "
+        "max_temperature (positive: some layer above its rating; NaN: not converged)"})
+    for key, attr in (("", "probability"), ("_lower", "lower"), ("_upper", "upper")):
+        ds[f"rating_exceedance_probability{key}"] = (sd, per([getattr(c.exceedance, attr)
+                                                              for c in checks]), {
+            "units": "1", "long_name": "P(some layer above its max_temperature), independent "
+            "converged samples" + ("" if not key else f" ({attr} bound)")})
+    ds.attrs["rated_layers"] = ", ".join(
+        f"{layer.name} ({study.format_temperature(r)})"
+        for layer, r in zip(study.layers, study.max_temperatures, strict=True) if r is not None)
+    return ds
+
+
+def _rating_lines(study: Study, prop: Propagation, scenario: int) -> list[str]:
+    """Summary lines of the rated-temperature check of one exposure."""
+    check = rating_check(study, prop, scenario)
+    if check is None:
+        return []
+    e = check.exceedance
+    over = [f"{name} {count}" for name, count in check.per_layer.items() if count]
+    return [f"  P(a layer above its max_temperature) = {_pct(e.probability)}   [{_pct(e.lower)}, "
+            f"{_pct(e.upper)}]  ({e.count} of {e.n} samples"
+            + (f"; by layer: {', '.join(over)}" if over else "") + ")"]
 
 
 def _onset_gaps(prop: Propagation, scenario: int) -> set[str]:
@@ -262,6 +304,7 @@ def summary_text(result: StudyResult) -> str:
             lost = subset_warning(e.n, n_independent)
             if lost:
                 lines.append(f"  {lost}")
+        lines += _rating_lines(study, prop, s)
         ranking = sc.ranking.get("inner_surface_temperature")
         lines += index_lines(study, sc, top=TOP_COUNT, temperature=lambda k: _t(study, k))
         if not ranking or sc.surrogate is not None:

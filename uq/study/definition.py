@@ -277,7 +277,8 @@ class Study:
     ``[tolerances]`` settings (:class:`plyrisk.study.settings.ToleranceSettings`) and ``screening``
     the ``[screening]`` settings (:class:`plyrisk.study.settings.ScreeningSettings`), ``None``
     when the
-    section is absent.
+    section is absent. ``max_temperatures`` holds each layer's rated maximum temperature
+    (``max_temperature`` of a solid layer) [K], ``None`` where the layer has none.
     """
 
     source: str
@@ -294,6 +295,7 @@ class Study:
     tolerances: ToleranceSettings | None = None
     compute: ComputeOptions = ComputeOptions()
     screening: ScreeningSettings | None = None
+    max_temperatures: tuple[float | None, ...] = ()
 
     @property
     def parameter_names(self) -> tuple[str, ...]:
