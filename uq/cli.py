@@ -197,7 +197,7 @@ def cmd_run(args: argparse.Namespace) -> int:
     import dataclasses
 
     from plyrisk.analysis.study import AnalysisError
-    from plyrisk.pipeline.run import run_study, summary_text
+    from plyrisk.pipeline.run import phase, run_study, summary_text
     from plyrisk.results.dataset import write_results
     from plyrisk.results.files import OutputSet, decide, folder_lock
     from plyrisk.study.config import load_study, require_runnable
@@ -247,12 +247,12 @@ def cmd_run(args: argparse.Namespace) -> int:
             elif report:
                 rows = None
                 if study.tolerances is not None:
-                    if not args.quiet and sys.stderr.isatty():
-                        print(f"{PROG}: tolerance feedback for the report ([tolerances] in the "
-                              "config) ...", file=sys.stderr)
+                    phase("tolerance feedback for the report ([tolerances] in the config)",
+                          args.quiet)
                     full = (result.screening.study if result.screening is not None
                             else result.study)
                     rows = manufacturing_table(run_tolerances(full), full)
+                phase("report: figures, tables, report.html", args.quiet)
                 lines.append(_write_report(result.dataset, out.staging, rows, shown=out_dir))
             text = "\n".join(lines) + "\n"
             (out.staging / "summary.txt").write_text(text, encoding="utf-8")
@@ -422,7 +422,7 @@ def cmd_tolerances(args: argparse.Namespace) -> int:
     except ValueError as err:
         where = "--samples" if args.samples is not None else f"{study.source}: tolerances"
         raise UsageError(f"{where}: {err}") from None
-    show = not args.quiet and sys.stderr.isatty()
+    show = not args.quiet  # a plain line per stage, on a terminal or not
     report = run_tolerances(
         study, target=args.target, samples=args.samples, seed=args.seed,
         progress=(lambda stage: print(f"{PROG}: {stage} ...", file=sys.stderr)) if show

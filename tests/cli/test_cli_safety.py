@@ -206,3 +206,16 @@ def test_foreign_files_in_the_folder_are_never_touched(tmp_path, capsys):
 def test_abbreviated_options_are_errors(tmp_path, capsys):
     assert main(["run", str(SMALL), "--out", str(tmp_path), "--sample", "512"]) == 2
     assert "unrecognized arguments: --sample 512" in one_line(capsys.readouterr().err)
+
+
+def test_a_plain_line_per_phase_unless_quiet(tmp_path, capsys):
+    assert main(["run", str(SMALL), "--out", str(tmp_path / "a"), "--samples", "8"]) == 0
+    err = capsys.readouterr().err
+    phases = [line for line in err.splitlines() if line.startswith("plyrisk: ")]
+    assert phases == ["plyrisk: solving ...",
+                      "plyrisk: analysis (percentiles, exceedance, sensitivity indices or "
+                      "surrogate fit) ...",
+                      "plyrisk: report: figures, tables, report.html ..."]
+    assert main(["run", str(SMALL), "--out", str(tmp_path / "b"), "--samples", "8",
+                 "--quiet"]) == 0
+    assert capsys.readouterr().err == ""

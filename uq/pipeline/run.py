@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import sys
 import warnings
 from contextlib import ExitStack
 from dataclasses import dataclass, replace
@@ -110,20 +111,25 @@ def run_study(
         with warnings.catch_warnings(record=True) as caught:  # reported in the summary, once each
             warnings.simplefilter("always")
             if study.screening is not None:
+                phase("screening (Morris) before the study", quiet)
                 screening = screen_study(study, chunk_size=chunk_size, workers=workers)
                 study = screening.reduced
             if opts.until_converged:
+                phase("growing the study until every index interval is narrow enough", quiet)
                 growth = grow_until_converged(study, max_runs=opts.max_runs, chunk_size=chunk_size,
                                               workers=workers)
                 study, prop, analysis = growth.study, growth.propagation, growth.analysis
             elif store is not None:
+                phase(f"solving into the store {store}", quiet)
                 prop, analysis, reader = _run_to_store(study, store, chunk_size=chunk_size,
                                                        resume=opts.resume, overwrite=opts.overwrite,
                                                        workers=workers,
                                                        scheduler=scheduler, quiet=quiet)
             else:
+                phase("solving", quiet)
                 prop = propagate(study, chunk_size=chunk_size, quiet=quiet, workers=workers,
                                  scheduler=scheduler)
+                phase(ANALYSIS_PHASE, quiet)
                 analysis = chosen.analyse(study, prop)
         messages = tuple(dict.fromkeys(" ".join(str(w.message).split()) for w in caught
                                        if not _scheduling_noise(w)))
@@ -166,11 +172,23 @@ def _run_to_store(study, store, *, chunk_size, resume, overwrite, workers, sched
     method = get_method(study.analysis.method)
     reader = solve_to_store(study, store, chunk_size=chunk_size, resume=resume,
                             overwrite=overwrite, workers=workers, scheduler=scheduler, quiet=quiet)
+    phase(ANALYSIS_PHASE + ("" if reader.n_rows <= streaming.STREAM_ROWS else ", in passes"),
+          quiet)
     if reader.n_rows <= streaming.STREAM_ROWS:
         prop = load_propagation(study, reader)
         return prop, method.analyse(study, prop), reader
     analysis = method.analyse_store(study, reader)
     return load_propagation(study, reader, stop=FILE_SAMPLE_ROWS), analysis, reader
+
+
+ANALYSIS_PHASE = "analysis (percentiles, exceedance, sensitivity indices or surrogate fit)"
+
+
+def phase(text: str, quiet: bool) -> None:
+    """One line on stderr as a phase of a run begins (unless ``quiet``): on a terminal and off
+    it, so that a long run shows where it is [-]."""
+    if not quiet:
+        print(f"plyrisk: {text} ...", file=sys.stderr, flush=True)
 
 
 FILE_SAMPLE_ROWS = 2**18
