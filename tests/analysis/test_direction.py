@@ -68,3 +68,13 @@ def test_summary_of_a_skin_gap_study_with_linearized_radiation(tmp_path, capsys)
     assert ("gap 'air gap': too little heat across it gives a higher inner-surface temperature "
             "(conservative for that limit") in text
     assert "predicts a cooler inner surface" not in text
+
+
+def test_the_limit_names_what_it_protects_when_a_gap_pulls_both_ways():
+    from plyrisk.analysis.direction import limit_scope_note
+
+    note = limit_scope_note(load_study(SMALL))
+    assert note.startswith("the limit applies to the inner-surface temperature")
+    assert "gap 'air gap' lowers this face but raises the heat flux to the cold side" in note
+    blanket = load_study(ROOT / "configs" / "equipment_blanket.toml")  # no gap at all
+    assert limit_scope_note(blanket) == ""

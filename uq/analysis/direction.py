@@ -129,3 +129,27 @@ def gap_directions(study, *, output: str = "inner_surface_temperature",
                 signs[i].add(int(np.sign(d_out) * np.sign(d_h)))
     return tuple(GapDirection(study.layers[i].name, s.pop() if len(s) == 1 else 0, output)
                  for i, s in signs.items())
+
+
+def limit_scope_note(study, *, label: str = "inner-surface temperature") -> str:
+    """A note naming what the limit protects, and the gaps whose effect on it is opposite to
+    their effect on the heat reaching the cold side; ``""`` when there is none [-].
+
+    Parameters
+    ----------
+    study
+        The parsed study [-].
+    label
+        How the limited output is named [-].
+    """
+    on_limit = gap_directions(study)
+    on_flux = {d.gap: d.sign for d in gap_directions(study, output="heat_flux")}
+    opposite = [d.gap for d in on_limit if d.sign and on_flux.get(d.gap) == -d.sign]
+    if not opposite:
+        return ""
+    gaps = ", ".join(repr(g) for g in opposite)
+    return (f"the limit applies to the {label} (the innermost face of the assembly), not to the "
+            f"heat reaching the cold side: more heat across gap {gaps} lowers this face but "
+            "raises the heat flux to the cold side (opposite signs at the nominal point), so "
+            "the indices and tolerances of that gap rank its effect on the face, not on what "
+            "reaches the cold side (the skin, where it is one); see heat_flux in results.nc")

@@ -12,7 +12,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 import xarray as xr
 
-from plyrisk.analysis.direction import gap_directions
+from plyrisk.analysis.direction import gap_directions, limit_scope_note
 from plyrisk.analysis.ratings import rating_check
 from plyrisk.analysis.study import StudyAnalysis
 from plyrisk.cautions import cautions_text
@@ -150,6 +150,9 @@ def run_study(
             write_store_analysis(ds, store)
     if "exceedance_probability" in ds:
         ds = _add_ratings(ds, study, prop)
+        scope = limit_scope_note(study)
+        if scope:
+            ds.attrs["notes"] = "\n".join(n for n in (ds.attrs.get("notes", ""), scope) if n)
     ds.attrs["warnings"] = "\n".join((*messages, *subset_warnings(ds)))
     path = None
     if out_dir is not None:
@@ -291,6 +294,7 @@ def summary_text(result: StudyResult) -> str:
     lim = _t(study, a.limit)
     conf = f"{100 * a.confidence:g} %"
     directions = gap_directions(study)  # which way an underestimated gap flow moves the limit
+    scope = limit_scope_note(study)
     cut = truncation_warnings(study.parameters)
     if cut:
         lines += ["", *cut]
@@ -355,6 +359,8 @@ def summary_text(result: StudyResult) -> str:
             + (" (excluded from the statistics; see 'converged' in the dataset)"
                if sc.nonconverged else "")
         )
+    if scope:
+        lines += ["", f"note: {scope}"]
     if study.model.radiation == "linearized" and directions:
         lines.append("")
         lines.append(
