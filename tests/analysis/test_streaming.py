@@ -8,7 +8,6 @@ Sobol' estimators (Source: SALib.analyze.sobol, Saltelli et al. 2010, Comput. Ph
 from __future__ import annotations
 
 from dataclasses import replace
-from pathlib import Path
 
 import numpy as np
 import pytest
@@ -19,21 +18,18 @@ from plyrisk.analysis.statistics import _order_statistic_ranks
 from plyrisk.analysis.study import analyse
 from plyrisk.pipeline import run as pipeline
 from plyrisk.propagate.store import load_propagation, solve_to_store
-from plyrisk.study.config import load_study
-
-ROOT = Path(__file__).resolve().parents[2]
-GARMENT = ROOT / "configs" / "reflective_garment.toml"
 
 
 @pytest.fixture(scope="module")
-def stored(tmp_path_factory):
-    study = load_study(GARMENT)
-    study = replace(study, analysis=replace(study.analysis, samples=256))
+def stored(tmp_path_factory, reflective_garment):
+    study = replace(reflective_garment, analysis=replace(reflective_garment.analysis,
+                                                         samples=256))
     path = tmp_path_factory.mktemp("stream") / "s.zarr"
     reader = solve_to_store(study, path, chunk_size=3000, quiet=True)
     return study, reader
 
 
+@pytest.mark.slow
 def test_streamed_analysis_matches_the_in_memory_one(stored, monkeypatch):
     study, reader = stored
     memory = analyse(study, load_propagation(study, reader))
@@ -60,8 +56,9 @@ def test_streamed_analysis_matches_the_in_memory_one(stored, monkeypatch):
             assert np.all((ratio > 0.4) & (ratio < 2.5)), ratio
 
 
-def test_run_study_analyses_a_large_store_in_passes(tmp_path, monkeypatch):
-    study = load_study(ROOT / "configs" / "small_demo.toml")
+@pytest.mark.slow
+def test_run_study_analyses_a_large_store_in_passes(tmp_path, monkeypatch, small_demo):
+    study = small_demo
     monkeypatch.setattr(streaming, "STREAM_ROWS", 1000)
     monkeypatch.setattr(pipeline, "FILE_SAMPLE_ROWS", 700)
     result = pipeline.run_study(study, store=tmp_path / "s.zarr", out_dir=tmp_path, quiet=True)
@@ -85,6 +82,7 @@ def test_order_statistic_ranks_match_the_full_binomial_search(n, p):
         assert _order_statistic_ranks(n, p, alpha) == (lower, upper)
 
 
+@pytest.mark.slow
 def test_large_in_memory_designs_use_the_jackknife(stored, monkeypatch):
     from plyrisk.methods import saltelli
 
@@ -102,10 +100,10 @@ def test_large_in_memory_designs_use_the_jackknife(stored, monkeypatch):
             np.testing.assert_allclose(b.first_ci, d.first_ci, rtol=1e-9, atol=1e-15)
 
 
-def test_pce_store_analysed_in_passes_fits_the_same_surrogate(tmp_path, monkeypatch):
-    study = load_study(ROOT / "configs" / "small_demo.toml")
-    study = replace(study, analysis=replace(study.analysis, method="pce", design="random",
-                                            samples=600))
+@pytest.mark.slow
+def test_pce_store_analysed_in_passes_fits_the_same_surrogate(tmp_path, monkeypatch, small_demo):
+    study = replace(small_demo, analysis=replace(small_demo.analysis, method="pce",
+                                                 design="random", samples=600))
     reader = solve_to_store(study, tmp_path / "s.zarr", chunk_size=250, quiet=True)
     memory = analyse(study, load_propagation(study, reader))
     passes = streaming.stream_analyse(study, reader)   # 600 rows < SUBSAMPLE_ROWS: all rows

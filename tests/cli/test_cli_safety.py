@@ -219,3 +219,15 @@ def test_a_plain_line_per_phase_unless_quiet(tmp_path, capsys):
     assert main(["run", str(SMALL), "--out", str(tmp_path / "b"), "--samples", "8",
                  "--quiet"]) == 0
     assert capsys.readouterr().err == ""
+
+
+def test_a_bad_scheduler_address_fails_at_once_with_one_line(tmp_path, capsys):
+    import time
+
+    start = time.monotonic()
+    assert main(["run", str(SMALL), "--out", str(tmp_path), "--samples", "8", "--quiet",
+                 "--scheduler", "notanaddress"]) == 2
+    line = one_line(capsys.readouterr().err)
+    assert "--scheduler notanaddress: not a scheduler address" in line
+    assert time.monotonic() - start < 60  # no 20 s client shutdown, no dask traceback
+    assert not (tmp_path / "results.nc").exists()

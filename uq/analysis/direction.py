@@ -24,10 +24,10 @@ import numpy as np
 from plyrisk.models.stack import Gap
 
 RELATIVE_STEP = 0.02
-"""Relative narrowing of a gap's width for the sensitivity [-]."""
+"""Relative narrowing of a gap's width for the sensitivity."""
 
 RESOLUTION = 1e-7
-"""Relative change of the output below which its sign is not trusted [-]."""
+"""Relative change of the output below which its sign is not trusted."""
 
 
 @dataclass(frozen=True)
@@ -37,11 +37,11 @@ class GapDirection:
     Attributes
     ----------
     gap
-        The gap's layer name [-].
+        The gap's layer name.
     sign
-        +1: more heat across the gap raises the output; −1: lowers it; 0: not known [-].
+        +1: more heat across the gap raises the output; −1: lowers it; 0: not known.
     output
-        The output's name, e.g. ``"inner_surface_temperature"`` [-].
+        The output's name, e.g. ``"inner_surface_temperature"``.
     """
 
     gap: str
@@ -54,7 +54,7 @@ class GapDirection:
         Parameters
         ----------
         label
-            How the output is named in the text, e.g. ``"inner-surface temperature"`` [-].
+            How the output is named in the text, e.g. ``"inner-surface temperature"``.
         """
         if self.sign > 0:
             return (f"gap {self.gap!r}: too little heat across it gives a lower {label}: "
@@ -84,11 +84,11 @@ def gap_directions(study, *, output: str = "inner_surface_temperature",
     Parameters
     ----------
     study
-        The parsed study [-].
+        The parsed study.
     output
-        A per-sample scalar output of the network solution [-].
+        A per-sample scalar output of the network solution.
     step
-        Relative narrowing of the gap's width [-].
+        Relative narrowing of the gap's width.
 
     Returns
     -------
@@ -133,14 +133,14 @@ def gap_directions(study, *, output: str = "inner_surface_temperature",
 
 def limit_scope_note(study, *, label: str = "inner-surface temperature") -> str:
     """A note naming what the limit protects, and the gaps whose effect on it is opposite to
-    their effect on the heat reaching the cold side; ``""`` when there is none [-].
+    their effect on the heat reaching the cold side; ``""`` when there is none.
 
     Parameters
     ----------
     study
-        The parsed study [-].
+        The parsed study.
     label
-        How the limited output is named [-].
+        How the limited output is named.
     """
     on_limit = gap_directions(study)
     on_flux = {d.gap: d.sign for d in gap_directions(study, output="heat_flux")}

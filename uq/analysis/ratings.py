@@ -27,10 +27,10 @@ class RatingCheck:
         where the sample did not converge.
     exceedance
         P(some layer above its rating) from the independent converged samples, with its
-        interval [-].
+        interval.
     per_layer
         Per rated layer (name), the count of independent converged samples above its rating
-        [-].
+       .
     """
 
     margin: np.ndarray
@@ -45,11 +45,11 @@ def rating_margin(study, outputs, scenario: int) -> tuple[np.ndarray, dict[str, 
     Parameters
     ----------
     study
-        The parsed study with ``max_temperatures`` [-].
+        The parsed study with ``max_temperatures``.
     outputs
-        The model outputs (:class:`plyrisk.propagate.evaluate.Outputs`) [-].
+        The model outputs (:class:`plyrisk.propagate.evaluate.Outputs`).
     scenario
-        The exposure [-].
+        The exposure.
     """
     faces = np.asarray(outputs["interface_temperature"][scenario], dtype=float)  # (n, M + 1)
     per: dict[str, np.ndarray] = {}
@@ -70,11 +70,11 @@ def rating_check(study, propagation, scenario: int) -> RatingCheck | None:
     Parameters
     ----------
     study
-        The parsed study [-].
+        The parsed study.
     propagation
-        Design, inputs and outputs [-].
+        Design, inputs and outputs.
     scenario
-        The exposure [-].
+        The exposure.
     """
     if not any(r is not None for r in study.max_temperatures):
         return None

@@ -23,11 +23,15 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
 from SALib.analyze import sobol as salib_sobol
 
 from plyrisk.design.sampling import Design
+
+if TYPE_CHECKING:  # pragma: no cover
+    from plyrisk.analysis.pce import SurrogateIndices
 
 __all__ = ["RankedIndex", "SobolIndices", "rank", "sobol_indices"]
 
@@ -192,9 +196,9 @@ def not_resolved(value: float, half_width: float) -> bool:
     Parameters
     ----------
     value
-        The estimate [-].
+        The estimate.
     half_width
-        Its confidence half-width [-].
+        Its confidence half-width.
 
     Examples
     --------
@@ -241,7 +245,8 @@ class RankedIndex:
         return self.first < 0.0
 
 
-def rank(indices: SobolIndices, *, ci_threshold: float = 0.05) -> list[RankedIndex]:
+def rank(indices: SobolIndices | SurrogateIndices, *, ci_threshold: float = 0.05
+         ) -> list[RankedIndex]:
     """Rank parameters by total-order index, largest first, with a convergence verdict.
 
     Parameters

@@ -49,9 +49,9 @@ __all__ = ["METHODS", "RANDOM_BLOCK_ROWS", "Design", "DesignPlan", "latin_hyperc
 
 METHODS = ("sobol", "lhs", "random")
 RANDOM_BLOCK_ROWS = 2**16
-"""Rows per independently seeded block of a random design [-]."""
+"""Rows per independently seeded block of a random design."""
 PLAN_METHODS = (*METHODS, "sobol-sequence")
-"""Designs a :class:`DesignPlan` describes [-]."""
+"""Designs a :class:`DesignPlan` describes."""
 LHS_OPTIMIZATIONS = (None, "random-cd", "lloyd")
 _SOBOL_EDGE = 2.0**-31   # half the grid step of scipy's 30-bit Sobol' points
 _FLOAT_EDGE = 2.0**-54   # half the grid step of 53-bit uniform doubles
@@ -64,7 +64,7 @@ class Design:
     Attributes
     ----------
     unit : numpy.ndarray
-        Coordinates, shape (n_rows, d), strictly inside (0, 1) [-]. Read-only.
+        Coordinates, shape (n_rows, d), strictly inside (0, 1). Read-only.
     block : numpy.ndarray
         Integer block code per row, shape (n_rows,): 0 = A, 1 = B, 2 + j = AB_j,
         2 + d + g = AB for group g (index into ``groups``). Non-Sobol' designs are all 0.
@@ -154,25 +154,43 @@ def sobol_design(base_samples: int, n_params: int, *, seed: int,
     Parameters
     ----------
     base_samples : int
-        N, number of base rows; a power of 2 [-].
+        N, number of base rows; a power of 2.
     n_params : int
-        Number of parameters d [-].
+        Number of parameters d.
     seed : int
-        Seed of the scrambling (non-negative) [-].
+        Seed of the scrambling (non-negative).
     groups : sequence of sequence of int
-        Disjoint parameter index groups (e.g. layers) whose joint indices are wanted [-].
+        Disjoint parameter index groups (e.g. layers) whose joint indices are wanted.
     start : int
         First base row: the design of base rows ``[start, start + base_samples)`` of the same
         scrambled sequence (``fast_forward``), e.g. to double a design while reusing the runs
-        of its first half; a multiple of ``base_samples`` keeps the balance of the points [-].
-        First base row: the design of base rows [start, start + N) of the same scrambled
-        sequence (``fast_forward``), so that designs for [0, N) and [N, 2N) stacked are the
-        design of 2N base rows [-].
+        of its first half; a multiple of ``base_samples`` keeps the balance of the points.
+        The designs for [0, N) and [N, 2N) stacked are the design of 2N base rows.
 
     Returns
     -------
     Design
         N * (d + 2 + G2) rows, G2 = number of groups with two or more members.
+
+    Examples
+    --------
+    Eight base rows for three parameters: blocks A (code 0), B (1) and one AB block per parameter
+    (2, 3, 4), eight rows each, every coordinate strictly inside (0, 1):
+
+    >>> import numpy as np
+    >>> from plyrisk.design.sampling import sobol_design
+    >>> design = sobol_design(8, 3, seed=1)
+    >>> design.unit.shape
+    (40, 3)
+    >>> np.bincount(design.block)
+    array([8, 8, 8, 8, 8])
+    >>> bool(np.all((design.unit > 0.0) & (design.unit < 1.0)))
+    True
+
+    A group of two parameters (a layer) adds one block for its joint indices:
+
+    >>> sobol_design(8, 3, seed=1, groups=[[0, 1]]).unit.shape
+    (48, 3)
     """
     n = _count("base_samples", base_samples)
     d = _count("n_params", n_params)
@@ -222,13 +240,13 @@ def latin_hypercube_design(n: int, n_params: int, *, seed: int,
     Parameters
     ----------
     n : int
-        Number of rows [-].
+        Number of rows.
     n_params : int
-        Number of parameters d [-].
+        Number of parameters d.
     seed : int
-        Seed of ``numpy.random.default_rng`` (non-negative) [-].
+        Seed of ``numpy.random.default_rng`` (non-negative).
     optimization : {None, "random-cd", "lloyd"}
-        Optional scipy optimization of the point set; ``"lloyd"`` needs d >= 2. [-]
+        Optional scipy optimization of the point set; ``"lloyd"`` needs d >= 2.
 
     Returns
     -------
@@ -252,11 +270,11 @@ def random_design(n: int, n_params: int, *, seed: int) -> Design:
     Parameters
     ----------
     n : int
-        Number of rows [-].
+        Number of rows.
     n_params : int
-        Number of parameters d [-].
+        Number of parameters d.
     seed : int
-        Seed of ``numpy.random.default_rng`` (non-negative) [-].
+        Seed of ``numpy.random.default_rng`` (non-negative).
 
     Returns
     -------
@@ -296,17 +314,17 @@ def make_design(method: str, samples: int, n_params: int, *, seed: int,
     Parameters
     ----------
     method : {"sobol", "lhs", "random"}
-        Design method. [-]
+        Design method.
     samples : int
-        Base rows N for ``sobol`` (a power of 2), number of rows otherwise [-].
+        Base rows N for ``sobol`` (a power of 2), number of rows otherwise.
     n_params : int
-        Number of parameters d [-].
+        Number of parameters d.
     seed : int
-        Non-negative seed [-].
+        Non-negative seed.
     groups : sequence of sequence of int
-        Parameter groups, ``sobol`` only [-].
+        Parameter groups, ``sobol`` only.
     optimization : {None, "random-cd", "lloyd"}
-        Latin hypercube optimization, ``lhs`` only. [-]
+        Latin hypercube optimization, ``lhs`` only.
 
     Returns
     -------
@@ -332,17 +350,17 @@ class DesignPlan:
     Attributes
     ----------
     method : {"sobol", "lhs", "random", "sobol-sequence"}
-        Design method. [-]
+        Design method.
     samples : int
-        Base rows N for ``sobol``, number of rows otherwise [-].
+        Base rows N for ``sobol``, number of rows otherwise.
     n_params : int
-        Number of parameters d [-].
+        Number of parameters d.
     seed : int
-        Non-negative seed [-].
+        Non-negative seed.
     groups : tuple of tuple of int
-        Parameter groups, ``sobol`` only [-].
+        Parameter groups, ``sobol`` only.
     optimization : {None, "random-cd", "lloyd"}
-        Latin hypercube optimization, ``lhs`` only [-].
+        Latin hypercube optimization, ``lhs`` only.
     """
 
     method: str
@@ -360,14 +378,14 @@ class DesignPlan:
 
     @property
     def rows_per_base(self) -> int:
-        """Design rows per base row: d + 2 + G2 for ``sobol``, 1 otherwise [-]."""
+        """Design rows per base row: d + 2 + G2 for ``sobol``, 1 otherwise."""
         if self.method != "sobol":
             return 1
         return len(_saltelli_blocks(self.n_params, self.groups))
 
     @property
     def n_rows(self) -> int:
-        """Number of rows (model evaluations) of the whole design [-]."""
+        """Number of rows (model evaluations) of the whole design."""
         return int(self.samples) * self.rows_per_base
 
     def independent_in_base(self) -> np.ndarray:
@@ -386,7 +404,7 @@ class DesignPlan:
 
     @property
     def drawn_in_pieces(self) -> bool:
-        """Whether :meth:`rows` draws a range without drawing the whole design [-]."""
+        """Whether :meth:`rows` draws a range without drawing the whole design."""
         return self.method in ("sobol", "random", "sobol-sequence")
 
     def design(self) -> Design:
@@ -402,7 +420,7 @@ class DesignPlan:
         Parameters
         ----------
         start, stop : int
-            Row range, ``0 <= start <= stop <= n_rows`` [-].
+            Row range, ``0 <= start <= stop <= n_rows``.
 
         Returns
         -------
@@ -436,11 +454,11 @@ def sobol_sequence_design(n: int, n_params: int, *, seed: int) -> Design:
     Parameters
     ----------
     n : int
-        Number of rows; a power of 2 [-].
+        Number of rows; a power of 2.
     n_params : int
-        Number of parameters d [-].
+        Number of parameters d.
     seed : int
-        Seed of the scrambling (non-negative) [-].
+        Seed of the scrambling (non-negative).
 
     Returns
     -------

@@ -247,7 +247,7 @@ def _attributes(frame: _Frame) -> dict[str, Any]:
     return attrs
 
 
-def _nominal_thickness(study, out) -> np.ndarray:
+def _nominal_thickness(study: Study, out) -> np.ndarray:
     widths = []
     for kind, index in zip(out.element_kinds, out.element_layers, strict=True):
         layer = study.layers[index]
@@ -328,21 +328,21 @@ def read_results(path: str | Path) -> xr.Dataset:
 
 SUBSET_WARNING = 0.01
 """Share of the independent samples lost (not converged) above which every output warns that
-the percentiles describe a reduced subset [-]."""
+the percentiles describe a reduced subset."""
 
 
 def subset_warning(used: int, independent: int, where: str = "") -> str:
     """The warning of percentiles from a subset that lost more than :data:`SUBSET_WARNING` of
-    the samples, or ``""`` [-].
+    the samples, or ``""``.
 
     Parameters
     ----------
     used
-        Converged independent samples the percentiles come from [-].
+        Converged independent samples the percentiles come from.
     independent
-        Independent samples drawn [-].
+        Independent samples drawn.
     where
-        The exposure, e.g. ``"at incident_flux = 10 kW/m^2: "`` [-].
+        The exposure, e.g. ``"at incident_flux = 10 kW/m^2: "``.
 
     Examples
     --------
@@ -362,7 +362,7 @@ def subset_warning(used: int, independent: int, where: str = "") -> str:
 
 def independent_samples(ds: xr.Dataset) -> int:
     """Independent samples of a results dataset: the A and B rows of a Saltelli design, every
-    sample otherwise [-]."""
+    sample otherwise."""
     n = int(ds.attrs.get("evaluations", ds.sizes.get("sample", 0)))
     if ds.attrs.get("method") == "saltelli":
         return 2 * int(ds.attrs.get("base_samples", 0))
@@ -370,7 +370,7 @@ def independent_samples(ds: xr.Dataset) -> int:
 
 
 def subset_warnings(ds: xr.Dataset) -> list[str]:
-    """:func:`subset_warning` of every exposure of a results dataset [-]."""
+    """:func:`subset_warning` of every exposure of a results dataset."""
     if "samples_used" not in ds:
         return []
     out = []

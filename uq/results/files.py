@@ -44,19 +44,19 @@ from typing import Any
 from plyrisk.errors import PlyriskError
 
 MANIFEST = "plyrisk-manifest.json"
-"""Name of the manifest of an output folder [-]."""
+"""Name of the manifest of an output folder."""
 
 LOCK_NAME = ".plyrisk-lock"
-"""Name of the lock file inside a locked folder (kept; it is empty while no run holds it) [-]."""
+"""Name of the lock file inside a locked folder (kept; it is empty while no run holds it)."""
 
 STAGING_PREFIX = ".plyrisk-staging-"
-"""Prefix of the folder a run's files are written to before they are moved into place [-]."""
+"""Prefix of the folder a run's files are written to before they are moved into place."""
 
 TEMP_MARK = ".plyrisk-tmp-"
-"""Part of the temporary name of a single file being written [-]."""
+"""Part of the temporary name of a single file being written."""
 
 MANIFEST_FORMAT = 1
-"""Version of the manifest layout [-]."""
+"""Version of the manifest layout."""
 
 
 class OutputError(PlyriskError, ValueError):
@@ -68,7 +68,7 @@ class FolderBusy(OutputError):
 
 
 def plyrisk_version() -> str:
-    """The installed plyrisk version [-]."""
+    """The installed plyrisk version."""
     try:
         return metadata.version("plyrisk")
     except metadata.PackageNotFoundError:  # pragma: no cover - a bare checkout
@@ -76,7 +76,7 @@ def plyrisk_version() -> str:
 
 
 def fingerprint_of(parts: Mapping[str, Any]) -> str:
-    """SHA-256 of everything that fixes a result (JSON of ``parts``, keys sorted) [-].
+    """SHA-256 of everything that fixes a result (JSON of ``parts``, keys sorted).
 
     Examples
     --------
@@ -113,7 +113,7 @@ def _fsync_file(path: Path) -> None:
 
 
 def temp_name(path: Path) -> Path:
-    """The temporary name ``path`` is written under before the rename [-]."""
+    """The temporary name ``path`` is written under before the rename."""
     return path.with_name(f".{path.name}{TEMP_MARK}{os.getpid()}")
 
 
@@ -128,7 +128,7 @@ def atomic_path(path: str | Path) -> Iterator[Path]:
     Parameters
     ----------
     path
-        The final file name [-].
+        The final file name.
 
     Examples
     --------
@@ -153,7 +153,7 @@ def atomic_path(path: str | Path) -> Iterator[Path]:
 
 
 def atomic_write(path: str | Path, data: str | bytes) -> Path:
-    """Write ``data`` (text as UTF-8) to ``path`` atomically; return ``path`` [-]."""
+    """Write ``data`` (text as UTF-8) to ``path`` atomically; return ``path``."""
     path = Path(path)
     with atomic_path(path) as tmp:
         tmp.write_bytes(data.encode("utf-8") if isinstance(data, str) else data)
@@ -180,9 +180,9 @@ def folder_lock(folder: str | Path, *, what: str = "output folder") -> Iterator[
     Parameters
     ----------
     folder
-        The folder to lock; the lock file :data:`LOCK_NAME` is created inside it [-].
+        The folder to lock; the lock file :data:`LOCK_NAME` is created inside it.
     what
-        How the folder is named in the error ("output folder", "--out") [-].
+        How the folder is named in the error ("output folder", "--out").
 
     Raises
     ------
@@ -243,7 +243,7 @@ def folder_lock(folder: str | Path, *, what: str = "output folder") -> Iterator[
 
 @dataclass(frozen=True)
 class FileEntry:
-    """One file of a manifest: path relative to the folder, size [B] and SHA-256 [-]."""
+    """One file of a manifest: path relative to the folder, size [B] and SHA-256."""
 
     name: str
     size: int
@@ -258,18 +258,18 @@ class Manifest:
     ----------
     fingerprint
         Digest of everything that fixes the result (config, seed, samples, method, version)
-        [-]; empty when unknown (e.g. a report written from a results file).
+       ; empty when unknown (e.g. a report written from a results file).
     seed, method, config, version, created
-        Provenance of the result [-].
+        Provenance of the result.
     state
         ``"complete"``, or ``"replacing"`` while (or when a run was killed while) the set was
-        being swapped [-].
+        being swapped.
     files
-        The result's files [-].
+        The result's files.
     earlier
-        While replacing: the earlier set's files, which may still be there [-].
+        While replacing: the earlier set's files, which may still be there.
     details
-        Further facts about the result (e.g. whether a report was written) [-].
+        Further facts about the result (e.g. whether a report was written).
     """
 
     fingerprint: str
@@ -286,16 +286,16 @@ class Manifest:
     @property
     def names(self) -> set[str]:
         """Every file name the manifest vouches for (the new and, while replacing, the
-        earlier set) [-]."""
+        earlier set)."""
         return {f.name for f in (*self.files, *self.earlier)}
 
     def describe(self) -> str:
-        """A short description for messages [-]."""
+        """A short description for messages."""
         seed = "" if self.seed is None else f", seed {self.seed}"
         return f"method {self.method or 'unknown'}{seed}, written {self.created}"
 
     def to_json(self) -> str:
-        """The manifest as JSON text [-]."""
+        """The manifest as JSON text."""
         d = {"plyrisk_manifest": MANIFEST_FORMAT, "state": self.state,
              "fingerprint": self.fingerprint, "seed": self.seed, "method": self.method,
              "config": self.config, "plyrisk_version": self.version, "created": self.created,
@@ -403,17 +403,17 @@ def decide(folder: str | Path, *, fingerprint: str, overwrite: bool,
     Parameters
     ----------
     folder
-        The output folder [-].
+        The output folder.
     fingerprint
-        The new result's fingerprint [-].
+        The new result's fingerprint.
     overwrite
-        Replace an earlier, different result (its listed files only) [-].
+        Replace an earlier, different result (its listed files only).
     names
         File names the run will write, relative to the folder, checked now for clashes with
-        files plyrisk did not write [-].
+        files plyrisk did not write.
     needs
         Details the earlier result must have to count as up to date (e.g. ``{"report":
-        True}``) [-].
+        True}``).
 
     Returns
     -------
@@ -459,11 +459,11 @@ def decide_update(folder: str | Path, *, fingerprint: str,
     Parameters
     ----------
     folder
-        The output folder [-].
+        The output folder.
     fingerprint
-        Fingerprint of the result the new files belong to; ``""`` when unknown [-].
+        Fingerprint of the result the new files belong to; ``""`` when unknown.
     names
-        File names to be written, checked for clashes with files plyrisk did not write [-].
+        File names to be written, checked for clashes with files plyrisk did not write.
 
     Returns
     -------
@@ -527,12 +527,12 @@ class OutputSet:
     Parameters
     ----------
     folder
-        The output folder [-].
+        The output folder.
     earlier
-        The folder's manifest before the run (from :func:`decide`) [-].
+        The folder's manifest before the run (from :func:`decide`).
     keep_earlier
         Keep the earlier set's files that the new set does not replace (an update such as a
-        report added to a run's results); otherwise they are removed [-].
+        report added to a run's results); otherwise they are removed.
     """
 
     def __init__(self, folder: str | Path, earlier: Manifest | None, *,
@@ -552,12 +552,12 @@ class OutputSet:
         self.discard()
 
     def discard(self) -> None:
-        """Remove the staging folder (nothing in the folder itself changes) [-]."""
+        """Remove the staging folder (nothing in the folder itself changes)."""
         if self.staging.exists():
             shutil.rmtree(self.staging)
 
     def staged(self) -> list[Path]:
-        """Every staged file [-]."""
+        """Every staged file."""
         return sorted(p for p in self.staging.rglob("*") if p.is_file())
 
     def commit(self, *, fingerprint: str, seed: int | None, method: str, config: str,
@@ -568,9 +568,9 @@ class OutputSet:
         Parameters
         ----------
         fingerprint, seed, method, config
-            Provenance of the new result [-].
+            Provenance of the new result.
         details
-            Further facts recorded in the manifest [-].
+            Further facts recorded in the manifest.
 
         Returns
         -------
