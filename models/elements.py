@@ -55,7 +55,15 @@ def solid_heat_flux(
     q, dq_dTa, dq_dTb
         Heat flux [W m-2] and its derivatives [W m-2 K-1].
     """
-    ta, tb = hot_face_temperature, cold_face_temperature
+    return conduction_law(hot_face_temperature, cold_face_temperature, thickness, conductivity,
+                          conductivity_slope, reference_temperature)
+
+
+def conduction_law(ta, tb, thickness, conductivity, conductivity_slope, reference_temperature):
+    """Eq. (E.1) with positional arguments (the form compiled for the transient kernels).
+
+    Parameters and returns as for :func:`solid_heat_flux`.
+    """
     dt = ta - tb
     k = conductivity + conductivity_slope * (0.5 * (ta + tb) - reference_temperature)
     g = k / thickness

@@ -695,6 +695,24 @@ def _starting_field(
     return np.maximum(t, 0.5 * np.minimum(t0, t_cold))
 
 
+def tridiagonal_solve(
+    a: np.ndarray, b: np.ndarray, c: np.ndarray, d: np.ndarray
+) -> np.ndarray:
+    """Solve one tridiagonal system per column (the Thomas sweep shared by the solvers).
+
+    Parameters
+    ----------
+    a, b, c, d
+        Sub-diagonal, diagonal, super-diagonal and right-hand side, shape ``(nodes, n)``.
+
+    Returns
+    -------
+    numpy.ndarray
+        Solution, shape ``(nodes, n)``.
+    """
+    return _thomas(a, b, c, d)
+
+
 def _thomas(a: np.ndarray, b: np.ndarray, c: np.ndarray, d: np.ndarray) -> np.ndarray:
     """Solve tridiagonal systems, one per column: ``a_j x_{j-1} + b_j x_j + c_j x_{j+1} = d_j``.
 

@@ -47,6 +47,21 @@ class Solid:
     contact_resistance
         Thermal contact resistance to the next solid when the two touch [m2 K W-1]; ``None``
         for perfect contact (or where the next element is a gap).
+    density
+        Density, for the transient model [kg m-3]; ``None`` where only the steady network is
+        solved.
+    specific_heat
+        Specific heat capacity at ``reference_temperature``, for the transient model
+        [J kg-1 K-1]; ``None`` where only the steady network is solved.
+    specific_heat_slope
+        Slope of a specific heat linear in temperature,
+        ``c(T) = c_ref + slope (T - T_ref)`` [J kg-1 K-2].
+    radiant_transmissivity
+        Fraction of the radiation absorbed by the exposed face that passes through the layer
+        [-]; ``None`` (the default) absorbs it all at the face. When given, the part
+        ``1 - radiant_transmissivity`` is absorbed in depth along an exponential (Beer–Lambert)
+        profile and the rest at the layer's cold face; only used for the exposed layer of the
+        transient model.
     """
 
     name: str
@@ -57,6 +72,10 @@ class Solid:
     emissivity_hot: ArrayLike = 0.9
     emissivity_cold: ArrayLike = 0.9
     contact_resistance: ArrayLike | None = None
+    density: ArrayLike | None = None
+    specific_heat: ArrayLike | None = None
+    specific_heat_slope: ArrayLike = 0.0
+    radiant_transmissivity: ArrayLike | None = None
 
     kind = "solid"
 
@@ -69,6 +88,37 @@ class Solid:
         _emissivity(self, "emissivity_cold")
         if self.contact_resistance is not None:
             _positive(self, "contact_resistance")
+        if self.density is not None:
+            _positive(self, "density")
+        if self.specific_heat is not None:
+            _positive(self, "specific_heat")
+        _finite(self, "specific_heat_slope")
+        if self.radiant_transmissivity is not None:
+            v = _values(self, "radiant_transmissivity")
+            bad = ~((v > 0) & (v < 1))
+            if np.any(bad):
+                raise StackError(
+                    f"{_label(self)}: radiant_transmissivity must be in (0, 1), got "
+                    f"{_first_bad(v, bad)!r}",
+                    quantity="radiant_transmissivity",
+                )
+
+    def validate_transient(self) -> None:
+        """Also require what the transient model needs: density and specific heat.
+
+        Raises
+        ------
+        StackError
+            Naming the layer and the missing or bad quantity.
+        """
+        self.validate()
+        for quantity in ("density", "specific_heat"):
+            if getattr(self, quantity) is None:
+                raise StackError(
+                    f"layer {self.name!r}: {quantity} is missing; the transient model needs "
+                    "density and specific_heat for every solid",
+                    quantity=quantity,
+                )
 
 
 @dataclass(frozen=True)
@@ -243,6 +293,16 @@ def _positive(obj: object, quantity: str) -> None:
     if np.any(bad):
         raise StackError(
             f"{_label(obj)}: {quantity} must be positive and finite, got {_first_bad(v, bad)!r}",
+            quantity=quantity,
+        )
+
+
+def _finite(obj: object, quantity: str) -> None:
+    v = _values(obj, quantity)
+    bad = ~np.isfinite(v)
+    if np.any(bad):
+        raise StackError(
+            f"{_label(obj)}: {quantity} must be finite, got {_first_bad(v, bad)!r}",
             quantity=quantity,
         )
 
