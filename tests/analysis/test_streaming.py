@@ -8,7 +8,6 @@ Sobol' estimators (Source: SALib.analyze.sobol, Saltelli et al. 2010, Comput. Ph
 from __future__ import annotations
 
 from dataclasses import replace
-from pathlib import Path
 
 import numpy as np
 import pytest
@@ -19,21 +18,18 @@ from plyrisk.analysis.statistics import _order_statistic_ranks
 from plyrisk.analysis.study import analyse
 from plyrisk.pipeline import run as pipeline
 from plyrisk.propagate.store import load_propagation, solve_to_store
-from plyrisk.study.config import load_study
-
-ROOT = Path(__file__).resolve().parents[2]
-GARMENT = ROOT / "configs" / "reflective_garment.toml"
 
 
 @pytest.fixture(scope="module")
-def stored(tmp_path_factory):
-    study = load_study(GARMENT)
-    study = replace(study, analysis=replace(study.analysis, samples=256))
+def stored(tmp_path_factory, reflective_garment):
+    study = replace(reflective_garment, analysis=replace(reflective_garment.analysis,
+                                                         samples=256))
     path = tmp_path_factory.mktemp("stream") / "s.zarr"
     reader = solve_to_store(study, path, chunk_size=3000, quiet=True)
     return study, reader
 
 
+@pytest.mark.slow
 def test_streamed_analysis_matches_the_in_memory_one(stored, monkeypatch):
     study, reader = stored
     memory = analyse(study, load_propagation(study, reader))
@@ -61,8 +57,9 @@ def test_streamed_analysis_matches_the_in_memory_one(stored, monkeypatch):
             np.testing.assert_allclose(b.first_ci, a.first_ci, rtol=0, atol=1e-12)
 
 
-def test_run_study_analyses_a_large_store_in_passes(tmp_path, monkeypatch):
-    study = load_study(ROOT / "configs" / "small_demo.toml")
+@pytest.mark.slow
+def test_run_study_analyses_a_large_store_in_passes(tmp_path, monkeypatch, small_demo):
+    study = small_demo
     monkeypatch.setattr(streaming, "STREAM_ROWS", 1000)
     monkeypatch.setattr(pipeline, "FILE_SAMPLE_ROWS", 700)
     result = pipeline.run_study(study, store=tmp_path / "s.zarr", out_dir=tmp_path, quiet=True)
@@ -98,10 +95,12 @@ def test_replicated_designs_keep_replicate_intervals_however_large(stored, monke
     assert ind.interval == grp.interval == "replicates"
 
 
-def test_large_single_sequence_designs_use_the_jackknife(tmp_path, monkeypatch):
+@pytest.mark.slow
+def test_large_single_sequence_designs_use_the_jackknife(tmp_path, monkeypatch,
+                                                         reflective_garment):
     from plyrisk.methods import saltelli
 
-    study = load_study(GARMENT)   # one scrambled sequence: only through the Python API
+    study = reflective_garment   # one scrambled sequence: only through the Python API
     study = replace(study, analysis=replace(study.analysis, samples=128, replicates=1))
     reader = solve_to_store(study, tmp_path / "s.zarr", chunk_size=3000, quiet=True)
     prop = load_propagation(study, reader)
@@ -118,10 +117,10 @@ def test_large_single_sequence_designs_use_the_jackknife(tmp_path, monkeypatch):
             np.testing.assert_allclose(b.first_ci, d.first_ci, rtol=1e-9, atol=1e-15)
 
 
-def test_pce_store_analysed_in_passes_fits_the_same_surrogate(tmp_path, monkeypatch):
-    study = load_study(ROOT / "configs" / "small_demo.toml")
-    study = replace(study, analysis=replace(study.analysis, method="pce", design="random",
-                                            samples=600))
+@pytest.mark.slow
+def test_pce_store_analysed_in_passes_fits_the_same_surrogate(tmp_path, monkeypatch, small_demo):
+    study = replace(small_demo, analysis=replace(small_demo.analysis, method="pce",
+                                                 design="random", samples=600))
     reader = solve_to_store(study, tmp_path / "s.zarr", chunk_size=250, quiet=True)
     memory = analyse(study, load_propagation(study, reader))
     passes = streaming.stream_analyse(study, reader)   # 600 rows < SUBSAMPLE_ROWS: all rows

@@ -34,12 +34,16 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
 from SALib.analyze import sobol as salib_sobol
 from scipy import stats
 
 from plyrisk.design.sampling import Design
+
+if TYPE_CHECKING:  # pragma: no cover
+    from plyrisk.analysis.pce import SurrogateIndices
 
 __all__ = ["INTERVAL_BOOTSTRAP", "INTERVAL_JACKKNIFE", "INTERVAL_REPLICATES", "RankedIndex",
            "SobolIndices", "rank", "replicate_interval", "sobol_indices"]
@@ -343,7 +347,8 @@ class RankedIndex:
         return self.first < 0.0
 
 
-def rank(indices: SobolIndices, *, ci_threshold: float = 0.05) -> list[RankedIndex]:
+def rank(indices: SobolIndices | SurrogateIndices, *, ci_threshold: float = 0.05
+         ) -> list[RankedIndex]:
     """Rank parameters by total-order index, largest first, with a convergence verdict.
 
     Parameters

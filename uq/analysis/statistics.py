@@ -147,7 +147,7 @@ def _order_statistic_ranks(n: int, p: float, alpha: float) -> tuple[int, int]:
     return lower, upper
 
 
-def quantiles(y: np.ndarray, probabilities: Sequence[float] = (0.05, 0.5, 0.95), *,
+def quantiles(y: np.ndarray, probabilities: Sequence[float] | np.ndarray = (0.05, 0.5, 0.95), *,
               confidence: float = 0.90) -> QuantileEstimate:
     """Sample quantiles with order-statistic confidence intervals.
 
@@ -156,13 +156,27 @@ def quantiles(y: np.ndarray, probabilities: Sequence[float] = (0.05, 0.5, 0.95),
     y : array_like
         Sample, shape (n,), non-finite values ignored [any].
     probabilities : sequence of float
-        Probability levels in (0, 1) [-].
+        Probability levels in (0, 1).
     confidence : float
-        Two-sided confidence level in (0, 1) [-].
+        Two-sided confidence level in (0, 1).
 
     Returns
     -------
     QuantileEstimate
+
+    Examples
+    --------
+    The values 1, 2, ..., 100: the median is 50.5 and, at 90 % confidence, lies between the 42nd
+    and the 59th value; non-finite values are left out, and too few values give NaN bounds:
+
+    >>> import numpy as np
+    >>> from plyrisk.analysis.statistics import quantiles
+    >>> q = quantiles(np.arange(1.0, 101.0), (0.05, 0.5, 0.95))
+    >>> q.n, q.estimate.round(2), q.lower, q.upper
+    (100, array([ 5.95, 50.5 , 95.05]), array([ 2., 42., 91.]), array([10., 59., 99.]))
+    >>> q = quantiles(np.array([1.0, np.nan, 3.0, 2.0]), (0.5,))
+    >>> q.n, q.estimate, q.lower, q.upper
+    (3, array([2.]), array([nan]), array([nan]))
     """
     confidence = _confidence(confidence)
     p = np.atleast_1d(np.asarray(probabilities, dtype=float))

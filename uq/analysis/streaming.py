@@ -193,7 +193,7 @@ class _Quantiles:
         return QuantileEstimate(probabilities, est, lower, upper, confidence, n)
 
 
-def sobol_jackknife(rows, output: str, scenario: int, study, *, confidence: float):
+def sobol_jackknife(rows, output: str, scenario: int, study: Study, *, confidence: float):
     """Sobol' indices of one output with batch-jackknife intervals, in blocks of rows.
 
     Parameters
@@ -220,7 +220,7 @@ def sobol_jackknife(rows, output: str, scenario: int, study, *, confidence: floa
                            parameter_groups(study)[0], confidence, plan.rows_per_base)
 
 
-def _sobol_streamed(reader, output, s, study, plan, names, group_names, confidence, step):
+def _sobol_streamed(reader, output, s, study: Study, plan, names, group_names, confidence, step):
     """Streamed Sobol' indices of one output of one scenario (per parameter, per group)."""
 
     d = plan.n_params

@@ -61,9 +61,9 @@ __all__ = ["METHODS", "RANDOM_BLOCK_ROWS", "Design", "DesignPlan", "latin_hyperc
 
 METHODS = ("sobol", "lhs", "random")
 RANDOM_BLOCK_ROWS = 2**16
-"""Rows per independently seeded block of a random design [-]."""
+"""Rows per independently seeded block of a random design."""
 PLAN_METHODS = (*METHODS, "sobol-sequence")
-"""Designs a :class:`DesignPlan` describes [-]."""
+"""Designs a :class:`DesignPlan` describes."""
 LHS_OPTIMIZATIONS = (None, "random-cd", "lloyd")
 _SOBOL_EDGE = 2.0**-31   # half the grid step of scipy's 30-bit Sobol' points
 _FLOAT_EDGE = 2.0**-54   # half the grid step of 53-bit uniform doubles
@@ -76,7 +76,7 @@ class Design:
     Attributes
     ----------
     unit : numpy.ndarray
-        Coordinates, shape (n_rows, d), strictly inside (0, 1) [-]. Read-only.
+        Coordinates, shape (n_rows, d), strictly inside (0, 1). Read-only.
     block : numpy.ndarray
         Integer block code per row, shape (n_rows,): 0 = A, 1 = B, 2 + j = AB_j,
         2 + d + g = AB for group g (index into ``groups``). Non-Sobol' designs are all 0.
@@ -122,7 +122,7 @@ class Design:
         return np.arange(self.n_rows)
 
     def replicate_of_rows(self) -> np.ndarray:
-        """Replicate (independent scrambling) of every row, shape (n_rows,) [-].
+        """Replicate (independent scrambling) of every row, shape (n_rows,).
 
         Returns
         -------
@@ -199,29 +199,48 @@ def sobol_design(base_samples: int, n_params: int, *, seed: int,
     Parameters
     ----------
     base_samples : int
-        N, number of base rows; a power of 2 [-].
+        N, number of base rows; a power of 2.
     n_params : int
-        Number of parameters d [-].
+        Number of parameters d.
     seed : int
-        Seed of the scrambling (non-negative) [-].
+        Seed of the scrambling (non-negative).
     groups : sequence of sequence of int
-        Disjoint parameter index groups (e.g. layers) whose joint indices are wanted [-].
+        Disjoint parameter index groups (e.g. layers) whose joint indices are wanted.
     start : int
         First base row: the design of base rows ``[start, start + base_samples)`` of the same
         scrambled sequence (``fast_forward``), e.g. to double a design while reusing the runs
-        of its first half; a multiple of ``base_samples`` keeps the balance of the points [-].
-        First base row: the design of base rows [start, start + N) of the same scrambled
-        sequence (``fast_forward``), so that designs for [0, N) and [N, 2N) stacked are the
-        design of 2N base rows [-]. With replicates, a multiple of R (every replicate's
-        sequence continued by ``start / R`` points) [-].
+        of its first half; a multiple of ``base_samples`` keeps the balance of the points.
+        The designs for [0, N) and [N, 2N) stacked are the design of 2N base rows. With
+        replicates, a multiple of R (every replicate's sequence continued by ``start / R``
+        points).
     replicates : int
         R independently scrambled replicates (see the module docstring); N must be R times a
-        power of 2. 1 (default): one scrambled sequence, bit-identical to SALib's sampler [-].
+        power of 2. 1 (default): one scrambled sequence, bit-identical to SALib's sampler.
 
     Returns
     -------
     Design
         N * (d + 2 + G2) rows, G2 = number of groups with two or more members.
+
+    Examples
+    --------
+    Eight base rows for three parameters: blocks A (code 0), B (1) and one AB block per parameter
+    (2, 3, 4), eight rows each, every coordinate strictly inside (0, 1):
+
+    >>> import numpy as np
+    >>> from plyrisk.design.sampling import sobol_design
+    >>> design = sobol_design(8, 3, seed=1)
+    >>> design.unit.shape
+    (40, 3)
+    >>> np.bincount(design.block)
+    array([8, 8, 8, 8, 8])
+    >>> bool(np.all((design.unit > 0.0) & (design.unit < 1.0)))
+    True
+
+    A group of two parameters (a layer) adds one block for its joint indices:
+
+    >>> sobol_design(8, 3, seed=1, groups=[[0, 1]]).unit.shape
+    (48, 3)
     """
     n = _count("base_samples", base_samples)
     d = _count("n_params", n_params)
@@ -252,11 +271,11 @@ def replicate_engine(dimensions: int, seed: int, replicate: int) -> qmc.Sobol:
     Parameters
     ----------
     dimensions : int
-        Dimension of the sequence (2d for a Saltelli design) [-].
+        Dimension of the sequence (2d for a Saltelli design).
     seed : int
-        Study seed (non-negative) [-].
+        Study seed (non-negative).
     replicate : int
-        Replicate number r, from 0 [-].
+        Replicate number r, from 0.
 
     Returns
     -------
@@ -312,13 +331,13 @@ def latin_hypercube_design(n: int, n_params: int, *, seed: int,
     Parameters
     ----------
     n : int
-        Number of rows [-].
+        Number of rows.
     n_params : int
-        Number of parameters d [-].
+        Number of parameters d.
     seed : int
-        Seed of ``numpy.random.default_rng`` (non-negative) [-].
+        Seed of ``numpy.random.default_rng`` (non-negative).
     optimization : {None, "random-cd", "lloyd"}
-        Optional scipy optimization of the point set; ``"lloyd"`` needs d >= 2. [-]
+        Optional scipy optimization of the point set; ``"lloyd"`` needs d >= 2.
 
     Returns
     -------
@@ -342,11 +361,11 @@ def random_design(n: int, n_params: int, *, seed: int) -> Design:
     Parameters
     ----------
     n : int
-        Number of rows [-].
+        Number of rows.
     n_params : int
-        Number of parameters d [-].
+        Number of parameters d.
     seed : int
-        Seed of ``numpy.random.default_rng`` (non-negative) [-].
+        Seed of ``numpy.random.default_rng`` (non-negative).
 
     Returns
     -------
@@ -386,19 +405,19 @@ def make_design(method: str, samples: int, n_params: int, *, seed: int,
     Parameters
     ----------
     method : {"sobol", "lhs", "random"}
-        Design method. [-]
+        Design method.
     samples : int
-        Base rows N for ``sobol`` (a power of 2), number of rows otherwise [-].
+        Base rows N for ``sobol`` (a power of 2), number of rows otherwise.
     n_params : int
-        Number of parameters d [-].
+        Number of parameters d.
     seed : int
-        Non-negative seed [-].
+        Non-negative seed.
     groups : sequence of sequence of int
-        Parameter groups, ``sobol`` only [-].
+        Parameter groups, ``sobol`` only.
     optimization : {None, "random-cd", "lloyd"}
-        Latin hypercube optimization, ``lhs`` only. [-]
+        Latin hypercube optimization, ``lhs`` only.
     replicates : int
-        Independently scrambled replicates, ``sobol`` only [-].
+        Independently scrambled replicates, ``sobol`` only.
 
     Returns
     -------
@@ -426,20 +445,20 @@ class DesignPlan:
     Attributes
     ----------
     method : {"sobol", "lhs", "random", "sobol-sequence"}
-        Design method. [-]
+        Design method.
     samples : int
-        Base rows N for ``sobol``, number of rows otherwise [-].
+        Base rows N for ``sobol``, number of rows otherwise.
     n_params : int
-        Number of parameters d [-].
+        Number of parameters d.
     seed : int
-        Non-negative seed [-].
+        Non-negative seed.
     groups : tuple of tuple of int
-        Parameter groups, ``sobol`` only [-].
+        Parameter groups, ``sobol`` only.
     optimization : {None, "random-cd", "lloyd"}
-        Latin hypercube optimization, ``lhs`` only [-].
+        Latin hypercube optimization, ``lhs`` only.
     replicates : int
         Independently scrambled replicates R, ``sobol`` only; ``samples`` is then R times a
-        power of 2 [-].
+        power of 2.
     """
 
     method: str
@@ -462,14 +481,14 @@ class DesignPlan:
 
     @property
     def rows_per_base(self) -> int:
-        """Design rows per base row: d + 2 + G2 for ``sobol``, 1 otherwise [-]."""
+        """Design rows per base row: d + 2 + G2 for ``sobol``, 1 otherwise."""
         if self.method != "sobol":
             return 1
         return len(_saltelli_blocks(self.n_params, self.groups))
 
     @property
     def n_rows(self) -> int:
-        """Number of rows (model evaluations) of the whole design [-]."""
+        """Number of rows (model evaluations) of the whole design."""
         return int(self.samples) * self.rows_per_base
 
     def independent_in_base(self) -> np.ndarray:
@@ -488,7 +507,7 @@ class DesignPlan:
 
     @property
     def drawn_in_pieces(self) -> bool:
-        """Whether :meth:`rows` draws a range without drawing the whole design [-]."""
+        """Whether :meth:`rows` draws a range without drawing the whole design."""
         return self.method in ("sobol", "random", "sobol-sequence")
 
     def design(self) -> Design:
@@ -505,7 +524,7 @@ class DesignPlan:
         Parameters
         ----------
         start, stop : int
-            Row range, ``0 <= start <= stop <= n_rows`` [-].
+            Row range, ``0 <= start <= stop <= n_rows``.
 
         Returns
         -------
@@ -542,11 +561,11 @@ def sobol_sequence_design(n: int, n_params: int, *, seed: int) -> Design:
     Parameters
     ----------
     n : int
-        Number of rows; a power of 2 [-].
+        Number of rows; a power of 2.
     n_params : int
-        Number of parameters d [-].
+        Number of parameters d.
     seed : int
-        Seed of the scrambling (non-negative) [-].
+        Seed of the scrambling (non-negative).
 
     Returns
     -------

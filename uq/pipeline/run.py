@@ -14,8 +14,8 @@ from plyrisk.analysis.study import StudyAnalysis
 from plyrisk.cautions import cautions_text
 from plyrisk.methods import get_method
 from plyrisk.pipeline.options import RunOptions
-from plyrisk.pipeline.screening import add_screening, screen_study, screening_lines
-from plyrisk.pipeline.sequential import add_growth, grow_until_converged, growth_lines
+from plyrisk.pipeline.screening import Screening, add_screening, screen_study, screening_lines
+from plyrisk.pipeline.sequential import Growth, add_growth, grow_until_converged, growth_lines
 from plyrisk.propagate.evaluate import Propagation, propagate
 from plyrisk.results.dataset import write_results, write_store_analysis
 from plyrisk.study.units import TEMPERATURE, from_si
@@ -39,14 +39,14 @@ class StudyResult:
     :class:`plyrisk.pipeline.sequential.Growth` of ``until_converged``.
     """
 
-    study: object
+    study: Study
     propagation: Propagation
     analysis: StudyAnalysis
     dataset: xr.Dataset
     path: Path | None
     warnings: tuple[str, ...] = ()
-    screening: object | None = None
-    growth: object | None = None
+    screening: Screening | None = None
+    growth: Growth | None = None
 
 
 def run_study(
@@ -141,7 +141,7 @@ def _scheduling_noise(w: warnings.WarningMessage) -> bool:
         f"/{name}/" in where for name in ("distributed", "dask", "tornado"))
 
 
-def _run_to_store(study, store, *, chunk_size, resume, workers, scheduler, quiet):
+def _run_to_store(study: Study, store, *, chunk_size, resume, workers, scheduler, quiet):
     """Solve into the store, then analyse: loaded whole when small, in passes when large."""
     from plyrisk.analysis import streaming
     from plyrisk.propagate.store import load_propagation, solve_to_store
@@ -160,7 +160,7 @@ FILE_SAMPLE_ROWS = 2**18
 """Leading rows of a store analysed in passes that ``results.nc`` carries for the figures [-]."""
 
 
-def _t(study, kelvin: float) -> str:
+def _t(study: Study, kelvin: float) -> str:
     unit = study.limit_unit or "K"
     if not np.isfinite(kelvin):
         return "n/a"

@@ -17,6 +17,7 @@ exposure; Student t intervals on the spread of the replicates) has a half-width 
 from __future__ import annotations
 
 from dataclasses import dataclass, replace
+from typing import TYPE_CHECKING
 
 import numpy as np
 import xarray as xr
@@ -34,6 +35,9 @@ from plyrisk.propagate.evaluate import (
     unit_to_inputs,
 )
 
+if TYPE_CHECKING:  # pragma: no cover - for type checkers only
+    from plyrisk.study.definition import Study
+
 
 @dataclass(frozen=True)
 class GrowthStep:
@@ -42,13 +46,13 @@ class GrowthStep:
     Attributes
     ----------
     base_samples
-        N of the step [-].
+        N of the step.
     runs
-        Model runs so far, every exposure [-].
+        Model runs so far, every exposure.
     widest
-        Largest index half-width over every index, output and exposure [-].
+        Largest index half-width over every index, output and exposure.
     unconverged
-        Indices whose half-width is above the target [-].
+        Indices whose half-width is above the target.
     """
 
     base_samples: int
@@ -64,18 +68,18 @@ class Growth:
     Attributes
     ----------
     study, propagation, analysis
-        At the last step (``study.analysis.samples`` is its N) [-].
+        At the last step (``study.analysis.samples`` is its N).
     steps
-        Every step, first to last [-].
+        Every step, first to last.
     converged
-        Every interval met the target [-].
+        Every interval met the target.
     reason
-        Why the growth stopped [-].
+        Why the growth stopped.
     target, max_runs
-        The half-width target and the run budget [-].
+        The half-width target and the run budget.
     """
 
-    study: object
+    study: Study
     propagation: Propagation
     analysis: StudyAnalysis
     steps: tuple[GrowthStep, ...]
@@ -86,14 +90,14 @@ class Growth:
 
 
 def interval_widths(analysis: StudyAnalysis, target: float) -> tuple[float, int]:
-    """The widest index half-width and the number of indices wider than ``target`` [-].
+    """The widest index half-width and the number of indices wider than ``target``.
 
     Parameters
     ----------
     analysis
-        A Saltelli analysis [-].
+        A Saltelli analysis.
     target
-        Half-width target [-].
+        Half-width target.
 
     Returns
     -------
@@ -125,22 +129,22 @@ def _stack(first: Design, second: Design) -> Design:
                   first.replicates)
 
 
-def grow_until_converged(study, *, max_runs: int | None = None, chunk_size: int | None = None,
-                         workers: int = 1) -> Growth:
+def grow_until_converged(study: Study, *, max_runs: int | None = None,
+                         chunk_size: int | None = None, workers: int = 1) -> Growth:
     """Double a Saltelli study's base samples until its index intervals are narrow enough.
 
     Parameters
     ----------
     study
         A ``method = "saltelli"`` study; ``analysis.samples`` is the first N and
-        ``analysis.index_ci_threshold`` the target half-width [-].
+        ``analysis.index_ci_threshold`` the target half-width.
     max_runs
         Budget of model runs, every exposure counted; a doubling that would pass it is not
-        started [-].
+        started.
     chunk_size
-        Samples per evaluation chunk [-].
+        Samples per evaluation chunk.
     workers
-        Worker processes of a local dask cluster [-]; results do not depend on it.
+        Worker processes of a local dask cluster; results do not depend on it.
 
     Returns
     -------
@@ -189,7 +193,7 @@ def grow_until_converged(study, *, max_runs: int | None = None, chunk_size: int 
 
 
 def growth_lines(growth: Growth) -> list[str]:
-    """Summary lines: the path of interval widths and why the growth stopped [-]."""
+    """Summary lines: the path of interval widths and why the growth stopped."""
     lines = [f"sequential growth (--until-converged: target half-width ±{growth.target:g}, "
              f"budget {growth.max_runs} model runs; earlier runs reused at every doubling):"]
     for step in growth.steps:
@@ -200,14 +204,14 @@ def growth_lines(growth: Growth) -> list[str]:
 
 
 def add_growth(ds: xr.Dataset, growth: Growth) -> xr.Dataset:
-    """The growth path as ``growth_*`` variables of a results dataset [-].
+    """The growth path as ``growth_*`` variables of a results dataset.
 
     Parameters
     ----------
     ds
-        The dataset of the final step [-].
+        The dataset of the final step.
     growth
-        The growth [-].
+        The growth.
     """
     dims = ("growth_step",)
 

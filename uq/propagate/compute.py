@@ -28,7 +28,7 @@ CONNECT_TIMEOUT = "10s"
 """How long to wait for an existing scheduler before giving up [s]."""
 
 IN_FLIGHT_PER_WORKER = 3
-"""Chunks submitted per worker ahead of the results collected [-]."""
+"""Chunks submitted per worker ahead of the results collected."""
 
 
 class SchedulerError(PlyriskError, RuntimeError):
@@ -42,9 +42,9 @@ def dask_client(*, workers: int = 1, scheduler: str | None = None):
     Parameters
     ----------
     workers
-        Worker processes of the local cluster, one thread each [-]; ignored with ``scheduler``.
+        Worker processes of the local cluster, one thread each; ignored with ``scheduler``.
     scheduler
-        Address of an existing scheduler, e.g. ``"tcp://10.0.0.5:8786"`` [-].
+        Address of an existing scheduler, e.g. ``"tcp://10.0.0.5:8786"``.
 
     Yields
     ------
@@ -95,18 +95,18 @@ def run_tasks(
     Parameters
     ----------
     function
-        A module-level (picklable) function [-].
+        A module-level (picklable) function.
     arguments
-        Per-task positional arguments [-].
+        Per-task positional arguments.
     collect
-        Called with each task's result as it arrives [-].
+        Called with each task's result as it arrives.
     shared
-        Leading arguments common to every task (sent to each worker once) [-].
+        Leading arguments common to every task (sent to each worker once).
     workers
         1 runs the tasks here, in order; more starts a local dask cluster of that many
-        single-threaded worker processes [-].
+        single-threaded worker processes.
     scheduler
-        Address of an existing dask scheduler; overrides ``workers`` [-].
+        Address of an existing dask scheduler; overrides ``workers``.
     """
     if int(workers) < 1:
         raise ValueError(f"workers must be at least 1, got {workers}")

@@ -20,6 +20,7 @@ import shutil
 from dataclasses import dataclass
 from importlib import metadata
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import numpy as np
 
@@ -38,6 +39,9 @@ from plyrisk.propagate.evaluate import (
     study_plan,
     unit_to_inputs,
 )
+
+if TYPE_CHECKING:  # pragma: no cover - for type checkers only
+    from plyrisk.study.definition import Study
 
 COMPRESSION = {"cname": "lz4", "clevel": 1, "shuffle": "shuffle"}
 """Blosc settings of every stored array: on the demo outputs about 1.7 x faster to write than
@@ -80,7 +84,7 @@ class StoreLayout:
         return start, min(start + self.chunk_size, self.n_rows)
 
 
-def fingerprint(study, chunk_size: int) -> str:
+def fingerprint(study: Study, chunk_size: int) -> str:
     """Digest of everything that fixes the stored values [-]."""
     a = study.analysis
     try:
@@ -96,7 +100,7 @@ def _dims(spec: OutputSpec, swept: bool) -> tuple[str, ...]:
     return (*(("scenario",) if swept else ()), "sample", *spec.dims)
 
 
-def open_store(study, plan: DesignPlan, path: str | Path, *, chunk_size: int,
+def open_store(study: Study, plan: DesignPlan, path: str | Path, *, chunk_size: int,
                resume: bool = False) -> tuple[StoreLayout, np.ndarray]:
     """Create a new store (or reopen one to resume) and return its layout and done flags.
 
@@ -140,7 +144,7 @@ def open_store(study, plan: DesignPlan, path: str | Path, *, chunk_size: int,
     return layout, np.zeros(layout.n_chunks, dtype=bool)
 
 
-def _create(study, plan: DesignPlan, layout: StoreLayout, digest: str) -> None:
+def _create(study: Study, plan: DesignPlan, layout: StoreLayout, digest: str) -> None:
     """Write the store's metadata and coordinates (no sample data)."""
     import zarr
     from zarr.codecs import BloscCodec
@@ -183,7 +187,7 @@ def _create(study, plan: DesignPlan, layout: StoreLayout, digest: str) -> None:
 
 
 
-def store_chunk(study, plan: DesignPlan, layout: StoreLayout, index: int,
+def store_chunk(study: Study, plan: DesignPlan, layout: StoreLayout, index: int,
                 unit: np.ndarray | None = None) -> tuple[int, int]:
     """A task: draw chunk ``index`` of the design, solve it, write its region, mark it done.
 
@@ -270,7 +274,7 @@ class StoreReader:
         )
 
 
-def solve_to_store(study, path: str | Path, *, chunk_size: int | None = None,
+def solve_to_store(study: Study, path: str | Path, *, chunk_size: int | None = None,
                    resume: bool = False, workers: int = 1, scheduler: str | None = None,
                    quiet: bool = False) -> StoreReader:
     """Solve every chunk of a study not yet in the store at ``path`` and write it there.
@@ -313,7 +317,7 @@ def solve_to_store(study, path: str | Path, *, chunk_size: int | None = None,
     return reader
 
 
-def load_propagation(study, reader: StoreReader, *, stop: int | None = None) -> Propagation:
+def load_propagation(study: Study, reader: StoreReader, *, stop: int | None = None) -> Propagation:
     """The stored rows ``[0, stop)`` as an in-memory
     :class:`plyrisk.propagate.evaluate.Propagation`.
 

@@ -31,7 +31,7 @@ def _csv(v: Any) -> str:
 
 
 def write_csv(path: Path, header: list[str], rows: list[list[Any]]) -> Path:
-    """Write one CSV file: a header row, then ``rows`` as CSV text; returns ``path`` [-]."""
+    """Write one CSV file: a header row, then ``rows`` as CSV text; returns ``path``."""
     with path.open("w", newline="", encoding="utf-8") as fh:
         w = csv.writer(fh)
         w.writerow(header)
@@ -41,7 +41,7 @@ def write_csv(path: Path, header: list[str], rows: list[list[Any]]) -> Path:
 
 def write_csv_tables(ds: xr.Dataset, out: Path) -> list[Path]:
     """Write ``quantiles.csv``, ``indices.csv``, ``group_indices.csv`` and ``ranking.csv``
-    into the folder ``out``; returns their paths [-]."""
+    into the folder ``out``; returns their paths."""
     unit = fg.temperature_unit(ds)
     quant, ind, grp, rank = [], [], [], []
 
@@ -91,8 +91,8 @@ def write_csv_tables(ds: xr.Dataset, out: Path) -> list[Path]:
                 rank.append([label, PRIMARY, "parameter", r, names[j],
                              "spearman_rank_correlation", rho[j], None, None])
     first_seen: dict[tuple, int] = {}
-    for r in rank:
-        first_seen.setdefault((r[0], r[1], r[2], r[5]), len(first_seen))
+    for row in rank:
+        first_seen.setdefault((row[0], row[1], row[2], row[5]), len(first_seen))
     rank.sort(key=lambda r: (first_seen[(r[0], r[1], r[2], r[5])], r[3]))
     return [
         write_csv(out / "quantiles.csv", ["scenario", "quantity", "interface", "probability",

@@ -13,7 +13,7 @@ import math
 import tomllib
 from collections.abc import Mapping
 from dataclasses import dataclass, fields
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 import xarray as xr
@@ -22,6 +22,9 @@ from plyrisk.report.figures import outputs as fg
 from plyrisk.report.figures.common import PRIMARY
 from plyrisk.results.dataset import scenario_slices
 from plyrisk.study.units import QUANTITIES, TEMPERATURE, format_value
+
+if TYPE_CHECKING:  # pragma: no cover - for type checkers only
+    from plyrisk.study.definition import Study
 
 __all__ = ["INDEX_KEYS", "IndexSet", "Table", "cell_text", "convergence_summary",
            "exposure_text", "headline_table", "index_sets", "nonconverged_table",
@@ -58,7 +61,7 @@ def _idx(v: float, ci: float | None = None) -> str:
 
 
 def cell_text(v: Any) -> str:
-    """A value as table text: yes/no, 4 significant digits, "" for NaN or None [-]."""
+    """A value as table text: yes/no, 4 significant digits, "" for NaN or None."""
     if isinstance(v, bool | np.bool_):
         return "yes" if v else "no"
     if isinstance(v, float | np.floating):
@@ -67,7 +70,7 @@ def cell_text(v: Any) -> str:
 
 
 def scenario_values(ds: xr.Dataset) -> list[tuple[int | None, str, xr.Dataset]]:
-    """``(index, label, dataset)`` of each exposure; index ``None`` when unswept [-]."""
+    """``(index, label, dataset)`` of each exposure; index ``None`` when unswept."""
     out = []
     for i, (label, one) in enumerate(scenario_slices(ds)):
         out.append((i if "scenario" in ds.dims else None, label, one))
@@ -76,7 +79,7 @@ def scenario_values(ds: xr.Dataset) -> list[tuple[int | None, str, xr.Dataset]]:
 
 def exposure_text(ds: xr.Dataset, label: str) -> str:
     """An exposure label as text, e.g. ``"incident flux = 10 kW/m²"``; ``"as configured"``
-    for an unswept dataset (``label == ""``) [-]."""
+    for an unswept dataset (``label == ""``)."""
     if not label:
         return "as configured"
     quantity = str(ds.attrs.get("scenario_quantity", "exposure")).replace("_", " ")
@@ -88,9 +91,9 @@ def exposure_text(ds: xr.Dataset, label: str) -> str:
 # ----------------------------------------------------------------------------------------------
 
 
-def stack_tables(study, ds: xr.Dataset) -> list[Table]:
+def stack_tables(study: Study, ds: xr.Dataset) -> list[Table]:
     """The hot side, the assembly and the cold side: each quantity's nominal value and
-    uncertainty in the user's units, from the re-read ``study`` [-]."""
+    uncertainty in the user's units, from the re-read ``study``."""
     raw = tomllib.loads(study.text)
     by_target = {p.target: p for p in study.parameters}
     unit = study.limit_unit or "K"
@@ -112,7 +115,7 @@ def stack_tables(study, ds: xr.Dataset) -> list[Table]:
             if key in given:
                 shown = given[key] if isinstance(given[key], str) else cell_text(given[key])
                 note = ""
-                if where == ("hot_side",) and key == swept:
+                if where == ("hot_side",) and key == swept and study.scenarios is not None:
                     note = "swept: " + ", ".join(study.scenarios.labels)
                 rows.append([key, shown, note or "fixed", ""])
                 continue
@@ -157,7 +160,7 @@ def stack_tables(study, ds: xr.Dataset) -> list[Table]:
 
 
 def headline_table(ds: xr.Dataset) -> tuple[Table, list[str]]:
-    """P95 and the exceedance probability per exposure, and one verdict sentence each [-]."""
+    """P95 and the exceedance probability per exposure, and one verdict sentence each."""
     rows, verdicts = [], []
     limit = float(ds.attrs["limit"])
     for _, label, one in scenario_values(ds):
@@ -199,7 +202,7 @@ def headline_table(ds: xr.Dataset) -> tuple[Table, list[str]]:
 
 
 def quantile_tables(ds: xr.Dataset) -> list[Table]:
-    """The percentiles of the inner-surface temperature, one table per exposure [-]."""
+    """The percentiles of the inner-surface temperature, one table per exposure."""
     out = []
     for _, label, one in scenario_values(ds):
         rows = []
@@ -214,7 +217,7 @@ def quantile_tables(ds: xr.Dataset) -> list[Table]:
 
 
 def quantile_note(ds: xr.Dataset) -> str:
-    """The sentence saying how the percentile intervals were obtained [-]."""
+    """The sentence saying how the percentile intervals were obtained."""
     conf = 100 * float(ds.attrs.get("confidence", math.nan))
     return (f"Intervals: {conf:g} % confidence intervals from order statistics; n/a where the "
             "samples are too few to bound a tail percentile on that side.")
@@ -248,7 +251,7 @@ class IndexSet:
 
 def index_sets(one: xr.Dataset) -> list[IndexSet]:
     """The Sobol index sets of one exposure: one per output (Saltelli), the surrogate's for
-    the inner-surface temperature, or none [-]."""
+    the inner-surface temperature, or none."""
     if "sobol_total" in one:
         out = []
         for o in [str(v) for v in one["output"].values]:
@@ -288,7 +291,7 @@ def _fit(one: xr.Dataset) -> str:
 
 def ranking_tables(ds: xr.Dataset) -> list[Table]:
     """Parameters and layers ranked by total Sobol index, or by |rank correlation| for a
-    screening study, per exposure [-]."""
+    screening study, per exposure."""
     out = []
     for _, label, one in scenario_values(ds):
         suffix = f" — {exposure_text(ds, label)}" if label else ""
@@ -329,7 +332,7 @@ def ranking_tables(ds: xr.Dataset) -> list[Table]:
 
 
 def convergence_summary(ds: xr.Dataset) -> tuple[list[str], Table | None]:
-    """Paragraphs on the convergence of the indices and their table (``None`` if none) [-]."""
+    """Paragraphs on the convergence of the indices and their table (``None`` if none)."""
     if "sobol_total" not in ds:
         if "pce_total" not in ds:
             return [f"No Sobol indices were computed (method = {ds.attrs.get('method')}), so "
@@ -345,6 +348,7 @@ def convergence_summary(ds: xr.Dataset) -> tuple[list[str], Table | None]:
     rows = []
     for _, label, one in scenario_values(ds):
         for ix in index_sets(one):
+            assert ix.p_converged is not None and ix.g_converged is not None  # Sobol indices
             s = one.sel(output=ix.output)
             bad_p = [str(n) for n, c in zip(one["parameter"].values, ix.p_converged,
                                             strict=True) if not c]
@@ -367,7 +371,7 @@ def convergence_summary(ds: xr.Dataset) -> tuple[list[str], Table | None]:
 
 def nonconverged_table(ds: xr.Dataset) -> Table:
     """Per exposure: evaluations, those not converged, gap-air range and convection onset
-    counts [-]."""
+    counts."""
     rows = []
     layers = [str(n) for n in ds["layer"].values]
     gaps = [j for j, k in enumerate(ds["layer_kind"].values) if str(k) == "gap"]
@@ -390,7 +394,7 @@ def nonconverged_table(ds: xr.Dataset) -> Table:
 
 
 def provenance_table(ds: xr.Dataset) -> Table:
-    """Config, method, seed, sample counts, model options and versions [-]."""
+    """Config, method, seed, sample counts, model options and versions."""
     a = ds.attrs
     rows = [["config file", str(a.get("config_source", ""))],
             ["method", str(a.get("method", ""))], ["seed", str(a.get("seed", ""))],

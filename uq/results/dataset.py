@@ -289,7 +289,7 @@ def _attributes(frame: _Frame) -> dict[str, Any]:
     return attrs
 
 
-def _nominal_thickness(study, out) -> np.ndarray:
+def _nominal_thickness(study: Study, out) -> np.ndarray:
     widths = []
     for kind, index in zip(out.element_kinds, out.element_layers, strict=True):
         layer = study.layers[index]

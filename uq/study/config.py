@@ -79,12 +79,46 @@ def load_study(path: str | Path) -> Study:
     Parameters
     ----------
     path
-        The TOML file [-].
+        The TOML file.
 
     Raises
     ------
     ConfigError
         For a missing or unreadable file or any mistake in it.
+
+    Examples
+    --------
+    >>> import pathlib, tempfile
+    >>> from plyrisk.study.config import load_study
+    >>> folder = pathlib.Path(tempfile.mkdtemp())
+    >>> path = folder / "panel.toml"
+    >>> _ = path.write_text('''
+    ... [study]
+    ... title = "Invented example: one fabric"
+    ... method = "saltelli"
+    ... samples = 64
+    ... seed = 1
+    ... limit = "44 degC"
+    ... [hot_side]
+    ... kind = "flux"
+    ... heat_flux = "1 kW/m^2"
+    ... [[layer]]
+    ... name = "fabric"
+    ... kind = "solid"
+    ... thickness = "1 mm"
+    ... conductivity = { uniform = ["0.04 W/m/K", "0.06 W/m/K"] }
+    ... [cold_side]
+    ... kind = "temperature"
+    ... temperature = "34 degC"
+    ... ''')
+    >>> load_study(path).parameter_names
+    ('fabric.conductivity',)
+    >>> load_study(folder / "missing.toml")
+    Traceback (most recent call last):
+    ...
+    plyrisk.errors.ConfigError: .../missing.toml: no such file
+    >>> import shutil
+    >>> shutil.rmtree(folder)
     """
     source = str(path)
     try:
@@ -104,14 +138,54 @@ def loads_study(text: str, *, source: str = "<string>") -> Study:
     Parameters
     ----------
     text
-        The TOML document [-].
+        The TOML document.
     source
-        Name shown in error messages [-].
+        Name shown in error messages.
 
     Raises
     ------
     ConfigError
         For any mistake, naming ``source`` and the key path.
+
+    Examples
+    --------
+    An invented study: one fabric over the skin, its thickness 1 mm +- 0.1 mm.
+
+    >>> from plyrisk.study.config import loads_study
+    >>> text = '''
+    ... [study]
+    ... title = "Invented example: one fabric over the skin"
+    ... method = "saltelli"
+    ... samples = 64
+    ... seed = 1
+    ... limit = "44 degC"
+    ...
+    ... [hot_side]
+    ... kind = "flux"
+    ... heat_flux = "1 kW/m^2"
+    ...
+    ... [[layer]]
+    ... name = "fabric"
+    ... kind = "solid"
+    ... thickness = { nominal = "1 mm", tolerance = "0.1 mm" }
+    ... conductivity = "0.05 W/m/K"
+    ...
+    ... [cold_side]
+    ... kind = "temperature"
+    ... temperature = "34 degC"
+    ... '''
+    >>> study = loads_study(text, source="example.toml")
+    >>> study.parameter_names
+    ('fabric.thickness',)
+    >>> round(study.analysis.limit, 6), study.limit_unit
+    (317.15, 'degC')
+
+    Mistakes are one-line errors naming the source and the key path:
+
+    >>> loads_study(text.replace('"0.05 W/m/K"', '"0.05 W/m"'), source="example.toml")
+    Traceback (most recent call last):
+    ...
+    plyrisk.errors.ConfigError: example.toml: layer[0].conductivity: unit 'W/m' has dimension ...
     """
     ctx = Context(source)
     try:

@@ -31,25 +31,25 @@ class Context:
     source: str
 
     def error(self, path: str, message: str) -> ConfigError:
-        """A :class:`ConfigError` for the value at ``path`` [-]."""
+        """A :class:`ConfigError` for the value at ``path``."""
         return ConfigError(self.source, path, message)
 
 
 def join(path: str, key: str | int) -> str:
-    """Key path of ``key`` inside ``path``: ``layer`` + 2 → ``layer[2]`` [-]."""
+    """Key path of ``key`` inside ``path``: ``layer`` + 2 → ``layer[2]``."""
     if isinstance(key, int):
         return f"{path}[{key}]"
     return f"{path}.{key}" if path and path != TOP else key
 
 
 def suggest(key: str, valid: Iterable[str]) -> str:
-    """``"did you mean 'x'? "`` for the closest valid name, or ``""`` [-]."""
+    """``"did you mean 'x'? "`` for the closest valid name, or ``""``."""
     close = difflib.get_close_matches(str(key), list(valid), n=1, cutoff=0.6)
     return f"did you mean {close[0]!r}? " if close else ""
 
 
 def show(value: Any) -> str:
-    """A short description of a raw TOML value for messages [-]."""
+    """A short description of a raw TOML value for messages."""
     if isinstance(value, dict):
         return f"a table (keys: {', '.join(map(str, value)) or 'none'})"
     if isinstance(value, list):
@@ -95,7 +95,7 @@ def choice(ctx: Context, raw: Any, path: str, valid: Iterable[str], what: str) -
 
 
 def integer(ctx: Context, raw: Any, path: str, *, minimum: int) -> int:
-    """A whole number ``>= minimum`` [-]."""
+    """A whole number ``>= minimum``."""
     if isinstance(raw, bool) or not isinstance(raw, int):
         raise ctx.error(path, f"expected a whole number >= {minimum}, got {show(raw)}")
     if raw < minimum:
@@ -104,7 +104,7 @@ def integer(ctx: Context, raw: Any, path: str, *, minimum: int) -> int:
 
 
 def number(ctx: Context, raw: Any, path: str, lo: float, hi: float) -> float:
-    """A plain number strictly between ``lo`` and ``hi`` [-]."""
+    """A plain number strictly between ``lo`` and ``hi``."""
     if isinstance(raw, bool) or not isinstance(raw, int | float) or not lo < raw < hi:
         raise ctx.error(
             path, f"expected a number between {lo:g} and {hi:g} (exclusive), got {show(raw)}"
@@ -113,14 +113,14 @@ def number(ctx: Context, raw: Any, path: str, lo: float, hi: float) -> float:
 
 
 def string(ctx: Context, raw: Any, path: str) -> str:
-    """A non-empty string [-]."""
+    """A non-empty string."""
     if not isinstance(raw, str) or not raw.strip():
         raise ctx.error(path, f"expected a non-empty string, got {show(raw)}")
     return raw
 
 
 def boolean(ctx: Context, raw: Any, path: str) -> bool:
-    """``true`` or ``false`` [-]."""
+    """``true`` or ``false``."""
     if not isinstance(raw, bool):
         raise ctx.error(path, f"expected true or false, got {show(raw)}")
     return raw
@@ -181,9 +181,9 @@ class Quantity:
     nominal
         The fixed value, or the distribution's nominal [SI].
     distribution
-        ``None`` for a fixed value [-].
+        ``None`` for a fixed value.
     unit
-        The user's unit text, ``""`` for dimensionless [-].
+        The user's unit text, ``""`` for dimensionless.
     """
 
     nominal: float
@@ -231,7 +231,7 @@ def quantity(ctx: Context, raw: Any, path: str, spec: QuantitySpec) -> Quantity:
 
 
 def forms_text(kind: str) -> str:
-    """The accepted parameter sets of a kind, e.g. ``"{median, gsd} or {mean, cv}"`` [-]."""
+    """The accepted parameter sets of a kind, e.g. ``"{median, gsd} or {mean, cv}"``."""
     if kind in LIST_FORMS:
         return "[" + ", ".join(FORMS[kind][0][0]) + "]"
     parts = []

@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import warnings
 from dataclasses import replace
+from typing import Any
 
 import numpy as np
 
@@ -27,12 +28,12 @@ def check_text(study: Study) -> tuple[str, bool]:
     Parameters
     ----------
     study
-        The parsed study [-].
+        The parsed study.
 
     Returns
     -------
     text, converged
-        The text to print, and whether the nominal solve (and every scenario) converged [-].
+        The text to print, and whether the nominal solve (and every scenario) converged.
 
     Raises
     ------
@@ -174,7 +175,9 @@ def _margin_text(study: Study, t_inner: float) -> str:
 
 def _scenario_lines(study: Study, notes: list[str]) -> tuple[list[str], bool]:
     sc = study.scenarios
-    hot = replace(study.hot_side, **{sc.quantity: np.asarray(sc.values, dtype=float)})
+    assert sc is not None, "called for a study with [scenarios]"
+    swept: dict[str, Any] = {sc.quantity: np.asarray(sc.values, dtype=float)}
+    hot = replace(study.hot_side, **swept)
     sol = _solve(study, study.layers, hot, study.cold_side, notes)
     rows = []
     for k, label in enumerate(sc.labels):

@@ -4,10 +4,14 @@ index with its convergence status, and of the surrogate's percentiles."""
 from __future__ import annotations
 
 from collections.abc import Callable
+from typing import TYPE_CHECKING
 
 import numpy as np
 
 from plyrisk.analysis.sobol import RankedIndex
+
+if TYPE_CHECKING:  # pragma: no cover - for type checkers only
+    from plyrisk.study.definition import Study
 
 
 def _flag(value: float, converged: bool) -> str:
@@ -27,16 +31,16 @@ def _terms(surrogate) -> str:
 
 
 def ranked_line(rank: int, item: RankedIndex, *, first: bool = True) -> str:
-    """One ranked parameter or layer: total (and first-order) index, half-width, status [-].
+    """One ranked parameter or layer: total (and first-order) index, half-width, status.
 
     Parameters
     ----------
     rank
-        Position, 1 = most influential [-].
+        Position, 1 = most influential.
     item
-        The ranked index [-].
+        The ranked index.
     first
-        Show the first-order index too [-].
+        Show the first-order index too.
     """
     text = f"  {rank}. {item.name:<32} " + _index("", item.total, item.total_ci,
                                                     item.total_converged)
@@ -47,19 +51,19 @@ def ranked_line(rank: int, item: RankedIndex, *, first: bool = True) -> str:
     return text
 
 
-def index_lines(study, sc, *, top: int, temperature: Callable[[float], str]) -> list[str]:
-    """Lines of the ranking of the inner-surface temperature of one exposure [-].
+def index_lines(study: Study, sc, *, top: int, temperature: Callable[[float], str]) -> list[str]:
+    """Lines of the ranking of the inner-surface temperature of one exposure.
 
     Parameters
     ----------
     study
-        The study [-].
+        The study.
     sc
-        Its :class:`plyrisk.analysis.study.ScenarioAnalysis` [-].
+        Its :class:`plyrisk.analysis.study.ScenarioAnalysis`.
     top
-        Parameters and layers listed [-].
+        Parameters and layers listed.
     temperature
-        Formats a temperature [K] in the display unit [-].
+        Formats a temperature [K] in the display unit.
     """
     a = study.analysis
     ranking = sc.ranking.get("inner_surface_temperature")
