@@ -480,6 +480,6 @@ def load_propagation(study: Study, reader: StoreReader, *, stop: int | None = No
     else:
         unit = plan.design().unit[:n]
     base = n // plan.rows_per_base
-    design = Design(unit, block, plan.method, base, plan.groups)
+    design = Design(unit, block, plan.method, base, plan.groups, plan.replicates)
     return Propagation(design=design, inputs=reader.read("input", 0, n),
                        outputs=reader.outputs(n))

@@ -37,6 +37,37 @@ def _var(dims, data, units: str, long_name: str, **attrs) -> xr.Variable:
     return xr.Variable(dims, data, attrs={"units": units, "long_name": long_name, **attrs})
 
 
+INTERVAL_TEXT = {
+    "order-statistics": "distribution-free order statistics of the pooled samples (binomial)",
+    "replicates-woodruff": "Woodruff interval from the spread of the independently scrambled "
+                           "replicates (Student t, replicates - 1 degrees of freedom)",
+    "replicates": "pooled fraction ± Student t on the spread of the independently scrambled "
+                  "replicates (replicates - 1 degrees of freedom)",
+    "wilson": "Wilson score interval of the pooled samples (binomial)",
+    "clopper-pearson": "Clopper-Pearson interval of the pooled samples (binomial)",
+}
+
+
+def _interval_attrs(methods: list[tuple[str, str]]) -> dict[str, str]:
+    """``interval_method`` and ``interval`` attributes from (where, method) pairs: the one
+    method, or the main one and where another (a binomial fallback) was used."""
+    counts: dict[str, list[str]] = {}
+    for where, m in methods:
+        counts.setdefault(m, []).append(where)
+    main = max(counts, key=lambda m: len(counts[m]))
+    text = INTERVAL_TEXT.get(main, main)
+    others = [f"{m} at {', '.join(dict.fromkeys(w))}" for m, w in counts.items() if m != main]
+    if others:
+        text += "; " + "; ".join(others) + (" (binomial fallback: too few pooled values on a "
+                                            "side or no spread between the replicates)")
+    return {"interval_method": main, "interval": text}
+
+
+def _quantile_intervals(estimates: list[Any]) -> dict[str, str]:
+    return _interval_attrs([(f"quantile {p:g}", m) for q in estimates
+                            for p, m in zip(q.probabilities, q.interval_methods, strict=True)])
+
+
 def to_dataset(study: Study, propagation: Propagation, analysis: StudyAnalysis, *,
                method: Method | None = None) -> xr.Dataset:
     """Assemble the results dataset of a study.
@@ -167,16 +198,23 @@ def _statistics_variables(frame: _Frame) -> dict[str, xr.Variable]:
     data: dict[str, xr.Variable] = {}
     sa = frame.analysis.scenarios
     q_est = per([s.inner_quantiles.estimate for s in sa])
+    inner_iv = _quantile_intervals([s.inner_quantiles for s in sa])
+    face_iv = _quantile_intervals([q for s in sa for q in s.interface_quantiles])
+    exc_iv = _interval_attrs([(f"scenario {k}", s.exceedance.method)
+                              for k, s in enumerate(sa)])
+    notes = sorted({s.exceedance.note for s in sa if s.exceedance.note})
+    if notes:
+        exc_iv["interval"] += "; " + "; ".join(notes)
     data["inner_surface_temperature_quantile"] = _var(
         (*sd, "quantile"), q_est, "K", "quantile of the inner-surface temperature"
     )
     data["inner_surface_temperature_quantile_lower"] = _var(
         (*sd, "quantile"), per([s.inner_quantiles.lower for s in sa]), "K",
-        "lower confidence bound of the quantile", confidence=a.confidence,
+        "lower confidence bound of the quantile", confidence=a.confidence, **inner_iv,
     )
     data["inner_surface_temperature_quantile_upper"] = _var(
         (*sd, "quantile"), per([s.inner_quantiles.upper for s in sa]), "K",
-        "upper confidence bound of the quantile", confidence=a.confidence,
+        "upper confidence bound of the quantile", confidence=a.confidence, **inner_iv,
     )
     for part, long in (("estimate", "quantile"), ("lower", "lower confidence bound of the "
                        "quantile"), ("upper", "upper confidence bound of the quantile")):
@@ -185,6 +223,7 @@ def _statistics_variables(frame: _Frame) -> dict[str, xr.Variable]:
             (*sd, "interface", "quantile"),
             per([[getattr(q, part) for q in s.interface_quantiles] for s in sa]),
             "K", f"{long} of each face temperature", confidence=a.confidence,
+            **({} if part == "estimate" else face_iv),
         )
     data["exceedance_probability"] = _var(
         sd, per([s.exceedance.probability for s in sa]), "1",
@@ -194,10 +233,12 @@ def _statistics_variables(frame: _Frame) -> dict[str, xr.Variable]:
     data["exceedance_probability_lower"] = _var(
         sd, per([s.exceedance.lower for s in sa]), "1",
         "lower confidence bound of the exceedance probability", confidence=a.confidence,
+        **exc_iv,
     )
     data["exceedance_probability_upper"] = _var(
         sd, per([s.exceedance.upper for s in sa]), "1",
         "upper confidence bound of the exceedance probability", confidence=a.confidence,
+        **exc_iv,
     )
     data["samples_used"] = _var(sd, per([s.exceedance.n for s in sa]), "1",
                                 "converged independent samples behind percentiles and exceedance")
@@ -223,6 +264,7 @@ def _attributes(frame: _Frame) -> dict[str, Any]:
         "method": a.method,
         "design": a.design,
         "base_samples": int(propagation.design.base_samples),
+        "replicates": int(getattr(propagation.design, "replicates", 1)),
         "evaluations": int(n_samples),
         "parameters": len(study.parameters),
         "confidence": float(a.confidence),

@@ -50,6 +50,7 @@ from plyrisk.study.sections_analysis import (
     parse_screening,
     parse_study_section,
     parse_tolerances,
+    replicate_rule,
 )
 from plyrisk.study.sections_assembly import Parser, parse_layers, parse_scenarios, side_parser
 from plyrisk.study.values import Context, join, suggest
@@ -359,7 +360,12 @@ def override(study: Study, *, samples: int | None = None, seed: int | None = Non
     n = new.samples
     if n < MIN_SAMPLES:
         raise ValueError(f"--samples must be at least {MIN_SAMPLES}, got {n}")
-    if new.design == "sobol" and n & (n - 1):
+    if "replicates" in METHODS[new.method].only_keys:
+        problem = replicate_rule(n, new.replicates)
+        if problem:
+            where = f"--samples {n}" if samples is not None else f"study.samples = {n}"
+            raise ValueError(f"{where}: {problem}")
+    elif new.design == "sobol" and n & (n - 1):
         lo = 1 << (n.bit_length() - 1)
         what = (f"method = {new.method}" if len(METHODS[new.method].designs) == 1
                 else "design = sobol")

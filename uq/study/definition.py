@@ -229,6 +229,9 @@ class Analysis:
     pce_max_loo_error
         Largest relative leave-one-out error of the surrogate for which percentiles are taken
         from it (pce).
+    replicates
+        Independently scrambled replicates R of the Saltelli design (saltelli); ``samples`` is
+        R times a power of 2, and every interval comes from the spread of the replicates.
     """
 
     method: str
@@ -246,6 +249,7 @@ class Analysis:
     levels: int = 4
     screening_threshold: float = 0.1
     pce_max_loo_error: float = 1e-3
+    replicates: int = 8
 
 
 @dataclass(frozen=True)

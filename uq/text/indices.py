@@ -113,9 +113,7 @@ def index_lines(study: Study, sc, *, top: int, temperature: Callable[[float], st
             need = max(i.suggested_base_samples or 0 for i in unconv)
             lines.append(
                 f"  {len(unconv)} index interval(s) wider than {thr}: rerun with --samples "
-                f"{need} or more, or with --until-converged, to settle the ranking (on "
-                "scrambled Sobol' designs the bootstrap intervals can be wider than the "
-                "actual error)")
+                f"{need} or more, or with --until-converged, to settle the ranking")
         else:
             lines.append(f"  {len(unconv)} index interval(s) wider than {thr}: rerun with more "
                          "samples to settle the ranking")
