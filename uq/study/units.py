@@ -144,6 +144,14 @@ TEMPERATURE_DIFFERENCE = QuantitySpec(
     "a temperature difference", "K", "1e-6 K", lower=0.0
 )
 DIMENSIONLESS = QuantitySpec("a dimensionless number", "", "1.4")
+DENSITY = QuantitySpec("a density", "kg/m^3", "300 kg/m^3", lower=0.0)
+SPECIFIC_HEAT = QuantitySpec("a specific heat capacity", "J/kg/K", "1300 J/kg/K", lower=0.0)
+SPECIFIC_HEAT_SLOPE = QuantitySpec(
+    "a specific-heat slope (specific heat per kelvin)", "J/kg/K^2", "1 J/kg/K^2"
+)
+TRANSMISSIVITY = QuantitySpec(
+    "a radiant transmissivity (dimensionless)", "", "0.2", lower=0.0, upper=1.0
+)
 
 QUANTITIES: dict[str, QuantitySpec] = {
     "thickness": LENGTH,
@@ -163,6 +171,10 @@ QUANTITIES: dict[str, QuantitySpec] = {
     "surroundings_temperature": TEMPERATURE,
     "ambient_temperature": TEMPERATURE,
     "convection_coefficient": COEFFICIENT,
+    "density": DENSITY,
+    "specific_heat": SPECIFIC_HEAT,
+    "specific_heat_slope": SPECIFIC_HEAT_SLOPE,
+    "radiant_transmissivity": TRANSMISSIVITY,
 }
 """Spec of every numeric field of :mod:`plyrisk.models.stack` and :mod:`plyrisk.models.boundary` by
 field name
