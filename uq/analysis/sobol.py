@@ -165,8 +165,7 @@ def _replicate_estimates(table: np.ndarray, cols: Sequence[int], label: np.ndarr
             first.append(np.where(var > 0, np.mean(fb * (fab - fa), axis=1) / var, np.nan))
             total.append(np.where(var > 0, 0.5 * np.mean((fa - fab) ** 2, axis=1) / var,
                                   np.nan))
-    first, total = np.concatenate(first), np.concatenate(total)
-    return first, total
+    return np.concatenate(first), np.concatenate(total)
 
 def _salib_seed(seed: int) -> int:
     if isinstance(seed, bool) or not isinstance(seed, int | np.integer) or seed < 0:

@@ -405,7 +405,7 @@ def replicate_exceedance_from_counts(above: np.ndarray, sizes: np.ndarray, limit
 
 
 def replicate_quantiles(y: np.ndarray, replicate: np.ndarray,
-                        probabilities: Sequence[float] = (0.05, 0.5, 0.95), *,
+                        probabilities: Sequence[float] | np.ndarray = (0.05, 0.5, 0.95), *,
                         confidence: float = 0.90) -> QuantileEstimate:
     """Pooled sample quantiles with Woodruff intervals from independent replicates.
 

@@ -337,10 +337,10 @@ def _woodruff(q: _Quantiles, quant: list[QuantileEstimate], blocks, columns, rep
     out = []
     for j, (lv, ok) in enumerate(found):
         lower, upper = quant[j].lower.copy(), quant[j].upper.copy()
-        for i in np.flatnonzero(ok):
-            lo, hi = lv[i]
-            lower[i] = q.at_levels(j, [lo])[0] if lo > 0.0 else np.nan
-            upper[i] = q.at_levels(j, [hi])[0] if hi < 1.0 else np.nan
+        for m in np.flatnonzero(ok):
+            lo, hi = lv[m]
+            lower[m] = q.at_levels(j, [lo])[0] if lo > 0.0 else np.nan
+            upper[m] = q.at_levels(j, [hi])[0] if hi < 1.0 else np.nan
         for arr in (lower, upper):
             arr.setflags(write=False)
         out.append(replace(quant[j], lower=lower, upper=upper,

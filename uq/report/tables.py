@@ -221,8 +221,16 @@ def quantile_tables(ds: xr.Dataset) -> list[Table]:
 def quantile_note(ds: xr.Dataset) -> str:
     """The sentence saying how the percentile intervals were obtained."""
     conf = 100 * float(ds.attrs.get("confidence", math.nan))
-    return (f"Intervals: {conf:g} % confidence intervals from order statistics; n/a where the "
-            "samples are too few to bound a tail percentile on that side.")
+    how = "order statistics"
+    bound = ds.variables.get("inner_surface_temperature_quantile_lower")
+    if bound is not None and bound.attrs.get("interval"):
+        how = str(bound.attrs["interval"])
+    text = (f"Intervals: {conf:g} % confidence intervals of the percentiles from {how}; n/a "
+            "where the samples are too few to bound a tail percentile on that side.")
+    ci = ds.variables.get("sobol_total_ci")
+    if ci is not None and ci.attrs.get("interval"):
+        text += f" Sobol index intervals: {ci.attrs['interval']}."
+    return text
 
 
 INDEX_KEYS = ("first", "first_ci", "total", "total_ci")

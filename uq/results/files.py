@@ -591,14 +591,16 @@ class OutputSet:
             kept = [e for e in self.earlier.files if e.name not in new_names]
         else:
             kept = []
-        info = dict(fingerprint=fingerprint, seed=seed, method=method, config=config,
+        info: dict[str, Any] = dict(fingerprint=fingerprint, seed=seed, method=method,
+                                    config=config,
                     version=plyrisk_version(), created=time.strftime("%Y-%m-%d %H:%M:%S %Z"),
                     details=dict(details or {}))
         if self.keep_earlier and self.earlier is not None:
-            e = self.earlier
-            info.update(fingerprint=e.fingerprint or fingerprint,
-                        seed=e.seed if e.seed is not None else seed, method=e.method or method,
-                        config=e.config or config, details={**e.details, **info["details"]})
+            was = self.earlier
+            info.update(fingerprint=was.fingerprint or fingerprint,
+                        seed=was.seed if was.seed is not None else seed,
+                        method=was.method or method, config=was.config or config,
+                        details={**was.details, **info["details"]})
         for p in staged:
             _fsync_file(p)
         # 1. the manifest says: replacing, these files (new and earlier) are plyrisk's

@@ -9,7 +9,7 @@ a :class:`Context` (the file name) and the key path of the value it reads.
 from __future__ import annotations
 
 import difflib
-from collections.abc import Iterable
+from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, replace
 from typing import Any
 
@@ -325,7 +325,7 @@ def _relations(
                 )
 
 
-def truncation_warnings(parameters) -> list[str]:
+def truncation_warnings(parameters: Sequence[Any]) -> list[str]:
     """One warning per uncertain parameter whose distribution loses more than
     :data:`TRUNCATION_WARNING` of its mass to the physical bounds.
 
