@@ -72,7 +72,8 @@ def test_bad_configs_exit_2_with_one_line(capsys, path):
 @pytest.mark.parametrize(
     ("argv", "match"),
     [
-        (["--samples", "100"], r"--samples 100: method = saltelli needs a power of two \(e.g. 64"),
+        (["--samples", "100"],
+         r"--samples 100: must be replicates \(8\) x a power of 2.*use 64 or 128"),
         (["--samples", "0"], r"--samples must be at least 8, got 0"),
         (["--samples", "1099511627776"], r"--samples: 1099511627776 samples need about .* GiB"),
         (["--seed", "-1"], r"--seed must be a whole number from 0 to 2\*\*64 - 1, got -1"),

@@ -130,8 +130,10 @@ def test_resume_refuses_a_store_of_another_study(tmp_path, small_demo_64):
 
 def test_store_refuses_to_replace_a_folder_that_is_not_a_store(tmp_path, small_demo_64):
     (tmp_path / "mine").mkdir()
-    with pytest.raises(store.StoreError, match="exists and is not a plyrisk store"):
+    (tmp_path / "mine" / "data.csv").write_text("1,2\n")
+    with pytest.raises(store.StoreError, match="holds something other than a plyrisk store"):
         store.solve_to_store(small_demo_64, tmp_path / "mine", chunk_size=100)
+    assert (tmp_path / "mine" / "data.csv").read_text() == "1,2\n"
 
 
 def test_worker_code_leaves_the_global_random_state_alone(tmp_path, small_demo_64):

@@ -211,7 +211,7 @@ def test_quantiles_csv(report):
     ds, files = report
     cols, rows = read_csv(files.html.parent / "quantiles.csv")
     assert cols == ["scenario", "quantity", "interface", "probability", "estimate", "lower",
-                    "upper", "unit"]
+                    "upper", "unit", "warning"]
     n_q, n_f = ds.sizes["quantile"], ds.sizes["interface"]
     assert len(rows) == n_scenarios(ds) * (1 + n_f) * n_q
     inner = [r for r in rows if r["quantity"] == "inner_surface_temperature"]
@@ -323,3 +323,19 @@ def test_report_of_a_results_file_read_back(tmp_path, dataset):
     back = read_results(write_results(swept, tmp_path / "swept.nc"))
     assert fg.limit_crossing(back) == fg.limit_crossing(swept)
     assert list(back["scenario_label"].values) == list(swept["scenario_label"].values)
+
+
+def test_percentiles_from_a_reduced_subset_warn_in_every_output(tmp_path):
+    ds = dataset("saltelli", False).copy()
+    n = 2 * int(ds.attrs["base_samples"])
+    ds["samples_used"] = ds["samples_used"].copy(data=np.asarray(int(0.9 * n)))
+    files = write_report(ds, tmp_path)
+    needle = f"the percentiles and P(exceed) come from {int(0.9 * n)} of {n} samples"
+    assert needle in " ".join(html.unescape(files.html.read_text()).split())
+    assert needle in " ".join(files.markdown.read_text().split())
+    _, rows = read_csv(tmp_path / "quantiles.csv")
+    assert all(needle in r["warning"] for r in rows)
+    ds["samples_used"] = ds["samples_used"].copy(data=np.asarray(n))
+    write_report(ds, tmp_path / "full")
+    _, rows = read_csv(tmp_path / "full" / "quantiles.csv")
+    assert {r["warning"] for r in rows} == {""}

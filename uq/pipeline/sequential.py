@@ -1,16 +1,17 @@
 """Sequential growth of a Saltelli study until every index interval is narrow enough.
 
-Doubling the base samples N extends the same scrambled Sobol' sequence: the design of 2N base
+Doubling the base samples N extends the same scrambled Sobol' sequences: every one of the R
+independently scrambled replicates doubles its base rows together, so the design of 2N base
 rows is the design of N base rows followed by the design of base rows [N, 2N)
 (:func:`plyrisk.design.sampling.sobol_design` with ``start``; the Saltelli rows are grouped per
-base row),
+base row and the base rows interleave the replicates),
 so the model runs already made are all reused and only the new rows are evaluated (with
 :func:`plyrisk.propagate.evaluate.evaluate`). After each step the study is analysed as if it had
 been run
 at that N from the start — the results are bit-identical to such a run — and the growth stops
 when every index interval (first and total, per parameter and per layer, every output and
-exposure) has a half-width at most ``index_ci_threshold``, or when the next doubling would
-pass the run budget.
+exposure; Student t intervals on the spread of the replicates) has a half-width at most
+``index_ci_threshold``, or when the next doubling would pass the run budget.
 """
 
 from __future__ import annotations
@@ -124,7 +125,8 @@ def _stack(first: Design, second: Design) -> Design:
     block = np.concatenate([first.block, second.block])
     unit.setflags(write=False)
     block.setflags(write=False)
-    return Design(unit, block, "sobol", first.base_samples + second.base_samples, first.groups)
+    return Design(unit, block, "sobol", first.base_samples + second.base_samples, first.groups,
+                  first.replicates)
 
 
 def grow_until_converged(study: Study, *, max_runs: int | None = None,
@@ -156,7 +158,7 @@ def grow_until_converged(study: Study, *, max_runs: int | None = None,
     groups = parameter_groups(study)[1]
     n_s = scenario_count(study)
     n = int(a.samples)
-    design = sobol_design(n, d, seed=a.seed, groups=groups)
+    design = sobol_design(n, d, seed=a.seed, groups=groups, replicates=a.replicates)
     if design.n_rows * n_s > budget:
         raise ValueError(f"the first step (N = {n}) needs {design.n_rows * n_s} model runs, "
                          f"above the budget of {budget}")
@@ -180,7 +182,8 @@ def grow_until_converged(study: Study, *, max_runs: int | None = None,
                       f"than ±{a.index_ci_threshold:g}")
             return Growth(current, prop, analysis, tuple(steps), False, reason,
                           a.index_ci_threshold, budget)
-        extra = sobol_design(n, d, seed=a.seed, groups=groups, start=n)
+        extra = sobol_design(n, d, seed=a.seed, groups=groups, start=n,
+                             replicates=a.replicates)
         extra_inputs = unit_to_inputs(study.parameters, extra.unit)
         extra_outputs = evaluate(study, extra_inputs, chunk_size=chunk_size, workers=workers)
         design = _stack(design, extra)

@@ -298,6 +298,7 @@ def study_plan(study: Study) -> DesignPlan:
         int(a.seed),
         groups=tuple(groups) if kind == "sobol" else (),
         optimization=a.lhs_optimization if kind == "lhs" else None,
+        replicates=int(a.replicates) if kind == "sobol" else 1,
     )
 
 

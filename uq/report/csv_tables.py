@@ -16,6 +16,7 @@ import xarray as xr
 from plyrisk.report.figures import outputs as fg
 from plyrisk.report.figures.common import PRIMARY
 from plyrisk.report.tables import INDEX_KEYS, index_sets, scenario_values
+from plyrisk.results.dataset import independent_samples, subset_warning
 
 __all__ = ["write_csv", "write_csv_tables"]
 
@@ -48,17 +49,20 @@ def write_csv_tables(ds: xr.Dataset, out: Path) -> list[Path]:
     def shown(v) -> float:
         return float(fg.to_display_temperature(ds, v))
 
+    independent = independent_samples(ds)
     for _, label, one in scenario_values(ds):
         probs = np.asarray(one["quantile"].values, dtype=float)
+        lost = (subset_warning(int(one["samples_used"].item()), independent)
+                if "samples_used" in one else "")
         for k, p in enumerate(probs):
             quant.append([label, PRIMARY, "", p,
                           *(shown(one[f"inner_surface_temperature_quantile{s}"].values[k])
-                            for s in ("", "_lower", "_upper")), unit])
+                            for s in ("", "_lower", "_upper")), unit, lost])
         for f, face in enumerate(str(v) for v in one["interface"].values):
             for k, p in enumerate(probs):
                 quant.append([label, "interface_temperature", face, p,
                               *(shown(one[f"interface_temperature_quantile{s}"].values[f, k])
-                                for s in ("", "_lower", "_upper")), unit])
+                                for s in ("", "_lower", "_upper")), unit, lost])
         names = [str(n) for n in one["parameter"].values]
         groups = [str(g) for g in one["group"].values]
         rho = np.asarray(one["rank_correlation"].values, dtype=float)
@@ -96,7 +100,8 @@ def write_csv_tables(ds: xr.Dataset, out: Path) -> list[Path]:
     rank.sort(key=lambda r: (first_seen[(r[0], r[1], r[2], r[5])], r[3]))
     return [
         write_csv(out / "quantiles.csv", ["scenario", "quantity", "interface", "probability",
-                                          "estimate", "lower", "upper", "unit"], quant),
+                                          "estimate", "lower", "upper", "unit", "warning"],
+                  quant),
         write_csv(out / "indices.csv", ["scenario", "output", "parameter", "group", "unit",
                                         "first", "first_ci", "total", "total_ci", "rank",
                                         "converged", "rank_correlation", "estimator"], ind),

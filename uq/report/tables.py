@@ -18,9 +18,10 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 import xarray as xr
 
+from plyrisk.analysis.sobol import not_resolved
 from plyrisk.report.figures import outputs as fg
 from plyrisk.report.figures.common import PRIMARY
-from plyrisk.results.dataset import scenario_slices
+from plyrisk.results.dataset import scenario_slices, subset_warnings
 from plyrisk.study.units import QUANTITIES, TEMPERATURE, format_value
 
 if TYPE_CHECKING:  # pragma: no cover - for type checkers only
@@ -193,6 +194,7 @@ def headline_table(ds: xr.Dataset) -> tuple[Table, list[str]]:
                             "lies inside the confidence "
                             f"interval of P95 ({_t(ds, q)}): these samples cannot tell whether "
                             "P95 is above or below it; more samples narrow the interval.")
+    verdicts += subset_warnings(ds)
     conf = f"{100 * float(ds.attrs.get('confidence', math.nan)):g} %"
     header = ["exposure", "P95", f"P95 {conf} interval", f"P(T > {_t(ds, limit)})",
               f"{conf} interval", "independent samples used", "evaluations not converged"]
@@ -219,8 +221,16 @@ def quantile_tables(ds: xr.Dataset) -> list[Table]:
 def quantile_note(ds: xr.Dataset) -> str:
     """The sentence saying how the percentile intervals were obtained."""
     conf = 100 * float(ds.attrs.get("confidence", math.nan))
-    return (f"Intervals: {conf:g} % confidence intervals from order statistics; n/a where the "
-            "samples are too few to bound a tail percentile on that side.")
+    how = "order statistics"
+    bound = ds.variables.get("inner_surface_temperature_quantile_lower")
+    if bound is not None and bound.attrs.get("interval"):
+        how = str(bound.attrs["interval"])
+    text = (f"Intervals: {conf:g} % confidence intervals of the percentiles from {how}; n/a "
+            "where the samples are too few to bound a tail percentile on that side.")
+    ci = ds.variables.get("sobol_total_ci")
+    if ci is not None and ci.attrs.get("interval"):
+        text += f" Sobol index intervals: {ci.attrs['interval']}."
+    return text
 
 
 INDEX_KEYS = ("first", "first_ci", "total", "total_ci")
@@ -276,7 +286,11 @@ def index_sets(one: xr.Dataset) -> list[IndexSet]:
     return []
 
 
-def _status(conv: np.ndarray | None, j: int) -> str:
+def _status(conv: np.ndarray | None, j: int, values: dict | None = None) -> str:
+    if values is not None and any(
+            not_resolved(float(values[k][j]), float(values[f"{k}_ci"][j]))
+            for k in ("total", "first")):
+        return "NOT RESOLVED: more samples (estimate outside [0, 1] beyond its interval)"
     if conv is None:
         return "surrogate"
     return "converged" if conv[j] else "UNCONVERGED"
@@ -304,7 +318,7 @@ def ranking_tables(ds: xr.Dataset) -> list[Table]:
                      str(one["parameter_group"].values[j]).replace("_", " "),
                      _idx(float(ix.p["total"][j]), float(ix.p["total_ci"][j])),
                      _idx(float(ix.p["first"][j]), float(ix.p["first_ci"][j])),
-                     _status(ix.p_converged, j)]
+                     _status(ix.p_converged, j, ix.p)]
                     for j in np.argsort(ix.p_rank, kind="stable")]
             out.append(Table(["rank", "parameter", "layer", "total index ± CI",
                               "first-order index ± CI", "status"], rows,
@@ -313,7 +327,7 @@ def ranking_tables(ds: xr.Dataset) -> list[Table]:
             rows = [[str(int(ix.g_rank[j])), groups[j],
                      _idx(float(ix.g["total"][j]), float(ix.g["total_ci"][j])),
                      _idx(float(ix.g["first"][j]), float(ix.g["first_ci"][j])),
-                     _status(ix.g_converged, j)]
+                     _status(ix.g_converged, j, ix.g)]
                     for j in np.argsort(ix.g_rank, kind="stable")]
             out.append(Table(["rank", "layer", "total index ± CI", "first-order index ± CI",
                               "status"], rows,

@@ -20,7 +20,9 @@ Every mistake raises :class:`~plyrisk.errors.ConfigError`, one line:
 
 from __future__ import annotations
 
+import os
 import re
+import stat
 import tomllib
 from dataclasses import replace
 from pathlib import Path
@@ -48,6 +50,7 @@ from plyrisk.study.sections_analysis import (
     parse_screening,
     parse_study_section,
     parse_tolerances,
+    replicate_rule,
 )
 from plyrisk.study.sections_assembly import Parser, parse_layers, parse_scenarios, side_parser
 from plyrisk.study.sections_transient import check_outputs, parse_exposure, parse_wearer
@@ -121,6 +124,14 @@ def load_study(path: str | Path) -> Study:
     >>> shutil.rmtree(folder)
     """
     source = str(path)
+    try:  # a FIFO, device or folder would hang or fail half-way when read
+        if not stat.S_ISREG(os.stat(path).st_mode):
+            raise ConfigError(source, "", "not a regular file (a FIFO, device or folder); give "
+                              "a TOML config file")
+    except FileNotFoundError:
+        raise ConfigError(source, "", "no such file") from None
+    except OSError as err:
+        raise ConfigError(source, "", f"cannot read the file ({err.strerror or err})") from None
     try:
         text = Path(path).read_text(encoding="utf-8")
     except FileNotFoundError:
@@ -400,7 +411,12 @@ def override(study: Study, *, samples: int | None = None, seed: int | None = Non
     n = new.samples
     if n < MIN_SAMPLES:
         raise ValueError(f"--samples must be at least {MIN_SAMPLES}, got {n}")
-    if new.design == "sobol" and n & (n - 1):
+    if "replicates" in METHODS[new.method].only_keys:
+        problem = replicate_rule(n, new.replicates)
+        if problem:
+            where = f"--samples {n}" if samples is not None else f"study.samples = {n}"
+            raise ValueError(f"{where}: {problem}")
+    elif new.design == "sobol" and n & (n - 1):
         lo = 1 << (n.bit_length() - 1)
         what = (f"method = {new.method}" if len(METHODS[new.method].designs) == 1
                 else "design = sobol")

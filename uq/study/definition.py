@@ -236,6 +236,9 @@ class Analysis:
     pce_max_loo_error
         Largest relative leave-one-out error of the surrogate for which percentiles are taken
         from it (pce).
+    replicates
+        Independently scrambled replicates R of the Saltelli design (saltelli); ``samples`` is
+        R times a power of 2, and every interval comes from the spread of the replicates.
     """
 
     method: str
@@ -253,6 +256,7 @@ class Analysis:
     levels: int = 4
     screening_threshold: float = 0.1
     pce_max_loo_error: float = 1e-3
+    replicates: int = 8
 
 
 @dataclass(frozen=True)
@@ -382,7 +386,8 @@ class Study:
     ``[tolerances]`` settings (:class:`plyrisk.study.settings.ToleranceSettings`) and ``screening``
     the ``[screening]`` settings (:class:`plyrisk.study.settings.ScreeningSettings`), ``None``
     when the
-    section is absent.
+    section is absent. ``max_temperatures`` holds each layer's rated maximum temperature
+    (``max_temperature`` of a solid layer) [K], ``None`` where the layer has none.
     """
 
     source: str
@@ -399,6 +404,7 @@ class Study:
     tolerances: ToleranceSettings | None = None
     compute: ComputeOptions = ComputeOptions()
     screening: ScreeningSettings | None = None
+    max_temperatures: tuple[float | None, ...] = ()
     transient: TransientSetup | None = None
 
     @property

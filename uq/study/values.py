@@ -9,7 +9,7 @@ a :class:`Context` (the file name) and the key path of the value it reads.
 from __future__ import annotations
 
 import difflib
-from collections.abc import Iterable
+from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, replace
 from typing import Any
 
@@ -94,12 +94,15 @@ def choice(ctx: Context, raw: Any, path: str, valid: Iterable[str], what: str) -
     return raw
 
 
-def integer(ctx: Context, raw: Any, path: str, *, minimum: int) -> int:
-    """A whole number ``>= minimum``."""
+def integer(ctx: Context, raw: Any, path: str, *, minimum: int,
+            maximum: int | None = None) -> int:
+    """A whole number ``>= minimum`` (and ``<= maximum`` when given)."""
     if isinstance(raw, bool) or not isinstance(raw, int):
         raise ctx.error(path, f"expected a whole number >= {minimum}, got {show(raw)}")
     if raw < minimum:
         raise ctx.error(path, f"must be at least {minimum}, got {raw}")
+    if maximum is not None and raw > maximum:
+        raise ctx.error(path, f"must be at most {maximum}, got {raw}")
     return raw
 
 
@@ -196,6 +199,9 @@ def quantity(ctx: Context, raw: Any, path: str, spec: QuantitySpec) -> Quantity:
     if not isinstance(raw, dict):
         p = fixed(ctx, raw, path, spec)
         return Quantity(p.si, None, p.unit)
+    raw = dict(raw)
+    accept_cut = boolean(ctx, raw.pop("truncated"), join(path, "truncated")) \
+        if "truncated" in raw else False
     if "nominal" in raw:
         kind, params, ppath = "tolerance", raw, path
     else:
@@ -227,7 +233,21 @@ def quantity(ctx: Context, raw: Any, path: str, spec: QuantitySpec) -> Quantity:
     except ValueError as err:
         raise ctx.error(ppath, f"{err} (SI units)") from None
     unit = next((p.unit for k, p in parsed.items() if ROLES[k] in ("value", "end")), "")
+    if dist.truncated_mass > TRUNCATION_ERROR and not accept_cut:
+        raise ctx.error(
+            path, f"the physical bounds cut {100 * dist.truncated_mass:.3g} % of this "
+            f"distribution's mass (more than {100 * TRUNCATION_ERROR:g} %), so the values "
+            "sampled differ much from the distribution written; narrow it, or add "
+            "truncated = true to its table to accept the cut")
     return Quantity(float(dist.nominal), dist, unit)
+
+
+TRUNCATION_WARNING = 0.01
+"""Share of a distribution's mass cut by the physical bounds above which ``run`` and ``check``
+warn."""
+
+TRUNCATION_ERROR = 0.20
+"""Share above which the config is refused unless its table says ``truncated = true``."""
 
 
 def forms_text(kind: str) -> str:
@@ -303,3 +323,25 @@ def _relations(
                     f"the tolerance band {band} leaves the physical range ({spec.what} must be "
                     f"{spec.bounds_text()}): tolerance larger than the nominal allows",
                 )
+
+
+def truncation_warnings(parameters: Sequence[Any]) -> list[str]:
+    """One warning per uncertain parameter whose distribution loses more than
+    :data:`TRUNCATION_WARNING` of its mass to the physical bounds.
+
+    Parameters
+    ----------
+    parameters
+        The study's :class:`plyrisk.study.definition.Parameter` objects.
+    """
+    out = []
+    for p in parameters:
+        d = p.distribution
+        if d is None or d.truncated_mass <= TRUNCATION_WARNING:
+            continue
+        accepted = d.truncated_mass > TRUNCATION_ERROR  # only when the config accepted it
+        out.append(
+            f"WARNING: {p.name}: {p.truncation()}; the values sampled follow the cut "
+            f"distribution (mean {p.format(d.mean)}, not the {p.format(d.nominal)} written)"
+            + (" — accepted with truncated = true" if accepted else ""))
+    return out

@@ -19,6 +19,7 @@ from plyrisk.models.network import NetworkSolution, solve_network
 from plyrisk.models.stack import StackError
 from plyrisk.study.config import require_runnable, stack_key_path
 from plyrisk.study.definition import Study
+from plyrisk.study.values import truncation_warnings
 from plyrisk.text.tables import text_table
 
 
@@ -117,7 +118,8 @@ def _parameter_lines(study: Study) -> list[str]:
         rows.append([p.name, p.describe(), p.format(d.mean),
                      f"{lo_u:.4g} .. {hi_u:.4g} {p.unit}".rstrip(), p.truncation()])
     header = ["parameter", "distribution", "mean", "5-95 % range", "truncation"]
-    return [f"Uncertain parameters ({len(rows)})"] + text_table(header, rows)
+    return ([f"Uncertain parameters ({len(rows)})"] + text_table(header, rows)
+            + [f"  {w}" for w in truncation_warnings(study.parameters)])
 
 
 def _solution_lines(study: Study, sol: NetworkSolution) -> list[str]:
