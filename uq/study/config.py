@@ -53,7 +53,12 @@ from plyrisk.study.sections_analysis import (
     replicate_rule,
 )
 from plyrisk.study.sections_assembly import Parser, parse_layers, parse_scenarios, side_parser
-from plyrisk.study.sections_transient import check_outputs, parse_exposure, parse_wearer
+from plyrisk.study.sections_transient import (
+    check_outputs,
+    parse_exposure,
+    parse_wearer,
+    with_layout,
+)
 from plyrisk.study.values import Context, join, suggest
 
 __all__ = [
@@ -219,6 +224,8 @@ def loads_study(text: str, *, source: str = "<string>") -> Study:
     parsed["parameters"] = tuple(parsed["parameters"])
     study = Study(**{k: v for k, v in parsed.items() if not k.startswith("_")})
     _check_study(ctx, study)
+    if study.transient is not None:
+        study = with_layout(study)
     return study
 
 

@@ -337,7 +337,8 @@ class TransientSetup:
         Target for P(second-degree burn) within the horizon (sensor: P(criterion reached)) [-].
     layout
         The one grid layout every chunk of the study is solved on (from the nominal study), so
-        results do not depend on how samples are chunked [-].
+        results do not depend on how samples are chunked; ``None`` only while the config is
+        being read [-].
     skin_properties
         Name of the skin property set (skin wearer), else ``None`` [-].
     sensor_inputs
@@ -353,7 +354,7 @@ class TransientSetup:
     third_degree: str
     output_times: np.ndarray
     acceptable_burn_probability: float
-    layout: MeshLayout
+    layout: MeshLayout | None
     skin_properties: str | None = None
     sensor_inputs: Mapping[str, Any] = field(default_factory=dict)
     units: Mapping[str, str] = field(default_factory=dict)

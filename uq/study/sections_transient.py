@@ -300,15 +300,25 @@ def parse_wearer(ctx: Context, raw: Any, parsed: dict) -> dict:
     else:
         wearer = PrescribedWearer(**values)
     exposure = parsed["_exposure"]
-    layout = mesh_layout(list(parsed["layers"]), wearer, exposure.horizon)
     setup = TransientSetup(
         exposure=exposure, wearer=wearer, damage_model=damage, third_degree=third,
         output_times=parsed["_output_times"],
         acceptable_burn_probability=parsed.get("_acceptable_burn_probability",
                                                DEFAULT_BURN_PROBABILITY),
-        layout=layout, skin_properties=skin_name, sensor_inputs=sensor_inputs,
+        layout=None, skin_properties=skin_name, sensor_inputs=sensor_inputs,
         units=parsed["_exposure_units"])
     return {"transient": setup, "parameters": params}
+
+
+def with_layout(study):
+    """The study with the grid layout of its transient model set, from the nominal study.
+
+    Called once the layers and the wearer are validated. Every chunk of the study is solved on
+    this one layout, so results do not depend on how samples are chunked or distributed.
+    """
+    setup = study.transient
+    layout = mesh_layout(list(study.layers), setup.wearer, setup.exposure.horizon)
+    return replace(study, transient=replace(setup, layout=layout))
 
 
 # ----------------------------------------------------------------------------------------------
