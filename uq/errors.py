@@ -12,6 +12,10 @@ class PlyriskError(Exception):
     """
 
 
+class AnalysisError(PlyriskError, ValueError):
+    """A study whose results cannot be analysed (e.g. no sample converged); one-line message."""
+
+
 class ConfigError(PlyriskError, ValueError):
     """A mistake in a study config or its file.
 

@@ -62,7 +62,7 @@ def test_summary_of_a_skin_gap_study_with_linearized_radiation(tmp_path, capsys)
     config = tmp_path / "linearized.toml"
     config.write_text(SMALL.read_text().replace("[cold_side]",
                                                 '[model]\nradiation = "linearized"\n\n[cold_side]'))
-    assert main(["run", str(config), "--out", str(tmp_path / "o"), "--samples", "8",
+    assert main(["run", str(config), "--out", str(tmp_path / "o"), "--samples", "16",
                  "--quiet", "--no-report"]) == 0
     text = " ".join(capsys.readouterr().out.split())
     assert ("gap 'air gap': too little heat across it gives a higher inner-surface temperature "

@@ -50,6 +50,6 @@ def test_a_gap_has_no_rating():
 
 
 def test_unrated_studies_carry_no_rating_variables():
-    ds = run_study(loads_study(SMALL.read_text(), source="s.toml"), samples=8,
+    ds = run_study(loads_study(SMALL.read_text(), source="s.toml"), samples=16,
                    quiet=True).dataset
     assert "rating_exceedance_probability" not in ds

@@ -154,7 +154,7 @@ def test_seed_of_2_to_the_64_is_refused_before_computing(tmp_path, capsys):
 
 def test_largest_seed_runs_and_is_stored(tmp_path, capsys):
     assert main(["run", str(SMALL), "--out", str(tmp_path), "--seed", str(2**64 - 1),
-                 "--samples", "8", "--quiet", "--no-report"]) == 0
+                 "--samples", "16", "--quiet", "--no-report"]) == 0
     with xr.open_dataset(tmp_path / "results.nc") as ds:
         assert int(ds.attrs["seed"]) == 2**64 - 1
 
@@ -189,7 +189,7 @@ def test_resume_on_a_missing_store_is_an_error(tmp_path, capsys):
 
 def test_foreign_files_in_the_folder_are_never_touched(tmp_path, capsys):
     (tmp_path / "report.html").write_text("my own report")
-    argv = ["run", str(SMALL), "--out", str(tmp_path), "--samples", "8", "--quiet"]
+    argv = ["run", str(SMALL), "--out", str(tmp_path), "--samples", "16", "--quiet"]
     assert main(argv) == 2
     assert "report.html: exists and was not written by plyrisk" in one_line(
         capsys.readouterr().err)
@@ -209,14 +209,14 @@ def test_abbreviated_options_are_errors(tmp_path, capsys):
 
 
 def test_a_plain_line_per_phase_unless_quiet(tmp_path, capsys):
-    assert main(["run", str(SMALL), "--out", str(tmp_path / "a"), "--samples", "8"]) == 0
+    assert main(["run", str(SMALL), "--out", str(tmp_path / "a"), "--samples", "16"]) == 0
     err = capsys.readouterr().err
     phases = [line for line in err.splitlines() if line.startswith("plyrisk: ")]
     assert phases == ["plyrisk: solving ...",
                       "plyrisk: analysis (percentiles, exceedance, sensitivity indices or "
                       "surrogate fit) ...",
                       "plyrisk: report: figures, tables, report.html ..."]
-    assert main(["run", str(SMALL), "--out", str(tmp_path / "b"), "--samples", "8",
+    assert main(["run", str(SMALL), "--out", str(tmp_path / "b"), "--samples", "16",
                  "--quiet"]) == 0
     assert capsys.readouterr().err == ""
 
@@ -225,7 +225,7 @@ def test_a_bad_scheduler_address_fails_at_once_with_one_line(tmp_path, capsys):
     import time
 
     start = time.monotonic()
-    assert main(["run", str(SMALL), "--out", str(tmp_path), "--samples", "8", "--quiet",
+    assert main(["run", str(SMALL), "--out", str(tmp_path), "--samples", "16", "--quiet",
                  "--scheduler", "notanaddress"]) == 2
     line = one_line(capsys.readouterr().err)
     assert "--scheduler notanaddress: not a scheduler address" in line

@@ -325,7 +325,7 @@ def test_report_of_a_results_file_read_back(tmp_path, dataset):
     assert list(back["scenario_label"].values) == list(swept["scenario_label"].values)
 
 
-def test_percentiles_from_a_reduced_subset_warn_in_every_output(tmp_path):
+def test_percentiles_from_a_reduced_subset_warn_in_every_output(tmp_path, dataset):
     ds = dataset("saltelli", False).copy()
     n = 2 * int(ds.attrs["base_samples"])
     ds["samples_used"] = ds["samples_used"].copy(data=np.asarray(int(0.9 * n)))

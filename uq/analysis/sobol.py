@@ -41,6 +41,7 @@ from SALib.analyze import sobol as salib_sobol
 from scipy import stats
 
 from plyrisk.design.sampling import Design
+from plyrisk.errors import AnalysisError
 
 if TYPE_CHECKING:  # pragma: no cover
     from plyrisk.analysis.pce import SurrogateIndices
@@ -264,14 +265,16 @@ def sobol_indices(y: np.ndarray, design: Design, *, names: Sequence[str],
     keep = np.isfinite(table).all(axis=1)
     used, dropped = int(keep.sum()), int(n - keep.sum())
     if used < 2:
-        raise ValueError(f"only {used} of {n} base rows have finite outputs; at least 2 needed")
+        raise AnalysisError(f"only {used} of {n} base rows have finite outputs; at least 2 "
+                            "needed (more samples, or check why the solves failed)")
     reps = int(getattr(design, "replicates", 1))
     rep_label = (np.arange(n) % reps)[keep]
     if reps > 1:
         short = np.flatnonzero(np.bincount(rep_label, minlength=reps) < 2)
         if short.size:
-            raise ValueError(f"replicate {short[0]} has fewer than 2 base rows with finite "
-                             f"outputs; at least 2 needed in each of the {reps} replicates")
+            raise AnalysisError(f"replicate {short[0]} has fewer than 2 base rows with finite "
+                                f"outputs; at least 2 needed in each of the {reps} replicates "
+                                "(more samples, or check why the solves failed)")
     table = table[keep]
 
     def analyze(cols: list[int], prob: dict) -> tuple[np.ndarray, ...]:

@@ -32,7 +32,7 @@ from plyrisk.analysis.statistics import (
     replicate_exceedance,
     replicate_quantiles,
 )
-from plyrisk.errors import PlyriskError
+from plyrisk.errors import AnalysisError
 from plyrisk.methods import get_method
 from plyrisk.propagate.evaluate import Propagation, parameter_groups
 
@@ -47,10 +47,6 @@ N x resamples indices); larger designs use the batch jackknife of :mod:`plyrisk.
 
 BAND_PROBABILITIES = (0.01, 0.05, 0.5, 0.95, 0.99)
 """Quantiles always computed, for the 5–95 % and 1–99 % bands of the profile figure [-]."""
-
-
-class AnalysisError(PlyriskError, ValueError):
-    """A study whose results cannot be analysed (e.g. no sample converged); one-line message."""
 
 
 @dataclass(frozen=True)

@@ -156,12 +156,13 @@ def replicate_rule(samples: int, replicates: int) -> str | None:
     """Why ``samples`` base rows cannot be split into ``replicates`` Saltelli designs of a power
     of 2 base rows each, with the nearest valid counts; ``None`` when they can [-]."""
     per, rest = divmod(samples, replicates)
-    if not rest and per >= 1 and not per & (per - 1):
+    if not rest and per >= 2 and not per & (per - 1):
         return None
-    low = replicates << (max(per, 1).bit_length() - 1)
+    low = replicates << max(per.bit_length() - 1, 1)
     near = f"{low} or {2 * low}" if low < samples else f"{low}"
-    return (f"must be replicates ({replicates}) x a power of 2 (each independently scrambled "
-            f"replicate a Sobol' design of a power of 2 base rows), got {samples}; use {near}")
+    return (f"must be replicates ({replicates}) x a power of 2 of at least 2 (each "
+            f"independently scrambled replicate a Sobol' design of a power of 2 base rows, two "
+            f"at least for its estimators), got {samples}; use {near}")
 
 
 def _samples(ctx: Context, raw: Any, method: Method, design: str, replicates: int) -> int:
