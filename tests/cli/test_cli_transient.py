@@ -74,14 +74,16 @@ def test_check_bench_prints_the_criterion_and_the_sweep(capsys):
         assert level in sweep
 
 
-def test_run_stops_after_the_propagation_in_one_line(tmp_path, capsys):
-    """Until the analysis of transient outputs is in, run propagates and says so (exit 2)."""
+def test_run_answers_with_the_time_to_burn(tmp_path, capsys):
+    """run on a transient config: propagation, analysis, summary (answer first), report."""
     config = tmp_path / "tiny.toml"
     from tests.study_texts import FLASH
 
-    config.write_text(FLASH.format(samples=8))
+    config.write_text(FLASH.format(samples=16))
     code = main(["run", str(config), "--out", str(tmp_path / "out"), "--quiet"])
-    err = capsys.readouterr().err
-    assert code == 2
-    assert len(err.splitlines()) == 1
-    assert "transient study propagated (48 samples solved)" in err
+    out = capsys.readouterr().out
+    assert code == 0
+    assert out.index("ANSWER") < out.index("CAUTIONS")
+    assert "time to second-degree burn: P5" in out
+    assert (tmp_path / "out" / "results.nc").exists() and (tmp_path / "out" /
+                                                           "report.html").exists()

@@ -58,7 +58,7 @@ def test_turnout_demo_runs_end_to_end(tmp_path):
     from plyrisk.pipeline.run import run_study, summary_text
 
     study = load_study(CONFIGS / "turnout_flash.toml")
-    result = run_study(study, out_dir=tmp_path, samples=8, quiet=True)
+    result = run_study(study, out_dir=tmp_path, samples=16, quiet=True)
     text = summary_text(result)
     assert text.index("ANSWER") < text.index("CAUTIONS")
     assert "time to second-degree burn: P5" in text and "dominant layer:" in text

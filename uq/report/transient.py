@@ -65,6 +65,9 @@ def _dominant(one: xr.Dataset) -> str:
                 text += (f"; the {names[k]} itself moves it more: total index {tot[k]:.2f} ± "
                          f"{ci[k]:.2f}")
             return text + ")"
+        if output in one and np.ptp(np.nan_to_num(np.asarray(one[output].values, float))) > 0:
+            return (f"dominant layer: not determined (the indices of {output} are undefined at "
+                    "this sample size; raise [study] samples)")
         return f"dominant layer: none ({output} is the same in every sample)"
     if "morris_mu_star" in one:
         mu = np.asarray(one["morris_mu_star"].sel(output=output).values, float)

@@ -175,8 +175,8 @@ def parse_target(text: str) -> Target:
     Examples
     --------
     >>> from plyrisk.study.targets import parse_target
-    >>> parse_target("P95 <= limit")
-    Target(kind='quantile', probability=0.95, threshold=nan, text='P95 <= limit')
+    >>> parse_target("P95 <= limit")  # doctest: +ELLIPSIS
+    Target(kind='quantile', probability=0.95, threshold=nan, text='P95 <= limit', ...)
     >>> target = parse_target("P99  <=  45 degC")
     >>> target.label, round(target.threshold, 6), target.text
     ('P99', 318.15, 'P99 <= 45 degC')
@@ -185,7 +185,10 @@ def parse_target(text: str) -> Target:
     >>> parse_target("P95 < limit")
     Traceback (most recent call last):
     ...
-    ValueError: bad target 'P95 < limit': expected '<=' between the metric and its bound; ...
+    ValueError: bad target 'P95 < limit': expected '<=' between the metric and its bound ...
+    >>> t = parse_target("P5(time_to_second_degree_burn) >= 12 s")
+    >>> t.label, t.threshold, t.engine_probability, t.bound(float("nan"))
+    ('P5(time_to_second_degree_burn)', 12.0, 0.95, -12.0)
     """
     if not isinstance(text, str):
         raise _bad(str(text), f"expected a string, got {type(text).__name__}")

@@ -106,6 +106,10 @@ def headline_sentences(study: Any, analysis: TransientAnalysis, s: int) -> list[
         out.append(f"dominant layer: {name} (for the {rule}: {how})")
     elif primary in sc.constant_outputs:
         out.append(f"dominant layer: none ({primary} is the same in every sample)")
+    elif sc.indices or sc.screening:
+        out.append(f"dominant layer: not determined (the indices of {primary} are undefined at "
+                   "this sample size, e.g. too few samples burn in a design block; raise "
+                   "[study] samples)")
     return out
 
 
