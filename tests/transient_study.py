@@ -206,3 +206,16 @@ def sensor_pce() -> tuple[StandInStudy, Propagation]:
     """PCE on 48 Latin-hypercube samples, sensor."""
     study = fabric_on_sensor(48)
     return study, propagate(study)
+
+
+@functools.cache
+def dataset_of(which):
+    """The results dataset of one of the cached studies above (analysed once per process).
+
+    Tests must not change it in place (``ds.copy(deep=True)`` first).
+    """
+    from plyrisk.methods import get_method
+
+    study, prop = which()
+    method = get_method(study.analysis.method)
+    return method.dataset(study, prop, method.analyse(study, prop))

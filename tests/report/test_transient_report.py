@@ -5,7 +5,6 @@ from __future__ import annotations
 import pytest
 from matplotlib.figure import Figure
 
-from plyrisk.methods import get_method
 from plyrisk.report.figures import transient as tf
 from plyrisk.report.html import write_report
 from plyrisk.results.dataset import read_results, write_results
@@ -15,9 +14,7 @@ from tests.conftest import CONFIGS
 
 
 def _dataset(which):
-    study, prop = which()
-    method = get_method(study.analysis.method)
-    return method.dataset(study, prop, method.analyse(study, prop))
+    return ts.dataset_of(which)
 
 
 @pytest.mark.slow

@@ -7,7 +7,6 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from plyrisk.methods import get_method
 from plyrisk.results.dataset import read_results, write_results
 from tests import transient_study as ts
 
@@ -15,9 +14,7 @@ DOCS = Path(__file__).resolve().parents[2] / "docs" / "results.md"
 
 
 def _dataset(which):
-    study, prop = which()
-    method = get_method(study.analysis.method)
-    return method.dataset(study, prop, method.analyse(study, prop))
+    return ts.dataset_of(which)
 
 
 @pytest.mark.slow

@@ -173,7 +173,8 @@ class CensoredQuantiles:
         return (self.n - self.events) / self.n if self.n else math.nan
 
 
-def censored_quantiles(times: np.ndarray, probabilities: Sequence[float], *, horizon: float,
+def censored_quantiles(times: Any, probabilities: Sequence[float] | np.ndarray, *,
+                       horizon: float,
                        confidence: float = 0.90) -> CensoredQuantiles:
     """Percentiles of event times with ``+inf`` for "no event by the horizon".
 
@@ -425,7 +426,7 @@ def _last_acceptable(x: np.ndarray, p: np.ndarray, acceptable: float) -> tuple[s
     return "crosses", float(x0 + (acceptable - p0) * (x1 - x0) / (p1 - p0))
 
 
-def exposure_limit(levels: Sequence[float], probability: Sequence[float],
+def exposure_limit(levels: Sequence[float] | np.ndarray, probability: Sequence[float],
                    upper: Sequence[float], acceptable: float) -> ExposureLimit:
     """Read off the largest exposure level whose P(event) stays at or below ``acceptable``.
 
@@ -632,12 +633,12 @@ def analyse_transient(study: Study, propagation: Propagation, *,
             dict(getattr(ix, "quality", {}) or {}), dict(getattr(ix, "screening", {}) or {}),
             int(np.sum(~conv)), constant))
     limit = None
-    event = HEADLINE_EVENT.get(facts.wearer_kind)
-    if (statistics and study.scenarios is not None and event is not None
+    headline = HEADLINE_EVENT.get(facts.wearer_kind)
+    if (statistics and study.scenarios is not None and headline is not None
             and facts.acceptable_burn_probability is not None):
         limit = exposure_limit(np.asarray(study.scenarios.values, dtype=float),
-                               [sc.burn[event].probability for sc in result],
-                               [sc.burn[event].upper for sc in result],
+                               [sc.burn[headline].probability for sc in result],
+                               [sc.burn[headline].upper for sc in result],
                                facts.acceptable_burn_probability)
     for sc_i, sc in enumerate(result):
         if sc.constant_outputs:

@@ -244,6 +244,8 @@ def limit_sentence(study, analysis: TransientAnalysis) -> str:
 
     lim = analysis.limit
     sc = study.scenarios
+    if lim is None or sc is None:
+        return ""
     spec = QUANTITIES.get(sc.quantity)
 
     def show(v: float) -> str:

@@ -96,7 +96,7 @@ def report_limit(report: ToleranceReport) -> float:
 
 def _flip(report: ToleranceReport) -> bool:
     """Engine values of a transient target are minus the capped time to the event."""
-    return bool(report.settings.target.transient)
+    return bool(_target(report).transient)
 
 
 def _label(report: ToleranceReport, probability: float) -> str:
@@ -258,7 +258,7 @@ def tolerance_text(report: ToleranceReport, study: Study, *,
 
     if flip:
         lo_name, hi_name = "quantile_upper", "quantile_lower"
-        exceed = f"P({st.target.event or 'event'} within {-report_limit(report):g} s)"
+        exceed = f"P({_target(report).event or 'event'} within {-report_limit(report):g} s)"
     else:
         lo_name, hi_name = "quantile_lower", "quantile_upper"
         exceed = f"P(inner surface > {study.format_temperature(study.analysis.limit)})"
@@ -327,7 +327,7 @@ def tolerance_text(report: ToleranceReport, study: Study, *,
         out += ["", "Notes"] + [f"  - {n}" for n in notes]
     if csv_path is not None:
         out += ["", f"Table written: {csv_path}"]
-    out += ["", cautions_text(transient=report.settings.target.transient)]
+    out += ["", cautions_text(transient=_target(report).transient)]
     return "\n".join(out)
 
 

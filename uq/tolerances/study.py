@@ -184,7 +184,9 @@ def problem_from_study(study: Study, target: Target | None = None, *,
     from plyrisk.analysis.transient import is_transient, transient_facts
 
     if evaluate is None:
-        from plyrisk.propagate.evaluate import evaluate
+        from plyrisk.propagate.evaluate import evaluate as evaluate_study
+
+        evaluate = evaluate_study
     labels = tuple(study.scenarios.labels) if study.scenarios is not None else ()
     names = tuple(p.name for p in study.parameters)
     dists = tuple(p.distribution for p in study.parameters)
@@ -201,8 +203,10 @@ def problem_from_study(study: Study, target: Target | None = None, *,
                              "is only known to exceed the horizon")
         name = target.output
 
+        run = evaluate
+
         def timed(values: np.ndarray) -> np.ndarray:
-            out = evaluate(study, values)
+            out = run(study, values)
             t = np.asarray(out[name], dtype=float)
             return np.where(np.asarray(out["converged"], bool), -np.minimum(t, horizon),
                             np.nan)
@@ -212,8 +216,10 @@ def problem_from_study(study: Study, target: Target | None = None, *,
         raise ValueError(f"target {target.text!r} is about a transient study's time to burn; "
                          "this study is steady")
 
+    run_steady = evaluate
+
     def model(values: np.ndarray) -> np.ndarray:
-        out = evaluate(study, values)
+        out = run_steady(study, values)
         return np.where(out["converged"], out["inner_surface_temperature"], np.nan)
 
     labels = tuple(study.scenarios.labels) if study.scenarios is not None else ()
@@ -246,8 +252,8 @@ def settings_for_study(study: Study, *, target: str | None = None, samples: int 
     changes: dict = {}
     if target is not None:
         changes["target"] = parse_target(target)
-    elif is_transient(study) and not base.target.transient and \
-            base.target.text == parse_target(DEFAULT_TARGET).text:
+    elif is_transient(study) and isinstance(base.target, Target) and \
+            not base.target.transient and base.target.text == parse_target(DEFAULT_TARGET).text:
         facts = transient_facts(study)
         event = HEADLINE_EVENT.get(facts.wearer_kind, "second_degree_burn")
         acceptable = facts.acceptable_burn_probability or 0.05
@@ -312,6 +318,7 @@ def run_tolerances(study: Study, *, target: str | None = None, samples: int | No
     ToleranceReport
     """
     settings = settings_for_study(study, target=target, samples=samples, seed=seed)
+    assert isinstance(settings.target, Target), "settings hold the parsed target"
     problem = problem_from_study(study, settings.target)
     for name in (*settings.cost, *(settings.keep or ()),
                  *(() if settings.nominal_shift is None else (settings.nominal_shift,))):

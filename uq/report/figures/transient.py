@@ -318,9 +318,10 @@ def layer_indices_figure(ds: xr.Dataset, *, scenario: int | None = None,
             fig = Figure(figsize=(8.0, 2.2 + 0.42 * len(names)), layout="constrained")
             ax = fig.add_subplot()
             ax.set_label("layer indices" if groups else "indices")
-            vals = [np.asarray(s[f"{prefix}_{v}"].values, float)
-                    for v in ("first", "first_ci", "total", "total_ci")]
-            _paired_bars(ax, names, *vals, None, None)
+            first, first_ci, total, total_ci = (np.asarray(s[f"{prefix}_{v}"].values, float)
+                                                for v in ("first", "first_ci", "total",
+                                                          "total_ci"))
+            _paired_bars(ax, names, first, first_ci, total, total_ci, None, None)
             ax.set_xlabel("Sobol index [-]")
             fit = ""
             if "surrogate_fit" in s:
