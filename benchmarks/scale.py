@@ -99,7 +99,7 @@ def measure(label: str, runs: int, work):
 
 
 def main(argv: list[str] | None = None) -> int:
-    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0], allow_abbrev=False)
     parser.add_argument("--runs", type=float, default=1e7)
     parser.add_argument("--store-runs", type=float, default=1e8)
     parser.add_argument("--workers", type=int, default=2)

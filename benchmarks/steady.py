@@ -80,7 +80,7 @@ def invented_assembly(n: int, seed: int):
 
 
 def main(argv: list[str] | None = None) -> None:
-    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0], allow_abbrev=False)
     parser.add_argument("--samples", type=int, default=1_000_000, help="vectorized samples")
     parser.add_argument("--loop-samples", type=int, default=2000, help="reference-loop samples")
     parser.add_argument("--seed", type=int, default=20240611, help="generator seed")

@@ -14,7 +14,16 @@
    smallest size from which on every larger size tried also meets the tolerance, so that one
    lucky size does not count. For comparison, the same PCE sizes with least squares only
    (``fit_pce(sparse=False)``, full sets of at most n / 1.5 terms) on the same samples.
-   Last line: ``pce_runs_ratio: <PCE runs / Saltelli runs>``.
+   Line ``pce_runs_ratio: <PCE runs / Saltelli runs>``.
+4. Runs to precision: the model runs that ``--until-converged`` needs to bring every total
+   index of the inner-surface temperature (15 parameters) to a half-width of at most
+   ``--precision`` (0.02) at the study's confidence (90 %), starting at N = 64 and doubling
+   (earlier runs reused, as ``plyrisk.pipeline.sequential`` does): with the former intervals
+   (one scrambled sequence, SALib's bootstrap over rows, 200 resamples) and with replicate
+   intervals (8 independently scrambled replicates, Student t), each for ``--precision-seeds``
+   seeds, in the same run. For each, the share of the final total-index intervals that cover
+   the reference (coverage held). Last line: ``runs_to_precision_ratio: <replicate runs /
+   bootstrap runs>`` (medians over the seeds).
 
 Run from the repository root::
 
@@ -45,7 +54,7 @@ import numpy as np  # noqa: E402
 
 from plyrisk.analysis.pce import fit_pce, shares  # noqa: E402
 from plyrisk.analysis.sobol import sobol_indices  # noqa: E402
-from plyrisk.design.sampling import latin_hypercube_design, sobol_design  # noqa: E402
+from plyrisk.design.sampling import Design, latin_hypercube_design, sobol_design  # noqa: E402
 from plyrisk.pipeline.run import run_study  # noqa: E402
 from plyrisk.propagate.evaluate import evaluate, parameter_groups, unit_to_inputs  # noqa: E402
 from plyrisk.study.config import loads_study  # noqa: E402
@@ -139,6 +148,30 @@ def pce(study, n: int, seed: int) -> tuple[np.ndarray, np.ndarray]:
     return out[0], out[1]
 
 
+def runs_to_precision(study, replicates: int, seed: int, precision: float,
+                      reference: np.ndarray, max_base: int = 2**15) -> tuple[int, float, int]:
+    """Model runs until every total index half-width <= precision, doubling N from 64 with the
+    earlier runs reused; the share of total-index intervals covering the reference; final N."""
+    d = len(study.parameters)
+    groups = parameter_groups(study)[1]
+    n, conf = 64, study.analysis.confidence
+    design = sobol_design(n, d, seed=seed, groups=groups, replicates=replicates)
+    y = inner(study, design.unit)
+    while True:
+        ind, _ = sobol_indices(y, design, names=study.parameter_names,
+                               group_names=parameter_groups(study)[0], confidence=conf,
+                               n_bootstrap=study.analysis.bootstrap, seed=seed)
+        if np.max(ind.total_ci) <= precision or n >= max_base:
+            covered = float(np.mean(np.abs(ind.total - reference[15:]) <= ind.total_ci))
+            return design.n_rows, covered, n
+        extra = sobol_design(n, d, seed=seed, groups=groups, replicates=replicates, start=n)
+        y = np.concatenate([y, inner(study, extra.unit)])
+        unit = np.vstack([design.unit, extra.unit])
+        block = np.concatenate([design.block, extra.block])
+        design = Design(unit, block, "sobol", 2 * n, design.groups, replicates)
+        n *= 2
+
+
 def needed(sizes, errors, tolerance: float) -> int | None:
     """The smallest size from which on every larger size meets the tolerance."""
     ok = [e <= tolerance for e in errors]
@@ -149,11 +182,17 @@ def needed(sizes, errors, tolerance: float) -> int | None:
 
 
 def main() -> int:
-    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0], allow_abbrev=False)
     parser.add_argument("--repeat", type=int, default=3, help="timed runs of the study (best)")
     parser.add_argument("--profile", action="store_true", help="print the cProfile of a run")
     parser.add_argument("--reference-samples", type=int, default=2**16)
     parser.add_argument("--tolerance", type=float, default=0.02)
+    parser.add_argument("--precision", type=float, default=0.02,
+                        help="total-index half-width --until-converged must reach")
+    parser.add_argument("--precision-seeds", type=int, default=3,
+                        help="seeds of the runs-to-precision comparison")
+    parser.add_argument("--precision-only", action="store_true",
+                        help="only the reference and the runs-to-precision comparison")
     args = parser.parse_args()
     warnings.simplefilter("ignore")
     study = loads_study(STACK, source="<benchmark stack>")
@@ -161,10 +200,11 @@ def main() -> int:
     with tempfile.TemporaryDirectory() as tmp:
         run_study(study, samples=64, quiet=True)  # warm-up: imports, caches
         times = []
-        for _ in range(max(args.repeat, 1)):
+        for _ in range(0 if args.precision_only else max(args.repeat, 1)):
             start = time.perf_counter()
             result = run_study(study, out_dir=tmp, quiet=True)
             times.append(time.perf_counter() - start)
+    if times:
         runs = result.propagation.inputs.shape[0]
         best = min(times)
         print(f"saltelli study: {len(study.parameters)} inputs, N = {study.analysis.samples}, "
@@ -173,10 +213,11 @@ def main() -> int:
               + ", ".join(f"{t:.2f}" for t in times) + f"); {runs / best:,.0f} model runs/s "
               "end to end")
         if args.profile:
-            profile = cProfile.Profile()
-            profile.enable()
-            run_study(study, out_dir=tmp, quiet=True)
-            profile.disable()
+            with tempfile.TemporaryDirectory() as tmp:
+                profile = cProfile.Profile()
+                profile.enable()
+                run_study(study, out_dir=tmp, quiet=True)
+                profile.disable()
             pstats.Stats(profile).sort_stats("tottime").print_stats(15)
 
     start = time.perf_counter()
@@ -184,6 +225,8 @@ def main() -> int:
     print(f"reference: saltelli N = {args.reference_samples} ({ref_runs} runs, "
           f"{time.perf_counter() - start:.1f} s); largest total index {reference[15:].max():.3f}")
 
+    if args.precision_only:
+        return precision(study, reference, args)
     sizes, errors, costs = [], [], []
     n = 64
     while n <= args.reference_samples // 8:
@@ -216,6 +259,24 @@ def main() -> int:
     print(f"runs for every index within {args.tolerance} of the reference: saltelli "
           f"{salt_runs} (N = {n_salt}), pce {pce_runs}")
     print(f"pce_runs_ratio: {pce_runs / salt_runs:.4f}")
+    return precision(study, reference, args)
+
+
+def precision(study, reference: np.ndarray, args) -> int:
+    """Step 4: runs to precision with bootstrap and with replicate intervals."""
+    print(f"runs to precision: every total index of the inner-surface temperature to a "
+          f"half-width <= {args.precision} at {study.analysis.confidence:.0%} "
+          "(--until-converged from N = 64, doubling)")
+    medians = {}
+    for label, reps in (("bootstrap (1 sequence)", 1), ("replicates (8, Student t)", 8)):
+        start = time.perf_counter()
+        found = [runs_to_precision(study, reps, seed, args.precision, reference)
+                 for seed in range(11, 11 + args.precision_seeds)]
+        medians[reps] = float(np.median([f[0] for f in found]))
+        print(f"  {label}: runs " + ", ".join(f"{r} (N = {n})" for r, _, n in found)
+              + f"; median {medians[reps]:.0f}; intervals covering the reference "
+              f"{np.mean([f[1] for f in found]):.2f} ({time.perf_counter() - start:.1f} s)")
+    print(f"runs_to_precision_ratio: {medians[8] / medians[1]:.4f}")
     return 0
 
 

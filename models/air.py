@@ -74,12 +74,18 @@ def viscosity(temperature: ArrayLike, *, check_range: bool = True) -> np.ndarray
     temperature
         Air temperature [K].
     check_range
-        Warn when a temperature is outside ``VALID_RANGE`` [-].
+        Warn when a temperature is outside ``VALID_RANGE``.
 
     Returns
     -------
     numpy.ndarray
         Dynamic viscosity [Pa s].
+
+    Examples
+    --------
+    >>> from plyrisk.models.air import viscosity
+    >>> print(f"{viscosity(300.0):.4g} Pa s")
+    1.852e-05 Pa s
     """
     t = np.asarray(temperature, dtype=float)
     if check_range:
@@ -100,12 +106,29 @@ def thermal_conductivity(temperature: ArrayLike, *, check_range: bool = True) ->
     temperature
         Air temperature [K].
     check_range
-        Warn when a temperature is outside ``VALID_RANGE`` [-].
+        Warn when a temperature is outside ``VALID_RANGE``.
 
     Returns
     -------
     numpy.ndarray
         Thermal conductivity [W m-1 K-1].
+
+    Examples
+    --------
+    Scalars and arrays alike (every function of this module broadcasts):
+
+    >>> from plyrisk.models.air import thermal_conductivity
+    >>> thermal_conductivity([300.0, 600.0]).round(4)
+    array([0.0264, 0.046 ])
+
+    Outside 250–1500 K the values are extrapolated, with a ``RuntimeWarning``:
+
+    >>> import warnings
+    >>> with warnings.catch_warnings(record=True) as caught:
+    ...     warnings.simplefilter("always")
+    ...     _ = thermal_conductivity(200.0)
+    >>> caught[0].category.__name__
+    'RuntimeWarning'
     """
     t = np.asarray(temperature, dtype=float)
     if check_range:
@@ -133,12 +156,20 @@ def density(
     pressure
         Absolute pressure [Pa].
     check_range
-        Warn when a temperature is outside ``VALID_RANGE`` [-].
+        Warn when a temperature is outside ``VALID_RANGE``.
 
     Returns
     -------
     numpy.ndarray
         Density [kg m-3].
+
+    Examples
+    --------
+    >>> from plyrisk.models.air import density
+    >>> print(f"{density(300.0):.4g} kg m-3")
+    1.176 kg m-3
+    >>> print(f"{density(300.0, pressure=50e3):.4g} kg m-3")
+    0.5805 kg m-3
     """
     t = np.asarray(temperature, dtype=float)
     if check_range:
@@ -156,12 +187,18 @@ def heat_capacity(temperature: ArrayLike, *, check_range: bool = True) -> np.nda
     temperature
         Air temperature [K].
     check_range
-        Warn when a temperature is outside ``VALID_RANGE`` [-].
+        Warn when a temperature is outside ``VALID_RANGE``.
 
     Returns
     -------
     numpy.ndarray
         Specific heat capacity [J kg-1 K-1].
+
+    Examples
+    --------
+    >>> from plyrisk.models.air import heat_capacity
+    >>> print(f"{heat_capacity(300.0):.4g} J kg-1 K-1")
+    1006 J kg-1 K-1
     """
     t = np.asarray(temperature, dtype=float)
     if check_range:
@@ -177,12 +214,18 @@ def expansion_coefficient(temperature: ArrayLike, *, check_range: bool = True) -
     temperature
         Air temperature [K].
     check_range
-        Warn when a temperature is outside ``VALID_RANGE`` [-].
+        Warn when a temperature is outside ``VALID_RANGE``.
 
     Returns
     -------
     numpy.ndarray
         Expansion coefficient [K-1].
+
+    Examples
+    --------
+    >>> from plyrisk.models.air import expansion_coefficient
+    >>> print(f"{expansion_coefficient(300.0):.4g} K-1")
+    0.003333 K-1
     """
     t = np.asarray(temperature, dtype=float)
     if check_range:
@@ -198,12 +241,18 @@ def thermal_diffusivity(temperature: ArrayLike, *, check_range: bool = True) -> 
     temperature
         Air temperature [K].
     check_range
-        Warn when a temperature is outside ``VALID_RANGE`` [-].
+        Warn when a temperature is outside ``VALID_RANGE``.
 
     Returns
     -------
     numpy.ndarray
         Thermal diffusivity [m2 s-1].
+
+    Examples
+    --------
+    >>> from plyrisk.models.air import thermal_diffusivity
+    >>> print(f"{thermal_diffusivity(300.0):.4g} m2 s-1")
+    2.227e-05 m2 s-1
     """
     t = np.asarray(temperature, dtype=float)
     if check_range:
@@ -220,12 +269,18 @@ def kinematic_viscosity(temperature: ArrayLike, *, check_range: bool = True) -> 
     temperature
         Air temperature [K].
     check_range
-        Warn when a temperature is outside ``VALID_RANGE`` [-].
+        Warn when a temperature is outside ``VALID_RANGE``.
 
     Returns
     -------
     numpy.ndarray
         Kinematic viscosity [m2 s-1].
+
+    Examples
+    --------
+    >>> from plyrisk.models.air import kinematic_viscosity
+    >>> print(f"{kinematic_viscosity(300.0):.4g} m2 s-1")
+    1.575e-05 m2 s-1
     """
     t = np.asarray(temperature, dtype=float)
     if check_range:

@@ -16,6 +16,9 @@ from scipy.constants import Stefan_Boltzmann as SIGMA
 
 from plyrisk.models.stack import check_emissivity, check_nonnegative, check_temperature
 
+FloatArray = float | np.ndarray
+"""A scalar or an array of samples (what the heat-flow functions compute with)."""
+
 # --------------------------------------------------------------------------------------------
 # Hot side
 # --------------------------------------------------------------------------------------------
@@ -185,11 +188,11 @@ COLD_SIDE_KINDS = {
 def hot_environment_flux(
     face_temperature: np.ndarray,
     *,
-    incident_flux: ArrayLike,
-    gas_temperature: ArrayLike,
-    convection_coefficient: ArrayLike,
-    surroundings_temperature: ArrayLike,
-    emissivity: ArrayLike,
+    incident_flux: FloatArray,
+    gas_temperature: FloatArray,
+    convection_coefficient: FloatArray,
+    surroundings_temperature: FloatArray,
+    emissivity: FloatArray,
 ) -> tuple[np.ndarray, np.ndarray]:
     """Net heat flux into the exposed face from a fire or furnace environment.
 
@@ -230,10 +233,10 @@ def hot_environment_flux(
 def cold_environment_flux(
     face_temperature: np.ndarray,
     *,
-    ambient_temperature: ArrayLike,
-    convection_coefficient: ArrayLike,
-    surroundings_temperature: ArrayLike,
-    emissivity: ArrayLike,
+    ambient_temperature: FloatArray,
+    convection_coefficient: FloatArray,
+    surroundings_temperature: FloatArray,
+    emissivity: FloatArray,
 ) -> tuple[np.ndarray, np.ndarray]:
     """Heat flux leaving the innermost face to an ambient.
 

@@ -134,7 +134,7 @@ def nusselt(rayleigh: ArrayLike, *, orientation: str, aspect_ratio: ArrayLike) -
     rayleigh
         Rayleigh number based on the gap width [-].
     orientation
-        ``"vertical"``, ``"horizontal-up"`` (heat flows up) or ``"horizontal-down"`` [-].
+        ``"vertical"``, ``"horizontal-up"`` (heat flows up) or ``"horizontal-down"``.
     aspect_ratio
         Gap height over width, used for vertical gaps only [-].
 
@@ -168,7 +168,7 @@ def nusselt_with_slope(
     rayleigh
         Rayleigh number based on the gap width [-].
     orientation
-        ``"vertical"``, ``"horizontal-up"`` or ``"horizontal-down"`` [-].
+        ``"vertical"``, ``"horizontal-up"`` or ``"horizontal-down"``.
     aspect_ratio
         Gap height over width, used for vertical gaps only [-].
 
@@ -220,7 +220,7 @@ def convection_onset(
     rayleigh
         Rayleigh number based on the gap width [-].
     orientation
-        ``"vertical"``, ``"horizontal-up"`` or ``"horizontal-down"`` [-].
+        ``"vertical"``, ``"horizontal-up"`` or ``"horizontal-down"``.
     aspect_ratio
         Gap height over width [-].
 
@@ -256,7 +256,8 @@ def _vertical_onset_thresholds() -> tuple[float, float, float]:
     return float(ra1), float(ra2), float(r3)
 
 
-def warn_outside_range(rayleigh: np.ndarray, *, orientation: str, aspect_ratio) -> None:
+def warn_outside_range(rayleigh: np.ndarray, *, orientation: str,
+                       aspect_ratio: ArrayLike) -> None:
     """Warn (once per message) when a correlation is used outside its validity range.
 
     Parameters
@@ -264,7 +265,7 @@ def warn_outside_range(rayleigh: np.ndarray, *, orientation: str, aspect_ratio) 
     rayleigh
         Rayleigh numbers where the correlation was applied [-].
     orientation
-        ``"vertical"``, ``"horizontal-up"`` or ``"horizontal-down"`` [-].
+        ``"vertical"``, ``"horizontal-up"`` or ``"horizontal-down"``.
     aspect_ratio
         Gap height over width at the same samples [-].
     """

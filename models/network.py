@@ -20,9 +20,10 @@ from __future__ import annotations
 import warnings
 from collections.abc import Sequence
 from dataclasses import dataclass, fields, replace
-from typing import Any
+from typing import Any, cast
 
 import numpy as np
+from numpy.typing import ArrayLike
 from scipy.constants import Stefan_Boltzmann as SIGMA
 
 from plyrisk.models import air, convection
@@ -90,7 +91,7 @@ class NetworkSolution:
         Labels of the faces and elements; ``element_layers`` gives the index in the input stack
         of the layer each element belongs to (a contact belongs to the solid before it).
     inner_surface_index
-        Column of ``interface_temperature`` holding the inner-surface temperature [-].
+        Column of ``interface_temperature`` holding the inner-surface temperature.
 
     Samples that did not converge carry NaN in every numeric output.
     """
@@ -149,9 +150,11 @@ def _build_elements(layers: Sequence[Element], cold_side: ColdSide) -> list[_Ele
                     )
                 )
         elif isinstance(layer, Gap):
-            before = layers[i - 1]
-            after = layers[i + 1] if i + 1 < len(layers) else None
-            eps_b = after.emissivity_hot if after is not None else cold_side.emissivity
+            # a validated stack: a gap lies between solids, or ends at a surface cold side
+            before = cast(Solid, layers[i - 1])
+            after = cast(Solid, layers[i + 1]) if i + 1 < len(layers) else None
+            eps_b = (after.emissivity_hot if after is not None
+                     else cast(ColdSurface, cold_side).emissivity)
             elements.append(
                 _Element(
                     "gap",
@@ -177,10 +180,10 @@ def interface_names(layers: Sequence[Element], cold_side: ColdSide) -> tuple[str
     Parameters
     ----------
     layers
-        Solids and gaps, hot side first. [-]
+        Solids and gaps, hot side first.
     cold_side
         The cold-side boundary (a :class:`~plyrisk.models.boundary.ColdSurface` adds the skin
-        face). [-]
+        face).
 
     Returns
     -------
@@ -216,15 +219,18 @@ def _gap_constants(el: _Element) -> dict:
     }
 
 
-def _element_flux(el: _Element, ta, tb, *, radiation: str, convection_enabled: bool, gap=None):
+def _element_flux(el: _Element, ta: np.ndarray, tb: np.ndarray, *, radiation: str,
+                  convection_enabled: bool, gap: dict[str, Any] | None = None,
+                  ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     if el.kind == "solid":
         return solid_heat_flux(ta, tb, **el.params)
     if el.kind == "contact":
         return contact_heat_flux(ta, tb, **el.params)
-    return gap_kernel(ta, tb, radiation=radiation, convection_enabled=convection_enabled, **gap)
+    return gap_kernel(ta, tb, radiation=radiation, convection_enabled=convection_enabled,
+                      **cast(dict[str, Any], gap))
 
 
-def _sample_count(*objects) -> int:
+def _sample_count(*objects: Any) -> int:
     n = 1
     for obj in objects:
         for f in fields(obj):
@@ -249,7 +255,7 @@ def _sample_count(*objects) -> int:
     return n
 
 
-def _slice(obj, sl: slice, n: int):
+def _slice(obj: Any, sl: slice, n: int) -> Any:
     changes = {}
     for f in fields(obj):
         v = getattr(obj, f.name)
@@ -275,27 +281,27 @@ def solve_network(
     Parameters
     ----------
     layers
-        Solids and gaps, hot (exposed) side first; numeric fields scalars or ``(n,)`` arrays. [-]
+        Solids and gaps, hot (exposed) side first; numeric fields scalars or ``(n,)`` arrays.
     hot_side
         Boundary condition of the exposed face (:class:`plyrisk.models.boundary.HotFlux`,
         :class:`~plyrisk.models.boundary.HotTemperature` or
-        :class:`~plyrisk.models.boundary.HotEnvironment`). [-]
+        :class:`~plyrisk.models.boundary.HotEnvironment`).
     cold_side
         Boundary condition on the wearer side (:class:`plyrisk.models.boundary.ColdTemperature`,
         :class:`~plyrisk.models.boundary.ColdSurface` or
-        :class:`~plyrisk.models.boundary.ColdEnvironment`). [-]
+        :class:`~plyrisk.models.boundary.ColdEnvironment`).
     radiation
-        Gap radiation: ``"exact"`` (``sigma (T1^4 - T2^4)``) or ``"linearized"`` [-].
+        Gap radiation: ``"exact"`` (``sigma (T1^4 - T2^4)``) or ``"linearized"``.
     convection_enabled
-        Apply natural-convection correlations in gaps [-].
+        Apply natural-convection correlations in gaps.
     tolerance
         Convergence: largest Newton step of any face temperature [K].
     max_iterations
-        Newton iterations before a sample is declared not converged [-].
+        Newton iterations before a sample is declared not converged.
     chunk_size
-        Samples solved together [-]; the result does not depend on it.
+        Samples solved together; the result does not depend on it.
     validate
-        Check every element, boundary and the arrangement first [-].
+        Check every element, boundary and the arrangement first.
 
     Returns
     -------
@@ -307,6 +313,33 @@ def solve_network(
         (a ``ValueError``) naming the layer, the quantity and the bad value.
     ValueError
         For an unknown ``radiation`` mode or a non-positive ``tolerance``.
+
+    Examples
+    --------
+    One fabric between two prescribed face temperatures conducts by Fourier's law,
+    ``q = k (T_hot - T_cold) / L``; here two samples of its conductivity:
+
+    >>> from plyrisk.models.boundary import ColdTemperature, HotTemperature
+    >>> from plyrisk.models.network import solve_network
+    >>> from plyrisk.models.stack import Gap, Solid
+    >>> fabric = Solid("fabric", thickness=1e-3, conductivity=[0.04, 0.05])
+    >>> solution = solve_network([fabric], HotTemperature(343.15), ColdTemperature(303.15))
+    >>> solution.heat_flux.round(3)
+    array([1600., 2000.])
+    >>> solution.converged
+    array([ True,  True])
+
+    A shell, an air gap and a liner; the gap passes heat by conduction and radiation:
+
+    >>> layers = [Solid("shell", thickness=1e-3, conductivity=0.05), Gap("air", width=3e-3),
+    ...           Solid("liner", thickness=2e-3, conductivity=0.04)]
+    >>> solution = solve_network(layers, HotTemperature(343.15), ColdTemperature(303.15))
+    >>> solution.interface_names
+    ('exposed face', 'shell | air', 'air | liner', 'inner face')
+    >>> (solution.interface_temperature - 273.15).round(1)
+    array([[70. , 64. , 45.1, 30. ]])
+    >>> solution.radiative_share.round(2)
+    array([[ nan, 0.41,  nan]])
     """
     if radiation not in RADIATION_MODES:
         raise ValueError(f"radiation {radiation!r} is not one of {', '.join(RADIATION_MODES)}")
@@ -367,7 +400,7 @@ def solve_network(
     return solution
 
 
-def _full(value, n: int) -> np.ndarray:
+def _full(value: ArrayLike, n: int) -> np.ndarray:
     return np.broadcast_to(np.asarray(value, dtype=float), (n,)).copy()
 
 
@@ -378,8 +411,8 @@ class _Boundaries:
     hot_fixed: bool
     cold_fixed: bool
     hot_flux: Any          # HotFlux: the imposed flux [W m-2]; else None
-    hot_kw: dict | None    # HotEnvironment: keywords of hot_environment_flux
-    cold_kw: dict | None   # ColdEnvironment: keywords of cold_environment_flux
+    hot_kw: dict[str, Any] | None   # HotEnvironment: keywords of hot_environment_flux
+    cold_kw: dict[str, Any] | None  # ColdEnvironment: keywords of cold_environment_flux
     t_cold: np.ndarray     # reference cold-side temperature of the starting field [K]
 
 
@@ -398,7 +431,7 @@ def _boundaries(layers: list[Element], hot_side: HotSide, cold_side: ColdSide,
             "ambient_temperature": cold_side.ambient_temperature,
             "convection_coefficient": cold_side.convection_coefficient,
             "surroundings_temperature": cold_surround,
-            "emissivity": layers[-1].emissivity_cold,
+            "emissivity": cast(Solid, layers[-1]).emissivity_cold,
         }
     else:
         t_cold = _full(cold_side.temperature, n)
@@ -413,7 +446,7 @@ def _boundaries(layers: list[Element], hot_side: HotSide, cold_side: ColdSide,
                 if hot_side.surroundings_temperature is not None
                 else hot_side.gas_temperature
             ),
-            "emissivity": layers[0].emissivity_hot,
+            "emissivity": cast(Solid, layers[0]).emissivity_hot,
         }
     return _Boundaries(
         hot_fixed=isinstance(hot_side, HotTemperature),
@@ -444,7 +477,7 @@ def _solve_chunk(
     gaps = [_gap_constants(el) if el.kind == "gap" else None for el in elements]
     t = _starting_field(
         elements, gaps, n,
-        t_hot=_full(hot_side.temperature, n) if bc.hot_fixed else None,
+        t_hot=_full(cast(HotTemperature, hot_side).temperature, n) if bc.hot_fixed else None,
         heat_flux=_full(bc.hot_flux, n) if bc.hot_flux is not None else None,
         hot_kw=bc.hot_kw,
         t_cold=bc.t_cold,
@@ -492,6 +525,8 @@ def _newton(elements: list[_Element], gaps: list, t: np.ndarray, bc: _Boundaries
     b = np.empty((nodes, n))  # diagonal       dF_j/dT_j
     c = np.zeros((nodes, n))  # super-diagonal dF_j/dT_{j+1}
     f = np.empty((nodes, n))  # minus the residual, -F_j
+    hot_kw: dict[str, Any] = bc.hot_kw or {}    # used for a HotEnvironment only
+    cold_kw: dict[str, Any] = bc.cold_kw or {}  # used for a ColdEnvironment only
     for _ in range(max_iterations):
         f[0] = 0.0
         b[0] = 0.0
@@ -508,13 +543,13 @@ def _newton(elements: list[_Element], gaps: list, t: np.ndarray, bc: _Boundaries
         elif bc.hot_flux is not None:
             f[0] -= bc.hot_flux
         else:
-            q_in, dq_in = hot_environment_flux(t[0], **bc.hot_kw)
+            q_in, dq_in = hot_environment_flux(t[0], **hot_kw)
             f[0] -= q_in
             b[0] += dq_in
         if bc.cold_fixed:
             f[-1], a[-1], b[-1] = 0.0, 0.0, 1.0
         else:
-            q_out, dq_out = cold_environment_flux(t[-1], **bc.cold_kw)
+            q_out, dq_out = cold_environment_flux(t[-1], **cold_kw)
             f[-1] += q_out
             b[-1] -= dq_out
         step = _thomas(a, b, c, f)
@@ -595,7 +630,7 @@ def _solution_details(elements: list[_Element], gaps: list, t: np.ndarray,
 
 
 PASSES = 2
-"""Passes of the linearized network that give the Newton start (N.4) [-]."""
+"""Passes of the linearized network that give the Newton start (N.4)."""
 
 
 def _starting_field(
@@ -605,9 +640,9 @@ def _starting_field(
     *,
     t_hot: np.ndarray | None,
     heat_flux: np.ndarray | None,
-    hot_kw: dict | None,
+    hot_kw: dict[str, Any] | None,
     t_cold: np.ndarray,
-    cold_kw: dict | None,
+    cold_kw: dict[str, Any] | None,
 ) -> np.ndarray:
     """Face temperatures of the network with every element linearized (N.4).
 
@@ -621,23 +656,23 @@ def _starting_field(
     Parameters
     ----------
     elements
-        Network elements, hot side first [-].
+        Network elements, hot side first.
     gaps
-        Per element, the precomputed gap constants or ``None`` [-].
+        Per element, the precomputed gap constants or ``None``.
     n
-        Samples in the chunk [-].
+        Samples in the chunk.
     t_hot
         Prescribed exposed-face temperature, or ``None`` [K].
     heat_flux
         Prescribed net flux into the exposed face, or ``None`` [W m-2].
     hot_kw
-        Keyword arguments of :func:`plyrisk.models.boundary.hot_environment_flux`, or ``None`` [-].
+        Keyword arguments of :func:`plyrisk.models.boundary.hot_environment_flux`, or ``None``.
     t_cold
         Cold-side (or ambient) temperature [K].
     cold_kw
         Keyword arguments of :func:`plyrisk.models.boundary.cold_environment_flux`, or ``None`` for
         a
-        prescribed cold face [-].
+        prescribed cold face.
 
     Returns
     -------
@@ -680,7 +715,7 @@ def _starting_field(
             t0 = t_cold + q * r_total
         else:  # q_in(T0) = (T0 - T_cold) / R, a few Newton steps (B.1); fewer once close
             for _ in range(4 if first else 2):
-                q_in, dq_in = hot_environment_flux(t0, **hot_kw)
+                q_in, dq_in = hot_environment_flux(t0, **cast(dict[str, Any], hot_kw))
                 f = q_in - (t0 - t_cold) / r_total
                 t0 = np.maximum(t0 - f / (dq_in - 1.0 / r_total), 0.5 * t0)
             q = (t0 - t_cold) / r_total

@@ -38,9 +38,10 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 from dataclasses import fields, replace
-from typing import TypeVar
+from typing import TYPE_CHECKING, Any, TypeVar, cast
 
 import numpy as np
+from numpy.typing import ArrayLike
 from scipy.constants import Stefan_Boltzmann as SIGMA
 from scipy.constants import g as GRAVITY
 from scipy.optimize import brentq, root
@@ -49,6 +50,7 @@ from plyrisk.models import air, convection
 from plyrisk.models.boundary import (
     ColdEnvironment,
     ColdSide,
+    ColdSurface,
     HotEnvironment,
     HotFlux,
     HotSide,
@@ -57,16 +59,19 @@ from plyrisk.models.boundary import (
 from plyrisk.models.stack import Element, Gap, Solid, validate_stack
 
 REFERENCE_RADIATION_MODES = ("exact", "linearized")
-"""Gap radiation treatments accepted by :func:`solve_reference` [-]."""
+"""Gap radiation treatments accepted by :func:`solve_reference`."""
 
 DEFAULT_XTOL = 1e-13
-"""Relative step tolerance passed to MINPACK ``hybrd`` [-]."""
+"""Relative step tolerance passed to MINPACK ``hybrd``."""
 
 CORRECTION_TOLERANCE = 1e-9
 """Largest accepted Newton correction of any face temperature at the solution [K]."""
 
 
-_T = TypeVar("_T")
+if TYPE_CHECKING:  # pragma: no cover
+    from _typeshed import DataclassInstance
+
+_T = TypeVar("_T", bound="DataclassInstance")
 
 
 class ReferenceSolveError(RuntimeError):
@@ -81,9 +86,9 @@ def select_sample(obj: _T, index: int) -> _T:
     obj
         A :class:`plyrisk.models.stack.Solid`, :class:`~plyrisk.models.stack.Gap` or boundary
         dataclass whose
-        numeric fields are scalars or 1-D arrays of samples [-].
+        numeric fields are scalars or 1-D arrays of samples.
     index
-        The sample to keep [-].
+        The sample to keep.
 
     Returns
     -------
@@ -100,7 +105,7 @@ def select_sample(obj: _T, index: int) -> _T:
     return replace(obj, **changes)
 
 
-def _scalar(value) -> float:
+def _scalar(value: ArrayLike) -> float:
     a = np.asarray(value, dtype=float)
     if a.size != 1:
         raise ValueError(
@@ -127,11 +132,12 @@ def _flatten(layers: Sequence[Element], cold_side: ColdSide) -> list[tuple]:
             if layer.contact_resistance is not None:
                 out.append(("contact", _scalar(layer.contact_resistance)))
         elif isinstance(layer, Gap):
-            eps_a = _scalar(layers[i - 1].emissivity_cold)
+            # a validated stack: a gap lies between solids, or ends at a surface cold side
+            eps_a = _scalar(cast(Solid, layers[i - 1]).emissivity_cold)
             if i + 1 < len(layers):
-                eps_b = _scalar(layers[i + 1].emissivity_hot)
+                eps_b = _scalar(cast(Solid, layers[i + 1]).emissivity_hot)
             else:
-                eps_b = _scalar(cold_side.emissivity)
+                eps_b = _scalar(cast(ColdSurface, cold_side).emissivity)
             width = _scalar(layer.width)
             out.append(
                 (
@@ -175,9 +181,9 @@ def element_flux(
     tb
         Temperature of the cold-side face [K].
     radiation
-        ``"exact"`` or ``"linearized"`` [-].
+        ``"exact"`` or ``"linearized"``.
     convection_enabled
-        Apply the natural-convection Nusselt number in gaps [-].
+        Apply the natural-convection Nusselt number in gaps.
 
     Returns
     -------
@@ -207,13 +213,15 @@ def element_flux(
 class _Problem:
     """Scalar boundary data and flattened elements of one sample."""
 
-    def __init__(self, layers, hot_side, cold_side, radiation, convection_enabled):
+    def __init__(self, layers: Sequence[Element], hot_side: HotSide, cold_side: ColdSide,
+                 radiation: str, convection_enabled: bool) -> None:
         self.elements = _flatten(layers, cold_side)
         self.nodes = len(self.elements) + 1
-        self.kw = {"radiation": radiation, "convection_enabled": convection_enabled}
+        self.kw: dict[str, Any] = {"radiation": radiation,
+                                   "convection_enabled": convection_enabled}
         self.hot = hot_side
         self.cold = cold_side
-        self.eps_exposed = _scalar(layers[0].emissivity_hot)
+        self.eps_exposed = _scalar(cast(Solid, layers[0]).emissivity_hot)
         last = layers[-1]
         self.eps_inner = _scalar(last.emissivity_cold) if isinstance(last, Solid) else math.nan
         self.hot_fixed = isinstance(hot_side, HotTemperature)
@@ -260,7 +268,7 @@ class _Problem:
     def temperatures(self, free_values: np.ndarray) -> list[float]:
         t = [0.0] * self.nodes
         if self.hot_fixed:
-            t[0] = _scalar(self.hot.temperature)
+            t[0] = _scalar(cast(HotTemperature, self.hot).temperature)
         if self.cold_fixed:
             t[-1] = self.t_cold
         for j, v in zip(self.free, free_values, strict=True):
@@ -301,7 +309,7 @@ class _Problem:
     def hot_estimate(self) -> float:
         """A rough exposed-face temperature for the starting ramp [K]."""
         if self.hot_fixed:
-            return _scalar(self.hot.temperature)
+            return _scalar(cast(HotTemperature, self.hot).temperature)
         if isinstance(self.hot, HotEnvironment):
             # Adiabatic face temperature: heat flows inward, so the face is no hotter than this.
             lo = 1e-3
@@ -332,21 +340,21 @@ def solve_reference(
     ----------
     layers
         Solids and gaps, hot (exposed) side first, with scalar numeric fields (see
-        :func:`select_sample`) [-].
+        :func:`select_sample`).
     hot_side
         :class:`plyrisk.models.boundary.HotFlux`, :class:`~plyrisk.models.boundary.HotTemperature`
         or
-        :class:`~plyrisk.models.boundary.HotEnvironment` with scalar fields [-].
+        :class:`~plyrisk.models.boundary.HotEnvironment` with scalar fields.
     cold_side
         :class:`plyrisk.models.boundary.ColdTemperature`,
         :class:`~plyrisk.models.boundary.ColdSurface` or
-        :class:`~plyrisk.models.boundary.ColdEnvironment` with scalar fields [-].
+        :class:`~plyrisk.models.boundary.ColdEnvironment` with scalar fields.
     radiation
-        ``"exact"`` or ``"linearized"`` gap radiation [-].
+        ``"exact"`` or ``"linearized"`` gap radiation.
     convection_enabled
-        Apply natural-convection correlations in gaps [-].
+        Apply natural-convection correlations in gaps.
     xtol
-        Relative step tolerance of the hybrid Powell iteration [-].
+        Relative step tolerance of the hybrid Powell iteration.
 
     Returns
     -------
@@ -382,7 +390,7 @@ def solve_reference(
         np.full(p.nodes, 0.5 * (t_hot + p.t_cold)),
         np.full(p.nodes, p.t_cold),
     ]
-    barrier = None
+    barrier = np.empty(0)  # the huge imbalance, sized for each starting guess below
 
     def equations(x: np.ndarray) -> np.ndarray:
         # Trial points at or below 0 K (where T^4 has spurious roots and the air properties are
@@ -430,15 +438,15 @@ def reference_fluxes(
     Parameters
     ----------
     layers
-        Solids and gaps with scalar fields, hot side first [-].
+        Solids and gaps with scalar fields, hot side first.
     cold_side
-        The cold-side boundary (its emissivity faces the last gap when a surface) [-].
+        The cold-side boundary (its emissivity faces the last gap when a surface).
     temperatures
         Face temperatures hot → cold, ``(M + 1,)`` [K].
     radiation
-        ``"exact"`` or ``"linearized"`` [-].
+        ``"exact"`` or ``"linearized"``.
     convection_enabled
-        Apply natural-convection correlations in gaps [-].
+        Apply natural-convection correlations in gaps.
 
     Returns
     -------
@@ -449,5 +457,6 @@ def reference_fluxes(
     t = [float(v) for v in temperatures]
     if len(t) != len(elements) + 1:
         raise ValueError(f"expected {len(elements) + 1} face temperatures, got {len(t)}")
-    kw = {"radiation": radiation, "convection_enabled": bool(convection_enabled)}
-    return np.array([element_flux(el, t[j], t[j + 1], **kw) for j, el in enumerate(elements)])
+    return np.array([element_flux(el, t[j], t[j + 1], radiation=radiation,
+                                  convection_enabled=bool(convection_enabled))
+                     for j, el in enumerate(elements)])

@@ -8,13 +8,19 @@ and the solve in :mod:`plyrisk.models.network`.
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass, fields
-from typing import Literal
+from typing import TYPE_CHECKING, Any, Literal
 
 import numpy as np
 from numpy.typing import ArrayLike
 
 from plyrisk.errors import PlyriskError
+
+if TYPE_CHECKING:  # pragma: no cover - boundary imports this module
+    from _typeshed import DataclassInstance
+
+    from plyrisk.models.boundary import ColdSide, HotSide
 
 GAP_ORIENTATIONS = ("vertical", "horizontal-up", "horizontal-down")
 """Gap orientations: a vertical gap (heat flows horizontally), a horizontal gap with heat flowing
@@ -30,7 +36,7 @@ class Solid:
     Parameters
     ----------
     name
-        Label used in tables and parameter names [-].
+        Label used in tables and parameter names.
     thickness
         Layer thickness [m].
     conductivity
@@ -128,11 +134,11 @@ class Gap:
     Parameters
     ----------
     name
-        Label used in tables and parameter names [-].
+        Label used in tables and parameter names.
     width
         Gap width, face to face [m].
     orientation
-        One of ``GAP_ORIENTATIONS`` [-].
+        One of ``GAP_ORIENTATIONS``.
     height
         Height of a vertical gap, for the aspect ratio of the natural-convection correlation
         [m]; unused for horizontal gaps.
@@ -182,17 +188,17 @@ class StackError(PlyriskError, ValueError):
         self.quantity = quantity
 
 
-def validate_stack(layers, hot_side, cold_side) -> None:
+def validate_stack(layers: Sequence[Element], hot_side: HotSide, cold_side: ColdSide) -> None:
     """Check every element and boundary and the arrangement of the stack.
 
     Parameters
     ----------
     layers
-        Solids and gaps, hot (exposed) side first [-].
+        Solids and gaps, hot (exposed) side first.
     hot_side
-        The exposed-face boundary condition [-].
+        The exposed-face boundary condition.
     cold_side
-        The wearer-side boundary condition [-].
+        The wearer-side boundary condition.
 
     Raises
     ------
@@ -230,7 +236,7 @@ def validate_stack(layers, hot_side, cold_side) -> None:
                 "or put a solid between them",
                 index=i + 1,
             )
-        if a.kind == "solid" and a.contact_resistance is not None and b.kind != "solid":
+        if isinstance(a, Solid) and a.contact_resistance is not None and b.kind != "solid":
             raise StackError(
                 f"layer {a.name!r}: contact_resistance needs a solid after it, but "
                 f"{b.name!r} is a {b.kind}",
@@ -251,7 +257,7 @@ def validate_stack(layers, hot_side, cold_side) -> None:
             "the stack with a gap or use a cold side of kind 'temperature'",
             index=len(layers) - 1,
         )
-    if last.kind == "solid" and last.contact_resistance is not None:
+    if isinstance(last, Solid) and last.contact_resistance is not None:
         raise StackError(
             f"layer {last.name!r}: contact_resistance needs a solid after it",
             index=len(layers) - 1,
@@ -259,13 +265,13 @@ def validate_stack(layers, hot_side, cold_side) -> None:
         )
 
 
-def numeric_fields(element: object) -> list[str]:
+def numeric_fields(element: DataclassInstance) -> list[str]:
     """Names of the numeric (possibly uncertain) fields of an element or boundary.
 
     Parameters
     ----------
     element
-        A :class:`Solid`, :class:`Gap` or boundary dataclass [-].
+        A :class:`Solid`, :class:`Gap` or boundary dataclass.
 
     Returns
     -------
@@ -274,7 +280,7 @@ def numeric_fields(element: object) -> list[str]:
     return [f.name for f in fields(element) if f.name not in ("name", "orientation")]
 
 
-def _values(obj: object, quantity: str) -> np.ndarray:
+def _values(obj: Any, quantity: str) -> np.ndarray:
     return np.asarray(getattr(obj, quantity), dtype=float)
 
 
@@ -323,9 +329,9 @@ def check_temperature(obj: object, quantity: str) -> None:
     Parameters
     ----------
     obj
-        The element or boundary holding the value [-].
+        The element or boundary holding the value.
     quantity
-        Name of the field to check [-].
+        Name of the field to check.
     """
     v = _values(obj, quantity)
     bad = ~(v > 0) | ~np.isfinite(v)
@@ -342,9 +348,9 @@ def check_nonnegative(obj: object, quantity: str) -> None:
     Parameters
     ----------
     obj
-        The element or boundary holding the value [-].
+        The element or boundary holding the value.
     quantity
-        Name of the field to check [-].
+        Name of the field to check.
     """
     v = _values(obj, quantity)
     bad = ~(v >= 0) | ~np.isfinite(v)

@@ -81,7 +81,7 @@ def newton(p: Problem, drive_face, absorbed, T, base, theta, h, mask, tol, *, st
         move = np.max(np.abs(step), axis=0)
         scale = np.where(move > MAX_NEWTON_MOVE, MAX_NEWTON_MOVE / move, 1.0)
         live = ~done
-        T[:, live] += step[:, live] * scale[live]
+        T = np.where(live, T + step * scale, T)
         previous = np.where(live, size, previous)
         size = np.where(live, move, size)
     return T, ok & mask, F

@@ -7,6 +7,8 @@ import sys
 import tomllib
 from pathlib import Path
 
+import pytest
+
 import plyrisk
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -24,6 +26,7 @@ def test_every_package_folder_is_listed_in_pyproject():
     assert found == listed
 
 
+@pytest.mark.slow
 def test_only_plyrisk_is_importable_from_outside_the_source_tree(tmp_path):
     code = (
         "import importlib.util as u, plyrisk, plyrisk.models.network;"
@@ -43,6 +46,7 @@ def test_version_and_base_error():
     assert issubclass(StackError, plyrisk.PlyriskError)
 
 
+@pytest.mark.slow
 def test_python_dash_m_runs_the_command_line(tmp_path):
     out = subprocess.run([sys.executable, "-m", "plyrisk", "--help"], cwd=tmp_path,
                          capture_output=True, text=True, check=True)

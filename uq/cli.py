@@ -12,6 +12,7 @@ A verb is added by writing ``_add_<verb>(subparsers)`` (which sets ``func``) and
 from __future__ import annotations
 
 import argparse
+import shlex
 import sys
 from collections.abc import Callable, Sequence
 from pathlib import Path
@@ -20,7 +21,7 @@ from typing import Any
 from plyrisk.cautions import cautions_text
 from plyrisk.errors import ConfigError, PlyriskError
 from plyrisk.methods import METHODS, get_method
-from plyrisk.pipeline.options import RunOptions, default_output_dir
+from plyrisk.pipeline.options import MAX_SEED, RunOptions, default_output_dir
 
 # Heavy modules (xarray, matplotlib, SALib, dask) are imported inside the verb that needs them,
 # so that --help, --version and check start fast (benchmarks/startup.py).
@@ -33,6 +34,10 @@ class UsageError(Exception):
 
 
 class _Parser(argparse.ArgumentParser):
+    def __init__(self, *args, **kwargs) -> None:
+        kwargs["allow_abbrev"] = False  # "--sample 512" is an error, never "--samples 512"
+        super().__init__(*args, **kwargs)
+
     def error(self, message: str) -> None:  # type: ignore[override]
         raise UsageError(message)
 
@@ -111,7 +116,12 @@ def _add_run(subparsers) -> None:
                    "store (out of core; default [compute] store); results.nc keeps the "
                    "analysis")
     p.add_argument("--resume", action="store_true", help="with --store: keep the chunks an "
-                   "interrupted run of the same study already stored")
+                   "interrupted run of the same study already stored (a finished store: "
+                   "only the analysis runs again)")
+    p.add_argument("--overwrite", action="store_true", help="replace the earlier result in "
+                   "--out (only the files its plyrisk-manifest.json lists) and, without "
+                   "--resume, a plyrisk store at --store; files plyrisk did not write are never "
+                   "touched")
     p.add_argument("--no-report", action="store_true", help="write results.nc only")
     p.add_argument("--quiet", action="store_true", help="no progress bar")
     p.set_defaults(func=cmd_run)
@@ -122,24 +132,56 @@ def run_options(args: argparse.Namespace) -> RunOptions:
     return RunOptions(samples=args.samples, seed=args.seed, method=args.method,
                       chunk_size=args.chunk_size, workers=args.workers,
                       scheduler=args.scheduler, store=args.store, resume=args.resume,
-                      until_converged=args.until_converged, max_runs=args.max_runs,
-                      quiet=args.quiet)
+                      overwrite=args.overwrite, until_converged=args.until_converged,
+                      max_runs=args.max_runs, quiet=args.quiet)
 
 
-def _check_out(out_dir: Path, what: str) -> None:
-    """One-line error now, not a traceback later, when the output folder cannot be written."""
-    try:
-        out_dir.mkdir(parents=True, exist_ok=True)
-        probe = out_dir / ".plyrisk-write-test"
-        probe.touch()
-        probe.unlink()
-    except OSError as err:
-        raise UsageError(f"{what} {out_dir}: cannot write there "
-                         f"({err.strerror or err})") from None
+def _run_fingerprint(study: Any, options: RunOptions) -> str:
+    """Digest of everything that fixes a run's result: the config text, method, design,
+    samples, seed, growth options and the plyrisk version [-]."""
+    from plyrisk.results.files import fingerprint_of, plyrisk_version
+
+    a = study.analysis
+    return fingerprint_of({
+        "config_text": study.text, "method": a.method, "design": a.design,
+        "samples": int(a.samples), "seed": int(a.seed), "lhs_optimization": a.lhs_optimization,
+        "until_converged": bool(options.until_converged), "max_runs": options.max_runs,
+        "version": plyrisk_version()})
+
+
+RUN_NAMES = ("results.nc", "summary.txt", "report.html", "summary.md", "tolerances.csv")
+"""Files of a run checked for clashes with files plyrisk did not write before any computing
+(figures and CSV tables are checked again when the set is committed) [-]."""
+
+_interrupt_note: str | None = None
+"""What a Ctrl-C now leaves behind, for the one line :func:`main` prints [-]."""
+
+
+def _resume_command(args: argparse.Namespace, out_dir: Path, store: Any) -> str:
+    words = [PROG, "run", args.config, "--out", str(out_dir), "--store", str(store), "--resume"]
+    for option in ("samples", "seed", "method", "chunk_size"):
+        value = getattr(args, option)
+        if value is not None:
+            words += [f"--{option.replace('_', '-')}", str(value)]
+    return " ".join(shlex.quote(w) for w in words)
+
+
+def _kept(out_dir: Path, earlier: bool, store: Any, args: argparse.Namespace) -> str:
+    kept = (f"the earlier result in {out_dir} is unchanged" if earlier
+            else f"nothing was written to {out_dir}")
+    if store:
+        kept += (f"; the store {store} keeps every chunk solved so far: continue with "
+                 f"{_resume_command(args, out_dir, store)}")
+    return kept
 
 
 def cmd_run(args: argparse.Namespace) -> int:
     """Run ``plyrisk run``: the study end to end, results written to ``--out``.
+
+    The output folder is locked for the run; a folder holding the result of the same study is
+    up to date (nothing is recomputed), one holding another result needs ``--overwrite``; the
+    new files are staged and replace the earlier set at the end
+    (:mod:`plyrisk.results.files`).
 
     Parameters
     ----------
@@ -149,10 +191,15 @@ def cmd_run(args: argparse.Namespace) -> int:
     Returns
     -------
     int
-        0 on success; 1 when no sample converged [-].
+        0 on success or when up to date; 1 when no sample converged [-].
     """
+    global _interrupt_note
+    import dataclasses
+
     from plyrisk.analysis.study import AnalysisError
-    from plyrisk.pipeline.run import run_study, summary_text
+    from plyrisk.pipeline.run import phase, run_study, summary_text
+    from plyrisk.results.dataset import write_results
+    from plyrisk.results.files import OutputSet, decide, folder_lock
     from plyrisk.study.config import load_study, require_runnable
     from plyrisk.tolerances.output import manufacturing_table
     from plyrisk.tolerances.study import run_tolerances, settings_for_study
@@ -160,40 +207,68 @@ def cmd_run(args: argparse.Namespace) -> int:
     study = load_study(args.config)
     require_runnable(study)
     options = run_options(args)
-    options.validate(study)
+    final = options.validate(study)
     out_dir = Path(args.out) if args.out else default_output_dir(args.config)
-    _check_out(out_dir, "--out" if args.out else "output folder")
     if study.tolerances is not None and not args.no_report:
         try:
             settings_for_study(study)
         except ValueError as err:
             raise UsageError(f"{study.source}: tolerances: {err}") from None
-    try:
-        result = run_study(study, out_dir=out_dir, options=options)
-    except AnalysisError as err:
-        print(f"{PROG}: {err}", file=sys.stderr)
-        print(cautions_text())
-        return 1
-    print(summary_text(result))
-    method = get_method(result.study.analysis.method)
-    if not method.writes_report and not args.no_report:
-        print(f"report: not written for method = {method.name} (a screening: the summary above "
-              f"and {result.path} hold its results)")
-        return 0
-    if not args.no_report:
-        rows = None
-        if study.tolerances is not None:
-            if not args.quiet and sys.stderr.isatty():
-                print(f"{PROG}: tolerance feedback for the report ([tolerances] in the "
-                      "config) ...", file=sys.stderr)
-            full = result.screening.study if result.screening is not None else result.study
-            rows = manufacturing_table(run_tolerances(full), full)
-        print(_write_report(result.dataset, out_dir, rows))
+    store = options.with_defaults(study).store
+    fingerprint = _run_fingerprint(final, options)
+    method = get_method(final.analysis.method)
+    report = not args.no_report and method.writes_report
+    with folder_lock(out_dir, what="--out" if args.out else "output folder"):
+        decision = decide(out_dir, fingerprint=fingerprint, overwrite=args.overwrite,
+                          names=RUN_NAMES, needs={"report": report})
+        if decision.up_to_date:
+            m = decision.manifest
+            print(f"{out_dir}: up to date: it holds the result of this study ({m.describe()}); "
+                  "nothing was recomputed (--overwrite recomputes it)")
+            summary = out_dir / "summary.txt"
+            if summary.is_file():
+                print(summary.read_text(encoding="utf-8"), end="")
+            return 0
+        _interrupt_note = _kept(out_dir, decision.manifest is not None, store, args)
+        with OutputSet(out_dir, decision.manifest) as out:
+            try:
+                result = run_study(study, options=options)
+            except AnalysisError as err:
+                print(f"{PROG}: {err}", file=sys.stderr)
+                print(cautions_text())
+                return 1
+            result.dataset.attrs["study_fingerprint"] = fingerprint
+            write_results(result.dataset, out.staging / "results.nc")
+            result = dataclasses.replace(result, path=out_dir / "results.nc")
+            lines = [summary_text(result)]
+            if not method.writes_report and not args.no_report:
+                lines.append(f"report: not written for method = {method.name} (a screening: "
+                             f"the summary above and {result.path} hold its results)")
+            elif report:
+                rows = None
+                if study.tolerances is not None:
+                    phase("tolerance feedback for the report ([tolerances] in the config)",
+                          args.quiet)
+                    full = (result.screening.study if result.screening is not None
+                            else result.study)
+                    rows = manufacturing_table(run_tolerances(full), full)
+                phase("report: figures, tables, report.html", args.quiet)
+                lines.append(_write_report(result.dataset, out.staging, rows, shown=out_dir))
+            text = "\n".join(lines) + "\n"
+            (out.staging / "summary.txt").write_text(text, encoding="utf-8")
+            _interrupt_note = (f"{out_dir} was being replaced and may hold a mix of files: "
+                               "run again with --overwrite")
+            out.commit(fingerprint=fingerprint, seed=int(final.analysis.seed),
+                       method=final.analysis.method, config=str(args.config),
+                       details={"report": report})
+            _interrupt_note = None
+    print(text, end="")
     return 0
 
 
-def _write_report(ds: Any, out_dir: Path, rows: Any) -> str:
-    """Write the report (and the tolerance table, when given); return the line to print."""
+def _write_report(ds: Any, out_dir: Path, rows: Any, *, shown: Path | None = None) -> str:
+    """Write the report (and the tolerance table, when given) into ``out_dir``; return the
+    line to print, naming the files in ``shown`` (where they end up) [-]."""
     from dataclasses import asdict
 
     from plyrisk.report.html import write_report
@@ -203,8 +278,30 @@ def _write_report(ds: Any, out_dir: Path, rows: Any) -> str:
                          [asdict(r) for r in rows])
     if rows is not None:  # the canonical tolerance CSV, cautions first
         write_tolerance_csv(rows, out_dir / "tolerances.csv")
-    return f"report: {files.html}  (summary: {files.markdown.name}; figures and CSV tables in " \
-           f"{out_dir})"
+    where = out_dir if shown is None else shown
+    return f"report: {where / files.html.name}  (summary: {files.markdown.name}; figures and " \
+           f"CSV tables in {where})"
+
+
+def _update_folder(out_dir: Path, fingerprint: str, ds: Any, write: Callable[[Path], str],
+                   what: str) -> str:
+    """Add files to an output folder as one set under its lock, keeping its other files.
+
+    ``write(staging)`` writes the files into the staging folder and returns the line to print.
+    """
+    from plyrisk.results.files import OutputSet, decide_update, folder_lock
+
+    with folder_lock(out_dir, what=what):
+        earlier = decide_update(out_dir, fingerprint=fingerprint, names=RUN_NAMES[2:])
+        with OutputSet(out_dir, earlier, keep_earlier=True) as out:
+            line = write(out.staging)
+            attrs = ds.attrs if ds is not None else {}
+            seed = attrs.get("seed")
+            out.commit(fingerprint=fingerprint, seed=None if seed is None else int(seed),
+                       method=str(attrs.get("method", "")),
+                       config=str(attrs.get("config_source", "")),
+                       details={"report": True} if ds is not None else {})
+    return line
 
 
 # ----------------------------------------------------------------------------------------------
@@ -248,11 +345,15 @@ def cmd_report(args: argparse.Namespace) -> int:
     except (OSError, ValueError) as err:
         raise UsageError(f"{path}: not a readable NetCDF results file ({err})") from None
     out_dir = Path(args.out) if args.out else path.parent
-    _check_out(out_dir, "--out" if args.out else "output folder")
-    try:
-        line = _write_report(ds, out_dir, None)
-    except (KeyError, TypeError, ValueError) as err:
-        raise UsageError(f"{path}: not a complete plyrisk results file ({err})") from None
+
+    def write(staging: Path) -> str:
+        try:
+            return _write_report(ds, staging, None, shown=out_dir)
+        except (KeyError, TypeError, ValueError) as err:
+            raise UsageError(f"{path}: not a complete plyrisk results file ({err})") from None
+
+    line = _update_folder(out_dir, str(ds.attrs.get("study_fingerprint", "")), ds, write,
+                          "--out" if args.out else "output folder")
     print(line)
     print(cautions_text())
     return 0
@@ -308,35 +409,51 @@ def cmd_tolerances(args: argparse.Namespace) -> int:
     require_runnable(study)
     if args.samples is not None and args.samples < 2:
         raise UsageError(f"--samples must be an integer >= 2, got {args.samples}")
-    if args.seed is not None and args.seed < 0:
-        raise UsageError(f"--seed must be zero or positive, got {args.seed}")
+    if args.seed is not None and not 0 <= args.seed <= MAX_SEED:
+        raise UsageError(f"--seed must be a whole number from 0 to 2**64 - 1, got {args.seed}")
     if args.target is not None:
         try:
             parse_target(args.target)
         except ValueError as err:
             raise UsageError(f"--target: {err}") from None
     out_dir = Path(args.out) if args.out else default_output_dir(args.config)
-    _check_out(out_dir, "--out" if args.out else "output folder")
     try:
         settings_for_study(study, target=args.target, samples=args.samples, seed=args.seed)
     except ValueError as err:
         where = "--samples" if args.samples is not None else f"{study.source}: tolerances"
         raise UsageError(f"{where}: {err}") from None
-    show = not args.quiet and sys.stderr.isatty()
+    show = not args.quiet  # a plain line per stage, on a terminal or not
     report = run_tolerances(
         study, target=args.target, samples=args.samples, seed=args.seed,
         progress=(lambda stage: print(f"{PROG}: {stage} ...", file=sys.stderr)) if show
         else None)
     rows = manufacturing_table(report, study)
-    path = write_tolerance_csv(rows, out_dir / "tolerances.csv")
-    print(tolerance_text(report, study, csv_path=path))
     results = out_dir / "results.nc"
+    ds = note = None
     if results.is_file():  # a study run already in the folder: add the table to its report
         try:
-            print(_write_report(read_results(results), out_dir, rows))
+            ds = read_results(results)
         except (OSError, KeyError, TypeError, ValueError) as err:
-            print(f"{PROG}: note: {results} was left as it is: not a readable results file of "
-                  f"this study ({err})", file=sys.stderr)
+            note = (f"{PROG}: note: {results} was left as it is: not a readable results file of "
+                    f"this study ({err})")
+
+    def write(staging: Path) -> str:
+        nonlocal note
+        path = write_tolerance_csv(rows, staging / "tolerances.csv")
+        text = tolerance_text(report, study, csv_path=out_dir / path.name)
+        if ds is not None:
+            try:
+                text += "\n" + _write_report(ds, staging, rows, shown=out_dir)
+            except (KeyError, TypeError, ValueError) as err:
+                note = (f"{PROG}: note: the report in {out_dir} was left as it is: {results} is "
+                        f"not a complete results file ({err})")
+        return text
+
+    fingerprint = "" if ds is None else str(ds.attrs.get("study_fingerprint", ""))
+    print(_update_folder(out_dir, fingerprint, ds, write,
+                         "--out" if args.out else "output folder"))
+    if note:
+        print(note, file=sys.stderr)
     return 0
 
 
@@ -375,7 +492,8 @@ def main(argv: Sequence[str] | None = None) -> int:
     Returns
     -------
     int
-        The exit code: 0 success, 1 a failed solve, 2 a user mistake [-].
+        The exit code: 0 success, 1 a failed solve, 2 a user mistake, 130 interrupted
+        (Ctrl-C) [-].
     """
     parser = build_parser()
     try:
@@ -387,8 +505,14 @@ def main(argv: Sequence[str] | None = None) -> int:
     if getattr(args, "func", None) is None:
         verbs = ", ".join(sorted(build_parser()._subparsers._group_actions[0].choices))
         return _fail(f"missing VERB; choose from: {verbs} (see '{PROG} --help')")
+    global _interrupt_note
+    _interrupt_note = None
     try:
         return int(args.func(args))
+    except KeyboardInterrupt:
+        kept = _interrupt_note or "nothing was written"
+        print(f"{PROG}: interrupted: {kept}", file=sys.stderr)
+        return 130
     except ConfigError as err:
         return _fail(str(err))
     except (UsageError, PlyriskError) as err:

@@ -22,11 +22,11 @@ class ConfigError(PlyriskError, ValueError):
     Parameters
     ----------
     source
-        The config file name, or ``"<string>"`` [-].
+        The config file name, or ``"<string>"``.
     key_path
-        Where in the config, e.g. ``"layer[2].thickness"``; ``""`` for the whole file [-].
+        Where in the config, e.g. ``"layer[2].thickness"``; ``""`` for the whole file.
     message
-        What was wrong and what was expected [-].
+        What was wrong and what was expected.
     """
 
     def __init__(self, source: str, key_path: str, message: str) -> None:

@@ -198,3 +198,18 @@ def test_rank_counts_dropped_rows_in_suggestion():
     assert ranked[0].suggested_base_samples == 4096
     with pytest.raises(ValueError, match="ci_threshold must be positive, got 0"):
         rank(_indices([0.5], [0.1], [0.0]), ci_threshold=0.0)
+
+
+def test_an_index_outside_zero_one_beyond_its_interval_is_not_resolved():
+    # Source: Saltelli et al. (2008), Global Sensitivity Analysis, sec. 4.2 — first-order and
+    # total Sobol indices are variance shares in [0, 1]
+    from plyrisk.analysis.sobol import RankedIndex, not_resolved
+    from plyrisk.text.indices import ranked_line
+
+    assert not_resolved(1.615, 0.054)        # the 50-layer case: 1.615 ± 0.054
+    assert not not_resolved(1.03, 0.05)      # above 1 within its interval: noise, WIDE at most
+    assert not_resolved(-0.3, 0.1) and not not_resolved(-0.03, 0.05)
+    item = RankedIndex("layer 7.conductivity", 0.2, 0.05, 1.615, 0.054, False, 0, True, False)
+    line = ranked_line(1, item)
+    assert "1.615 ± 0.054 not resolved: more samples" in line
+    assert "WIDE" not in line.split("first")[0]

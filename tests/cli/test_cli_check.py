@@ -223,6 +223,7 @@ def _console_script() -> str | None:
 
 
 @pytest.mark.skipif(_console_script() is None, reason="plyrisk console script not installed")
+@pytest.mark.slow
 def test_console_script(tmp_path):
     script = _console_script()
     ok = subprocess.run([script, "check", str(ROOT / "configs" / "small_demo.toml")],

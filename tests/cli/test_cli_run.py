@@ -34,6 +34,7 @@ def demo_run(tmp_path_factory):
     return code, buf.getvalue(), out
 
 
+@pytest.mark.slow
 def test_run_writes_the_dataset_and_prints_the_summary(demo_run):
     code, text, out = demo_run
     assert code == 0
@@ -51,6 +52,7 @@ def test_run_writes_the_dataset_and_prints_the_summary(demo_run):
         assert " ".join(caution.split()) in flat
 
 
+@pytest.mark.slow
 def test_default_output_folder_is_named_after_the_config(tmp_path, monkeypatch, capsys):
     monkeypatch.chdir(tmp_path)
     assert main(["run", str(SMALL), "--samples", "16", "--quiet", "--no-report"]) == 0
@@ -70,7 +72,8 @@ def test_bad_configs_exit_2_with_one_line(capsys, path):
 @pytest.mark.parametrize(
     ("argv", "match"),
     [
-        (["--samples", "100"], r"--samples 100: method = saltelli needs a power of two \(e.g. 64"),
+        (["--samples", "100"],
+         r"--samples 100: must be replicates \(8\) x a power of 2.*use 64 or 128"),
         (["--samples", "0"], r"--samples must be at least 8, got 0"),
         (["--samples", "1099511627776"], r"--samples: 1099511627776 samples need about .* GiB"),
         (["--seed", "-1"], r"--seed must be a whole number from 0 to 2\*\*64 - 1, got -1"),
@@ -113,6 +116,7 @@ def test_summary_warns_when_a_gap_passes_the_onset_of_convection():
     assert "not conservative" in text
 
 
+@pytest.mark.slow
 def test_report_verb_rewrites_the_report_of_a_results_file(demo_run, tmp_path, capsys):
     _, _, out = demo_run
     assert (out / "report.html").is_file() and (out / "summary.md").is_file()
@@ -139,6 +143,7 @@ def test_unwritable_output_folder_is_one_line(capsys):
         capsys.readouterr().err)
 
 
+@pytest.mark.slow
 def test_incomplete_results_file_is_one_line(demo_run, tmp_path, capsys):
     _, _, out = demo_run
     ds = xr.open_dataset(out / "results.nc").load()
@@ -149,6 +154,7 @@ def test_incomplete_results_file_is_one_line(demo_run, tmp_path, capsys):
 
 
 @pytest.mark.parametrize("method", ["pce", "morris"])
+@pytest.mark.slow
 def test_method_option_overrides_the_config(tmp_path, capsys, method):
     assert main(["run", str(SMALL), "--out", str(tmp_path), "--method", method, "--samples",
                  "16", "--quiet"]) == 0
@@ -161,6 +167,7 @@ def test_method_option_overrides_the_config(tmp_path, capsys, method):
         assert "report: not written for method = morris" in out
 
 
+@pytest.mark.slow
 def test_until_converged_prints_the_path(tmp_path, capsys):
     assert main(["run", str(SMALL), "--out", str(tmp_path), "--samples", "16",
                  "--until-converged", "--max-runs", "3000", "--quiet", "--no-report"]) == 0

@@ -78,7 +78,8 @@ def test_tighter_target_gives_a_verified_allocation(capsys, tmp_path):
     (["--target", "P95 < limit"], "--target: bad target 'P95 < limit'"),
     (["--target", "P(exceed) <= 200 %"], "between 0 % and 100 %"),
     (["--samples", "1"], "--samples must be an integer >= 2, got 1"),
-    (["--seed", "-3"], "--seed must be zero or positive, got -3"),
+    (["--seed", "-3"], "--seed must be a whole number from 0 to 2**64 - 1, got -3"),
+    (["--seed", str(2**64)], "--seed must be a whole number from 0 to 2**64 - 1, got 1844"),
 ])
 def test_bad_arguments_exit_2_with_one_line(capsys, tmp_path, args, match):
     code = main(["tolerances", str(DEMO), "--out", str(tmp_path), *args])

@@ -129,6 +129,7 @@ def _compare_with_reference(n: int, seed: int):
     return burns
 
 
+@pytest.mark.slow
 def test_reference_integrator_agrees_on_random_assemblies():
     assert _compare_with_reference(5, seed=21) > 0
 

@@ -81,12 +81,20 @@ def test_growth_reuses_every_earlier_run(counted):
 def test_grown_study_equals_a_study_run_at_the_final_size(counted):
     growth, _ = counted
     direct = run_study(loads_study(TEXT), samples=growth.steps[-1].base_samples, quiet=True)
+    # every one of the 8 scrambled replicates grew together: the grown design is the design
+    # of the final size, replicate by replicate
+    assert growth.propagation.design.replicates == direct.propagation.design.replicates == 8
     np.testing.assert_array_equal(direct.propagation.design.unit,
                                   growth.propagation.design.unit)
+    assert a_interval(growth) == "replicates"
     a = direct.analysis.scenarios[0].indices["inner_surface_temperature"][0]
     b = growth.analysis.scenarios[0].indices["inner_surface_temperature"][0]
     np.testing.assert_array_equal(a.total, b.total)
     np.testing.assert_array_equal(a.first_ci, b.first_ci)
+
+
+def a_interval(growth) -> str:
+    return growth.analysis.scenarios[0].indices["inner_surface_temperature"][0].interval
 
 
 def test_budget_stops_the_growth_and_the_path_is_printed_and_stored(tmp_path):

@@ -124,6 +124,7 @@ def test_a_study_where_nothing_converges_says_so():
         analyse(study, propagate(study, quiet=True))
 
 
+@pytest.mark.slow
 def test_identical_results_whatever_the_number_of_workers():
     study = loads_study(panel(**UNCERTAIN, samples=32))
     one = propagate(study, chunk_size=50, quiet=True)

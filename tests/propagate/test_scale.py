@@ -17,15 +17,14 @@ from plyrisk.cli import main
 from plyrisk.pipeline.run import run_study
 from plyrisk.propagate import compute, store
 from plyrisk.propagate.evaluate import study_plan
-from plyrisk.study.config import load_study
+
+pytestmark = pytest.mark.slow  # dask clusters and Zarr stores
 
 ROOT = Path(__file__).resolve().parents[2]
 SMALL = ROOT / "configs" / "small_demo.toml"
-GARMENT = ROOT / "configs" / "reflective_garment.toml"
 
 
-def _small(samples: int = 64):
-    study = load_study(SMALL)
+def _samples(study, samples: int):
     return replace(study, analysis=replace(study.analysis, samples=samples))
 
 
@@ -46,28 +45,28 @@ def _without_provenance(ds: xr.Dataset) -> xr.Dataset:
     return ds
 
 
-@pytest.fixture(scope="module")
-def in_process(tmp_path_factory):
-    return run_study(_small(), quiet=True).dataset
+@pytest.fixture
+def in_process(small_demo_64_dataset):
+    return small_demo_64_dataset
 
 
-def test_two_worker_local_cluster_gives_the_in_process_dataset(in_process):
-    on_dask = run_study(_small(), quiet=True, workers=2, chunk_size=50).dataset
+def test_two_worker_local_cluster_gives_the_in_process_dataset(in_process, small_demo_64):
+    on_dask = run_study(small_demo_64, quiet=True, workers=2, chunk_size=50).dataset
     xr.testing.assert_identical(on_dask, in_process)
 
 
-def test_existing_scheduler_gives_the_in_process_dataset(in_process):
+def test_existing_scheduler_gives_the_in_process_dataset(in_process, small_demo_64):
     from distributed import LocalCluster
 
     with LocalCluster(n_workers=1, threads_per_worker=1, processes=True, host="127.0.0.1",
                       dashboard_address=None) as cluster:
-        on_dask = run_study(_small(), quiet=True, scheduler=cluster.scheduler_address,
+        on_dask = run_study(small_demo_64, quiet=True, scheduler=cluster.scheduler_address,
                             chunk_size=100).dataset
     xr.testing.assert_identical(on_dask, in_process)
 
 
-def test_store_gives_the_in_memory_dataset(in_process, tmp_path):
-    stored = run_study(_small(), quiet=True, store=tmp_path / "s.zarr", chunk_size=77).dataset
+def test_store_gives_the_in_memory_dataset(in_process, tmp_path, small_demo_64):
+    stored = run_study(small_demo_64, quiet=True, store=tmp_path / "s.zarr", chunk_size=77).dataset
     xr.testing.assert_identical(_without_provenance(stored), in_process)
     opened = xr.open_zarr(tmp_path / "s.zarr", consolidated=False)
     np.testing.assert_array_equal(opened["inner_surface_temperature"].values,
@@ -75,9 +74,8 @@ def test_store_gives_the_in_memory_dataset(in_process, tmp_path):
     np.testing.assert_array_equal(opened["sobol_total"].values, in_process["sobol_total"].values)
 
 
-def test_store_is_the_same_whatever_the_chunking_and_workers(tmp_path):
-    study = load_study(GARMENT)  # a sweep of three exposures: the scenario axis too
-    study = replace(study, analysis=replace(study.analysis, samples=32))
+def test_store_is_the_same_whatever_the_chunking_and_workers(tmp_path, reflective_garment):
+    study = _samples(reflective_garment, 32)  # a sweep of three exposures: the scenario axis
     runs = []
     for k, (chunk, workers) in enumerate(((1000, 1), (97, 1), (250, 1), (250, 2))):
         store.solve_to_store(study, tmp_path / f"{k}.zarr", chunk_size=chunk,
@@ -87,8 +85,8 @@ def test_store_is_the_same_whatever_the_chunking_and_workers(tmp_path):
         _assert_same(runs[0], other)
 
 
-def test_resume_after_a_kill_equals_the_uninterrupted_run(tmp_path, monkeypatch):
-    study = _small(128)
+def test_resume_after_a_kill_equals_the_uninterrupted_run(tmp_path, monkeypatch, small_demo):
+    study = _samples(small_demo, 128)
     store.solve_to_store(study, tmp_path / "whole.zarr", chunk_size=100, quiet=True)
     real = store.store_chunk
     calls = []
@@ -120,24 +118,26 @@ def test_resume_after_a_kill_equals_the_uninterrupted_run(tmp_path, monkeypatch)
     _assert_same(_stored(tmp_path / "whole.zarr"), _stored(tmp_path / "cut.zarr"))
 
 
-def test_resume_refuses_a_store_of_another_study(tmp_path):
-    store.solve_to_store(_small(), tmp_path / "s.zarr", chunk_size=100, quiet=True)
-    other = _small()
+def test_resume_refuses_a_store_of_another_study(tmp_path, small_demo_64):
+    store.solve_to_store(small_demo_64, tmp_path / "s.zarr", chunk_size=100, quiet=True)
+    other = small_demo_64
     other = replace(other, analysis=replace(other.analysis, seed=other.analysis.seed + 1))
     with pytest.raises(store.StoreError, match="written for another study, seed, sample count"):
         store.solve_to_store(other, tmp_path / "s.zarr", chunk_size=100, resume=True)
     with pytest.raises(store.StoreError, match="written for another study"):
-        store.solve_to_store(_small(), tmp_path / "s.zarr", chunk_size=50, resume=True)
+        store.solve_to_store(small_demo_64, tmp_path / "s.zarr", chunk_size=50, resume=True)
 
 
-def test_store_refuses_to_replace_a_folder_that_is_not_a_store(tmp_path):
+def test_store_refuses_to_replace_a_folder_that_is_not_a_store(tmp_path, small_demo_64):
     (tmp_path / "mine").mkdir()
-    with pytest.raises(store.StoreError, match="exists and is not a plyrisk store"):
-        store.solve_to_store(_small(), tmp_path / "mine", chunk_size=100)
+    (tmp_path / "mine" / "data.csv").write_text("1,2\n")
+    with pytest.raises(store.StoreError, match="holds something other than a plyrisk store"):
+        store.solve_to_store(small_demo_64, tmp_path / "mine", chunk_size=100)
+    assert (tmp_path / "mine" / "data.csv").read_text() == "1,2\n"
 
 
-def test_worker_code_leaves_the_global_random_state_alone(tmp_path):
-    study = _small()
+def test_worker_code_leaves_the_global_random_state_alone(tmp_path, small_demo_64):
+    study = small_demo_64
     plan = study_plan(study)
     layout, _ = store.open_store(study, plan, tmp_path / "s.zarr", chunk_size=100)
     np.random.seed(12345)  # noqa: NPY002 (the global state, on purpose)

@@ -2,13 +2,12 @@
 display units.
 
 Check values come from the dataset itself and from independent computations in the tests
-(pint for unit conversions, numpy for the linear interpolation); the study below is invented
-and only supplies a dataset to draw.
+(pint for unit conversions, numpy for the linear interpolation); the study behind the datasets
+is invented (``invented_dataset`` in tests/conftest.py) and only supplies a dataset to draw.
 """
 
 from __future__ import annotations
 
-import functools
 import re
 
 import numpy as np
@@ -18,71 +17,16 @@ import xarray as xr
 from matplotlib.collections import PolyCollection
 from matplotlib.figure import Figure
 
-from plyrisk.pipeline.run import run_study
 from plyrisk.report.figures import outputs as fg
-from plyrisk.study.config import loads_study
 
 UREG = pint.UnitRegistry()
-
-# INVENTED study for tests only: two fabrics with a contact resistance and a gap to the skin.
-# It describes no real product; its numbers are never check values.
-CONFIG = """
-[study]
-title = "Invented test: two fabrics, a contact and a skin gap"
-method = "{method}"
-samples = {samples}
-seed = 5
-limit = "44 degC"
-
-[hot_side]
-kind = "environment"
-incident_flux = "1.5 kW/m^2"
-gas_temperature = "35 degC"
-convection_coefficient = {{ uniform = ["8 W/m^2/K", "14 W/m^2/K"] }}
-
-[[layer]]
-name = "outer fabric"
-kind = "solid"
-thickness = {{ nominal = "0.8 mm", tolerance = "0.08 mm" }}
-conductivity = {{ uniform = ["0.04 W/m/K", "0.06 W/m/K"] }}
-emissivity = {{ triangular = [0.6, 0.75, 0.85] }}
-contact_resistance = {{ uniform = ["0.002 m^2*K/W", "0.006 m^2*K/W"] }}
-
-[[layer]]
-name = "liner"
-kind = "solid"
-thickness = "1.5 mm"
-conductivity = "0.045 W/m/K"
-emissivity = 0.9
-
-[[layer]]
-name = "skin gap"
-kind = "gap"
-width = {{ lognormal = {{ median = "2 mm", gsd = 1.4 }} }}
-
-[cold_side]
-kind = "surface"
-temperature = "34 degC"
-{scenarios}
-"""
-SWEEP = '[scenarios]\nquantity = "incident_flux"\nvalues = [{levels}]'
-
-
-@functools.cache
-def build_dataset(method: str = "saltelli", swept: bool = False, levels: int = 3) -> xr.Dataset:
-    """A small results dataset of the invented test study (cached per session)."""
-    values = ", ".join(f'"{v} kW/m^2"' for v in (0.5, 1.5, 3.0, 5.0)[:levels])
-    text = CONFIG.format(method=method, samples=64 if method == "saltelli" else 128,
-                         scenarios=SWEEP.format(levels=values) if swept else "")
-    return run_study(loads_study(text, source="<invented test>"), quiet=True).dataset
-
 
 CASES = [("saltelli", False), ("pce", False), ("saltelli", True), ("pce", True)]
 
 
 @pytest.fixture(params=CASES, ids=lambda c: f"{c[0]}-{'swept' if c[1] else 'unswept'}")
-def case(request) -> xr.Dataset:
-    return build_dataset(*request.param)
+def case(request, invented_dataset) -> xr.Dataset:
+    return invented_dataset(*request.param)
 
 
 def scenarios(ds: xr.Dataset) -> list[int | None]:
@@ -151,8 +95,8 @@ def test_profile_bands_are_the_dataset_quantiles_in_the_display_unit(case):
         assert np.allclose(limit.get_ydata(), to_unit(ds.attrs["limit"], unit))
 
 
-def test_profile_layout_contact_is_a_line_and_the_last_gap_ends_at_the_skin():
-    ds = build_dataset("saltelli")
+def test_profile_layout_contact_is_a_line_and_the_last_gap_ends_at_the_skin(invented_dataset):
+    ds = invented_dataset("saltelli")
     kinds = list(ds["layer_kind"].values)
     assert "contact" in kinds and kinds[-1] == "gap"
     assert str(ds["interface"].values[-1]) == "skin surface"
@@ -178,8 +122,9 @@ def _bars(ax, prefix: str) -> dict[str, float]:
             if (p.get_gid() or "").startswith(prefix + ":")}
 
 
-def test_sobol_bars_are_the_indices_sorted_by_total_and_unconverged_ones_are_marked():
-    ds = build_dataset("saltelli").copy(deep=True)
+def test_sobol_bars_are_the_indices_sorted_by_total_and_unconverged_ones_are_marked(
+        invented_dataset):
+    ds = invented_dataset("saltelli").copy(deep=True)
     conv = ds["index_converged"].values
     conv[0, :] = True
     conv[0, 0] = False  # one unconverged parameter, whatever the sampling gave
@@ -206,8 +151,8 @@ def test_sobol_bars_are_the_indices_sorted_by_total_and_unconverged_ones_are_mar
     assert any(t.get_text() == "unconverged" for t in ax.texts)
 
 
-def test_screening_chart_for_lhs_shows_rank_correlation_titled_as_screening():
-    ds = build_dataset("pce")
+def test_screening_chart_for_lhs_shows_rank_correlation_titled_as_screening(invented_dataset):
+    ds = invented_dataset("pce")
     fig = fg.indices_figure(ds)
     ax = axes(fig, "indices")
     assert "screening" in ax.get_title(loc="left").lower()
@@ -216,8 +161,8 @@ def test_screening_chart_for_lhs_shows_rank_correlation_titled_as_screening():
         assert rho[name] == pytest.approx(float(ds["rank_correlation"].values[j]))
 
 
-def test_group_bars_are_the_group_indices():
-    ds = build_dataset("saltelli", True)
+def test_group_bars_are_the_group_indices(invented_dataset):
+    ds = invented_dataset("saltelli", True)
     for s in scenarios(ds):
         fig = fg.group_indices_figure(ds, scenario=s)
         d = one(ds, s).sel(output="inner_surface_temperature")
@@ -227,9 +172,9 @@ def test_group_bars_are_the_group_indices():
                 float(d["sobol_group_total"].values[j]))
 
 
-def test_group_figure_needs_sobol():
+def test_group_figure_needs_sobol(invented_dataset):
     with pytest.raises(ValueError, match="method = 'saltelli'"):
-        fg.group_indices_figure(build_dataset("pce"))
+        fg.group_indices_figure(invented_dataset("pce"))
 
 
 def without_surrogate(ds: xr.Dataset) -> xr.Dataset:
@@ -238,8 +183,8 @@ def without_surrogate(ds: xr.Dataset) -> xr.Dataset:
 
 
 @pytest.mark.parametrize("groups", [False, True])
-def test_surrogate_bars_are_the_surrogate_indices(groups):
-    ds = build_dataset("pce", True)
+def test_surrogate_bars_are_the_surrogate_indices(groups, invented_dataset):
+    ds = invented_dataset("pce", True)
     prefix, dim = ("pce_group", "group") if groups else ("pce", "parameter")
     for s in scenarios(ds):
         d = one(ds, s)
@@ -254,15 +199,15 @@ def test_surrogate_bars_are_the_surrogate_indices(groups):
                                                                     for t in ax.texts)
 
 
-def test_surrogate_figure_needs_surrogate_indices():
+def test_surrogate_figure_needs_surrogate_indices(invented_dataset):
     with pytest.raises(ValueError, match="no surrogate indices"):
-        fg.surrogate_indices_figure(build_dataset("saltelli"))
+        fg.surrogate_indices_figure(invented_dataset("saltelli"))
     with pytest.raises(ValueError, match="no surrogate indices"):
-        fg.surrogate_indices_figure(without_surrogate(build_dataset("pce")))
+        fg.surrogate_indices_figure(without_surrogate(invented_dataset("pce")))
 
 
-def test_scatter_without_surrogate_ranks_by_rank_correlation():
-    ds = without_surrogate(build_dataset("pce"))
+def test_scatter_without_surrogate_ranks_by_rank_correlation(invented_dataset):
+    ds = without_surrogate(invented_dataset("pce"))
     expect = list(ds["parameter"].values[np.argsort(-np.abs(ds["rank_correlation"].values),
                                                     kind="stable")][:3])
     assert fg.top_parameters(ds) == expect
@@ -290,8 +235,8 @@ def test_distribution_uses_independent_converged_samples_only(case):
             ds.attrs["limit_display_unit"]))
 
 
-def test_distribution_leaves_out_nonconverged_samples():
-    ds = build_dataset("pce").copy(deep=True)
+def test_distribution_leaves_out_nonconverged_samples(invented_dataset):
+    ds = invented_dataset("pce").copy(deep=True)
     ds["converged"].values[:10] = False
     ds["inner_surface_temperature"].values[:10] = np.nan
     fig = fg.distribution_figure(ds)
@@ -338,8 +283,8 @@ def _p95(ds: xr.Dataset) -> tuple[np.ndarray, np.ndarray]:
 
 
 @pytest.mark.parametrize("method", ["saltelli", "pce"])
-def test_sweep_read_off_is_the_linear_interpolation_of_p95(method):
-    ds = build_dataset(method, True).copy()
+def test_sweep_read_off_is_the_linear_interpolation_of_p95(method, invented_dataset):
+    ds = invented_dataset(method, True).copy()
     x, p95 = _p95(ds)
     assert np.all(np.diff(p95) > 0)
     for i in (1, 2):
@@ -355,8 +300,8 @@ def test_sweep_read_off_is_the_linear_interpolation_of_p95(method):
         assert any(c.text in t.get_text().replace("\n", " ") for t in axes(fig, "sweep").texts)
 
 
-def test_sweep_states_below_and_above():
-    ds = build_dataset("saltelli", True).copy()
+def test_sweep_states_below_and_above(invented_dataset):
+    ds = invented_dataset("saltelli", True).copy()
     _, p95 = _p95(ds)
     ds.attrs["limit"] = float(p95.max() + 50.0)
     c = fg.limit_crossing(ds)
@@ -367,8 +312,8 @@ def test_sweep_states_below_and_above():
     assert c.status == "above" and "exceeds the limit at every swept level" in c.text
 
 
-def test_sweep_band_is_the_dataset_quantiles():
-    ds = build_dataset("pce", True)
+def test_sweep_band_is_the_dataset_quantiles(invented_dataset):
+    ds = invented_dataset("pce", True)
     x, _ = _p95(ds)
     unit = ds.attrs["limit_display_unit"]
     q = ds["inner_surface_temperature_quantile"]
@@ -381,9 +326,9 @@ def test_sweep_band_is_the_dataset_quantiles():
                        to_unit(q.sel(quantile=0.5).values, unit))
 
 
-def test_sweep_figure_needs_a_sweep():
+def test_sweep_figure_needs_a_sweep(invented_dataset):
     with pytest.raises(ValueError, match="sweeps no exposure"):
-        fg.sweep_figure(build_dataset("saltelli"))
+        fg.sweep_figure(invented_dataset("saltelli"))
 
 
 # ----------------------------------------------------------------------------------------------
@@ -391,18 +336,18 @@ def test_sweep_figure_needs_a_sweep():
 # ----------------------------------------------------------------------------------------------
 
 
-def test_scenario_index_is_validated():
+def test_scenario_index_is_validated(invented_dataset):
     with pytest.raises(ValueError, match=r"scenario must be an index 0\.\.2"):
-        fg.profile_figure(build_dataset("saltelli", True))
+        fg.profile_figure(invented_dataset("saltelli", True))
     with pytest.raises(ValueError, match=r"scenario must be an index 0\.\.2"):
-        fg.distribution_figure(build_dataset("saltelli", True), scenario=3)
+        fg.distribution_figure(invented_dataset("saltelli", True), scenario=3)
     with pytest.raises(ValueError, match="unswept dataset"):
-        fg.profile_figure(build_dataset("saltelli"), scenario=1)
+        fg.profile_figure(invented_dataset("saltelli"), scenario=1)
 
 
-def test_unknown_output_is_rejected():
+def test_unknown_output_is_rejected(invented_dataset):
     with pytest.raises(ValueError, match="unknown output 'heat'; valid: inner_surface"):
-        fg.indices_figure(build_dataset("saltelli"), output="heat")
+        fg.indices_figure(invented_dataset("saltelli"), output="heat")
 
 
 def test_pretty_unit():
@@ -434,8 +379,8 @@ def all_failed(ds: xr.Dataset) -> xr.Dataset:
 
 
 @pytest.mark.filterwarnings("error")
-def test_figures_of_a_study_in_which_no_sample_converged():
-    ds = all_failed(build_dataset("saltelli", True))
+def test_figures_of_a_study_in_which_no_sample_converged(invented_dataset):
+    ds = all_failed(invented_dataset("saltelli", True))
     for s in scenarios(ds):
         fg.profile_figure(ds, scenario=s)
         fg.indices_figure(ds, scenario=s)

@@ -2,7 +2,7 @@
 CSVs.
 
 Check values are the dataset's own numbers; the study that supplies the dataset is invented
-(tests/report/test_figures.py) and is never a check value.
+(``invented_dataset`` in tests/conftest.py) and is never a check value.
 """
 
 from __future__ import annotations
@@ -22,7 +22,8 @@ from plyrisk.cautions import CAUTIONS
 from plyrisk.report.figures import outputs as fg
 from plyrisk.report.html import ReportFiles, write_report
 from plyrisk.results.dataset import read_results, write_results
-from tests.report.test_figures import build_dataset
+
+pytestmark = pytest.mark.slow  # every report renders a dozen figures or more (~10 s each)
 
 CASES = [("saltelli", False), ("pce", False), ("saltelli", True), ("pce", True)]
 PNG = b"\x89PNG\r\n\x1a\n"
@@ -30,12 +31,17 @@ VOID = {"area", "base", "br", "col", "embed", "hr", "img", "input", "link", "met
         "track", "wbr"}
 
 
-def dataset(method: str, swept: bool) -> xr.Dataset:
-    return build_dataset(method, swept, 2)
+@pytest.fixture(scope="session")
+def dataset(invented_dataset):
+    """The invented study's dataset (tests/conftest.py); a sweep of two exposures keeps the
+    reports small (each exposure adds a set of figures)."""
+    def of(method: str, swept: bool) -> xr.Dataset:
+        return invented_dataset(method, swept, 2)
+    return of
 
 
 @pytest.fixture(scope="module")
-def reports(tmp_path_factory) -> dict[tuple[str, bool], tuple[xr.Dataset, ReportFiles]]:
+def reports(tmp_path_factory, dataset) -> dict[tuple[str, bool], tuple[xr.Dataset, ReportFiles]]:
     out = {}
     for method, swept in CASES:
         ds = dataset(method, swept)
@@ -205,7 +211,7 @@ def test_quantiles_csv(report):
     ds, files = report
     cols, rows = read_csv(files.html.parent / "quantiles.csv")
     assert cols == ["scenario", "quantity", "interface", "probability", "estimate", "lower",
-                    "upper", "unit"]
+                    "upper", "unit", "warning"]
     n_q, n_f = ds.sizes["quantile"], ds.sizes["interface"]
     assert len(rows) == n_scenarios(ds) * (1 + n_f) * n_q
     inner = [r for r in rows if r["quantity"] == "inner_surface_temperature"]
@@ -250,7 +256,7 @@ def test_indices_group_and_ranking_csv(report):
     assert not (folder / "tolerances.csv").exists()
 
 
-def test_lhs_results_without_surrogate_indices(tmp_path):
+def test_lhs_results_without_surrogate_indices(tmp_path, dataset):
     ds = dataset("pce", False)
     old = ds.drop_vars([v for v in ds.data_vars if str(v).startswith("pce_")])
     files = write_report(old, tmp_path)
@@ -274,7 +280,7 @@ TOLERANCES = [  # placeholder records in whatever columns the tolerance engine p
 ]
 
 
-def test_tolerance_records_are_rendered_and_written(tmp_path):
+def test_tolerance_records_are_rendered_and_written(tmp_path, dataset):
     ds = dataset("pce", False).copy()
     ds.attrs["config_text"] = "[study\n"  # and an unreadable config: reported, not fatal
     files = write_report(ds, tmp_path, tolerance_table=TOLERANCES)
@@ -288,7 +294,7 @@ def test_tolerance_records_are_rendered_and_written(tmp_path):
     assert "could not be re-read" in text
 
 
-def test_tolerance_dataframe(tmp_path):
+def test_tolerance_dataframe(tmp_path, dataset):
     pd = pytest.importorskip("pandas")
     frame = pd.DataFrame(TOLERANCES)
     write_report(dataset("pce", False), tmp_path, tolerance_table=frame)
@@ -296,7 +302,7 @@ def test_tolerance_dataframe(tmp_path):
     assert cols == list(frame.columns) and len(rows) == 2
 
 
-def test_bad_tolerance_table_is_rejected(tmp_path):
+def test_bad_tolerance_table_is_rejected(tmp_path, dataset):
     with pytest.raises(ValueError, match="tolerance_table must be a pandas DataFrame, a list"):
         write_report(dataset("pce", False), tmp_path, tolerance_table=42)
     with pytest.raises(ValueError, match=r"tolerance_table\[0\] must be a mapping"):
@@ -308,7 +314,7 @@ def test_not_a_results_dataset_is_rejected(tmp_path):
         write_report(xr.Dataset(), tmp_path)
 
 
-def test_report_of_a_results_file_read_back(tmp_path):
+def test_report_of_a_results_file_read_back(tmp_path, dataset):
     ds = dataset("pce", False)
     back = read_results(write_results(ds, tmp_path / "results.nc"))
     files = write_report(back, tmp_path / "report")
@@ -317,3 +323,19 @@ def test_report_of_a_results_file_read_back(tmp_path):
     back = read_results(write_results(swept, tmp_path / "swept.nc"))
     assert fg.limit_crossing(back) == fg.limit_crossing(swept)
     assert list(back["scenario_label"].values) == list(swept["scenario_label"].values)
+
+
+def test_percentiles_from_a_reduced_subset_warn_in_every_output(tmp_path):
+    ds = dataset("saltelli", False).copy()
+    n = 2 * int(ds.attrs["base_samples"])
+    ds["samples_used"] = ds["samples_used"].copy(data=np.asarray(int(0.9 * n)))
+    files = write_report(ds, tmp_path)
+    needle = f"the percentiles and P(exceed) come from {int(0.9 * n)} of {n} samples"
+    assert needle in " ".join(html.unescape(files.html.read_text()).split())
+    assert needle in " ".join(files.markdown.read_text().split())
+    _, rows = read_csv(tmp_path / "quantiles.csv")
+    assert all(needle in r["warning"] for r in rows)
+    ds["samples_used"] = ds["samples_used"].copy(data=np.asarray(n))
+    write_report(ds, tmp_path / "full")
+    _, rows = read_csv(tmp_path / "full" / "quantiles.csv")
+    assert {r["warning"] for r in rows} == {""}

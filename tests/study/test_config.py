@@ -94,7 +94,7 @@ def test_missing_file():
 
 
 def test_directory_is_not_a_file(tmp_path):
-    with pytest.raises(ConfigError, match=r"cannot read the file"):
+    with pytest.raises(ConfigError, match=r"not a regular file \(a FIFO, device or folder\)"):
         load_study(tmp_path)
 
 
@@ -473,3 +473,33 @@ def test_screening_needs_two_parameters():
                         + "\n[screening]\ntrajectories = 10\n", source="t.toml")
     with pytest.raises(ConfigError, match=r"screening: screening needs at least 2 uncertain"):
         require_runnable(study)
+
+
+TRUNCATION = Path(__file__).resolve().parents[1] / "data" / "truncation_invented.toml"
+
+
+def test_a_cut_of_more_than_20_percent_needs_truncated_true(tmp_path):
+    # Source: Abramowitz & Stegun (1964), Table 26.1: Phi(-0.75) = 0.2266 — the mass of
+    # normal(0.6 mm, 0.8 mm) below zero
+    with pytest.raises(ConfigError, match=r"layer\[0\]\.thickness: the physical bounds cut "
+                                          r"22\.7 % of this distribution's mass \(more than "
+                                          r"20 %\).*add truncated = true"):
+        load_study(TRUNCATION)
+    accepted = tmp_path / "accepted.toml"
+    accepted.write_text(TRUNCATION.read_text().replace('sd = "0.8 mm" } }',
+                                                       'sd = "0.8 mm" }, truncated = true }'))
+    from plyrisk.study.values import truncation_warnings
+
+    warnings = truncation_warnings(load_study(accepted).parameters)
+    # Source: Abramowitz & Stegun (1964), Table 26.1: Phi(-2.22) = 0.0132 — normal(2 mm,
+    # 0.9 mm) below zero, a cut of more than 1 %: a warning without an error
+    assert len(warnings) == 2
+    assert warnings[0].startswith("WARNING: fabric.thickness: truncated at 0 mm: 23 % of the "
+                                  "mass cut")
+    assert "accepted with truncated = true" in warnings[0]
+    assert warnings[1].startswith("WARNING: gap.width: truncated at 0 mm: 1.3 % of the mass cut")
+    bad = tmp_path / "bad.toml"
+    bad.write_text(accepted.read_text().replace("truncated = true", 'truncated = "yes"'))
+    with pytest.raises(ConfigError, match=r"layer\[0\]\.thickness\.truncated: expected true or "
+                                          r"false"):
+        load_study(bad)

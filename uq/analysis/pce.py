@@ -556,7 +556,7 @@ SURROGATE_POINTS = 2**16
 """Scrambled Sobol' points at which the surrogate is evaluated for its percentiles [-]."""
 
 
-def surrogate_quantiles(fit: PceFit, probabilities: Sequence[float], *, seed: int,
+def surrogate_quantiles(fit: PceFit, probabilities: Sequence[float] | np.ndarray, *, seed: int,
                         points: int = SURROGATE_POINTS) -> np.ndarray:
     """Quantiles of the output from the surrogate, evaluated at many quasi-random points.
 

@@ -1,8 +1,19 @@
 """First- and total-order Sobol' indices from a Saltelli design, and their ranking.
 
 The estimators are those of ``SALib.analyze.sobol.analyze`` (Saltelli et al. 2010, Computer
-Physics Communications 181, 259-270) with ``calc_second_order=False``; confidence half-widths
-come from SALib's bootstrap over base rows.
+Physics Communications 181, 259-270) with ``calc_second_order=False``. The design decides the
+intervals:
+
+* A replicated design (``Design.replicates = R > 1``: R independently scrambled Saltelli
+  designs, replicated randomized quasi-Monte Carlo; Owen 1995, Lecture Notes in Statistics
+  106, 299-317; L'Ecuyer & Lemieux 2002, Modeling Uncertainty, 419-474): SALib's estimators
+  are applied to every replicate on its own (its output centred as SALib centres it), the
+  index is the mean of the R estimates and the half-width the Student t interval with R - 1
+  degrees of freedom on their spread, ``t_(R-1) s / sqrt(R)``. The replicates are independent
+  and identically distributed, so the interval holds whatever the correlation of the rows
+  within a scrambled sequence (which a bootstrap over rows ignores: on Saltelli designs its
+  intervals are several times too wide).
+* One scrambled sequence (``replicates = 1``): SALib's bootstrap over base rows.
 
 Conventions
 -----------
@@ -23,13 +34,26 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
 from SALib.analyze import sobol as salib_sobol
+from scipy import stats
 
 from plyrisk.design.sampling import Design
 
-__all__ = ["RankedIndex", "SobolIndices", "rank", "sobol_indices"]
+if TYPE_CHECKING:  # pragma: no cover
+    from plyrisk.analysis.pce import SurrogateIndices
+
+__all__ = ["INTERVAL_BOOTSTRAP", "INTERVAL_JACKKNIFE", "INTERVAL_REPLICATES", "RankedIndex",
+           "SobolIndices", "rank", "replicate_interval", "sobol_indices"]
+
+INTERVAL_BOOTSTRAP = "bootstrap"
+"""Interval method: SALib's bootstrap over the base rows of one scrambled sequence."""
+INTERVAL_REPLICATES = "replicates"
+"""Interval method: Student t on the spread of independently scrambled replicates."""
+INTERVAL_JACKKNIFE = "jackknife"
+"""Interval method: delete-one-batch jackknife (streamed stores of one scrambled sequence)."""
 
 
 @dataclass(frozen=True, eq=False)
@@ -43,7 +67,8 @@ class SobolIndices:
     first, total : numpy.ndarray
         First-order and total-order indices [-].
     first_ci, total_ci : numpy.ndarray
-        Bootstrap confidence half-widths at ``confidence`` [-] (SALib's ``*_conf``).
+        Confidence half-widths at ``confidence`` [-]: Student t over the replicates, or
+        SALib's bootstrap (``*_conf``) for one scrambled sequence (see ``interval``).
     confidence : float
         Confidence level of the half-widths [-].
     base_samples_used : int
@@ -52,6 +77,11 @@ class SobolIndices:
         Base rows dropped because any of their outputs was non-finite [-].
     constant_output : bool
         True when the output had no variance; all indices are then NaN.
+    interval : str
+        How the half-widths were obtained: ``"replicates"``, ``"bootstrap"`` or
+        ``"jackknife"``.
+    replicates : int
+        Independently scrambled replicates R behind the estimates (1 for one sequence).
     """
 
     names: tuple[str, ...]
@@ -63,7 +93,79 @@ class SobolIndices:
     base_samples_used: int
     dropped_rows: int
     constant_output: bool = False
+    interval: str = INTERVAL_BOOTSTRAP
+    replicates: int = 1
 
+
+def replicate_interval(estimates: np.ndarray, confidence: float,
+                       axis: int = 0) -> tuple[np.ndarray, np.ndarray]:
+    """Mean of independent replicate estimates and the Student t half-width of that mean.
+
+    Parameters
+    ----------
+    estimates : array_like
+        One estimate per replicate along ``axis`` (R >= 2) [any].
+    confidence : float
+        Two-sided confidence level in (0, 1) [-].
+    axis : int
+        The replicate axis [-].
+
+    Returns
+    -------
+    mean, half_width : numpy.ndarray
+        ``mean`` over the replicates and ``t_(1 - alpha/2, R - 1) s / sqrt(R)``, s the sample
+        standard deviation of the replicates [unit of the estimates].
+
+    Notes
+    -----
+    For R independent, identically distributed randomizations of a quasi-Monte Carlo rule the
+    replicate estimates are i.i.d.; their mean has variance sigma^2 / R, estimated without
+    bias by s^2 / R, and the t interval is exact for normal replicates (L'Ecuyer & Lemieux
+    2002, Modeling Uncertainty, 419-474, section "Variance estimation"; Owen 1997, SIAM J.
+    Numer. Anal. 34, 1884-1910, for the scrambled-net variance) (R.1).
+
+    Examples
+    --------
+    >>> mean, half = replicate_interval([0.30, 0.32, 0.31, 0.33], 0.95)
+    >>> round(float(mean), 4), round(float(half), 4)
+    (0.315, 0.0205)
+    """
+    x = np.asarray(estimates, dtype=float)
+    r = x.shape[axis]
+    if r < 2:
+        raise ValueError(f"a replicate interval needs at least 2 replicates, got {r}")
+    if not 0.0 < confidence < 1.0:
+        raise ValueError(f"confidence must lie in (0, 1), got {confidence}")
+    t = float(stats.t.ppf(0.5 + confidence / 2.0, r - 1))
+    return x.mean(axis=axis), t * x.std(axis=axis, ddof=1) / np.sqrt(r)    # (R.1)
+
+
+def _replicate_estimates(table: np.ndarray, cols: Sequence[int], label: np.ndarray,
+                         replicates: int) -> tuple[np.ndarray, np.ndarray]:
+    """SALib's first and total estimators on every replicate: shape (R, k) each.
+
+    ``table`` holds the kept base rows (one row per base row, one column per design block),
+    ``cols`` the columns A, AB_1 ... AB_k, B, ``label`` each base row's replicate. Each
+    replicate's output is centred on its mean over those columns, as
+    ``SALib.analyze.sobol.analyze`` centres the output it is given (the first-order numerator
+    depends on the centring; the scale cancels).
+    """
+    sizes = np.bincount(label, minlength=replicates)
+    if np.all(sizes == sizes[0]):   # every replicate whole: one vectorised pass
+        groups = [table[np.argsort(label, kind="stable")][:, list(cols)]
+                  .reshape(replicates, int(sizes[0]), len(cols))]
+    else:
+        groups = [table[label == r][:, list(cols)][None] for r in range(replicates)]
+    first, total = [], []
+    for t in groups:
+        t = t - t.mean(axis=(1, 2), keepdims=True)
+        fa, fb, fab = t[:, :, :1], t[:, :, -1:], t[:, :, 1:-1]
+        var = np.var(np.concatenate([fa, fb], axis=1), axis=(1, 2))[:, None]
+        with np.errstate(invalid="ignore", divide="ignore"):
+            first.append(np.where(var > 0, np.mean(fb * (fab - fa), axis=1) / var, np.nan))
+            total.append(np.where(var > 0, 0.5 * np.mean((fa - fab) ** 2, axis=1) / var,
+                                  np.nan))
+    return np.concatenate(first), np.concatenate(total)
 
 def _salib_seed(seed: int) -> int:
     if isinstance(seed, bool) or not isinstance(seed, int | np.integer) or seed < 0:
@@ -79,7 +181,7 @@ def _analyze(table: np.ndarray, problem: dict, n_bootstrap: int, confidence: flo
 
 
 def _result(names: Sequence[str], values: tuple[np.ndarray, ...] | None, confidence: float,
-            used: int, dropped: int) -> SobolIndices:
+            used: int, dropped: int, replicates: int = 1) -> SobolIndices:
     constant = values is None
     if values is None:
         nan = np.full(len(names), np.nan)
@@ -87,8 +189,9 @@ def _result(names: Sequence[str], values: tuple[np.ndarray, ...] | None, confide
     for v in values:
         v.setflags(write=False)
     s1, s1c, st, stc = values
+    interval = INTERVAL_REPLICATES if replicates > 1 else INTERVAL_BOOTSTRAP
     return SobolIndices(tuple(names), s1, s1c, st, stc, confidence, used, dropped,
-                        constant_output=constant)
+                        constant_output=constant, interval=interval, replicates=replicates)
 
 
 def sobol_indices(y: np.ndarray, design: Design, *, names: Sequence[str],
@@ -108,16 +211,29 @@ def sobol_indices(y: np.ndarray, design: Design, *, names: Sequence[str],
     group_names : sequence of str
         One name per design group; defaults to the member names joined with ``+``. [-]
     n_bootstrap : int
-        Bootstrap resamples for the half-widths, >= 2 [-].
+        Bootstrap resamples for the half-widths, >= 2 (one scrambled sequence only) [-].
     confidence : float
         Confidence level of the half-widths, in (0, 1) [-].
     seed : int
-        Non-negative bootstrap seed [-].
+        Non-negative bootstrap seed (one scrambled sequence only) [-].
 
     Returns
     -------
     tuple
         (per-parameter indices, per-group indices or None when the design has no groups).
+        For a replicated design (``design.replicates > 1``) each index is the mean of SALib's
+        estimators over the replicates and its half-width the Student t interval on their
+        spread (:func:`replicate_interval`); no bootstrap.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from plyrisk.design.sampling import sobol_design
+    >>> design = sobol_design(1024, 2, seed=3, replicates=8)
+    >>> y = design.unit @ np.array([1.0, 2.0])      # additive: S = (1, 4) / 5
+    >>> ind, _ = sobol_indices(y, design, names=("a", "b"), seed=0)
+    >>> np.round(ind.first, 2), ind.interval
+    (array([0.2, 0.8]), 'replicates')
     """
     if design.method != "sobol":
         raise ValueError(f"Sobol' indices need a 'sobol' design, got method {design.method!r}")
@@ -149,20 +265,34 @@ def sobol_indices(y: np.ndarray, design: Design, *, names: Sequence[str],
     used, dropped = int(keep.sum()), int(n - keep.sum())
     if used < 2:
         raise ValueError(f"only {used} of {n} base rows have finite outputs; at least 2 needed")
+    reps = int(getattr(design, "replicates", 1))
+    rep_label = (np.arange(n) % reps)[keep]
+    if reps > 1:
+        short = np.flatnonzero(np.bincount(rep_label, minlength=reps) < 2)
+        if short.size:
+            raise ValueError(f"replicate {short[0]} has fewer than 2 base rows with finite "
+                             f"outputs; at least 2 needed in each of the {reps} replicates")
     table = table[keep]
+
+    def analyze(cols: list[int], prob: dict) -> tuple[np.ndarray, ...]:
+        if reps == 1:
+            return _analyze(table[:, cols], prob, n_bootstrap, confidence, salib_seed)
+        s1, st = _replicate_estimates(table, cols, rep_label, reps)
+        (m1, h1), (mt, ht) = (replicate_interval(v, confidence) for v in (s1, st))
+        return m1, h1, mt, ht
 
     ab = [column[2 + j] for j in range(d)]
     grp_cols = [ab[g[0]] if len(g) == 1 else column[2 + d + k] for k, g in enumerate(design.groups)]
     scale = np.max(np.abs(table))
     if np.ptp(table) <= 8.0 * np.finfo(float).eps * scale:
-        first = _result(names, None, confidence, used, dropped)
-        groups = _result(group_names, None, confidence, used, dropped) if design.groups else None
+        first = _result(names, None, confidence, used, dropped, reps)
+        groups = (_result(group_names, None, confidence, used, dropped, reps) if design.groups
+                  else None)
         return first, groups
 
     problem = {"num_vars": d, "names": list(names)}
-    first = _result(names, _analyze(table[:, [column[0], *ab, column[1]]], problem,
-                                    n_bootstrap, confidence, salib_seed),
-                    confidence, used, dropped)
+    first = _result(names, analyze([column[0], *ab, column[1]], problem),
+                    confidence, used, dropped, reps)
     if not design.groups:
         return first, None
 
@@ -174,11 +304,36 @@ def sobol_indices(y: np.ndarray, design: Design, *, names: Sequence[str],
     order = list(dict.fromkeys(label))          # SALib's group order: first appearance
     cols = [grp_cols[int(lab[1:])] if lab[0] == "g" else ab[int(lab[1:])] for lab in order]
     gproblem = {"num_vars": d, "names": list(names), "groups": label}
-    values = _analyze(table[:, [column[0], *cols, column[1]]], gproblem, n_bootstrap,
-                      confidence, salib_seed)
+    values = analyze([column[0], *cols, column[1]], gproblem)
     pick = [order.index(f"g{k}") for k in range(len(design.groups))]
-    grouped = _result(group_names, tuple(v[pick] for v in values), confidence, used, dropped)
+    grouped = _result(group_names, tuple(v[pick] for v in values), confidence, used, dropped,
+                      reps)
     return first, grouped
+
+
+def not_resolved(value: float, half_width: float) -> bool:
+    """Whether an index estimate lies outside [0, 1] by more than its interval half-width.
+
+    A Sobol index is a variance share, so an estimate above 1 or below 0 beyond its interval
+    is not noise around a true value inside the range: the estimator has not settled (too few
+    samples for the model's interactions). Such an index is reported as "not resolved: more
+    samples", never as a value.
+
+    Parameters
+    ----------
+    value
+        The estimate.
+    half_width
+        Its confidence half-width.
+
+    Examples
+    --------
+    >>> not_resolved(1.615, 0.054), not_resolved(1.02, 0.05), not_resolved(-0.2, 0.1)
+    (True, False, True)
+    """
+    if not (np.isfinite(value) and np.isfinite(half_width)):
+        return False
+    return bool(value - half_width > 1.0 or value + half_width < 0.0)
 
 
 @dataclass(frozen=True)
@@ -216,7 +371,8 @@ class RankedIndex:
         return self.first < 0.0
 
 
-def rank(indices: SobolIndices, *, ci_threshold: float = 0.05) -> list[RankedIndex]:
+def rank(indices: SobolIndices | SurrogateIndices, *, ci_threshold: float = 0.05
+         ) -> list[RankedIndex]:
     """Rank parameters by total-order index, largest first, with a convergence verdict.
 
     Parameters
@@ -231,7 +387,8 @@ def rank(indices: SobolIndices, *, ci_threshold: float = 0.05) -> list[RankedInd
     list of RankedIndex
         Sorted by total index, descending (NaN last). The suggested N scales the design's
         base samples (used + dropped, so the drop rate is carried over) by
-        (max half-width / threshold)**2 and rounds up to a power of 2.
+        (max half-width / threshold)**2 and rounds up to a power of 2 (with R replicates: to R
+        times a power of 2).
     """
     if not (math.isfinite(ci_threshold) and ci_threshold > 0.0):
         raise ValueError(f"ci_threshold must be positive, got {ci_threshold}")
@@ -247,8 +404,9 @@ def rank(indices: SobolIndices, *, ci_threshold: float = 0.05) -> list[RankedInd
         suggested = None
         worst = max(s1c, stc)
         if not converged and math.isfinite(worst):
-            target = math.ceil(n_design * (worst / ci_threshold) ** 2)
-            suggested = 1 << max(target - 1, 0).bit_length()
+            reps = int(getattr(indices, "replicates", 1))
+            target = math.ceil(n_design * (worst / ci_threshold) ** 2 / reps)
+            suggested = reps * (1 << max(target - 1, 0).bit_length())
         out.append(RankedIndex(name, s1, s1c, st, stc, converged, suggested,
                                first_converged=bool(s1c <= ci_threshold),
                                total_converged=bool(stc <= ci_threshold)))

@@ -1,6 +1,12 @@
 """Analysis of a propagated study: percentile bands, exceedance of the limit, Sobol indices and
 the ranking of parameters and layers.
 
+Intervals follow the design: on a replicated Saltelli design (R independently scrambled
+replicates) percentiles and the exceedance probability are pooled over every replicate's A and
+B rows with intervals from the spread of the replicates
+(:func:`plyrisk.analysis.statistics.replicate_quantiles`, ``replicate_exceedance``); on other
+designs the values are independent draws and the intervals binomial (order statistics, Wilson).
+
 Non-converged samples (flagged by the solver, NaN outputs) never enter a statistic unnoticed:
 percentiles and the exceedance probability use the converged samples only and report how many
 were left out; the Sobol estimators drop every base row in which any evaluation failed (so the
@@ -18,7 +24,14 @@ from scipy import stats
 from plyrisk.analysis.outputs import MemoryRows, output_column
 from plyrisk.analysis.pce import SurrogateIndices
 from plyrisk.analysis.sobol import RankedIndex, SobolIndices, rank
-from plyrisk.analysis.statistics import Exceedance, QuantileEstimate, exceedance, quantiles
+from plyrisk.analysis.statistics import (
+    Exceedance,
+    QuantileEstimate,
+    exceedance,
+    quantiles,
+    replicate_exceedance,
+    replicate_quantiles,
+)
 from plyrisk.errors import PlyriskError
 from plyrisk.methods import get_method
 from plyrisk.propagate.evaluate import Propagation, parameter_groups
@@ -170,6 +183,13 @@ def analyse(study: Study, propagation: Propagation, *,
     rows = design.independent_rows()
     source = MemoryRows(propagation)
     notes = method.notes(study, design.base_samples)
+    label = design.replicate_of_rows()[rows] if design.replicates > 1 else None
+
+    def quantile(values: np.ndarray) -> QuantileEstimate:
+        if label is None:
+            return quantiles(values, probabilities, confidence=a.confidence)
+        return replicate_quantiles(values, label, probabilities, confidence=a.confidence)
+
     result = []
     n_s = propagation.outputs["converged"].shape[0]
     for s in range(n_s):
@@ -179,13 +199,11 @@ def analyse(study: Study, propagation: Propagation, *,
                 f"no sample converged{scenario_text(study, s)}: the solver gave up on all "
                 f"{y.size} samples; raise [model] max_iterations or check the inputs"
             )
-        inner_q = quantiles(y[rows], probabilities, confidence=a.confidence)
+        inner_q = quantile(y[rows])
         faces = propagation.outputs["interface_temperature"][s][rows]
-        face_q = [
-            quantiles(faces[:, i], probabilities, confidence=a.confidence)
-            for i in range(faces.shape[1])
-        ]
-        exc = exceedance(y[rows], a.limit, confidence=a.confidence)
+        face_q = [quantile(faces[:, i]) for i in range(faces.shape[1])]
+        exc = (exceedance(y[rows], a.limit, confidence=a.confidence) if label is None else
+               replicate_exceedance(y[rows], label, a.limit, confidence=a.confidence))
         ix = method.scenario_indices(study, s, source=source, design=design,
                                      unit=design.unit[rows], y=y[rows],
                                      probabilities=probabilities, streamed=False)

@@ -78,7 +78,7 @@ class MorrisAnalysis:
     threshold: float
 
 
-def morris_analysis(study, propagation: Propagation, *, threshold: float | None = None,
+def morris_analysis(study: Study, propagation: Propagation, *, threshold: float | None = None,
                     levels: int | None = None) -> MorrisAnalysis:
     """mu*, mu and sigma of every output at every exposure, and the inputs safe to fix.
 
@@ -127,7 +127,7 @@ def morris_analysis(study, propagation: Propagation, *, threshold: float | None 
     return MorrisAnalysis(per_scenario, fixable, outputs, threshold)
 
 
-def _at(study, s: int) -> str:
+def _at(study: Study, s: int) -> str:
     if study.scenarios is None:
         return ""
     return f" at {study.scenarios.quantity} = {study.scenarios.labels[s]}"
@@ -135,7 +135,7 @@ def _at(study, s: int) -> str:
 
 
 
-def morris_dataset(study, propagation: Propagation, analysis: MorrisAnalysis) -> xr.Dataset:
+def morris_dataset(study: Study, propagation: Propagation, analysis: MorrisAnalysis) -> xr.Dataset:
     """The results dataset of a Morris study: samples and Morris measures.
 
     Parameters
@@ -248,7 +248,7 @@ def morris_dataset(study, propagation: Propagation, analysis: MorrisAnalysis) ->
     return xr.Dataset(data, coords, attrs)
 
 
-def morris_lines(study, propagation: Propagation, analysis: MorrisAnalysis, *,
+def morris_lines(study: Study, propagation: Propagation, analysis: MorrisAnalysis, *,
                  top: int) -> list[str]:
     """Summary lines of a Morris study (every exposure; the inner-surface temperature) [-]."""
 

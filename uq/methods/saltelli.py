@@ -1,11 +1,16 @@
 """``method = "saltelli"``: Sobol' indices from a Saltelli design (per parameter and per layer).
 
-The design is a scrambled Sobol' sequence in Saltelli's A, B, AB_j (and per-layer AB_g) blocks
-(:func:`plyrisk.design.sampling.sobol_design`); the estimators are SALib's (Saltelli et al.
-2010; Jansen 1999) with bootstrap intervals, or a batch jackknife for designs of more than
-:data:`SALIB_BOOTSTRAP_ROWS` base rows and for stores analysed in passes
+The design is ``replicates`` (R, default 8) independently scrambled Sobol' sequences, each in
+Saltelli's A, B, AB_j (and per-layer AB_g) blocks (:func:`plyrisk.design.sampling.sobol_design`;
+replicated randomized quasi-Monte Carlo, Owen 1995; L'Ecuyer & Lemieux 2002). The estimators
+are SALib's (Saltelli et al. 2010; Jansen 1999), applied to every replicate; each index is the
+mean over the replicates and its interval the Student t interval with R - 1 degrees of freedom
+on their spread, in memory and for stores analysed in passes alike
 (:mod:`plyrisk.analysis.streaming`). The A and B rows are draws from the joint input
-distribution, so percentiles and the exceedance probability come from them.
+distribution, so percentiles and the exceedance probability come from them, pooled over the
+replicates with intervals from the replicates' spread. (A design of one scrambled sequence,
+``replicates = 1`` through the Python API only, keeps SALib's bootstrap, or a batch jackknife
+above :data:`SALIB_BOOTSTRAP_ROWS` base rows and in passes.)
 """
 
 from __future__ import annotations
@@ -41,6 +46,7 @@ class Saltelli(Method):
               "Saltelli design of a scrambled Sobol' sequence"
     designs = ("sobol",)
     sample_noun = "base samples"
+    only_keys = ("replicates",)
     grows = True
 
     def describe(self, study: Study) -> str:
@@ -59,6 +65,11 @@ class Saltelli(Method):
         return 2 * int(study.analysis.samples)
 
     def notes(self, study: Study, base_samples: int) -> list[str]:
+        r = int(study.analysis.replicates)
+        if r > 1:
+            return [f"intervals from {r} independently scrambled replicates of "
+                    f"{base_samples // r} base samples each (Student t, {r - 1} degrees of "
+                    "freedom; randomized quasi-Monte Carlo)"]
         if base_samples > SALIB_BOOTSTRAP_ROWS:
             return [f"{base_samples} base samples: Sobol index intervals from a batch "
                     "jackknife (plyrisk.analysis.streaming) rather than the bootstrap"]
@@ -78,7 +89,8 @@ class Saltelli(Method):
         if not names:
             return IndexResult()
         outputs = analysed_outputs(study)
-        if streamed or design.base_samples > SALIB_BOOTSTRAP_ROWS:
+        replicated = int(getattr(design, "replicates", 1)) > 1
+        if streamed or (not replicated and design.base_samples > SALIB_BOOTSTRAP_ROWS):
             indices = {o: sobol_jackknife(source, o, scenario, study, confidence=a.confidence)
                        for o in outputs}
         else:
@@ -96,6 +108,18 @@ class Saltelli(Method):
         if not study.parameters:
             return {}
         return _index_variables(study, analysis, outputs)
+
+
+def interval_description(indices: Any, bootstrap: int) -> str:
+    """One line saying how the Sobol index intervals were obtained [-]."""
+    kind = getattr(indices, "interval", "bootstrap")
+    if kind == "replicates":
+        r = int(indices.replicates)
+        return (f"Student t on the spread of {r} independently scrambled replicates of the "
+                f"Saltelli design ({r - 1} degrees of freedom; randomized quasi-Monte Carlo)")
+    if kind == "jackknife":
+        return "delete-one-batch jackknife over 64 batches of base rows"
+    return f"SALib's bootstrap over base rows ({bootstrap} resamples)"
 
 
 def _index_variables(study: Study, analysis: StudyAnalysis,
@@ -120,6 +144,10 @@ def _index_variables(study: Study, analysis: StudyAnalysis,
                     arr[s, k] = getattr(ind, attr)
         return arr
 
+    sample = sa[0].indices[outputs[0]][0]
+    interval = {"confidence": a.confidence,
+                "interval_method": getattr(sample, "interval", "bootstrap"),
+                "interval": interval_description(sample, a.bootstrap)}
     for which, dim, size, prefix in ((0, "parameter", n_p, "sobol"),
                                      (1, "group", n_g, "sobol_group")):
         who = "parameter" if which == 0 else "layer group"
@@ -138,13 +166,13 @@ def _index_variables(study: Study, analysis: StudyAnalysis,
         data[f"{prefix}_first"] = ((*dims, dim), table(which, "first", size), "1",
                                    f"first-order Sobol index per {who}", {})
         data[f"{prefix}_first_ci"] = ((*dims, dim), table(which, "first_ci", size), "1",
-                                      "half-width of the first-order index's bootstrap "
-                                      "confidence interval", {"confidence": a.confidence})
+                                      "half-width of the first-order index's confidence "
+                                      "interval", dict(interval))
         data[f"{prefix}_total"] = ((*dims, dim), table(which, "total", size), "1",
                                    f"total Sobol index per {who}", {})
         data[f"{prefix}_total_ci"] = ((*dims, dim), table(which, "total_ci", size), "1",
-                                      "half-width of the total index's bootstrap confidence "
-                                      "interval", {"confidence": a.confidence})
+                                      "half-width of the total index's confidence interval",
+                                      dict(interval))
     rank_p = np.zeros((len(sa), n_o, n_p), dtype=np.int32)
     conv_p = np.zeros((len(sa), n_o, n_p), dtype=bool)
     rank_g = np.zeros((len(sa), n_o, n_g), dtype=np.int32)

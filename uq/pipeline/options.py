@@ -69,7 +69,11 @@ class RunOptions:
     store
         Zarr store folder for out-of-core runs (default ``[compute] store``).
     resume
-        Keep the chunks an interrupted run of the same study already stored.
+        Keep the chunks an interrupted run of the same study already stored; on a finished
+        store only the analysis runs again.
+    overwrite
+        Replace a plyrisk store already at ``store`` (ignored with ``resume``); on the command
+        line also the earlier result in the output folder (:mod:`plyrisk.results.files`).
     until_converged
         Grow the study until every index interval is narrow enough (methods that grow).
     max_runs
@@ -86,6 +90,7 @@ class RunOptions:
     scheduler: str | None = None
     store: str | Path | None = None
     resume: bool = False
+    overwrite: bool = False
     until_converged: bool = False
     max_runs: int | None = None
     quiet: bool = False

@@ -2,7 +2,9 @@
 
 from __future__ import annotations
 
+import sys
 import warnings
+from contextlib import ExitStack
 from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
@@ -10,16 +12,24 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 import xarray as xr
 
+from plyrisk.analysis.direction import gap_directions, limit_scope_note
+from plyrisk.analysis.ratings import rating_check
 from plyrisk.analysis.study import StudyAnalysis
 from plyrisk.cautions import cautions_text
 from plyrisk.errors import PlyriskError
 from plyrisk.methods import get_method
 from plyrisk.pipeline.options import RunOptions
-from plyrisk.pipeline.screening import add_screening, screen_study, screening_lines
-from plyrisk.pipeline.sequential import add_growth, grow_until_converged, growth_lines
+from plyrisk.pipeline.screening import Screening, add_screening, screen_study, screening_lines
+from plyrisk.pipeline.sequential import Growth, add_growth, grow_until_converged, growth_lines
 from plyrisk.propagate.evaluate import Propagation, propagate
-from plyrisk.results.dataset import write_results, write_store_analysis
+from plyrisk.results.dataset import (
+    subset_warning,
+    subset_warnings,
+    write_results,
+    write_store_analysis,
+)
 from plyrisk.study.units import TEMPERATURE, from_si
+from plyrisk.study.values import truncation_warnings
 from plyrisk.text.indices import index_lines
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -40,14 +50,14 @@ class StudyResult:
     :class:`plyrisk.pipeline.sequential.Growth` of ``until_converged``.
     """
 
-    study: object
+    study: Study
     propagation: Propagation
     analysis: StudyAnalysis
     dataset: xr.Dataset
     path: Path | None
     warnings: tuple[str, ...] = ()
-    screening: object | None = None
-    growth: object | None = None
+    screening: Screening | None = None
+    growth: Growth | None = None
 
 
 def run_study(
@@ -96,41 +106,57 @@ def run_study(
                                              opts.scheduler, opts.store)
     quiet = opts.quiet
     screening = growth = reader = None
-    with warnings.catch_warnings(record=True) as caught:  # reported in the summary, once each
-        warnings.simplefilter("always")
-        if study.screening is not None:
-            screening = screen_study(study, chunk_size=chunk_size, workers=workers)
-            study = screening.reduced
-        if opts.until_converged:
-            growth = grow_until_converged(study, max_runs=opts.max_runs, chunk_size=chunk_size,
-                                          workers=workers)
-            study, prop, analysis = growth.study, growth.propagation, growth.analysis
-        elif store is not None:
-            prop, analysis, reader = _run_to_store(study, store, chunk_size=chunk_size,
-                                                   resume=opts.resume, workers=workers,
-                                                   scheduler=scheduler, quiet=quiet)
-        else:
-            prop = propagate(study, chunk_size=chunk_size, quiet=quiet, workers=workers,
-                             scheduler=scheduler)
-            analysis = chosen.analyse(study, prop)
-    messages = tuple(dict.fromkeys(" ".join(str(w.message).split()) for w in caught
-                                   if not _scheduling_noise(w)))
-    ds = chosen.dataset(study, prop, analysis)
-    if screening is not None:
-        ds = add_screening(ds, screening)
-    if growth is not None:
-        ds = add_growth(ds, growth)
-    if store is not None:
-        ds.attrs["sample_store"] = str(store)
-        if prop.inputs.shape[0] < reader.n_rows:  # analysed in passes; the file has a part
-            ds.attrs["sample_rows_in_file"] = int(prop.inputs.shape[0])
-            ds.attrs["notes"] += (f"\nresults.nc and the figures hold the first "
-                                  f"{prop.inputs.shape[0]} of the {reader.n_rows} samples; "
-                                  f"all of them are in the store {store}")
-            ds.attrs["evaluations"] = int(reader.n_rows)
-            ds.attrs["base_samples"] = int(study.analysis.samples)
-        write_store_analysis(ds, store)
-    ds.attrs["warnings"] = "\n".join(messages)
+    with ExitStack() as held:
+        if store is not None:  # one run per store, until its analysis is stored
+            from plyrisk.propagate.store import store_lock
+
+            held.enter_context(store_lock(store, resume=opts.resume))
+        with warnings.catch_warnings(record=True) as caught:  # reported in the summary, once each
+            warnings.simplefilter("always")
+            if study.screening is not None:
+                phase("screening (Morris) before the study", quiet)
+                screening = screen_study(study, chunk_size=chunk_size, workers=workers)
+                study = screening.reduced
+            if opts.until_converged:
+                phase("growing the study until every index interval is narrow enough", quiet)
+                growth = grow_until_converged(study, max_runs=opts.max_runs, chunk_size=chunk_size,
+                                              workers=workers)
+                study, prop, analysis = growth.study, growth.propagation, growth.analysis
+            elif store is not None:
+                phase(f"solving into the store {store}", quiet)
+                prop, analysis, reader = _run_to_store(study, store, chunk_size=chunk_size,
+                                                       resume=opts.resume, overwrite=opts.overwrite,
+                                                       workers=workers,
+                                                       scheduler=scheduler, quiet=quiet)
+            else:
+                phase("solving", quiet)
+                prop = propagate(study, chunk_size=chunk_size, quiet=quiet, workers=workers,
+                                 scheduler=scheduler)
+                phase(ANALYSIS_PHASE, quiet)
+                analysis = chosen.analyse(study, prop)
+        messages = tuple(dict.fromkeys(" ".join(str(w.message).split()) for w in caught
+                                       if not _scheduling_noise(w)))
+        ds = chosen.dataset(study, prop, analysis)
+        if screening is not None:
+            ds = add_screening(ds, screening)
+        if growth is not None:
+            ds = add_growth(ds, growth)
+        if store is not None:
+            ds.attrs["sample_store"] = str(store)
+            if prop.inputs.shape[0] < reader.n_rows:  # analysed in passes; the file has a part
+                ds.attrs["sample_rows_in_file"] = int(prop.inputs.shape[0])
+                ds.attrs["notes"] += (f"\nresults.nc and the figures hold the first "
+                                      f"{prop.inputs.shape[0]} of the {reader.n_rows} samples; "
+                                      f"all of them are in the store {store}")
+                ds.attrs["evaluations"] = int(reader.n_rows)
+                ds.attrs["base_samples"] = int(study.analysis.samples)
+            write_store_analysis(ds, store)
+    if "exceedance_probability" in ds:
+        ds = _add_ratings(ds, study, prop)
+        scope = limit_scope_note(study)
+        if scope:
+            ds.attrs["notes"] = "\n".join(n for n in (ds.attrs.get("notes", ""), scope) if n)
+    ds.attrs["warnings"] = "\n".join((*messages, *subset_warnings(ds)))
     path = None
     if out_dir is not None:
         path = write_results(ds, Path(out_dir) / "results.nc")
@@ -178,14 +204,17 @@ def _scheduling_noise(w: warnings.WarningMessage) -> bool:
         f"/{name}/" in where for name in ("distributed", "dask", "tornado"))
 
 
-def _run_to_store(study, store, *, chunk_size, resume, workers, scheduler, quiet):
+def _run_to_store(study: Study, store, *, chunk_size, resume, overwrite, workers, scheduler,
+                  quiet):
     """Solve into the store, then analyse: loaded whole when small, in passes when large."""
     from plyrisk.analysis import streaming
     from plyrisk.propagate.store import load_propagation, solve_to_store
 
     method = get_method(study.analysis.method)
     reader = solve_to_store(study, store, chunk_size=chunk_size, resume=resume,
-                            workers=workers, scheduler=scheduler, quiet=quiet)
+                            overwrite=overwrite, workers=workers, scheduler=scheduler, quiet=quiet)
+    phase(ANALYSIS_PHASE + ("" if reader.n_rows <= streaming.STREAM_ROWS else ", in passes"),
+          quiet)
     if reader.n_rows <= streaming.STREAM_ROWS:
         prop = load_propagation(study, reader)
         return prop, method.analyse(study, prop), reader
@@ -193,11 +222,21 @@ def _run_to_store(study, store, *, chunk_size, resume, workers, scheduler, quiet
     return load_propagation(study, reader, stop=FILE_SAMPLE_ROWS), analysis, reader
 
 
+ANALYSIS_PHASE = "analysis (percentiles, exceedance, sensitivity indices or surrogate fit)"
+
+
+def phase(text: str, quiet: bool) -> None:
+    """One line on stderr as a phase of a run begins (unless ``quiet``): on a terminal and off
+    it, so that a long run shows where it is [-]."""
+    if not quiet:
+        print(f"plyrisk: {text} ...", file=sys.stderr, flush=True)
+
+
 FILE_SAMPLE_ROWS = 2**18
 """Leading rows of a store analysed in passes that ``results.nc`` carries for the figures [-]."""
 
 
-def _t(study, kelvin: float) -> str:
+def _t(study: Study, kelvin: float) -> str:
     unit = study.limit_unit or "K"
     if not np.isfinite(kelvin):
         return "n/a"
@@ -208,6 +247,55 @@ def _pct(p: float) -> str:
     if not np.isfinite(p):
         return "n/a"
     return f"{100 * p:.3g} %"
+
+
+def _add_ratings(ds: xr.Dataset, study: Study, prop: Propagation) -> xr.Dataset:
+    """Add the rated-temperature check (``max_temperature`` of the layers) to the dataset."""
+    checks = [rating_check(study, prop, s) for s in range(prop.outputs["converged"].shape[0])]
+    if checks[0] is None:
+        return ds
+    swept = "scenario" in ds.dims
+    sd = ("scenario",) if swept else ()
+
+    def per(values):
+        return np.asarray(values) if swept else np.asarray(values)[0]
+
+    margin = per([c.margin for c in checks])
+    ds = ds.copy()
+    ds["layer_rating_margin"] = ((*sd, "sample"), margin[..., :ds.sizes["sample"]], {
+        "units": "K", "long_name": "largest excess of a rated layer's hotter face over its "
+        "max_temperature (positive: some layer above its rating; NaN: not converged)"})
+    for key, attr in (("", "probability"), ("_lower", "lower"), ("_upper", "upper")):
+        ds[f"rating_exceedance_probability{key}"] = (sd, per([getattr(c.exceedance, attr)
+                                                              for c in checks]), {
+            "units": "1", "long_name": "P(some layer above its max_temperature), independent "
+            "converged samples" + ("" if not key else f" ({attr} bound)")})
+    ds.attrs["rated_layers"] = ", ".join(
+        f"{layer.name} ({study.format_temperature(r)})"
+        for layer, r in zip(study.layers, study.max_temperatures, strict=True) if r is not None)
+    return ds
+
+
+def _rating_lines(study: Study, prop: Propagation, scenario: int) -> list[str]:
+    """Summary lines of the rated-temperature check of one exposure."""
+    check = rating_check(study, prop, scenario)
+    if check is None:
+        return []
+    e = check.exceedance
+    over = [f"{name} {count}" for name, count in check.per_layer.items() if count]
+    return [f"  P(a layer above its max_temperature) = {_pct(e.probability)}   [{_pct(e.lower)}, "
+            f"{_pct(e.upper)}]  ({e.count} of {e.n} samples"
+            + (f"; by layer: {', '.join(over)}" if over else "") + ")"]
+
+
+def _onset_gaps(prop: Propagation, scenario: int) -> set[str]:
+    """Names of the gaps past the onset of natural convection in any sample of a scenario."""
+    out = prop.outputs
+    onset = np.asarray(out.fields["convection_onset"])
+    onset = onset[scenario] if onset.ndim == 3 else onset
+    return {name for name, kind, flag in zip(out.element_names, out.element_kinds,
+                                               np.any(onset, axis=0), strict=True)
+            if kind == "gap" and flag}
 
 
 def summary_text(result: StudyResult) -> str:
@@ -243,6 +331,11 @@ def summary_text(result: StudyResult) -> str:
     )
     lim = _t(study, a.limit)
     conf = f"{100 * a.confidence:g} %"
+    directions = gap_directions(study)  # which way an underestimated gap flow moves the limit
+    scope = limit_scope_note(study)
+    cut = truncation_warnings(study.parameters)
+    if cut:
+        lines += ["", *cut]
     for s, sc in enumerate(an.scenarios):
         lines.append("")
         if study.scenarios is not None:
@@ -268,6 +361,10 @@ def summary_text(result: StudyResult) -> str:
                 f"  {left_out} non-converged samples are left out above; counting them as "
                 f"exceeding, P(inner surface > {lim}) = {_pct(worst)}"
             )
+            lost = subset_warning(e.n, n_independent)
+            if lost:
+                lines.append(f"  {lost}")
+        lines += _rating_lines(study, prop, s)
         ranking = sc.ranking.get("inner_surface_temperature")
         lines += index_lines(study, sc, top=TOP_COUNT, temperature=lambda k: _t(study, k))
         if not ranking or sc.surrogate is not None:
@@ -279,13 +376,17 @@ def summary_text(result: StudyResult) -> str:
                 for r, j in enumerate(order[:TOP_COUNT], start=1):
                     lines.append(f"  {r}. {names[j]:<32} {sc.rank_correlation[j]:+.3f}")
         if sc.onset_samples:
-            lines.append(
-                f"WARNING: {sc.onset_samples} of {n_eval} samples have a gap past the onset of "
-                "natural convection"
-                + ("; still-air conduction underestimates the heat flow there, so those "
-                   "temperatures are not conservative — consider [model] convection = true"
-                   if not study.model.convection else " (convection correlations applied)")
-            )
+            if study.model.convection:
+                lines.append(f"note: {sc.onset_samples} of {n_eval} samples have a gap past the "
+                             "onset of natural convection (convection correlations applied)")
+            else:
+                effects = "; ".join(d.less_heat_effect("inner-surface temperature")
+                                    for d in directions if d.gap in _onset_gaps(prop, s))
+                lines.append(
+                    f"WARNING: {sc.onset_samples} of {n_eval} samples have a gap past the onset "
+                    "of natural convection; still-air conduction carries too little heat across "
+                    f"it there ({effects or 'gap not identified'}); consider [model] "
+                    "convection = true")
         if sc.air_range_samples:
             lines.append(
                 f"note: {sc.air_range_samples} samples have a gap mean temperature outside "
@@ -296,12 +397,14 @@ def summary_text(result: StudyResult) -> str:
             + (" (excluded from the statistics; see 'converged' in the dataset)"
                if sc.nonconverged else "")
         )
-    if study.model.radiation == "linearized":
+    if scope:
+        lines += ["", f"note: {scope}"]
+    if study.model.radiation == "linearized" and directions:
         lines.append("")
         lines.append(
             "note: radiation = \"linearized\" (4 eps sigma Tm^3) always carries less heat across "
-            "a gap than the exact form, so it predicts a cooler inner surface: not conservative"
-        )
+            "a gap than the exact form; at the nominal point: "
+            + "; ".join(d.less_heat_effect("inner-surface temperature") for d in directions))
     return "\n".join(_closing(result, lines, an.notes))
 
 

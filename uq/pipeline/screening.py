@@ -10,6 +10,7 @@ ranking by mu* and which inputs are safe to fix at nominal
 from __future__ import annotations
 
 from dataclasses import dataclass, replace
+from typing import TYPE_CHECKING
 
 import numpy as np
 import xarray as xr
@@ -17,6 +18,9 @@ import xarray as xr
 from plyrisk.design.morris import morris_design
 from plyrisk.methods.morris import MorrisAnalysis, morris_analysis
 from plyrisk.propagate.evaluate import Propagation, evaluate, scenario_count, unit_to_inputs
+
+if TYPE_CHECKING:  # pragma: no cover - for type checkers only
+    from plyrisk.study.definition import Study
 
 PRIMARY = "inner_surface_temperature"
 
@@ -33,38 +37,38 @@ class Screening:
     Attributes
     ----------
     study
-        The study as configured (every uncertain input) [-].
+        The study as configured (every uncertain input).
     reduced
-        The study with the fixed inputs removed from ``parameters`` (they take their nominal) [-].
+        The study with the fixed inputs removed from ``parameters`` (they take their nominal).
     analysis
-        The Morris measures of the screening run [-].
+        The Morris measures of the screening run.
     fixed
-        Per parameter of ``study``: fixed at nominal [-].
+        Per parameter of ``study``: fixed at nominal.
     reasons
-        Per parameter: why it was kept or fixed [-].
+        Per parameter: why it was kept or fixed.
     runs
-        Model runs of the screening (all exposures) [-].
+        Model runs of the screening (all exposures).
     """
 
-    study: object
-    reduced: object
+    study: Study
+    reduced: Study
     analysis: MorrisAnalysis
     fixed: np.ndarray
     reasons: tuple[str, ...]
     runs: int
 
 
-def screen_study(study, *, chunk_size: int | None = None, workers: int = 1) -> Screening:
+def screen_study(study: Study, *, chunk_size: int | None = None, workers: int = 1) -> Screening:
     """Run the ``[screening]`` of a study and return the reduced study.
 
     Parameters
     ----------
     study
-        A study with ``screening`` settings [-].
+        A study with ``screening`` settings.
     chunk_size
-        Samples per evaluation chunk [-].
+        Samples per evaluation chunk.
     workers
-        Worker processes of a local dask cluster [-]; results do not depend on it.
+        Worker processes of a local dask cluster; results do not depend on it.
 
     Returns
     -------
@@ -73,6 +77,8 @@ def screen_study(study, *, chunk_size: int | None = None, workers: int = 1) -> S
         largest mu*.
     """
     settings = study.screening
+    if settings is None:
+        raise ValueError("the study has no [screening] section")
     a = study.analysis
     d = len(study.parameters)
     design = morris_design(settings.trajectories, d, seed=a.seed, levels=settings.levels)
@@ -117,8 +123,9 @@ def _share(value: float, scale: float) -> str:
 
 
 def screening_lines(screening: Screening) -> list[str]:
-    """Summary lines: what the screening fixed and why [-]."""
+    """Summary lines: what the screening fixed and why."""
     s = screening.study.screening
+    assert s is not None, "a screening is made from a study with [screening]"
     n_fixed = int(screening.fixed.sum())
     lines = [f"screening (Morris, {s.trajectories} trajectories of {s.levels} levels, "
              f"{screening.runs} model runs): {n_fixed} of {screening.fixed.size} inputs fixed "
@@ -136,16 +143,18 @@ def add_screening(ds: xr.Dataset, screening: Screening) -> xr.Dataset:
     Parameters
     ----------
     ds
-        The results dataset of the reduced study [-].
+        The results dataset of the reduced study.
     screening
-        The screening [-].
+        The screening.
 
     Returns
     -------
     xarray.Dataset
         With dimension ``screened_parameter`` (every uncertain input of the config).
     """
-    names = np.array([p.name for p in screening.study.parameters], dtype=str)
+    names = np.array([p.name for p in screening.study.parameters], dtype=np.str_)
+    settings = screening.study.screening
+    assert settings is not None, "a screening is made from a study with [screening]"
     dims = ("screened_parameter",)
     ind = screening.analysis.indices
     swept = "scenario" in ds.dims
@@ -168,7 +177,7 @@ def add_screening(ds: xr.Dataset, screening: Screening) -> xr.Dataset:
             "(standard deviation of the elementary effects)", **attrs}),
         "screening_fixed": xr.Variable(dims, screening.fixed, {
             "units": "1", "long_name": "input fixed at its nominal by the screening",
-            "threshold": screening.study.screening.threshold, **attrs}),
+            "threshold": settings.threshold, **attrs}),
         "screening_reason": xr.Variable(dims, np.array(screening.reasons, dtype=str), {
             "units": "1", "long_name": "why the screening kept or fixed the input", **attrs}),
         "screening_nominal": xr.Variable(dims, np.array(
@@ -178,7 +187,7 @@ def add_screening(ds: xr.Dataset, screening: Screening) -> xr.Dataset:
     }
     out = ds.assign(new).assign_coords(screened_parameter=xr.Variable(
         dims, names, {"units": "1", "long_name": "uncertain input of the config, screened"}))
-    s = screening.study.screening
+    s = settings
     out.attrs.update({"screening_trajectories": int(s.trajectories),
                       "screening_levels": int(s.levels),
                       "screening_threshold": float(s.threshold),

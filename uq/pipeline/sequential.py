@@ -1,21 +1,23 @@
 """Sequential growth of a Saltelli study until every index interval is narrow enough.
 
-Doubling the base samples N extends the same scrambled Sobol' sequence: the design of 2N base
+Doubling the base samples N extends the same scrambled Sobol' sequences: every one of the R
+independently scrambled replicates doubles its base rows together, so the design of 2N base
 rows is the design of N base rows followed by the design of base rows [N, 2N)
 (:func:`plyrisk.design.sampling.sobol_design` with ``start``; the Saltelli rows are grouped per
-base row),
+base row and the base rows interleave the replicates),
 so the model runs already made are all reused and only the new rows are evaluated (with
 :func:`plyrisk.propagate.evaluate.evaluate`). After each step the study is analysed as if it had
 been run
 at that N from the start — the results are bit-identical to such a run — and the growth stops
 when every index interval (first and total, per parameter and per layer, every output and
-exposure) has a half-width at most ``index_ci_threshold``, or when the next doubling would
-pass the run budget.
+exposure; Student t intervals on the spread of the replicates) has a half-width at most
+``index_ci_threshold``, or when the next doubling would pass the run budget.
 """
 
 from __future__ import annotations
 
 from dataclasses import dataclass, replace
+from typing import TYPE_CHECKING
 
 import numpy as np
 import xarray as xr
@@ -33,6 +35,9 @@ from plyrisk.propagate.evaluate import (
     unit_to_inputs,
 )
 
+if TYPE_CHECKING:  # pragma: no cover - for type checkers only
+    from plyrisk.study.definition import Study
+
 
 @dataclass(frozen=True)
 class GrowthStep:
@@ -41,13 +46,13 @@ class GrowthStep:
     Attributes
     ----------
     base_samples
-        N of the step [-].
+        N of the step.
     runs
-        Model runs so far, every exposure [-].
+        Model runs so far, every exposure.
     widest
-        Largest index half-width over every index, output and exposure [-].
+        Largest index half-width over every index, output and exposure.
     unconverged
-        Indices whose half-width is above the target [-].
+        Indices whose half-width is above the target.
     """
 
     base_samples: int
@@ -63,18 +68,18 @@ class Growth:
     Attributes
     ----------
     study, propagation, analysis
-        At the last step (``study.analysis.samples`` is its N) [-].
+        At the last step (``study.analysis.samples`` is its N).
     steps
-        Every step, first to last [-].
+        Every step, first to last.
     converged
-        Every interval met the target [-].
+        Every interval met the target.
     reason
-        Why the growth stopped [-].
+        Why the growth stopped.
     target, max_runs
-        The half-width target and the run budget [-].
+        The half-width target and the run budget.
     """
 
-    study: object
+    study: Study
     propagation: Propagation
     analysis: StudyAnalysis
     steps: tuple[GrowthStep, ...]
@@ -85,14 +90,14 @@ class Growth:
 
 
 def interval_widths(analysis: StudyAnalysis, target: float) -> tuple[float, int]:
-    """The widest index half-width and the number of indices wider than ``target`` [-].
+    """The widest index half-width and the number of indices wider than ``target``.
 
     Parameters
     ----------
     analysis
-        A Saltelli analysis [-].
+        A Saltelli analysis.
     target
-        Half-width target [-].
+        Half-width target.
 
     Returns
     -------
@@ -120,25 +125,26 @@ def _stack(first: Design, second: Design) -> Design:
     block = np.concatenate([first.block, second.block])
     unit.setflags(write=False)
     block.setflags(write=False)
-    return Design(unit, block, "sobol", first.base_samples + second.base_samples, first.groups)
+    return Design(unit, block, "sobol", first.base_samples + second.base_samples, first.groups,
+                  first.replicates)
 
 
-def grow_until_converged(study, *, max_runs: int | None = None, chunk_size: int | None = None,
-                         workers: int = 1) -> Growth:
+def grow_until_converged(study: Study, *, max_runs: int | None = None,
+                         chunk_size: int | None = None, workers: int = 1) -> Growth:
     """Double a Saltelli study's base samples until its index intervals are narrow enough.
 
     Parameters
     ----------
     study
         A ``method = "saltelli"`` study; ``analysis.samples`` is the first N and
-        ``analysis.index_ci_threshold`` the target half-width [-].
+        ``analysis.index_ci_threshold`` the target half-width.
     max_runs
         Budget of model runs, every exposure counted; a doubling that would pass it is not
-        started [-].
+        started.
     chunk_size
-        Samples per evaluation chunk [-].
+        Samples per evaluation chunk.
     workers
-        Worker processes of a local dask cluster [-]; results do not depend on it.
+        Worker processes of a local dask cluster; results do not depend on it.
 
     Returns
     -------
@@ -152,7 +158,7 @@ def grow_until_converged(study, *, max_runs: int | None = None, chunk_size: int 
     groups = parameter_groups(study)[1]
     n_s = scenario_count(study)
     n = int(a.samples)
-    design = sobol_design(n, d, seed=a.seed, groups=groups)
+    design = sobol_design(n, d, seed=a.seed, groups=groups, replicates=a.replicates)
     if design.n_rows * n_s > budget:
         raise ValueError(f"the first step (N = {n}) needs {design.n_rows * n_s} model runs, "
                          f"above the budget of {budget}")
@@ -176,7 +182,8 @@ def grow_until_converged(study, *, max_runs: int | None = None, chunk_size: int 
                       f"than ±{a.index_ci_threshold:g}")
             return Growth(current, prop, analysis, tuple(steps), False, reason,
                           a.index_ci_threshold, budget)
-        extra = sobol_design(n, d, seed=a.seed, groups=groups, start=n)
+        extra = sobol_design(n, d, seed=a.seed, groups=groups, start=n,
+                             replicates=a.replicates)
         extra_inputs = unit_to_inputs(study.parameters, extra.unit)
         extra_outputs = evaluate(study, extra_inputs, chunk_size=chunk_size, workers=workers)
         design = _stack(design, extra)
@@ -186,7 +193,7 @@ def grow_until_converged(study, *, max_runs: int | None = None, chunk_size: int 
 
 
 def growth_lines(growth: Growth) -> list[str]:
-    """Summary lines: the path of interval widths and why the growth stopped [-]."""
+    """Summary lines: the path of interval widths and why the growth stopped."""
     lines = [f"sequential growth (--until-converged: target half-width ±{growth.target:g}, "
              f"budget {growth.max_runs} model runs; earlier runs reused at every doubling):"]
     for step in growth.steps:
@@ -197,14 +204,14 @@ def growth_lines(growth: Growth) -> list[str]:
 
 
 def add_growth(ds: xr.Dataset, growth: Growth) -> xr.Dataset:
-    """The growth path as ``growth_*`` variables of a results dataset [-].
+    """The growth path as ``growth_*`` variables of a results dataset.
 
     Parameters
     ----------
     ds
-        The dataset of the final step [-].
+        The dataset of the final step.
     growth
-        The growth [-].
+        The growth.
     """
     dims = ("growth_step",)
 

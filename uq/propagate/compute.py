@@ -28,11 +28,52 @@ CONNECT_TIMEOUT = "10s"
 """How long to wait for an existing scheduler before giving up [s]."""
 
 IN_FLIGHT_PER_WORKER = 3
-"""Chunks submitted per worker ahead of the results collected [-]."""
+"""Chunks submitted per worker ahead of the results collected."""
 
 
 class SchedulerError(PlyriskError, RuntimeError):
     """The dask scheduler could not be reached or the cluster could not start (one line)."""
+
+
+PROBE_TIMEOUT = 5.0
+"""How long to wait for a TCP connection to a scheduler before giving up [s]."""
+
+
+def probe_scheduler(address: str, *, timeout: float | None = None) -> None:
+    """Raise :class:`SchedulerError` (one line, within ``timeout``) unless ``address`` is a
+    well-formed scheduler address that accepts a connection.
+
+    A ``distributed.Client`` that fails to connect waits for its connect timeout and then
+    again for its own shutdown, and prints a traceback when it is collected; checking the
+    address and the port first gives one line in bounded time.
+
+    Parameters
+    ----------
+    address
+        ``tcp://host:port`` (or ``tls://``; other schemes are only parsed) [-].
+    timeout
+        Connection timeout [s]; default :data:`PROBE_TIMEOUT`.
+    """
+    import socket
+
+    from distributed.comm.addressing import parse_address, parse_host_port
+
+    try:
+        scheme, location = parse_address(address, strict=False)
+        if scheme not in ("tcp", "tls"):
+            return
+        host, port = parse_host_port(location)
+    except (ValueError, TypeError) as err:
+        raise SchedulerError(f"--scheduler {address}: not a scheduler address ({err}); "
+                             "expected e.g. tcp://10.0.0.5:8786") from None
+    try:
+        with socket.create_connection((host, int(port)),
+                                      timeout=PROBE_TIMEOUT if timeout is None else timeout):
+            pass
+    except OSError as err:
+        reason = " ".join(str(getattr(err, "strerror", None) or err).split())
+        raise SchedulerError(f"cannot reach the dask scheduler at {address} "
+                             f"({reason or 'timed out'})") from None
 
 
 @contextmanager
@@ -42,9 +83,9 @@ def dask_client(*, workers: int = 1, scheduler: str | None = None):
     Parameters
     ----------
     workers
-        Worker processes of the local cluster, one thread each [-]; ignored with ``scheduler``.
+        Worker processes of the local cluster, one thread each; ignored with ``scheduler``.
     scheduler
-        Address of an existing scheduler, e.g. ``"tcp://10.0.0.5:8786"`` [-].
+        Address of an existing scheduler, e.g. ``"tcp://10.0.0.5:8786"``.
 
     Yields
     ------
@@ -54,6 +95,7 @@ def dask_client(*, workers: int = 1, scheduler: str | None = None):
 
     quiet = {"silence_logs": logging.ERROR}
     if scheduler:
+        probe_scheduler(scheduler)
         try:
             client = Client(scheduler, timeout=CONNECT_TIMEOUT, set_as_default=False)
         except (OSError, TimeoutError, ValueError) as err:
@@ -95,18 +137,18 @@ def run_tasks(
     Parameters
     ----------
     function
-        A module-level (picklable) function [-].
+        A module-level (picklable) function.
     arguments
-        Per-task positional arguments [-].
+        Per-task positional arguments.
     collect
-        Called with each task's result as it arrives [-].
+        Called with each task's result as it arrives.
     shared
-        Leading arguments common to every task (sent to each worker once) [-].
+        Leading arguments common to every task (sent to each worker once).
     workers
         1 runs the tasks here, in order; more starts a local dask cluster of that many
-        single-threaded worker processes [-].
+        single-threaded worker processes.
     scheduler
-        Address of an existing dask scheduler; overrides ``workers`` [-].
+        Address of an existing dask scheduler; overrides ``workers``.
     """
     if int(workers) < 1:
         raise ValueError(f"workers must be at least 1, got {workers}")

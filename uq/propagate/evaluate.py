@@ -128,9 +128,9 @@ def unit_to_inputs(parameters: Sequence, unit: np.ndarray) -> np.ndarray:
     Parameters
     ----------
     parameters
-        Uncertain parameters (each with a ``distribution``), one per column. [-]
+        Uncertain parameters (each with a ``distribution``), one per column.
     unit
-        Points in the open unit cube, shape ``(n, d)`` [-].
+        Points in the open unit cube, shape ``(n, d)``.
 
     Returns
     -------
@@ -144,18 +144,18 @@ def unit_to_inputs(parameters: Sequence, unit: np.ndarray) -> np.ndarray:
     return out
 
 
-def model_objects(study, values: np.ndarray | None = None, *, scenario: int | None = None):
+def model_objects(study: Study, values: np.ndarray | None = None, *, scenario: int | None = None):
     """Build the model's layers and boundaries for a block of samples.
 
     Parameters
     ----------
     study
-        The parsed study (:class:`plyrisk.study.config.Study`). [-]
+        The parsed study (:class:`plyrisk.study.config.Study`).
     values
         Input values, shape ``(n, d)`` in the order of ``study.parameters`` (SI); ``None`` for
         the nominal stack. [SI]
     scenario
-        Index of the swept exposure to apply, or ``None``. [-]
+        Index of the swept exposure to apply, or ``None``.
 
     Returns
     -------
@@ -168,7 +168,7 @@ def model_objects(study, values: np.ndarray | None = None, *, scenario: int | No
     return assemble(study, columns, scenario=scenario if study.scenarios is not None else None)
 
 
-def _solve(study, values: np.ndarray | None, scenario: int | None
+def _solve(study: Study, values: np.ndarray | None, scenario: int | None
            ) -> NetworkSolution | TransientSolution:
     if study.transient is not None:
         layers, exposure, wearer = model_objects(study, values, scenario=scenario)
@@ -181,24 +181,24 @@ def _solve(study, values: np.ndarray | None, scenario: int | None
     return solve_network(layers, hot, cold, validate=False, **study.model.solver_kwargs())
 
 
-def scenario_count(study) -> int:
-    """Number of exposures evaluated: the sweep length, or 1 [-]."""
+def scenario_count(study: Study) -> int:
+    """Number of exposures evaluated: the sweep length, or 1."""
     return 1 if study.scenarios is None else len(study.scenarios.values)
 
 
-def _evaluate_block(study, block: np.ndarray) -> list[NetworkSolution | TransientSolution]:
+def _evaluate_block(study: Study, block: np.ndarray) -> list[NetworkSolution | TransientSolution]:
     """Solve one chunk of samples for every scenario (runs on a worker too)."""
     scenarios = [None] if study.scenarios is None else range(scenario_count(study))
     return [_solve(study, block, scenario) for scenario in scenarios]
 
 
-def _evaluate_range(study, start: int, block: np.ndarray):
+def _evaluate_range(study: Study, start: int, block: np.ndarray):
     """A task of :func:`evaluate`: the chunk's first row and its solutions."""
     return start, start + block.shape[0], _evaluate_block(study, block)
 
 
 def evaluate(
-    study,
+    study: Study,
     values: np.ndarray,
     *,
     chunk_size: int | None = None,
@@ -212,18 +212,18 @@ def evaluate(
     Parameters
     ----------
     study
-        The parsed study. [-]
+        The parsed study.
     values
         Input values, shape ``(n, d)`` (SI). [SI]
     chunk_size
-        Samples per chunk [-]; default from the study. Results do not depend on it.
+        Samples per chunk; default from the study. Results do not depend on it.
     progress
-        Called with the number of samples finished after each chunk. [-]
+        Called with the number of samples finished after each chunk.
     workers
-        Worker processes of a local dask cluster solving chunks in parallel [-]; 1 solves in
+        Worker processes of a local dask cluster solving chunks in parallel; 1 solves in
         this process. Results do not depend on it: every sample is solved independently.
     scheduler
-        Address of an existing dask scheduler to solve the chunks on instead [-].
+        Address of an existing dask scheduler to solve the chunks on instead.
 
     Returns
     -------
@@ -260,13 +260,13 @@ def evaluate(
     return Outputs(fields=store, **solution_labels(meta[0]))
 
 
-def nominal_solution(study, *, scenario: int | None = None
+def nominal_solution(study: Study, *, scenario: int | None = None
                      ) -> NetworkSolution | TransientSolution:
     """Solve the nominal stack (every uncertain value at its distribution's nominal)."""
     return _solve(study, None, scenario)
 
 
-def study_plan(study) -> DesignPlan:
+def study_plan(study: Study) -> DesignPlan:
     """The design of a study as a :class:`plyrisk.design.sampling.DesignPlan` (per-layer groups for
     Sobol').
 
@@ -274,7 +274,7 @@ def study_plan(study) -> DesignPlan:
     ----------
     study
         The parsed study; overrides of the sample count or seed belong in its ``analysis``
-        (see :func:`plyrisk.pipeline.run.run_study`), so that the design and the analysis agree [-].
+        (see :func:`plyrisk.pipeline.run.run_study`), so that the design and the analysis agree.
 
     Returns
     -------
@@ -297,10 +297,11 @@ def study_plan(study) -> DesignPlan:
         int(a.seed),
         groups=tuple(groups) if kind == "sobol" else (),
         optimization=a.lhs_optimization if kind == "lhs" else None,
+        replicates=int(a.replicates) if kind == "sobol" else 1,
     )
 
 
-def study_design(study) -> Design:
+def study_design(study: Study) -> Design:
     """The whole unit-hypercube design of a study (see :func:`study_plan`)."""
     a = study.analysis
     if a.design == "morris":
@@ -309,7 +310,7 @@ def study_design(study) -> Design:
     return study_plan(study).design()
 
 
-def parameter_groups(study) -> tuple[list[str], list[tuple[int, ...]]]:
+def parameter_groups(study: Study) -> tuple[list[str], list[tuple[int, ...]]]:
     """Group names (layers, ``hot_side``, ``cold_side``) and the parameter indices in each."""
     names: list[str] = []
     members: dict[str, list[int]] = {}
@@ -322,7 +323,7 @@ def parameter_groups(study) -> tuple[list[str], list[tuple[int, ...]]]:
 
 
 def propagate(
-    study,
+    study: Study,
     *,
     chunk_size: int | None = None,
     quiet: bool = False,
@@ -334,15 +335,15 @@ def propagate(
     Parameters
     ----------
     study
-        The parsed study (sample count and seed from its ``analysis``) [-].
+        The parsed study (sample count and seed from its ``analysis``).
     chunk_size
-        Samples per chunk overriding the config [-].
+        Samples per chunk overriding the config.
     quiet
-        Suppress the progress bar (it is shown only on a terminal anyway) [-].
+        Suppress the progress bar (it is shown only on a terminal anyway).
     workers
-        Worker processes of a local dask cluster [-]; results do not depend on it.
+        Worker processes of a local dask cluster; results do not depend on it.
     scheduler
-        Address of an existing dask scheduler [-]; results do not depend on it.
+        Address of an existing dask scheduler; results do not depend on it.
 
     Returns
     -------
@@ -363,11 +364,11 @@ def progress_bar(total: int, *, quiet: bool = False, what: str = "solving"):
     Parameters
     ----------
     total
-        Samples to solve [-].
+        Samples to solve.
     quiet
-        No bar [-].
+        No bar.
     what
-        Label of the bar [-].
+        Label of the bar.
     """
     if quiet or not sys.stderr.isatty():
         yield None

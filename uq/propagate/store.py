@@ -8,18 +8,31 @@ sets its entry of ``chunk_done`` (one Zarr chunk per entry); a killed run leaves
 unfinished chunks unset and :func:`open_store` with ``resume=True`` solves only those again.
 
 The store's ``plyrisk_study`` attribute is a fingerprint of everything that fixes the values
-(config text, method, samples, seed, chunk size, plyrisk version); resuming a store written for
-anything else is refused, so a resumed run always equals an uninterrupted one.
+(config text, method, samples, seed, chunk size, plyrisk version), kept for the store's life
+(also after the analysis is added); resuming a store written for anything else is refused, so a
+resumed run always equals an uninterrupted one.
+
+Safety rules (:func:`store_state`, :func:`open_store`, :func:`store_lock`):
+
+- a path holding anything other than a plyrisk store (a file, a foreign Zarr store, a folder
+  with other files) is refused; plyrisk never writes into it nor removes it;
+- an existing plyrisk store is continued only with ``resume`` and replaced only with
+  ``overwrite`` (then only its own Zarr nodes are removed);
+- ``resume`` on a missing store is an error; on a finished store nothing is solved again;
+- one run at a time: the store's folder is locked (``fcntl.flock`` on the folder itself).
 """
 
 from __future__ import annotations
 
 import hashlib
 import json
+import os
 import shutil
+from contextlib import contextmanager
 from dataclasses import dataclass
 from importlib import metadata
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import numpy as np
 
@@ -40,6 +53,16 @@ from plyrisk.propagate.evaluate import (
     unit_to_inputs,
 )
 
+STORE_MARK = "plyrisk_store"
+"""Root attribute that marks a Zarr group as a plyrisk store (value: layout version) [-]."""
+
+STORE_OWN_ATTRS = (STORE_MARK, "plyrisk_study", "chunk_size", "evaluations", "interface_names",
+                   "element_names", "element_kinds", "element_layers", "inner_surface_index")
+"""Root attributes of a store itself, kept for the store's life whatever the analysis adds:
+the fingerprint above all, so that a finished store can be resumed [-]."""
+if TYPE_CHECKING:  # pragma: no cover - for type checkers only
+    from plyrisk.study.definition import Study
+
 COMPRESSION = {"cname": "lz4", "clevel": 1, "shuffle": "shuffle"}
 """Blosc settings of every stored array: on the demo outputs about 1.7 x faster to write than
 zarr's default zstd and slightly smaller (measured here) [-]."""
@@ -47,6 +70,105 @@ zarr's default zstd and slightly smaller (measured here) [-]."""
 
 class StoreError(PlyriskError, ValueError):
     """A store that cannot be used for this study (one line)."""
+
+
+
+
+
+def _node_kind(folder: Path) -> str | None:
+    """``node_type`` of the Zarr v3 node in ``folder`` (``None`` when it is not one)."""
+    try:
+        meta = json.loads((folder / "zarr.json").read_text(encoding="utf-8"))
+        return str(meta.get("node_type")) if meta.get("zarr_format") == 3 else None
+    except (OSError, ValueError, AttributeError):
+        return None
+
+
+def store_state(path: str | Path) -> str:
+    """What is at a store path: ``"missing"``, ``"empty"`` (an empty folder) or
+    ``"plyrisk"``.
+
+    Raises
+    ------
+    StoreError
+        One line when the path holds anything else (a file, a foreign Zarr store, a folder
+        with other content): plyrisk neither writes into it nor removes it.
+    """
+    path = Path(path)
+    if not path.exists() and not path.is_symlink():
+        return "missing"
+    if not path.is_dir() or path.is_symlink():
+        raise StoreError(f"{path}: --store: not a folder; give a new path for the store")
+    entries = [p for p in path.iterdir()]
+    if not entries:
+        return "empty"
+    why = ""
+    if _node_kind(path) != "group":
+        why = "no Zarr v3 group there"
+    else:
+        try:
+            attrs = json.loads((path / "zarr.json").read_text(encoding="utf-8"))["attributes"]
+        except (OSError, ValueError, KeyError, TypeError):
+            attrs = {}
+        if STORE_MARK not in attrs or "plyrisk_study" not in attrs:
+            why = "a Zarr store that plyrisk did not write"
+        else:
+            other = [p.name for p in entries if p.name != "zarr.json"
+                     and not (p.is_dir() and not p.is_symlink() and _node_kind(p) is not None)]
+            if other:
+                why = f"a plyrisk store with other files in it ({', '.join(sorted(other)[:3])})"
+    if why:
+        raise StoreError(f"{path}: --store: holds something other than a plyrisk store ({why}); "
+                         "plyrisk will not write into it or remove it: give a new path")
+    return "plyrisk"
+
+
+def _remove_store(path: Path) -> None:
+    """Remove a plyrisk store's own nodes (checked by :func:`store_state`) and its folder."""
+    for p in path.iterdir():
+        if p.is_dir() and _node_kind(p) is not None:
+            shutil.rmtree(p)
+    (path / "zarr.json").unlink(missing_ok=True)
+
+
+@contextmanager
+def store_lock(path: str | Path, *, resume: bool = False):
+    """Hold the store folder's lock (created when missing and not ``resume``).
+
+    Raises
+    ------
+    StoreError
+        ``resume`` on a missing store, a path that is not a plyrisk store, or a store that
+        another plyrisk run is using (one line).
+    """
+    import errno
+    import fcntl
+
+    path = Path(path)
+    state = store_state(path)
+    if resume and state in ("missing", "empty"):
+        raise StoreError(f"{path}: --resume: no store there to resume; drop --resume to start "
+                         "a new one")
+    try:
+        path.mkdir(parents=True, exist_ok=True)
+        fd = os.open(path, os.O_RDONLY)
+    except OSError as err:
+        raise StoreError(f"{path}: --store: cannot create or open it "
+                         f"({err.strerror or err})") from None
+    try:
+        try:
+            fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
+        except OSError as err:
+            if err.errno not in (errno.EWOULDBLOCK, errno.EACCES, errno.EAGAIN):
+                raise
+            raise StoreError(f"{path}: --store: in use by another plyrisk run; wait for it to "
+                             "finish or give another store path") from None
+        try:
+            yield path
+        finally:
+            fcntl.flock(fd, fcntl.LOCK_UN)
+    finally:
+        os.close(fd)
 
 
 @dataclass(frozen=True)
@@ -81,7 +203,7 @@ class StoreLayout:
         return start, min(start + self.chunk_size, self.n_rows)
 
 
-def fingerprint(study, chunk_size: int) -> str:
+def fingerprint(study: Study, chunk_size: int) -> str:
     """Digest of everything that fixes the stored values [-]."""
     a = study.analysis
     try:
@@ -97,8 +219,9 @@ def _dims(spec: OutputSpec, swept: bool) -> tuple[str, ...]:
     return (*(("scenario",) if swept else ()), "sample", *spec.dims)
 
 
-def open_store(study, plan: DesignPlan, path: str | Path, *, chunk_size: int,
-               resume: bool = False) -> tuple[StoreLayout, np.ndarray]:
+def open_store(study: Study, plan: DesignPlan, path: str | Path, *, chunk_size: int,
+               resume: bool = False, overwrite: bool = False
+               ) -> tuple[StoreLayout, np.ndarray]:
     """Create a new store (or reopen one to resume) and return its layout and done flags.
 
     Parameters
@@ -108,40 +231,57 @@ def open_store(study, plan: DesignPlan, path: str | Path, *, chunk_size: int,
     plan
         Its design [-].
     path
-        Store folder; an existing one is replaced unless ``resume`` [-].
+        Store folder: missing or empty for a new store [-].
     chunk_size
         Rows per chunk [-].
     resume
         Reuse the chunks an earlier run of the same study finished [-].
+    overwrite
+        Replace a plyrisk store already at ``path`` (ignored with ``resume``) [-].
 
     Returns
     -------
     layout, done
         The layout and a boolean flag per chunk, True where the chunk is already stored.
+
+    Raises
+    ------
+    StoreError
+        One line: a path holding anything but a plyrisk store; ``resume`` on a missing store or
+        one written for another study; an existing store without ``resume`` or ``overwrite``.
     """
     import zarr
 
     path = Path(path)
     layout = StoreLayout(str(path), int(chunk_size), plan.n_rows, study.scenarios is not None)
     digest = fingerprint(study, chunk_size)
-    if resume and (path / "zarr.json").exists():
+    state = store_state(path)
+    if resume:
+        if state != "plyrisk":
+            raise StoreError(f"{path}: --resume: no store there to resume; drop --resume to "
+                             "start a new one")
         group = zarr.open_group(str(path), mode="r")
-        found = group.attrs.get("plyrisk_study")
-        if found != digest:
+        if group.attrs.get("plyrisk_study") != digest:
             raise StoreError(
                 f"{path}: the store was written for another study, seed, sample count or "
-                f"chunk size (or another plyrisk version); it cannot be resumed — drop "
-                "--resume to start it afresh")
+                f"chunk size (or another plyrisk version); it cannot be resumed — use "
+                "--overwrite instead of --resume to replace it, or give a new store path")
         return layout, np.asarray(group["chunk_done"][:], dtype=bool)
-    if path.exists():
-        if not (path / "zarr.json").exists():
-            raise StoreError(f"{path}: exists and is not a plyrisk store; choose a new path")
-        shutil.rmtree(path)
+    if state == "plyrisk":
+        if not overwrite:
+            group = zarr.open_group(str(path), mode="r")
+            done = np.asarray(group["chunk_done"][:], dtype=bool)
+            same = group.attrs.get("plyrisk_study") == digest
+            raise StoreError(
+                f"{path}: holds a plyrisk store ({'of this study' if same else 'of another study'}"
+                f", {int(done.sum())} of {done.size} chunks stored); add --resume to continue "
+                "it, --overwrite to replace it, or give a new store path")
+        _remove_store(path)
     _create(study, plan, layout, digest)
     return layout, np.zeros(layout.n_chunks, dtype=bool)
 
 
-def _create(study, plan: DesignPlan, layout: StoreLayout, digest: str) -> None:
+def _create(study: Study, plan: DesignPlan, layout: StoreLayout, digest: str) -> None:
     """Write the store's metadata and coordinates (no sample data)."""
     import zarr
     from zarr.codecs import BloscCodec
@@ -151,7 +291,7 @@ def _create(study, plan: DesignPlan, layout: StoreLayout, digest: str) -> None:
     labels = solution_labels(first)
     time = labels.pop("time", None)
     n, c, n_s = layout.n_rows, layout.chunk_size, scenario_count(study)
-    group = zarr.open_group(layout.path, mode="w", zarr_format=3)
+    group = zarr.open_group(layout.path, mode="w-", zarr_format=3)  # never clears a folder
     sizes = {"sample": n, "parameter": len(study.parameters), "scenario": n_s,
              "interface": len(labels["interface_names"]),
              "layer": len(labels["element_names"]), "chunk": layout.n_chunks,
@@ -180,7 +320,8 @@ def _create(study, plan: DesignPlan, layout: StoreLayout, digest: str) -> None:
               long_name="time from the start of the exposure (history grid)")
         group["time"][:] = time
     group.attrs.update({
-        "plyrisk_study": digest, "chunk_size": c, "evaluations": n, "title": study.title,
+        STORE_MARK: 1, "plyrisk_study": digest, "chunk_size": c, "evaluations": n,
+        "title": study.title,
         "config_text": study.text, "interface_names": list(labels["interface_names"]),
         "element_names": list(labels["element_names"]),
         "element_kinds": list(labels["element_kinds"]),
@@ -193,7 +334,7 @@ def _create(study, plan: DesignPlan, layout: StoreLayout, digest: str) -> None:
 
 
 
-def store_chunk(study, plan: DesignPlan, layout: StoreLayout, index: int,
+def store_chunk(study: Study, plan: DesignPlan, layout: StoreLayout, index: int,
                 unit: np.ndarray | None = None) -> tuple[int, int]:
     """A task: draw chunk ``index`` of the design, solve it, write its region, mark it done.
 
@@ -283,9 +424,9 @@ class StoreReader:
         )
 
 
-def solve_to_store(study, path: str | Path, *, chunk_size: int | None = None,
-                   resume: bool = False, workers: int = 1, scheduler: str | None = None,
-                   quiet: bool = False) -> StoreReader:
+def solve_to_store(study: Study, path: str | Path, *, chunk_size: int | None = None,
+                   resume: bool = False, overwrite: bool = False, workers: int = 1,
+                   scheduler: str | None = None, quiet: bool = False) -> StoreReader:
     """Solve every chunk of a study not yet in the store at ``path`` and write it there.
 
     Parameters
@@ -298,6 +439,8 @@ def solve_to_store(study, path: str | Path, *, chunk_size: int | None = None,
         Rows per chunk [-]; default from the study.
     resume
         Keep the chunks of an interrupted run of the same study [-].
+    overwrite
+        Replace a plyrisk store already at ``path`` [-].
     workers
         Worker processes of a local dask cluster [-].
     scheduler
@@ -312,7 +455,8 @@ def solve_to_store(study, path: str | Path, *, chunk_size: int | None = None,
     """
     plan = study_plan(study)
     chunk = int(chunk_size or study.analysis.chunk_size)
-    layout, done = open_store(study, plan, path, chunk_size=chunk, resume=resume)
+    layout, done = open_store(study, plan, path, chunk_size=chunk, resume=resume,
+                              overwrite=overwrite)
     todo = [int(i) for i in np.flatnonzero(~done)]
     whole = None if plan.drawn_in_pieces else plan.design().unit
     args = [(i, None if whole is None else whole[slice(*layout.bounds(i))]) for i in todo]
@@ -326,7 +470,7 @@ def solve_to_store(study, path: str | Path, *, chunk_size: int | None = None,
     return reader
 
 
-def load_propagation(study, reader: StoreReader, *, stop: int | None = None) -> Propagation:
+def load_propagation(study: Study, reader: StoreReader, *, stop: int | None = None) -> Propagation:
     """The stored rows ``[0, stop)`` as an in-memory
     :class:`plyrisk.propagate.evaluate.Propagation`.
 
@@ -349,6 +493,6 @@ def load_propagation(study, reader: StoreReader, *, stop: int | None = None) -> 
     else:
         unit = plan.design().unit[:n]
     base = n // plan.rows_per_base
-    design = Design(unit, block, plan.method, base, plan.groups)
+    design = Design(unit, block, plan.method, base, plan.groups, plan.replicates)
     return Propagation(design=design, inputs=reader.read("input", 0, n),
                        outputs=reader.outputs(n))

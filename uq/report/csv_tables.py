@@ -16,6 +16,7 @@ import xarray as xr
 from plyrisk.report.figures import outputs as fg
 from plyrisk.report.figures.common import PRIMARY
 from plyrisk.report.tables import INDEX_KEYS, index_sets, scenario_values
+from plyrisk.results.dataset import independent_samples, subset_warning
 
 __all__ = ["write_csv", "write_csv_tables"]
 
@@ -31,7 +32,7 @@ def _csv(v: Any) -> str:
 
 
 def write_csv(path: Path, header: list[str], rows: list[list[Any]]) -> Path:
-    """Write one CSV file: a header row, then ``rows`` as CSV text; returns ``path`` [-]."""
+    """Write one CSV file: a header row, then ``rows`` as CSV text; returns ``path``."""
     with path.open("w", newline="", encoding="utf-8") as fh:
         w = csv.writer(fh)
         w.writerow(header)
@@ -41,24 +42,27 @@ def write_csv(path: Path, header: list[str], rows: list[list[Any]]) -> Path:
 
 def write_csv_tables(ds: xr.Dataset, out: Path) -> list[Path]:
     """Write ``quantiles.csv``, ``indices.csv``, ``group_indices.csv`` and ``ranking.csv``
-    into the folder ``out``; returns their paths [-]."""
+    into the folder ``out``; returns their paths."""
     unit = fg.temperature_unit(ds)
     quant, ind, grp, rank = [], [], [], []
 
     def shown(v) -> float:
         return float(fg.to_display_temperature(ds, v))
 
+    independent = independent_samples(ds)
     for _, label, one in scenario_values(ds):
         probs = np.asarray(one["quantile"].values, dtype=float)
+        lost = (subset_warning(int(one["samples_used"].item()), independent)
+                if "samples_used" in one else "")
         for k, p in enumerate(probs):
             quant.append([label, PRIMARY, "", p,
                           *(shown(one[f"inner_surface_temperature_quantile{s}"].values[k])
-                            for s in ("", "_lower", "_upper")), unit])
+                            for s in ("", "_lower", "_upper")), unit, lost])
         for f, face in enumerate(str(v) for v in one["interface"].values):
             for k, p in enumerate(probs):
                 quant.append([label, "interface_temperature", face, p,
                               *(shown(one[f"interface_temperature_quantile{s}"].values[f, k])
-                                for s in ("", "_lower", "_upper")), unit])
+                                for s in ("", "_lower", "_upper")), unit, lost])
         names = [str(n) for n in one["parameter"].values]
         groups = [str(g) for g in one["group"].values]
         rho = np.asarray(one["rank_correlation"].values, dtype=float)
@@ -91,12 +95,13 @@ def write_csv_tables(ds: xr.Dataset, out: Path) -> list[Path]:
                 rank.append([label, PRIMARY, "parameter", r, names[j],
                              "spearman_rank_correlation", rho[j], None, None])
     first_seen: dict[tuple, int] = {}
-    for r in rank:
-        first_seen.setdefault((r[0], r[1], r[2], r[5]), len(first_seen))
+    for row in rank:
+        first_seen.setdefault((row[0], row[1], row[2], row[5]), len(first_seen))
     rank.sort(key=lambda r: (first_seen[(r[0], r[1], r[2], r[5])], r[3]))
     return [
         write_csv(out / "quantiles.csv", ["scenario", "quantity", "interface", "probability",
-                                          "estimate", "lower", "upper", "unit"], quant),
+                                          "estimate", "lower", "upper", "unit", "warning"],
+                  quant),
         write_csv(out / "indices.csv", ["scenario", "output", "parameter", "group", "unit",
                                         "first", "first_ci", "total", "total_ci", "rank",
                                         "converged", "rank_correlation", "estimator"], ind),

@@ -51,7 +51,7 @@ from plyrisk.study.config import loads_study
 __all__ = ["ReportFigure", "ReportFiles", "Table", "report_figures", "write_report"]
 
 TOP_COUNT = 5
-"""Parameters listed in the Markdown summary's ranking [-]."""
+"""Parameters listed in the Markdown summary's ranking."""
 _REQUIRED = ("inner_surface_temperature", "interface_temperature_quantile",
              "inner_surface_temperature_quantile", "exceedance_probability", "rank_correlation",
              "layer_nominal_thickness", "converged", "sample_block")
@@ -64,13 +64,13 @@ class ReportFiles:
     Attributes
     ----------
     html
-        ``report.html`` [-].
+        ``report.html``.
     markdown
-        ``summary.md`` [-].
+        ``summary.md``.
     figures
-        Every figure file, PNG and SVG [-].
+        Every figure file, PNG and SVG.
     tables
-        Every CSV table [-].
+        Every CSV table.
     """
 
     html: Path
@@ -100,7 +100,7 @@ def report_figures(ds: xr.Dataset) -> list[ReportFigure]:
     Parameters
     ----------
     ds
-        A results dataset [-].
+        A results dataset.
 
     Returns
     -------
@@ -318,12 +318,12 @@ def write_report(
     ds
         A results dataset (:func:`plyrisk.results.dataset.to_dataset` or
         :func:`plyrisk.results.dataset.read_results`)
-        [-].
+       .
     out_dir
-        Folder to write into (created if missing) [-].
+        Folder to write into (created if missing).
     tolerance_table
         Tolerance recommendations to include: a pandas DataFrame or a list of dicts (one per
-        row; columns are rendered as they come), or ``None`` [-].
+        row; columns are rendered as they come), or ``None``.
 
     Returns
     -------

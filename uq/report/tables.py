@@ -13,15 +13,19 @@ import math
 import tomllib
 from collections.abc import Mapping
 from dataclasses import dataclass, fields
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 import xarray as xr
 
+from plyrisk.analysis.sobol import not_resolved
 from plyrisk.report.figures import outputs as fg
 from plyrisk.report.figures.common import PRIMARY
-from plyrisk.results.dataset import scenario_slices
+from plyrisk.results.dataset import scenario_slices, subset_warnings
 from plyrisk.study.units import QUANTITIES, TEMPERATURE, format_value
+
+if TYPE_CHECKING:  # pragma: no cover - for type checkers only
+    from plyrisk.study.definition import Study
 
 __all__ = ["INDEX_KEYS", "IndexSet", "Table", "cell_text", "convergence_summary",
            "exposure_text", "headline_table", "index_sets", "nonconverged_table",
@@ -58,7 +62,7 @@ def _idx(v: float, ci: float | None = None) -> str:
 
 
 def cell_text(v: Any) -> str:
-    """A value as table text: yes/no, 4 significant digits, "" for NaN or None [-]."""
+    """A value as table text: yes/no, 4 significant digits, "" for NaN or None."""
     if isinstance(v, bool | np.bool_):
         return "yes" if v else "no"
     if isinstance(v, float | np.floating):
@@ -67,7 +71,7 @@ def cell_text(v: Any) -> str:
 
 
 def scenario_values(ds: xr.Dataset) -> list[tuple[int | None, str, xr.Dataset]]:
-    """``(index, label, dataset)`` of each exposure; index ``None`` when unswept [-]."""
+    """``(index, label, dataset)`` of each exposure; index ``None`` when unswept."""
     out = []
     for i, (label, one) in enumerate(scenario_slices(ds)):
         out.append((i if "scenario" in ds.dims else None, label, one))
@@ -76,7 +80,7 @@ def scenario_values(ds: xr.Dataset) -> list[tuple[int | None, str, xr.Dataset]]:
 
 def exposure_text(ds: xr.Dataset, label: str) -> str:
     """An exposure label as text, e.g. ``"incident flux = 10 kW/m²"``; ``"as configured"``
-    for an unswept dataset (``label == ""``) [-]."""
+    for an unswept dataset (``label == ""``)."""
     if not label:
         return "as configured"
     quantity = str(ds.attrs.get("scenario_quantity", "exposure")).replace("_", " ")
@@ -88,9 +92,9 @@ def exposure_text(ds: xr.Dataset, label: str) -> str:
 # ----------------------------------------------------------------------------------------------
 
 
-def stack_tables(study, ds: xr.Dataset) -> list[Table]:
+def stack_tables(study: Study, ds: xr.Dataset) -> list[Table]:
     """The hot side, the assembly and the cold side: each quantity's nominal value and
-    uncertainty in the user's units, from the re-read ``study`` [-]."""
+    uncertainty in the user's units, from the re-read ``study``."""
     raw = tomllib.loads(study.text)
     by_target = {p.target: p for p in study.parameters}
     unit = study.limit_unit or "K"
@@ -112,7 +116,7 @@ def stack_tables(study, ds: xr.Dataset) -> list[Table]:
             if key in given:
                 shown = given[key] if isinstance(given[key], str) else cell_text(given[key])
                 note = ""
-                if where == ("hot_side",) and key == swept:
+                if where == ("hot_side",) and key == swept and study.scenarios is not None:
                     note = "swept: " + ", ".join(study.scenarios.labels)
                 rows.append([key, shown, note or "fixed", ""])
                 continue
@@ -157,7 +161,7 @@ def stack_tables(study, ds: xr.Dataset) -> list[Table]:
 
 
 def headline_table(ds: xr.Dataset) -> tuple[Table, list[str]]:
-    """P95 and the exceedance probability per exposure, and one verdict sentence each [-]."""
+    """P95 and the exceedance probability per exposure, and one verdict sentence each."""
     rows, verdicts = [], []
     limit = float(ds.attrs["limit"])
     for _, label, one in scenario_values(ds):
@@ -190,6 +194,7 @@ def headline_table(ds: xr.Dataset) -> tuple[Table, list[str]]:
                             "lies inside the confidence "
                             f"interval of P95 ({_t(ds, q)}): these samples cannot tell whether "
                             "P95 is above or below it; more samples narrow the interval.")
+    verdicts += subset_warnings(ds)
     conf = f"{100 * float(ds.attrs.get('confidence', math.nan)):g} %"
     header = ["exposure", "P95", f"P95 {conf} interval", f"P(T > {_t(ds, limit)})",
               f"{conf} interval", "independent samples used", "evaluations not converged"]
@@ -199,7 +204,7 @@ def headline_table(ds: xr.Dataset) -> tuple[Table, list[str]]:
 
 
 def quantile_tables(ds: xr.Dataset) -> list[Table]:
-    """The percentiles of the inner-surface temperature, one table per exposure [-]."""
+    """The percentiles of the inner-surface temperature, one table per exposure."""
     out = []
     for _, label, one in scenario_values(ds):
         rows = []
@@ -214,10 +219,18 @@ def quantile_tables(ds: xr.Dataset) -> list[Table]:
 
 
 def quantile_note(ds: xr.Dataset) -> str:
-    """The sentence saying how the percentile intervals were obtained [-]."""
+    """The sentence saying how the percentile intervals were obtained."""
     conf = 100 * float(ds.attrs.get("confidence", math.nan))
-    return (f"Intervals: {conf:g} % confidence intervals from order statistics; n/a where the "
-            "samples are too few to bound a tail percentile on that side.")
+    how = "order statistics"
+    bound = ds.variables.get("inner_surface_temperature_quantile_lower")
+    if bound is not None and bound.attrs.get("interval"):
+        how = str(bound.attrs["interval"])
+    text = (f"Intervals: {conf:g} % confidence intervals of the percentiles from {how}; n/a "
+            "where the samples are too few to bound a tail percentile on that side.")
+    ci = ds.variables.get("sobol_total_ci")
+    if ci is not None and ci.attrs.get("interval"):
+        text += f" Sobol index intervals: {ci.attrs['interval']}."
+    return text
 
 
 INDEX_KEYS = ("first", "first_ci", "total", "total_ci")
@@ -248,7 +261,7 @@ class IndexSet:
 
 def index_sets(one: xr.Dataset) -> list[IndexSet]:
     """The Sobol index sets of one exposure: one per output (Saltelli), the surrogate's for
-    the inner-surface temperature, or none [-]."""
+    the inner-surface temperature, or none."""
     if "sobol_total" in one:
         out = []
         for o in [str(v) for v in one["output"].values]:
@@ -273,7 +286,11 @@ def index_sets(one: xr.Dataset) -> list[IndexSet]:
     return []
 
 
-def _status(conv: np.ndarray | None, j: int) -> str:
+def _status(conv: np.ndarray | None, j: int, values: dict | None = None) -> str:
+    if values is not None and any(
+            not_resolved(float(values[k][j]), float(values[f"{k}_ci"][j]))
+            for k in ("total", "first")):
+        return "NOT RESOLVED: more samples (estimate outside [0, 1] beyond its interval)"
     if conv is None:
         return "surrogate"
     return "converged" if conv[j] else "UNCONVERGED"
@@ -288,7 +305,7 @@ def _fit(one: xr.Dataset) -> str:
 
 def ranking_tables(ds: xr.Dataset) -> list[Table]:
     """Parameters and layers ranked by total Sobol index, or by |rank correlation| for a
-    screening study, per exposure [-]."""
+    screening study, per exposure."""
     out = []
     for _, label, one in scenario_values(ds):
         suffix = f" — {exposure_text(ds, label)}" if label else ""
@@ -301,7 +318,7 @@ def ranking_tables(ds: xr.Dataset) -> list[Table]:
                      str(one["parameter_group"].values[j]).replace("_", " "),
                      _idx(float(ix.p["total"][j]), float(ix.p["total_ci"][j])),
                      _idx(float(ix.p["first"][j]), float(ix.p["first_ci"][j])),
-                     _status(ix.p_converged, j)]
+                     _status(ix.p_converged, j, ix.p)]
                     for j in np.argsort(ix.p_rank, kind="stable")]
             out.append(Table(["rank", "parameter", "layer", "total index ± CI",
                               "first-order index ± CI", "status"], rows,
@@ -310,7 +327,7 @@ def ranking_tables(ds: xr.Dataset) -> list[Table]:
             rows = [[str(int(ix.g_rank[j])), groups[j],
                      _idx(float(ix.g["total"][j]), float(ix.g["total_ci"][j])),
                      _idx(float(ix.g["first"][j]), float(ix.g["first_ci"][j])),
-                     _status(ix.g_converged, j)]
+                     _status(ix.g_converged, j, ix.g)]
                     for j in np.argsort(ix.g_rank, kind="stable")]
             out.append(Table(["rank", "layer", "total index ± CI", "first-order index ± CI",
                               "status"], rows,
@@ -329,7 +346,7 @@ def ranking_tables(ds: xr.Dataset) -> list[Table]:
 
 
 def convergence_summary(ds: xr.Dataset) -> tuple[list[str], Table | None]:
-    """Paragraphs on the convergence of the indices and their table (``None`` if none) [-]."""
+    """Paragraphs on the convergence of the indices and their table (``None`` if none)."""
     if "sobol_total" not in ds:
         if "pce_total" not in ds:
             return [f"No Sobol indices were computed (method = {ds.attrs.get('method')}), so "
@@ -345,6 +362,7 @@ def convergence_summary(ds: xr.Dataset) -> tuple[list[str], Table | None]:
     rows = []
     for _, label, one in scenario_values(ds):
         for ix in index_sets(one):
+            assert ix.p_converged is not None and ix.g_converged is not None  # Sobol indices
             s = one.sel(output=ix.output)
             bad_p = [str(n) for n, c in zip(one["parameter"].values, ix.p_converged,
                                             strict=True) if not c]
@@ -367,7 +385,7 @@ def convergence_summary(ds: xr.Dataset) -> tuple[list[str], Table | None]:
 
 def nonconverged_table(ds: xr.Dataset) -> Table:
     """Per exposure: evaluations, those not converged, gap-air range and convection onset
-    counts [-]."""
+    counts."""
     rows = []
     layers = [str(n) for n in ds["layer"].values]
     gaps = [j for j, k in enumerate(ds["layer_kind"].values) if str(k) == "gap"]
@@ -390,7 +408,7 @@ def nonconverged_table(ds: xr.Dataset) -> Table:
 
 
 def provenance_table(ds: xr.Dataset) -> Table:
-    """Config, method, seed, sample counts, model options and versions [-]."""
+    """Config, method, seed, sample counts, model options and versions."""
     a = ds.attrs
     rows = [["config file", str(a.get("config_source", ""))],
             ["method", str(a.get("method", ""))], ["seed", str(a.get("seed", ""))],

@@ -37,6 +37,37 @@ def _var(dims, data, units: str, long_name: str, **attrs) -> xr.Variable:
     return xr.Variable(dims, data, attrs={"units": units, "long_name": long_name, **attrs})
 
 
+INTERVAL_TEXT = {
+    "order-statistics": "distribution-free order statistics of the pooled samples (binomial)",
+    "replicates-woodruff": "Woodruff interval from the spread of the independently scrambled "
+                           "replicates (Student t, replicates - 1 degrees of freedom)",
+    "replicates": "pooled fraction ± Student t on the spread of the independently scrambled "
+                  "replicates (replicates - 1 degrees of freedom)",
+    "wilson": "Wilson score interval of the pooled samples (binomial)",
+    "clopper-pearson": "Clopper-Pearson interval of the pooled samples (binomial)",
+}
+
+
+def _interval_attrs(methods: list[tuple[str, str]]) -> dict[str, str]:
+    """``interval_method`` and ``interval`` attributes from (where, method) pairs: the one
+    method, or the main one and where another (a binomial fallback) was used."""
+    counts: dict[str, list[str]] = {}
+    for where, m in methods:
+        counts.setdefault(m, []).append(where)
+    main = max(counts, key=lambda m: len(counts[m]))
+    text = INTERVAL_TEXT.get(main, main)
+    others = [f"{m} at {', '.join(dict.fromkeys(w))}" for m, w in counts.items() if m != main]
+    if others:
+        text += "; " + "; ".join(others) + (" (binomial fallback: too few pooled values on a "
+                                            "side or no spread between the replicates)")
+    return {"interval_method": main, "interval": text}
+
+
+def _quantile_intervals(estimates: list[Any]) -> dict[str, str]:
+    return _interval_attrs([(f"quantile {p:g}", m) for q in estimates
+                            for p, m in zip(q.probabilities, q.interval_methods, strict=True)])
+
+
 def to_dataset(study: Study, propagation: Propagation, analysis: StudyAnalysis, *,
                method: Method | None = None) -> xr.Dataset:
     """Assemble the results dataset of a study.
@@ -167,16 +198,23 @@ def _statistics_variables(frame: _Frame) -> dict[str, xr.Variable]:
     data: dict[str, xr.Variable] = {}
     sa = frame.analysis.scenarios
     q_est = per([s.inner_quantiles.estimate for s in sa])
+    inner_iv = _quantile_intervals([s.inner_quantiles for s in sa])
+    face_iv = _quantile_intervals([q for s in sa for q in s.interface_quantiles])
+    exc_iv = _interval_attrs([(f"scenario {k}", s.exceedance.method)
+                              for k, s in enumerate(sa)])
+    notes = sorted({s.exceedance.note for s in sa if s.exceedance.note})
+    if notes:
+        exc_iv["interval"] += "; " + "; ".join(notes)
     data["inner_surface_temperature_quantile"] = _var(
         (*sd, "quantile"), q_est, "K", "quantile of the inner-surface temperature"
     )
     data["inner_surface_temperature_quantile_lower"] = _var(
         (*sd, "quantile"), per([s.inner_quantiles.lower for s in sa]), "K",
-        "lower confidence bound of the quantile", confidence=a.confidence,
+        "lower confidence bound of the quantile", confidence=a.confidence, **inner_iv,
     )
     data["inner_surface_temperature_quantile_upper"] = _var(
         (*sd, "quantile"), per([s.inner_quantiles.upper for s in sa]), "K",
-        "upper confidence bound of the quantile", confidence=a.confidence,
+        "upper confidence bound of the quantile", confidence=a.confidence, **inner_iv,
     )
     for part, long in (("estimate", "quantile"), ("lower", "lower confidence bound of the "
                        "quantile"), ("upper", "upper confidence bound of the quantile")):
@@ -185,6 +223,7 @@ def _statistics_variables(frame: _Frame) -> dict[str, xr.Variable]:
             (*sd, "interface", "quantile"),
             per([[getattr(q, part) for q in s.interface_quantiles] for s in sa]),
             "K", f"{long} of each face temperature", confidence=a.confidence,
+            **({} if part == "estimate" else face_iv),
         )
     data["exceedance_probability"] = _var(
         sd, per([s.exceedance.probability for s in sa]), "1",
@@ -194,10 +233,12 @@ def _statistics_variables(frame: _Frame) -> dict[str, xr.Variable]:
     data["exceedance_probability_lower"] = _var(
         sd, per([s.exceedance.lower for s in sa]), "1",
         "lower confidence bound of the exceedance probability", confidence=a.confidence,
+        **exc_iv,
     )
     data["exceedance_probability_upper"] = _var(
         sd, per([s.exceedance.upper for s in sa]), "1",
         "upper confidence bound of the exceedance probability", confidence=a.confidence,
+        **exc_iv,
     )
     data["samples_used"] = _var(sd, per([s.exceedance.n for s in sa]), "1",
                                 "converged independent samples behind percentiles and exceedance")
@@ -223,6 +264,7 @@ def _attributes(frame: _Frame) -> dict[str, Any]:
         "method": a.method,
         "design": a.design,
         "base_samples": int(propagation.design.base_samples),
+        "replicates": int(getattr(propagation.design, "replicates", 1)),
         "evaluations": int(n_samples),
         "parameters": len(study.parameters),
         "confidence": float(a.confidence),
@@ -247,7 +289,7 @@ def _attributes(frame: _Frame) -> dict[str, Any]:
     return attrs
 
 
-def _nominal_thickness(study, out) -> np.ndarray:
+def _nominal_thickness(study: Study, out) -> np.ndarray:
     widths = []
     for kind, index in zip(out.element_kinds, out.element_layers, strict=True):
         layer = study.layers[index]
@@ -326,6 +368,63 @@ def read_results(path: str | Path) -> xr.Dataset:
         return ds.load()
 
 
+SUBSET_WARNING = 0.01
+"""Share of the independent samples lost (not converged) above which every output warns that
+the percentiles describe a reduced subset."""
+
+
+def subset_warning(used: int, independent: int, where: str = "") -> str:
+    """The warning of percentiles from a subset that lost more than :data:`SUBSET_WARNING` of
+    the samples, or ``""``.
+
+    Parameters
+    ----------
+    used
+        Converged independent samples the percentiles come from.
+    independent
+        Independent samples drawn.
+    where
+        The exposure, e.g. ``"at incident_flux = 10 kW/m^2: "``.
+
+    Examples
+    --------
+    >>> subset_warning(990, 1000)
+    ''
+    >>> subset_warning(600, 1000)[:60]
+    'WARNING: the percentiles and P(exceed) come from 600 of 1000'
+    """
+    if independent <= 0 or (independent - used) <= SUBSET_WARNING * independent:
+        return ""
+    lost = independent - used
+    return (f"WARNING: {where}the percentiles and P(exceed) come from {used} of {independent} "
+            f"samples ({100 * lost / independent:.3g} % did not converge and are left out): "
+            "they describe the converged subset only, which is biased when the samples lost "
+            "are the hot ones")
+
+
+def independent_samples(ds: xr.Dataset) -> int:
+    """Independent samples of a results dataset: the A and B rows of a Saltelli design, every
+    sample otherwise."""
+    n = int(ds.attrs.get("evaluations", ds.sizes.get("sample", 0)))
+    if ds.attrs.get("method") == "saltelli":
+        return 2 * int(ds.attrs.get("base_samples", 0))
+    return n
+
+
+def subset_warnings(ds: xr.Dataset) -> list[str]:
+    """:func:`subset_warning` of every exposure of a results dataset."""
+    if "samples_used" not in ds:
+        return []
+    out = []
+    n = independent_samples(ds)
+    for label, one in scenario_slices(ds):
+        where = f"at {ds.attrs.get('scenario_quantity', 'scenario')} = {label}: " if label else ""
+        text = subset_warning(int(one["samples_used"].item()), n, where)
+        if text:
+            out.append(text)
+    return out
+
+
 def scenario_slices(ds: xr.Dataset) -> Iterator[tuple[str, xr.Dataset]]:
     """Yield ``(label, dataset of one exposure)`` for swept and unswept results alike."""
     if "scenario" in ds.dims:
@@ -351,17 +450,22 @@ def write_store_analysis(ds: xr.Dataset, path: str | Path) -> None:
     """
     import zarr
 
+    from plyrisk.propagate.store import STORE_OWN_ATTRS
+
     keep = [n for n, v in ds.variables.items() if "sample" not in v.dims]
     part = ds[[n for n in keep if n in ds.data_vars]]
     part = part.assign_coords({n: ds[n] for n in keep if n in ds.coords})
     part = part.drop_vars([n for n in part.coords if "sample" in part[n].dims])
-    part.attrs = {}
+    group = zarr.open_group(str(path), mode="r")
+    own = {k: group.attrs[k] for k in STORE_OWN_ATTRS if k in group.attrs}
+    # the group's attributes are replaced in one write, the store's own ones kept: a kill at
+    # any point leaves the fingerprint in place
+    part.attrs = {**{k: (v.tolist() if isinstance(v, np.ndarray) else
+                         v.item() if isinstance(v, np.generic) else v)
+                     for k, v in ds.attrs.items()}, **own}
     # variable-length strings: fixed-width unicode has no Zarr v3 specification yet
     part = part.assign({n: v.astype(object) for n, v in part.data_vars.items()
                         if v.dtype.kind == "U"})
     part = part.assign_coords({n: part[n].astype(object) for n in part.coords
                                if part[n].dtype.kind == "U"})
     part.to_zarr(str(path), mode="a", consolidated=False, zarr_format=3)
-    group = zarr.open_group(str(path), mode="r+")
-    group.attrs.update({k: (v.tolist() if isinstance(v, np.ndarray) else v)
-                        for k, v in ds.attrs.items()})

@@ -20,7 +20,9 @@ Every mistake raises :class:`~plyrisk.errors.ConfigError`, one line:
 
 from __future__ import annotations
 
+import os
 import re
+import stat
 import tomllib
 from dataclasses import replace
 from pathlib import Path
@@ -48,6 +50,7 @@ from plyrisk.study.sections_analysis import (
     parse_screening,
     parse_study_section,
     parse_tolerances,
+    replicate_rule,
 )
 from plyrisk.study.sections_assembly import Parser, parse_layers, parse_scenarios, side_parser
 from plyrisk.study.sections_transient import (
@@ -84,14 +87,56 @@ def load_study(path: str | Path) -> Study:
     Parameters
     ----------
     path
-        The TOML file [-].
+        The TOML file.
 
     Raises
     ------
     ConfigError
         For a missing or unreadable file or any mistake in it.
+
+    Examples
+    --------
+    >>> import pathlib, tempfile
+    >>> from plyrisk.study.config import load_study
+    >>> folder = pathlib.Path(tempfile.mkdtemp())
+    >>> path = folder / "panel.toml"
+    >>> _ = path.write_text('''
+    ... [study]
+    ... title = "Invented example: one fabric"
+    ... method = "saltelli"
+    ... samples = 64
+    ... seed = 1
+    ... limit = "44 degC"
+    ... [hot_side]
+    ... kind = "flux"
+    ... heat_flux = "1 kW/m^2"
+    ... [[layer]]
+    ... name = "fabric"
+    ... kind = "solid"
+    ... thickness = "1 mm"
+    ... conductivity = { uniform = ["0.04 W/m/K", "0.06 W/m/K"] }
+    ... [cold_side]
+    ... kind = "temperature"
+    ... temperature = "34 degC"
+    ... ''')
+    >>> load_study(path).parameter_names
+    ('fabric.conductivity',)
+    >>> load_study(folder / "missing.toml")
+    Traceback (most recent call last):
+    ...
+    plyrisk.errors.ConfigError: .../missing.toml: no such file
+    >>> import shutil
+    >>> shutil.rmtree(folder)
     """
     source = str(path)
+    try:  # a FIFO, device or folder would hang or fail half-way when read
+        if not stat.S_ISREG(os.stat(path).st_mode):
+            raise ConfigError(source, "", "not a regular file (a FIFO, device or folder); give "
+                              "a TOML config file")
+    except FileNotFoundError:
+        raise ConfigError(source, "", "no such file") from None
+    except OSError as err:
+        raise ConfigError(source, "", f"cannot read the file ({err.strerror or err})") from None
     try:
         text = Path(path).read_text(encoding="utf-8")
     except FileNotFoundError:
@@ -109,14 +154,54 @@ def loads_study(text: str, *, source: str = "<string>") -> Study:
     Parameters
     ----------
     text
-        The TOML document [-].
+        The TOML document.
     source
-        Name shown in error messages [-].
+        Name shown in error messages.
 
     Raises
     ------
     ConfigError
         For any mistake, naming ``source`` and the key path.
+
+    Examples
+    --------
+    An invented study: one fabric over the skin, its thickness 1 mm +- 0.1 mm.
+
+    >>> from plyrisk.study.config import loads_study
+    >>> text = '''
+    ... [study]
+    ... title = "Invented example: one fabric over the skin"
+    ... method = "saltelli"
+    ... samples = 64
+    ... seed = 1
+    ... limit = "44 degC"
+    ...
+    ... [hot_side]
+    ... kind = "flux"
+    ... heat_flux = "1 kW/m^2"
+    ...
+    ... [[layer]]
+    ... name = "fabric"
+    ... kind = "solid"
+    ... thickness = { nominal = "1 mm", tolerance = "0.1 mm" }
+    ... conductivity = "0.05 W/m/K"
+    ...
+    ... [cold_side]
+    ... kind = "temperature"
+    ... temperature = "34 degC"
+    ... '''
+    >>> study = loads_study(text, source="example.toml")
+    >>> study.parameter_names
+    ('fabric.thickness',)
+    >>> round(study.analysis.limit, 6), study.limit_unit
+    (317.15, 'degC')
+
+    Mistakes are one-line errors naming the source and the key path:
+
+    >>> loads_study(text.replace('"0.05 W/m/K"', '"0.05 W/m"'), source="example.toml")
+    Traceback (most recent call last):
+    ...
+    plyrisk.errors.ConfigError: example.toml: layer[0].conductivity: unit 'W/m' has dimension ...
     """
     ctx = Context(source)
     try:
@@ -333,7 +418,12 @@ def override(study: Study, *, samples: int | None = None, seed: int | None = Non
     n = new.samples
     if n < MIN_SAMPLES:
         raise ValueError(f"--samples must be at least {MIN_SAMPLES}, got {n}")
-    if new.design == "sobol" and n & (n - 1):
+    if "replicates" in METHODS[new.method].only_keys:
+        problem = replicate_rule(n, new.replicates)
+        if problem:
+            where = f"--samples {n}" if samples is not None else f"study.samples = {n}"
+            raise ValueError(f"{where}: {problem}")
+    elif new.design == "sobol" and n & (n - 1):
         lo = 1 << (n.bit_length() - 1)
         what = (f"method = {new.method}" if len(METHODS[new.method].designs) == 1
                 else "design = sobol")

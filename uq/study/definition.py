@@ -44,18 +44,18 @@ class Parameter:
     Parameters
     ----------
     name
-        Stable name, ``"<layer name>.<quantity>"`` or ``"hot_side.<quantity>"`` [-].
+        Stable name, ``"<layer name>.<quantity>"`` or ``"hot_side.<quantity>"``.
     group
-        Layer name, ``"hot_side"`` or ``"cold_side"``, for grouped indices [-].
+        Layer name, ``"hot_side"`` or ``"cold_side"``, for grouped indices.
     target
         ``("layer", index, field)``, ``("hot_side", field)`` or ``("cold_side", field)``; the
-        field ``"emissivity"`` of a solid sets both faces (see :attr:`fields`) [-].
+        field ``"emissivity"`` of a solid sets both faces (see :attr:`fields`).
     distribution
-        The input distribution, in SI units [-].
+        The input distribution, in SI units.
     unit
-        The user's unit text for display (``"mm"``), ``""`` for dimensionless [-].
+        The user's unit text for display (``"mm"``), ``""`` for dimensionless.
     key_path
-        Where it is in the config, e.g. ``"layer[0].thickness"`` [-].
+        Where it is in the config, e.g. ``"layer[0].thickness"``.
     """
 
     name: str
@@ -67,19 +67,19 @@ class Parameter:
 
     @property
     def quantity(self) -> str:
-        """The quantity (config key) of the parameter, e.g. ``"thickness"`` [-]."""
+        """The quantity (config key) of the parameter, e.g. ``"thickness"``."""
         return self.target[-1]
 
     @property
     def fields(self) -> tuple[str, ...]:
-        """The model dataclass fields this parameter sets [-]."""
+        """The model dataclass fields this parameter sets."""
         if self.quantity == "emissivity" and self.target[0] == "layer":
             return ("emissivity_hot", "emissivity_cold")
         return (self.quantity,)
 
     @property
     def spec(self) -> QuantitySpec:
-        """Dimension and physical bounds of the quantity [-]."""
+        """Dimension and physical bounds of the quantity."""
         return QUANTITIES[self.quantity]
 
     def to_unit(self, values: ArrayLike, *, difference: bool = False) -> np.ndarray:
@@ -90,16 +90,16 @@ class Parameter:
         values
             Values in SI [SI].
         difference
-            The values are differences or spreads: no temperature offset [-].
+            The values are differences or spreads: no temperature offset.
         """
         return np.asarray(from_si(values, self.unit, self.spec, difference=difference))
 
     def format(self, value: float, *, difference: bool = False, digits: int = 4) -> str:
-        """An SI value shown in the user's unit, e.g. ``"0.5 mm"`` [-]."""
+        """An SI value shown in the user's unit, e.g. ``"0.5 mm"``."""
         return format_value(value, self.unit, self.spec, difference=difference, digits=digits)
 
     def describe(self) -> str:
-        """The distribution as the user gave it, in the user's unit [-].
+        """The distribution as the user gave it, in the user's unit.
 
         E.g. ``"0.5 mm +/- 0.04 mm (normal, band = +/-3 sd)"`` or
         ``"lognormal(median 1 mm, gsd 1.4)"``.
@@ -122,7 +122,7 @@ class Parameter:
         return f"{d.kind}(" + ", ".join(f"{k} {show(k)}" for k in p) + ")"
 
     def truncation(self) -> str:
-        """Where the physical bounds cut the distribution and how much mass is cut [-].
+        """Where the physical bounds cut the distribution and how much mass is cut.
 
         E.g. ``"truncated at 0 mm: 0.13 % of the mass cut"``; ``"none"`` when nothing is cut.
         """
@@ -149,13 +149,13 @@ class Scenarios:
     Parameters
     ----------
     quantity
-        Hot-side field swept, e.g. ``"incident_flux"`` [-].
+        Hot-side field swept, e.g. ``"incident_flux"``.
     values
         The levels in SI, shape ``(k,)`` [SI].
     labels
-        The levels as the user wrote them [-].
+        The levels as the user wrote them.
     unit
-        The user's unit text of the first level [-].
+        The user's unit text of the first level.
     """
 
     quantity: str
@@ -171,13 +171,13 @@ class ModelOptions:
     Parameters
     ----------
     radiation
-        ``"exact"`` or ``"linearized"`` gap radiation [-].
+        ``"exact"`` or ``"linearized"`` gap radiation.
     convection
-        Natural convection in gaps on or off [-].
+        Natural convection in gaps on or off.
     tolerance
         Newton convergence tolerance on the face temperatures [K].
     max_iterations
-        Newton iterations before a sample is declared not converged [-].
+        Newton iterations before a sample is declared not converged.
     """
 
     radiation: str = "exact"
@@ -186,7 +186,7 @@ class ModelOptions:
     max_iterations: int = 100
 
     def solver_kwargs(self) -> dict[str, Any]:
-        """Keyword arguments for :func:`plyrisk.models.network.solve_network` [-]."""
+        """Keyword arguments for :func:`plyrisk.models.network.solve_network`."""
         return {
             "radiation": self.radiation,
             "convection_enabled": self.convection,
@@ -203,39 +203,42 @@ class Analysis:
     ----------
     method
         Analysis method: ``"saltelli"`` (Sobol indices from a Saltelli design), ``"pce"``
-        (polynomial-chaos surrogate) or ``"morris"`` (elementary-effects screening) [-].
+        (polynomial-chaos surrogate) or ``"morris"`` (elementary-effects screening).
     samples
-        Saltelli: base rows ``N``; pce: number of samples; morris: number of trajectories [-].
+        Saltelli: base rows ``N``; pce: number of samples; morris: number of trajectories.
     seed
-        Seed of every random draw [-].
+        Seed of every random draw.
     limit
         Inner-surface temperature limit [K].
     percentiles
-        Percentiles to report, as fractions in (0, 1) [-].
+        Percentiles to report, as fractions in (0, 1).
     confidence
-        Level of the confidence intervals [-].
+        Level of the confidence intervals.
     bootstrap
-        Bootstrap resamples for the index intervals [-].
+        Bootstrap resamples for the index intervals.
     index_ci_threshold
-        Interval half-width above which an index is flagged unconverged [-].
+        Interval half-width above which an index is flagged unconverged.
     chunk_size
-        Samples per evaluation chunk [-].
+        Samples per evaluation chunk.
     lhs_optimization
-        ``None``, ``"random-cd"`` or ``"lloyd"`` (pce with the lhs design only) [-].
+        ``None``, ``"random-cd"`` or ``"lloyd"`` (pce with the lhs design only).
     outputs
         Outputs analysed besides the inner-surface temperature: ``"heat_flux"`` and/or
-        interface names [-].
+        interface names.
     design
         Design type: ``"sobol"`` (saltelli; for pce a plain scrambled Sobol' sequence),
-        ``"lhs"``, ``"random"`` (pce) or ``"morris"`` (morris) [-].
+        ``"lhs"``, ``"random"`` (pce) or ``"morris"`` (morris).
     levels
-        Grid levels of the Morris trajectories (morris only) [-].
+        Grid levels of the Morris trajectories (morris only).
     screening_threshold
         Share of the largest mu* below which (mu* and sigma both) an input is marked safe to fix
-        at nominal (morris) [-].
+        at nominal (morris).
     pce_max_loo_error
         Largest relative leave-one-out error of the surrogate for which percentiles are taken
-        from it (pce) [-].
+        from it (pce).
+    replicates
+        Independently scrambled replicates R of the Saltelli design (saltelli); ``samples`` is
+        R times a power of 2, and every interval comes from the spread of the replicates.
     """
 
     method: str
@@ -253,6 +256,7 @@ class Analysis:
     levels: int = 4
     screening_threshold: float = 0.1
     pce_max_loo_error: float = 1e-3
+    replicates: int = 8
 
 
 @dataclass(frozen=True)
@@ -262,11 +266,11 @@ class ComputeOptions:
     Parameters
     ----------
     workers
-        Worker processes of a local dask cluster; 1 solves in this process [-].
+        Worker processes of a local dask cluster; 1 solves in this process.
     scheduler
-        Address of an existing dask scheduler, e.g. ``"tcp://10.0.0.5:8786"`` [-].
+        Address of an existing dask scheduler, e.g. ``"tcp://10.0.0.5:8786"``.
     store
-        Zarr store folder the per-sample results stream to (out of core) [-].
+        Zarr store folder the per-sample results stream to (out of core).
     """
 
     workers: int = 1
@@ -383,7 +387,8 @@ class Study:
     ``[tolerances]`` settings (:class:`plyrisk.study.settings.ToleranceSettings`) and ``screening``
     the ``[screening]`` settings (:class:`plyrisk.study.settings.ScreeningSettings`), ``None``
     when the
-    section is absent.
+    section is absent. ``max_temperatures`` holds each layer's rated maximum temperature
+    (``max_temperature`` of a solid layer) [K], ``None`` where the layer has none.
     """
 
     source: str
@@ -400,6 +405,7 @@ class Study:
     tolerances: ToleranceSettings | None = None
     compute: ComputeOptions = ComputeOptions()
     screening: ScreeningSettings | None = None
+    max_temperatures: tuple[float | None, ...] = ()
     transient: TransientSetup | None = None
 
     @property
@@ -409,16 +415,16 @@ class Study:
 
     @property
     def parameter_names(self) -> tuple[str, ...]:
-        """Names of the uncertain parameters, in order [-]."""
+        """Names of the uncertain parameters, in order."""
         return tuple(p.name for p in self.parameters)
 
     @property
     def groups(self) -> tuple[str, ...]:
-        """Distinct parameter groups in order of first appearance [-]."""
+        """Distinct parameter groups in order of first appearance."""
         return tuple(dict.fromkeys(p.group for p in self.parameters))
 
     def format_temperature(self, value: float, *, difference: bool = False) -> str:
-        """A temperature [K] (or difference) shown in the limit's unit [-]."""
+        """A temperature [K] (or difference) shown in the limit's unit."""
         return format_value(value, self.limit_unit, TEMPERATURE, difference=difference)
 
 
@@ -433,12 +439,12 @@ def assemble(
     Parameters
     ----------
     study
-        The study [-].
+        The study.
     values
         Parameter name → SI samples, each shape ``(n,)``; parameters left out keep their
         nominal value [SI].
     scenario
-        Index into ``study.scenarios.values`` to apply, or ``None`` for the base hot side [-].
+        Index into ``study.scenarios.values`` to apply, or ``None`` for the base hot side.
 
     Returns
     -------
@@ -454,8 +460,8 @@ def assemble(
     if study.transient is not None:
         return _assemble_transient(study, values, by_name, scenario)
     layers = list(study.layers)
-    sides = {"hot_side": {}, "cold_side": {}}
-    per_layer: dict[int, dict] = {}
+    sides: dict[str, dict[str, Any]] = {"hot_side": {}, "cold_side": {}}
+    per_layer: dict[int, dict[str, Any]] = {}
     for name, v in values.items():
         p = by_name[name]
         arr = np.asarray(v, dtype=float)

@@ -61,6 +61,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
+from numpy.typing import ArrayLike
 from scipy import stats
 
 __all__ = ["KINDS", "Bounds", "Distribution", "make_distribution"]
@@ -199,7 +200,7 @@ class Distribution:
     spread : float
         Spread measure per kind (module docstring) [SI], for lognormal ln(gsd) [-].
     truncated_mass : float
-        Probability of the untruncated distribution cut off by the physical bounds [-]; for
+        Probability of the untruncated distribution cut off by the physical bounds; for
         truncnormal, of the normal already restricted to the user's [low, high]. 0 for the
         bounded kinds and ``fixed``.
     mean, std, median : float
@@ -368,13 +369,13 @@ class Distribution:
             return self._loc + self._scale * z
         return self._loc * np.exp(self._scale * z)
 
-    def ppf(self, u: np.ndarray) -> np.ndarray:
+    def ppf(self, u: ArrayLike) -> np.ndarray:
         """Quantile function of the (truncated) distribution.
 
         Parameters
         ----------
         u : array_like
-            Probabilities in the open interval (0, 1) [-].
+            Probabilities in the open interval (0, 1).
 
         Returns
         -------
@@ -403,7 +404,7 @@ class Distribution:
         Returns
         -------
         numpy.ndarray
-            P(X <= x) [-], same shape as ``x``.
+            P(X <= x), same shape as ``x``.
         """
         x = np.asarray(x, dtype=float)
         if self._family == "fixed":
@@ -461,7 +462,7 @@ class Distribution:
         Parameters
         ----------
         coverage : float
-            Probability inside the interval, in (0, 1) [-]; 0.90 gives the 5-95 % range.
+            Probability inside the interval, in (0, 1); 0.90 gives the 5-95 % range.
 
         Returns
         -------
@@ -479,7 +480,7 @@ class Distribution:
         Parameters
         ----------
         factor : float
-            Spread multiplier, >= 0 [-]; 0 gives a ``fixed`` distribution at the nominal.
+            Spread multiplier, >= 0; 0 gives a ``fixed`` distribution at the nominal.
 
         Returns
         -------
@@ -526,7 +527,7 @@ def make_distribution(kind: str, params: Mapping[str, float], *,
     Parameters
     ----------
     kind : str
-        Distribution kind, one of :data:`KINDS`. [-]
+        Distribution kind, one of :data:`KINDS`.
     params : mapping of str to float
         Parameter set [SI], see the module docstring.
     bounds : Bounds
@@ -541,6 +542,32 @@ def make_distribution(kind: str, params: Mapping[str, float], *,
     ValueError
         Unknown kind, missing or extra parameter names, or invalid values; the message names
         the parameter, the bad value and what is valid.
+
+    Examples
+    --------
+    A gap width with a median of 2 mm and a geometric standard deviation of 1.4, which cannot be
+    negative:
+
+    >>> import numpy as np
+    >>> from plyrisk.study.distributions import Bounds, make_distribution
+    >>> width = make_distribution("lognormal", {"median": 2e-3, "gsd": 1.4},
+    ...                           bounds=Bounds(lower=0.0))
+    >>> round(width.nominal, 9)
+    0.002
+    >>> (width.ppf(np.array([0.05, 0.5, 0.95])) * 1e3).round(3)  # mm
+    array([1.15 , 2.   , 3.478])
+
+    An emissivity of 0.9 +- 0.1 (normal) is truncated at its physical bound 1, never clipped; the
+    mass cut off is ``1 - Phi(1)``:
+
+    >>> emissivity = make_distribution("normal", {"mean": 0.9, "sd": 0.1},
+    ...                                bounds=Bounds(lower=0.0, upper=1.0))
+    >>> round(emissivity.truncated_mass, 4)
+    0.1587
+    >>> make_distribution("uniform", {"low": 2.0, "high": 1.0})
+    Traceback (most recent call last):
+    ...
+    ValueError: uniform low must be below high, got low=2 high=1
     """
     if not isinstance(params, Mapping):
         raise ValueError(f"{kind} parameters must be a mapping of name to value, got {params!r}")

@@ -23,6 +23,9 @@ from plyrisk.study.values import Context, join, show, suggest
 RADIATION = ("exact", "linearized")
 LHS_OPTIMIZATIONS = ("none", "random-cd", "lloyd")
 PRIMARY_OUTPUT = "inner_surface_temperature"
+MAX_SEED = 2**64 - 1
+"""Largest seed of ``[study]`` and ``[tolerances]``: seeds are stored as unsigned 64-bit
+integers in ``results.nc`` (``--seed`` is checked against the same bound)."""
 
 
 # ----------------------------------------------------------------------------------------------
@@ -33,7 +36,7 @@ _STUDY_REQUIRED = ("title", "method", "samples", "seed", "limit")
 _STUDY_OPTIONAL = (
     "percentiles", "confidence", "bootstrap", "index_ci_threshold", "chunk_size",
     "lhs_optimization", "outputs", "design", "levels", "screening_threshold",
-    "pce_max_loo_error",
+    "pce_max_loo_error", "replicates",
 )  # fmt: skip
 _TRANSIENT_OPTIONAL = ("acceptable_burn_probability",)
 TRANSIENT_CHUNK_SIZE = 256
@@ -98,13 +101,17 @@ def parse_study_section(ctx: Context, raw: Any, parsed: dict) -> dict:
               if "design" in t else method.default_design)
     limit = (cv.fixed(ctx, t["limit"], "study.limit", TEMPERATURE) if not transient
              else Parsed(float("nan"), TRANSIENT_TEMPERATURE_UNIT, "none"))
+    replicates = (cv.integer(ctx, t["replicates"], "study.replicates", minimum=2)
+                  if "replicates" in t else Analysis.replicates)
     kw: dict[str, Any] = {
         "method": method.name,
         "design": design,
-        "samples": _samples(ctx, t["samples"], method, design),
-        "seed": cv.integer(ctx, t["seed"], "study.seed", minimum=0),
+        "samples": _samples(ctx, t["samples"], method, design, replicates),
+        "seed": cv.integer(ctx, t["seed"], "study.seed", minimum=0, maximum=MAX_SEED),
         "limit": limit.si,
     }
+    if "replicates" in t:
+        kw["replicates"] = replicates
     if "levels" in t:
         kw["levels"] = levels_value(ctx, t["levels"], "study.levels")
     if "screening_threshold" in t:
@@ -145,8 +152,25 @@ MIN_SAMPLES = 8
 """Fewest samples (Sobol: base rows) a study may ask for: fewer give no usable interval [-]."""
 
 
-def _samples(ctx: Context, raw: Any, method: Method, design: str) -> int:
+def replicate_rule(samples: int, replicates: int) -> str | None:
+    """Why ``samples`` base rows cannot be split into ``replicates`` Saltelli designs of a power
+    of 2 base rows each, with the nearest valid counts; ``None`` when they can [-]."""
+    per, rest = divmod(samples, replicates)
+    if not rest and per >= 1 and not per & (per - 1):
+        return None
+    low = replicates << (max(per, 1).bit_length() - 1)
+    near = f"{low} or {2 * low}" if low < samples else f"{low}"
+    return (f"must be replicates ({replicates}) x a power of 2 (each independently scrambled "
+            f"replicate a Sobol' design of a power of 2 base rows), got {samples}; use {near}")
+
+
+def _samples(ctx: Context, raw: Any, method: Method, design: str, replicates: int) -> int:
     n = cv.integer(ctx, raw, "study.samples", minimum=MIN_SAMPLES)
+    if "replicates" in method.only_keys:
+        problem = replicate_rule(n, replicates)
+        if problem:
+            raise ctx.error("study.samples", problem)
+        return n
     if design == "sobol" and n & (n - 1):
         low = 1 << (n.bit_length() - 1)
         what = (f"method = '{method.name}'" if len(method.designs) == 1
@@ -235,7 +259,8 @@ def parse_tolerances(ctx: Context, raw: Any, parsed: dict) -> dict:
         kw["method"] = cv.choice(ctx, t["method"], "tolerances.method", TOLERANCE_METHODS,
                                  "method")
     if "seed" in t:
-        kw["seed"] = cv.integer(ctx, t["seed"], "tolerances.seed", minimum=0)
+        kw["seed"] = cv.integer(ctx, t["seed"], "tolerances.seed", minimum=0,
+                                maximum=MAX_SEED)
     if "cost" in t:
         cost = cv.table(ctx, t["cost"], "tolerances.cost",
                         '{ "<parameter name>" = <weight>, ... }')

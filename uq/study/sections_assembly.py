@@ -17,7 +17,7 @@ import numpy as np
 from plyrisk.models.stack import GAP_ORIENTATIONS, Gap, Solid
 from plyrisk.study import values as cv
 from plyrisk.study.definition import Parameter, Scenarios
-from plyrisk.study.units import QUANTITIES
+from plyrisk.study.units import QUANTITIES, TEMPERATURE
 from plyrisk.study.values import Context, join, show, suggest
 
 LAYER_KINDS = {"solid": Solid, "gap": Gap}
@@ -104,6 +104,7 @@ def parse_layers(ctx: Context, raw: Any, parsed: dict) -> dict:
                         f"layer, hot side first), got {show(raw)}")
     layers: list[Solid | Gap] = []
     params: list[Parameter] = []
+    ratings: list[float | None] = []
     seen: dict[str, int] = {}
     for i, item in enumerate(raw):
         path = join("layer", i)
@@ -121,7 +122,7 @@ def parse_layers(ctx: Context, raw: Any, parsed: dict) -> dict:
         seen[name] = i
         cls = LAYER_KINDS[cv.choice(ctx, t["kind"], f"{path}.kind", LAYER_KINDS, "layer kind")]
         names, required = _model_fields(cls)
-        extra = ["orientation"] if cls is Gap else []
+        extra = ["orientation"] if cls is Gap else ["max_temperature"]
         if cls is Solid:
             names.append("emissivity")
             if "emissivity" in t and ("emissivity_hot" in t or "emissivity_cold" in t):
@@ -137,9 +138,11 @@ def parse_layers(ctx: Context, raw: Any, parsed: dict) -> dict:
         if "orientation" in t:
             kwargs["orientation"] = cv.choice(ctx, t["orientation"], f"{path}.orientation",
                                               GAP_ORIENTATIONS, "orientation")
+        ratings.append(cv.fixed(ctx, t["max_temperature"], f"{path}.max_temperature",
+                                TEMPERATURE).si if "max_temperature" in t else None)
         layers.append(cls(name=name, **kwargs))
         params.extend(ps)
-    return {"layers": tuple(layers), "parameters": params}
+    return {"layers": tuple(layers), "parameters": params, "max_temperatures": tuple(ratings)}
 
 
 # ----------------------------------------------------------------------------------------------

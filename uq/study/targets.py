@@ -42,14 +42,14 @@ class Target:
     Parameters
     ----------
     kind
-        ``"quantile"`` (``P<q> <= T``) or ``"exceedance"`` (``P(exceed) <= p``) [-].
+        ``"quantile"`` (``P<q> <= T``) or ``"exceedance"`` (``P(exceed) <= p``).
     probability
-        Quantile level in (0, 1) for a quantile target; ``nan`` for an exceedance target [-].
+        Quantile level in (0, 1) for a quantile target; ``nan`` for an exceedance target.
     threshold
         The bound: a temperature [K] for a quantile target (``nan`` when it is the study
-        limit), a probability in (0, 1) [-] for an exceedance target.
+        limit), a probability in (0, 1) for an exceedance target.
     text
-        The target as written, whitespace normalised [-].
+        The target as written, whitespace normalised.
     """
 
     kind: str
@@ -59,7 +59,7 @@ class Target:
 
     @property
     def uses_limit(self) -> bool:
-        """True when the bound is (or refers to) the study's limit [-]."""
+        """True when the bound is (or refers to) the study's limit."""
         return self.kind == "exceedance" or math.isnan(self.threshold)
 
     def bound(self, limit: float) -> float:
@@ -73,7 +73,7 @@ class Target:
         Returns
         -------
         float
-            [K] for a quantile target, [-] for an exceedance target.
+            [K] for a quantile target, a probability for an exceedance target.
         """
         if self.kind == "quantile" and math.isnan(self.threshold):
             return float(limit)
@@ -81,7 +81,7 @@ class Target:
 
     @property
     def label(self) -> str:
-        """Short name of the metric, e.g. ``"P95"`` or ``"P(exceed)"`` [-]."""
+        """Short name of the metric, e.g. ``"P95"`` or ``"P(exceed)"``."""
         if self.kind == "exceedance":
             return "P(exceed)"
         return f"P{100.0 * self.probability:.10g}"
@@ -98,7 +98,7 @@ def parse_target(text: str) -> Target:
     Parameters
     ----------
     text
-        E.g. ``"P95 <= limit"`` or ``"P(exceed) <= 1 %"`` [-].
+        E.g. ``"P95 <= limit"`` or ``"P(exceed) <= 1 %"``.
 
     Returns
     -------
@@ -108,6 +108,21 @@ def parse_target(text: str) -> Target:
     ------
     ValueError
         One line naming the text, what is wrong and the valid forms.
+
+    Examples
+    --------
+    >>> from plyrisk.study.targets import parse_target
+    >>> parse_target("P95 <= limit")
+    Target(kind='quantile', probability=0.95, threshold=nan, text='P95 <= limit')
+    >>> target = parse_target("P99  <=  45 degC")
+    >>> target.label, round(target.threshold, 6), target.text
+    ('P99', 318.15, 'P99 <= 45 degC')
+    >>> parse_target("P(exceed) <= 1 %").threshold
+    0.01
+    >>> parse_target("P95 < limit")
+    Traceback (most recent call last):
+    ...
+    ValueError: bad target 'P95 < limit': expected '<=' between the metric and its bound; ...
     """
     if not isinstance(text, str):
         raise _bad(str(text), f"expected a string, got {type(text).__name__}")

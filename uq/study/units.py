@@ -18,6 +18,7 @@ import re
 import sys
 from dataclasses import dataclass
 from types import ModuleType
+from typing import TYPE_CHECKING
 
 import numpy as np
 from numpy.typing import ArrayLike
@@ -46,9 +47,12 @@ def _import_pint_without_dask() -> ModuleType:
     return pint
 
 
-pint = _import_pint_without_dask()
+if TYPE_CHECKING:  # pragma: no cover - type checkers see the module itself
+    import pint
+else:
+    pint = _import_pint_without_dask()
 
-ureg = pint.UnitRegistry()
+ureg: pint.UnitRegistry = pint.UnitRegistry()
 """The one unit registry of plyrisk."""
 
 _EXPONENT = re.compile(r"(?<=[A-Za-z])(-?\d+)(?![\w.])")
@@ -66,17 +70,17 @@ class QuantitySpec:
     Parameters
     ----------
     what
-        Description used in error messages, e.g. ``"a length"`` [-].
+        Description used in error messages, e.g. ``"a length"``.
     si_unit
-        The SI unit values are converted to, as a pint unit string [-].
+        The SI unit values are converted to, as a pint unit string.
     example
-        An example value with a unit, for error messages [-].
+        An example value with a unit, for error messages.
     lower, upper
         Physical bounds, in ``si_unit``.
     lower_open, upper_open
-        Whether the bound itself is excluded [-].
+        Whether the bound itself is excluded.
     level
-        A temperature level (offset units such as degC apply), not a difference [-].
+        A temperature level (offset units such as degC apply), not a difference.
     """
 
     what: str
@@ -90,16 +94,16 @@ class QuantitySpec:
 
     @property
     def dimensionless(self) -> bool:
-        """True for a quantity that may be given as a bare number [-]."""
+        """True for a quantity that may be given as a bare number."""
         return self.si_unit == ""
 
     @property
     def is_temperature(self) -> bool:
-        """True for a temperature level (offset units apply) [-]."""
+        """True for a temperature level (offset units apply)."""
         return self.level
 
     def bounds_text(self) -> str:
-        """The bounds in words, e.g. ``"positive"`` or ``"in (0, 1]"`` [-]."""
+        """The bounds in words, e.g. ``"positive"`` or ``"in (0, 1]"``."""
         lo, hi = self.lower, self.upper
         if self.is_temperature and lo == 0 and hi == math.inf:
             return "above absolute zero (0 K)"
@@ -112,7 +116,7 @@ class QuantitySpec:
         return f"in {left}{_g(lo)}, {_g(hi)}{right}"
 
     def within(self, value: ArrayLike) -> np.ndarray:
-        """Elementwise: is ``value`` [SI] inside the bounds and finite [-]."""
+        """Elementwise: is ``value`` [SI] inside the bounds and finite."""
         v = np.asarray(value, dtype=float)
         ok = np.isfinite(v)
         ok &= (v > self.lower) if self.lower_open else (v >= self.lower)
@@ -140,16 +144,17 @@ TEMPERATURE_DIFFERENCE = QuantitySpec(
     "a temperature difference", "K", "1e-6 K", lower=0.0
 )
 DIMENSIONLESS = QuantitySpec("a dimensionless number", "", "1.4")
-TIME = QuantitySpec("a time", "s", "8 s", lower=0.0)
-TIME_POINT = QuantitySpec("a time from the start of the exposure", "s", "2 s", lower=0.0,
-                          lower_open=False)
 DENSITY = QuantitySpec("a density", "kg/m^3", "300 kg/m^3", lower=0.0)
 SPECIFIC_HEAT = QuantitySpec("a specific heat capacity", "J/kg/K", "1300 J/kg/K", lower=0.0)
 SPECIFIC_HEAT_SLOPE = QuantitySpec(
-    "a specific-heat slope (specific heat per kelvin)", "J/kg/K^2", "1.5 J/kg/K^2"
+    "a specific-heat slope (specific heat per kelvin)", "J/kg/K^2", "1 J/kg/K^2"
 )
-TRANSMISSIVITY = QuantitySpec("a transmissivity (dimensionless)", "", "0.2", lower=0.0,
-                              upper=1.0)
+TRANSMISSIVITY = QuantitySpec(
+    "a radiant transmissivity (dimensionless)", "", "0.2", lower=0.0, upper=1.0
+)
+TIME = QuantitySpec("a time", "s", "8 s", lower=0.0)
+TIME_POINT = QuantitySpec("a time from the start of the exposure", "s", "2 s", lower=0.0,
+                          lower_open=False)
 PERFUSION_RATE = QuantitySpec(
     "a blood perfusion rate (blood volume per tissue volume per time)", "1/s", "1.25e-3 1/s",
     lower=0.0, lower_open=False,
@@ -208,9 +213,9 @@ class Parsed:
     si
         The value in the spec's SI unit [SI].
     unit
-        The user's unit text (``"mm"``), ``""`` for a bare number [-].
+        The user's unit text (``"mm"``), ``""`` for a bare number.
     text
-        The value as the user wrote it, for messages [-].
+        The value as the user wrote it, for messages.
     """
 
     si: float
@@ -246,11 +251,11 @@ def parse_value(value: object, spec: QuantitySpec, *, difference: bool = False) 
     Parameters
     ----------
     value
-        A string ``"<number> <unit>"``, or a bare ``int``/``float`` for a dimensionless spec [-].
+        A string ``"<number> <unit>"``, or a bare ``int``/``float`` for a dimensionless spec.
     spec
-        What the value must be [-].
+        What the value must be.
     difference
-        Read a temperature as a difference: ``"2 degC"`` is 2 K, not 275.15 K [-].
+        Read a temperature as a difference: ``"2 degC"`` is 2 K, not 275.15 K.
 
     Returns
     -------
@@ -261,6 +266,21 @@ def parse_value(value: object, spec: QuantitySpec, *, difference: bool = False) 
     ------
     UnitError
         For a missing unit, an unknown unit, a wrong dimension or a non-finite number.
+
+    Examples
+    --------
+    >>> from plyrisk.study.units import LENGTH, TEMPERATURE, parse_value
+    >>> parsed = parse_value("0.8 mm", LENGTH)
+    >>> round(parsed.si, 9), parsed.unit
+    (0.0008, 'mm')
+    >>> round(parse_value("34 degC", TEMPERATURE).si, 6)
+    307.15
+    >>> round(parse_value("2 degC", TEMPERATURE, difference=True).si, 6)
+    2.0
+    >>> parse_value("0.8", LENGTH)
+    Traceback (most recent call last):
+    ...
+    plyrisk.study.units.UnitError: a bare number needs a unit: expected a length such as ...
     """
     wanted = f"{spec.what} such as {spec.example!r}"
     if isinstance(value, bool) or not isinstance(value, int | float | str):
@@ -298,11 +318,11 @@ def to_si(
     values
         Magnitudes in ``unit`` [unit].
     unit
-        The user's unit text; ``""`` for dimensionless [-].
+        The user's unit text; ``""`` for dimensionless.
     spec
-        Target quantity [-].
+        Target quantity.
     difference
-        Treat a temperature unit as a difference [-].
+        Treat a temperature unit as a difference.
 
     Returns
     -------
@@ -322,7 +342,7 @@ def to_si(
             f"unit {unit or '(none)'!r} has dimension {_dim(units)}, not {_dim(target)}"
         )
     try:
-        return ureg.Quantity(values, units).to(target).magnitude
+        return ureg.Quantity(_magnitudes(values), units).to(target).magnitude
     except Exception as err:  # e.g. an offset unit inside a product
         raise UnitError(f"cannot convert {unit!r} to {spec.si_unit} ({err})") from None
 
@@ -337,36 +357,41 @@ def from_si(
     values
         Values in ``spec.si_unit`` [SI].
     unit
-        The user's unit text [-].
+        The user's unit text.
     spec
-        The quantity [-].
+        The quantity.
     difference
-        The values are temperature differences: K → degC has no offset [-].
+        The values are temperature differences: K → degC has no offset.
     """
     units = _units(unit, difference=difference)
-    return ureg.Quantity(values, ureg.parse_units(spec.si_unit)).to(units).magnitude
+    return ureg.Quantity(_magnitudes(values), ureg.parse_units(spec.si_unit)).to(units).magnitude
 
 
 def format_value(
     value: float, unit: str, spec: QuantitySpec, *, difference: bool = False, digits: int = 4
 ) -> str:
-    """An SI value shown in the user's unit, e.g. ``"0.5 mm"`` [-].
+    """An SI value shown in the user's unit, e.g. ``"0.5 mm"``.
 
     Parameters
     ----------
     value
         Value in ``spec.si_unit`` [SI].
     unit
-        The user's unit text [-].
+        The user's unit text.
     spec
-        The quantity [-].
+        The quantity.
     difference
-        The value is a temperature difference [-].
+        The value is a temperature difference.
     digits
-        Significant digits [-].
+        Significant digits.
     """
     shown = float(from_si(value, unit, spec, difference=difference))
     return f"{_g(shown, digits)} {unit}".rstrip()
+
+
+def _magnitudes(values: ArrayLike) -> float | np.ndarray:
+    """Numbers stay numbers, anything else becomes a float array (as pint would make it)."""
+    return values if isinstance(values, int | float) else np.asarray(values, dtype=float)
 
 
 def _units(unit: str, *, difference: bool) -> pint.Unit:

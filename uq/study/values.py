@@ -9,7 +9,7 @@ a :class:`Context` (the file name) and the key path of the value it reads.
 from __future__ import annotations
 
 import difflib
-from collections.abc import Iterable
+from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, replace
 from typing import Any
 
@@ -31,25 +31,25 @@ class Context:
     source: str
 
     def error(self, path: str, message: str) -> ConfigError:
-        """A :class:`ConfigError` for the value at ``path`` [-]."""
+        """A :class:`ConfigError` for the value at ``path``."""
         return ConfigError(self.source, path, message)
 
 
 def join(path: str, key: str | int) -> str:
-    """Key path of ``key`` inside ``path``: ``layer`` + 2 → ``layer[2]`` [-]."""
+    """Key path of ``key`` inside ``path``: ``layer`` + 2 → ``layer[2]``."""
     if isinstance(key, int):
         return f"{path}[{key}]"
     return f"{path}.{key}" if path and path != TOP else key
 
 
 def suggest(key: str, valid: Iterable[str]) -> str:
-    """``"did you mean 'x'? "`` for the closest valid name, or ``""`` [-]."""
+    """``"did you mean 'x'? "`` for the closest valid name, or ``""``."""
     close = difflib.get_close_matches(str(key), list(valid), n=1, cutoff=0.6)
     return f"did you mean {close[0]!r}? " if close else ""
 
 
 def show(value: Any) -> str:
-    """A short description of a raw TOML value for messages [-]."""
+    """A short description of a raw TOML value for messages."""
     if isinstance(value, dict):
         return f"a table (keys: {', '.join(map(str, value)) or 'none'})"
     if isinstance(value, list):
@@ -94,17 +94,20 @@ def choice(ctx: Context, raw: Any, path: str, valid: Iterable[str], what: str) -
     return raw
 
 
-def integer(ctx: Context, raw: Any, path: str, *, minimum: int) -> int:
-    """A whole number ``>= minimum`` [-]."""
+def integer(ctx: Context, raw: Any, path: str, *, minimum: int,
+            maximum: int | None = None) -> int:
+    """A whole number ``>= minimum`` (and ``<= maximum`` when given)."""
     if isinstance(raw, bool) or not isinstance(raw, int):
         raise ctx.error(path, f"expected a whole number >= {minimum}, got {show(raw)}")
     if raw < minimum:
         raise ctx.error(path, f"must be at least {minimum}, got {raw}")
+    if maximum is not None and raw > maximum:
+        raise ctx.error(path, f"must be at most {maximum}, got {raw}")
     return raw
 
 
 def number(ctx: Context, raw: Any, path: str, lo: float, hi: float) -> float:
-    """A plain number strictly between ``lo`` and ``hi`` [-]."""
+    """A plain number strictly between ``lo`` and ``hi``."""
     if isinstance(raw, bool) or not isinstance(raw, int | float) or not lo < raw < hi:
         raise ctx.error(
             path, f"expected a number between {lo:g} and {hi:g} (exclusive), got {show(raw)}"
@@ -113,14 +116,14 @@ def number(ctx: Context, raw: Any, path: str, lo: float, hi: float) -> float:
 
 
 def string(ctx: Context, raw: Any, path: str) -> str:
-    """A non-empty string [-]."""
+    """A non-empty string."""
     if not isinstance(raw, str) or not raw.strip():
         raise ctx.error(path, f"expected a non-empty string, got {show(raw)}")
     return raw
 
 
 def boolean(ctx: Context, raw: Any, path: str) -> bool:
-    """``true`` or ``false`` [-]."""
+    """``true`` or ``false``."""
     if not isinstance(raw, bool):
         raise ctx.error(path, f"expected true or false, got {show(raw)}")
     return raw
@@ -181,9 +184,9 @@ class Quantity:
     nominal
         The fixed value, or the distribution's nominal [SI].
     distribution
-        ``None`` for a fixed value [-].
+        ``None`` for a fixed value.
     unit
-        The user's unit text, ``""`` for dimensionless [-].
+        The user's unit text, ``""`` for dimensionless.
     """
 
     nominal: float
@@ -196,6 +199,9 @@ def quantity(ctx: Context, raw: Any, path: str, spec: QuantitySpec) -> Quantity:
     if not isinstance(raw, dict):
         p = fixed(ctx, raw, path, spec)
         return Quantity(p.si, None, p.unit)
+    raw = dict(raw)
+    accept_cut = boolean(ctx, raw.pop("truncated"), join(path, "truncated")) \
+        if "truncated" in raw else False
     if "nominal" in raw:
         kind, params, ppath = "tolerance", raw, path
     else:
@@ -227,11 +233,25 @@ def quantity(ctx: Context, raw: Any, path: str, spec: QuantitySpec) -> Quantity:
     except ValueError as err:
         raise ctx.error(ppath, f"{err} (SI units)") from None
     unit = next((p.unit for k, p in parsed.items() if ROLES[k] in ("value", "end")), "")
+    if dist.truncated_mass > TRUNCATION_ERROR and not accept_cut:
+        raise ctx.error(
+            path, f"the physical bounds cut {100 * dist.truncated_mass:.3g} % of this "
+            f"distribution's mass (more than {100 * TRUNCATION_ERROR:g} %), so the values "
+            "sampled differ much from the distribution written; narrow it, or add "
+            "truncated = true to its table to accept the cut")
     return Quantity(float(dist.nominal), dist, unit)
 
 
+TRUNCATION_WARNING = 0.01
+"""Share of a distribution's mass cut by the physical bounds above which ``run`` and ``check``
+warn."""
+
+TRUNCATION_ERROR = 0.20
+"""Share above which the config is refused unless its table says ``truncated = true``."""
+
+
 def forms_text(kind: str) -> str:
-    """The accepted parameter sets of a kind, e.g. ``"{median, gsd} or {mean, cv}"`` [-]."""
+    """The accepted parameter sets of a kind, e.g. ``"{median, gsd} or {mean, cv}"``."""
     if kind in LIST_FORMS:
         return "[" + ", ".join(FORMS[kind][0][0]) + "]"
     parts = []
@@ -303,3 +323,25 @@ def _relations(
                     f"the tolerance band {band} leaves the physical range ({spec.what} must be "
                     f"{spec.bounds_text()}): tolerance larger than the nominal allows",
                 )
+
+
+def truncation_warnings(parameters: Sequence[Any]) -> list[str]:
+    """One warning per uncertain parameter whose distribution loses more than
+    :data:`TRUNCATION_WARNING` of its mass to the physical bounds.
+
+    Parameters
+    ----------
+    parameters
+        The study's :class:`plyrisk.study.definition.Parameter` objects.
+    """
+    out = []
+    for p in parameters:
+        d = p.distribution
+        if d is None or d.truncated_mass <= TRUNCATION_WARNING:
+            continue
+        accepted = d.truncated_mass > TRUNCATION_ERROR  # only when the config accepted it
+        out.append(
+            f"WARNING: {p.name}: {p.truncation()}; the values sampled follow the cut "
+            f"distribution (mean {p.format(d.mean)}, not the {p.format(d.nominal)} written)"
+            + (" — accepted with truncated = true" if accepted else ""))
+    return out

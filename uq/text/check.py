@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import warnings
 from dataclasses import replace
+from typing import Any
 
 import numpy as np
 
@@ -18,6 +19,7 @@ from plyrisk.models.network import NetworkSolution, solve_network
 from plyrisk.models.stack import StackError
 from plyrisk.study.config import require_runnable, stack_key_path
 from plyrisk.study.definition import Study
+from plyrisk.study.values import truncation_warnings
 from plyrisk.text.tables import text_table
 
 
@@ -27,12 +29,12 @@ def check_text(study: Study) -> tuple[str, bool]:
     Parameters
     ----------
     study
-        The parsed study [-].
+        The parsed study.
 
     Returns
     -------
     text, converged
-        The text to print, and whether the nominal solve (and every scenario) converged [-].
+        The text to print, and whether the nominal solve (and every scenario) converged.
 
     Raises
     ------
@@ -116,7 +118,8 @@ def _parameter_lines(study: Study) -> list[str]:
         rows.append([p.name, p.describe(), p.format(d.mean),
                      f"{lo_u:.4g} .. {hi_u:.4g} {p.unit}".rstrip(), p.truncation()])
     header = ["parameter", "distribution", "mean", "5-95 % range", "truncation"]
-    return [f"Uncertain parameters ({len(rows)})"] + text_table(header, rows)
+    return ([f"Uncertain parameters ({len(rows)})"] + text_table(header, rows)
+            + [f"  {w}" for w in truncation_warnings(study.parameters)])
 
 
 def _solution_lines(study: Study, sol: NetworkSolution) -> list[str]:
@@ -178,7 +181,9 @@ def _margin_text(study: Study, t_inner: float) -> str:
 
 def _scenario_lines(study: Study, notes: list[str]) -> tuple[list[str], bool]:
     sc = study.scenarios
-    hot = replace(study.hot_side, **{sc.quantity: np.asarray(sc.values, dtype=float)})
+    assert sc is not None, "called for a study with [scenarios]"
+    swept: dict[str, Any] = {sc.quantity: np.asarray(sc.values, dtype=float)}
+    hot = replace(study.hot_side, **swept)
     sol = _solve(study, study.layers, hot, study.cold_side, notes)
     rows = []
     for k, label in enumerate(sc.labels):

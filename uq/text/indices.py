@@ -4,18 +4,32 @@ index with its convergence status, and of the surrogate's percentiles."""
 from __future__ import annotations
 
 from collections.abc import Callable
+from typing import TYPE_CHECKING
 
 import numpy as np
 
-from plyrisk.analysis.sobol import RankedIndex
+from plyrisk.analysis.sobol import RankedIndex, not_resolved
+
+NOT_RESOLVED = "not resolved: more samples"
+"""Status of an index estimate outside [0, 1] by more than its interval."""
+
+if TYPE_CHECKING:  # pragma: no cover - for type checkers only
+    from plyrisk.study.definition import Study
 
 
-def _flag(value: float, converged: bool) -> str:
-    return "ok" if converged else ("n/a" if not np.isfinite(value) else "WIDE")
+def _flag(value: float, half: float, converged: bool) -> str:
+    if not_resolved(value, half):
+        return NOT_RESOLVED
+    return "ok" if converged else ("n/a" if not np.isfinite(half) else "WIDE")
 
 
 def _index(label: str, value: float, half: float, converged: bool) -> str:
-    return f"{label}{value:6.3f} ± {half:.3f} {_flag(half, converged):<4}"
+    return f"{label}{value:6.3f} ± {half:.3f} {_flag(value, half, converged):<4}"
+
+
+def unresolved(item: RankedIndex) -> bool:
+    """Whether the total or first-order estimate of a ranked index is not resolved."""
+    return not_resolved(item.total, item.total_ci) or not_resolved(item.first, item.first_ci)
 
 
 def _terms(surrogate) -> str:
@@ -27,16 +41,16 @@ def _terms(surrogate) -> str:
 
 
 def ranked_line(rank: int, item: RankedIndex, *, first: bool = True) -> str:
-    """One ranked parameter or layer: total (and first-order) index, half-width, status [-].
+    """One ranked parameter or layer: total (and first-order) index, half-width, status.
 
     Parameters
     ----------
     rank
-        Position, 1 = most influential [-].
+        Position, 1 = most influential.
     item
-        The ranked index [-].
+        The ranked index.
     first
-        Show the first-order index too [-].
+        Show the first-order index too.
     """
     text = f"  {rank}. {item.name:<32} " + _index("", item.total, item.total_ci,
                                                     item.total_converged)
@@ -47,19 +61,19 @@ def ranked_line(rank: int, item: RankedIndex, *, first: bool = True) -> str:
     return text
 
 
-def index_lines(study, sc, *, top: int, temperature: Callable[[float], str]) -> list[str]:
-    """Lines of the ranking of the inner-surface temperature of one exposure [-].
+def index_lines(study: Study, sc, *, top: int, temperature: Callable[[float], str]) -> list[str]:
+    """Lines of the ranking of the inner-surface temperature of one exposure.
 
     Parameters
     ----------
     study
-        The study [-].
+        The study.
     sc
-        Its :class:`plyrisk.analysis.study.ScenarioAnalysis` [-].
+        Its :class:`plyrisk.analysis.study.ScenarioAnalysis`.
     top
-        Parameters and layers listed [-].
+        Parameters and layers listed.
     temperature
-        Formats a temperature [K] in the display unit [-].
+        Formats a temperature [K] in the display unit.
     """
     a = study.analysis
     ranking = sc.ranking.get("inner_surface_temperature")
@@ -86,15 +100,20 @@ def index_lines(study, sc, *, top: int, temperature: Callable[[float], str]) -> 
         lines.append("layers (grouped total index ± CI half-width):")
         lines += [ranked_line(r, item, first=False)
                   for r, item in enumerate(groups[:top], start=1)]
+    bad = [i.name for i in (*ranking, *groups) if unresolved(i)]
+    if bad:
+        lines.append(
+            f"  WARNING: {len(bad)} index estimate(s) outside [0, 1] by more than their "
+            f"interval ({', '.join(bad[:3])}{', ...' if len(bad) > 3 else ''}): {NOT_RESOLVED} "
+            "— a Sobol index is a share of the variance, so these are no estimates yet; rerun "
+            "with more samples (or --until-converged) before reading the ranking")
     unconv = [i for i in (*ranking, *groups) if not i.converged]
     if unconv:
         if sc.surrogate is None:
             need = max(i.suggested_base_samples or 0 for i in unconv)
             lines.append(
                 f"  {len(unconv)} index interval(s) wider than {thr}: rerun with --samples "
-                f"{need} or more, or with --until-converged, to settle the ranking (on "
-                "scrambled Sobol' designs the bootstrap intervals can be wider than the "
-                "actual error)")
+                f"{need} or more, or with --until-converged, to settle the ranking")
         else:
             lines.append(f"  {len(unconv)} index interval(s) wider than {thr}: rerun with more "
                          "samples to settle the ranking")

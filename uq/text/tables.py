@@ -11,9 +11,9 @@ def text_table(header: Sequence[str], rows: Sequence[Sequence[str]]) -> list[str
     Parameters
     ----------
     header
-        Column headings [-].
+        Column headings.
     rows
-        One sequence of cells per row, as many as the headings [-].
+        One sequence of cells per row, as many as the headings.
 
     Returns
     -------

@@ -24,7 +24,7 @@ from plyrisk.tolerances.core import (
 from plyrisk.tolerances.whatif import WhatIfStudy, run_what_if
 
 VERIFICATION_SCALE = 4
-"""The verification design is this many times larger than the search design [-]."""
+"""The verification design is this many times larger than the search design."""
 
 __all__ = ["Allocation", "Verification", "allocate", "verification_seed", "verify"]
 
@@ -41,19 +41,19 @@ class Verification:
     Attributes
     ----------
     seed, samples
-        The new design [-].
+        The new design.
     outcome
         Its statistics.
     value, lower, upper
         The target metric's point estimate and confidence interval at the worst exposure
         [K or -].
     met_estimate, met_bound
-        Whether the point estimate / the upper confidence bound meets the bound [-].
+        Whether the point estimate / the upper confidence bound meets the bound.
     met
         The verdict, by the same rule as the search: with ``basis = "bound"`` (the default) the
         new run's upper confidence bound meets the bound (``met_bound``); with
         ``basis = "estimate"`` its point estimate does (``met_estimate``). The new design is
-        ``VERIFICATION_SCALE`` times larger than the search's [-].
+        ``VERIFICATION_SCALE`` times larger than the search's.
     """
 
     seed: int
@@ -74,29 +74,29 @@ class Allocation:
     Attributes
     ----------
     names
-        Parameters [-].
+        Parameters.
     factors
-        Recommended spread factors [-].
+        Recommended spread factors.
     weights
-        Cost weights w_i [-]; the cost is sum(w_i / factor_i).
+        Cost weights w_i; the cost is sum(w_i / factor_i).
     contributions
         Calibrated output-variance contributions at the current spread, V_i [K^2].
     caps
         Upper limits of the factors: 1 unless loosening is allowed, else ``max_factor`` or
-        the physical-bounds limit; 1 for the parameters kept [-].
+        the physical-bounds limit; 1 for the parameters kept.
     kept
-        The parameters the allocation left at their current spread by request [-].
+        The parameters the allocation left at their current spread by request.
     multiplier
-        The common multiplier s of the Lagrange ratios (factor_i = min(cap_i, s r_i)) [-].
+        The common multiplier s of the Lagrange ratios (factor_i = min(cap_i, s r_i)).
     status
         ``"met"``, ``"caps"`` (met with every factor at its cap) or ``"infeasible"`` (not met
-        even with every influential parameter at its nominal) [-].
+        even with every influential parameter at its nominal).
     score
         The metric on the calibration design [K or -].
     cost, current_cost
-        sum(w_i / f_i) of the allocation (inf when a factor is 0) and of the current spec [-].
+        sum(w_i / f_i) of the allocation (inf when a factor is 0) and of the current spec.
     monotone
-        False when the metric was not monotone in the multiplier on the search grid [-].
+        False when the metric was not monotone in the multiplier on the search grid.
     verification
         The independent re-run (new seed).
     """
@@ -117,7 +117,7 @@ class Allocation:
 
 
 def verification_seed(seed: int) -> int:
-    """The seed of the independent verification run [-].
+    """The seed of the independent verification run.
 
     The first 32-bit word of ``numpy.random.SeedSequence(seed, spawn_key=(1,))``: a child of
     the design's seed sequence, independent of the design itself.
@@ -140,11 +140,11 @@ def allocate(problem: ToleranceProblem, settings: ToleranceSettings, *,
     Parameters
     ----------
     problem
-        The problem [-].
+        The problem.
     settings
-        Target, design, cost weights, ``max_factor``, ``allow_loosening`` and basis [-].
+        Target, design, cost weights, ``max_factor``, ``allow_loosening`` and basis.
     whatif
-        What-if runs on the same design, to reuse; computed when ``None`` [-].
+        What-if runs on the same design, to reuse; computed when ``None``.
 
     Returns
     -------
@@ -201,35 +201,35 @@ def run_allocation(run: Runner, whatif: WhatIfStudy | None) -> Allocation:
                       float(np.sum(weights)), monotone, ver)
 
 
-def verify(problem: ToleranceProblem, settings: ToleranceSettings, factors: Sequence[float], *,
-           seed: int) -> Verification:
+def verify(problem: ToleranceProblem, settings: ToleranceSettings,
+           factors: Sequence[float] | np.ndarray, *, seed: int) -> Verification:
     """Re-run the model with given spread factors on an independent design.
 
     Parameters
     ----------
     problem
-        The problem [-].
+        The problem.
     settings
-        Target, design size, method and basis [-].
+        Target, design size, method and basis.
     factors
-        Spread factor per parameter [-].
+        Spread factor per parameter.
     seed
-        Seed of the new design (e.g. :func:`verification_seed`) [-].
+        Seed of the new design (e.g. :func:`verification_seed`).
 
     Returns
     -------
     Verification
     """
-    factors = np.asarray(factors, dtype=float)
-    if factors.shape != (len(problem.names),):
+    f = np.asarray(factors, dtype=float)
+    if f.shape != (len(problem.names),):
         raise ValueError(f"need one factor per parameter ({len(problem.names)}), got shape "
-                         f"{factors.shape}")
+                         f"{f.shape}")
     # A design VERIFICATION_SCALE times larger than the search's, so that the new run's own
     # confidence interval is narrower than the one the allocation was sized on.
     settings = replace(settings, samples=VERIFICATION_SCALE * settings.samples)
     run = Runner(problem, settings, seed=seed)
-    out = run.outcome({j: d.with_spread(float(factors[j]))
-                       for j, d in enumerate(problem.distributions) if factors[j] != 1.0})
+    out = run.outcome({j: d.with_spread(float(f[j]))
+                       for j, d in enumerate(problem.distributions) if f[j] != 1.0})
     s = out.scenario
     if run.target.kind == "quantile":
         value, lower, upper = out.quantile[s], out.quantile_lower[s], out.quantile_upper[s]

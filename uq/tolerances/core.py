@@ -24,9 +24,9 @@ __all__ = ["BASES", "DEFAULT_TARGET", "METHODS", "Outcome", "Runner", "Tolerance
            "worst"]
 
 REPORT_PROBABILITY = 0.95
-"""Quantile level reported by the what-if runs when the target is an exceedance bound [-]."""
+"""Quantile level reported by the what-if runs when the target is an exceedance bound."""
 _GRID_BELOW_ONE = (0.0, 0.25, 0.5, 0.75, 1.0)
-XTOL = 1e-5          # bisection stops at this fraction of the searched range [-]
+XTOL = 1e-5          # bisection stops at this fraction of the searched range
 
 
 @dataclass(frozen=True)
@@ -36,7 +36,7 @@ class ToleranceProblem:
     Parameters
     ----------
     names
-        Parameter names, one per input column [-].
+        Parameter names, one per input column.
     distributions
         Input distributions, one per column [SI].
     evaluate
@@ -45,7 +45,7 @@ class ToleranceProblem:
     limit
         Limit of the output; "exceed" means strictly above it [K].
     scenario_labels
-        Names of the exposures, one per output row; empty for one exposure [-].
+        Names of the exposures, one per output row; empty for one exposure.
     """
 
     names: tuple[str, ...]
@@ -66,7 +66,7 @@ class ToleranceProblem:
             raise ValueError(f"limit must be finite, got {self.limit}")
 
     def index(self, name: str) -> int:
-        """Column of the parameter ``name`` [-]; ValueError naming the valid names."""
+        """Column of the parameter ``name``; ValueError naming the valid names."""
         if name not in self.names:
             raise ValueError(f"unknown parameter {name!r}; valid: {', '.join(self.names)}")
         return self.names.index(name)
@@ -84,17 +84,17 @@ class Outcome:
     Attributes
     ----------
     probability
-        Quantile level reported in ``quantile`` [-]: the target's level, or 0.95.
+        Quantile level reported in ``quantile``: the target's level, or 0.95.
     quantile, quantile_lower, quantile_upper
         That quantile and its confidence interval [K] (NaN bounds when n is too small).
     exceedance, exceedance_lower, exceedance_upper
-        P(output > limit) and its Wilson interval [-].
+        P(output > limit) and its Wilson interval.
     variance
         Sample variance of the output [K^2].
     scores
         The target metric on the settings' basis [K or -].
     nonconverged
-        Non-finite outputs left out [-].
+        Non-finite outputs left out.
     bound
         The target's bound [K or -].
     """
@@ -113,7 +113,7 @@ class Outcome:
 
     @property
     def scenario(self) -> int:
-        """The worst exposure: where the metric is largest (or not available) [-]."""
+        """The worst exposure: where the metric is largest (or not available)."""
         return int(np.argmax(np.where(np.isnan(self.scores), np.inf, self.scores)))
 
     @property
@@ -128,12 +128,12 @@ class Outcome:
 
     @property
     def worst_exceedance(self) -> float:
-        """The exceedance probability at the worst exposure for it [-]."""
+        """The exceedance probability at the worst exposure for it."""
         return worst(self.exceedance)
 
     @property
     def met(self) -> bool:
-        """Whether the target holds at every exposure on the settings' basis [-]."""
+        """Whether the target holds at every exposure on the settings' basis."""
         return bool(self.score <= self.bound)
 
 
@@ -148,22 +148,22 @@ class Runner:
     Parameters
     ----------
     problem
-        The problem [-].
+        The problem.
     settings
-        Target, design (samples, method), basis and confidence [-].
+        Target, design (samples, method), basis and confidence.
     seed
-        Seed of the design; default ``settings.seed`` [-].
+        Seed of the design; default ``settings.seed``.
 
     Attributes
     ----------
     unit
-        The design, shape ``(samples, d)`` [-].
+        The design, shape ``(samples, d)``.
     base
         The inputs at the current specification [SI].
     bound
         The target's numeric bound [K or -].
     runs
-        Model evaluations so far [-].
+        Model evaluations so far.
     """
 
     def __init__(self, problem: ToleranceProblem, settings: ToleranceSettings,
@@ -288,7 +288,7 @@ def largest_meeting(met: Callable[[float], bool], grid: Sequence[float],
 
 
 def factor_cap(dist: Distribution, max_factor: float) -> tuple[float, bool]:
-    """Largest valid spread factor <= ``max_factor`` and whether the bounds set it [-]."""
+    """Largest valid spread factor <= ``max_factor`` and whether the bounds set it."""
     def valid(f: float) -> bool:
         try:
             dist.with_spread(f)
@@ -303,5 +303,5 @@ def factor_cap(dist: Distribution, max_factor: float) -> tuple[float, bool]:
 
 def factor_grid(cap: float) -> list[float]:
     """Spread factors scanned before bisection: 0 to 1 by quarters, then doubling to ``cap``."""
-    above = np.geomspace(1.0, cap, max(2, math.ceil(math.log2(cap)) + 1)) if cap > 1.0 else []
+    above = np.geomspace(1.0, cap, max(2, math.ceil(math.log2(cap)) + 1)) if cap > 1.0 else ()
     return sorted(set(_GRID_BELOW_ONE) | {float(v) for v in above} | {cap})

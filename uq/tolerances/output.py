@@ -17,6 +17,7 @@ from pathlib import Path
 
 from plyrisk.cautions import cautions_text
 from plyrisk.study.definition import Parameter, Study
+from plyrisk.study.targets import Target
 from plyrisk.study.units import TEMPERATURE, from_si
 from plyrisk.text.tables import text_table
 from plyrisk.tolerances.study import Outcome, ToleranceReport
@@ -31,27 +32,27 @@ class ManufacturingRow:
     Attributes
     ----------
     parameter, layer
-        Parameter name and its group (layer, ``hot_side`` or ``cold_side``) [-].
+        Parameter name and its group (layer, ``hot_side`` or ``cold_side``).
     current_spec
-        The current distribution in the user's unit [-].
+        The current distribution in the user's unit.
     variance_share
         Share of the output variance: Var(Y - Y_0) / Var(Y) over the CRN pairs with the
         parameter held at its nominal (:attr:`plyrisk.tolerances.whatif.WhatIf.variance_share`),
-        or the Sobol total index when given [-].
+        or the Sobol total index when given.
     share_source
-        ``"held at nominal (CRN)"`` or ``"Sobol total index"`` [-].
+        ``"held at nominal (CRN)"`` or ``"Sobol total index"``.
     quantile_label
-        The quantile reported, e.g. ``"P95"`` [-].
+        The quantile reported, e.g. ``"P95"``.
     quantile_if_halved
         That quantile with this parameter's spread halved, worst exposure [temperature_unit].
     temperature_unit
-        Unit of the temperatures [-].
+        Unit of the temperatures.
     recommended_spec
-        The distribution recommended by the allocation, in the user's unit [-].
+        The distribution recommended by the allocation, in the user's unit.
     recommended_factor
-        Recommended spread / current spread [-]; NaN when the target is not reachable.
+        Recommended spread / current spread; NaN when the target is not reachable.
     target
-        The target the recommendation serves [-].
+        The target the recommendation serves.
     """
 
     parameter: str
@@ -67,9 +68,15 @@ class ManufacturingRow:
     target: str
 
 
-def target_text(report: ToleranceReport, study: Study) -> str:
-    """The target with its bound in the user's unit, e.g. ``"P95 <= limit (44 degC)"`` [-]."""
+def _target(report: ToleranceReport) -> Target:
     t = report.settings.target
+    assert isinstance(t, Target), "a report's settings hold the parsed target"
+    return t
+
+
+def target_text(report: ToleranceReport, study: Study) -> str:
+    """The target with its bound in the user's unit, e.g. ``"P95 <= limit (44 degC)"``."""
+    t = _target(report)
     text = t.text
     if t.kind == "quantile" and t.uses_limit:
         text += f" ({study.format_temperature(report.bound)})"
@@ -97,11 +104,11 @@ def manufacturing_table(report: ToleranceReport, study: Study, *,
     Parameters
     ----------
     report
-        The tolerance results of ``study`` [-].
+        The tolerance results of ``study``.
     study
-        The study [-].
+        The study.
     indices
-        Sobol total index per parameter name to use as the variance share [-].
+        Sobol total index per parameter name to use as the variance share.
 
     Returns
     -------
@@ -132,9 +139,9 @@ def write_tolerance_csv(rows: Sequence[ManufacturingRow], path: str | Path) -> P
     Parameters
     ----------
     rows
-        The table [-].
+        The table.
     path
-        The file to write; its folder is created [-].
+        The file to write; its folder is created.
 
     Returns
     -------
@@ -171,7 +178,7 @@ def _metric(report: ToleranceReport, study: Study, value: float, *,
             difference: bool = False) -> str:
     if not math.isfinite(value):
         return "n/a"
-    if report.settings.target.kind == "exceedance":
+    if _target(report).kind == "exceedance":
         return (f"{100 * value:+.3g} %" if difference else _pct(value))
     if difference:
         sign = "-" if value < 0 else "+"
@@ -201,11 +208,11 @@ def tolerance_text(report: ToleranceReport, study: Study, *,
     Parameters
     ----------
     report
-        The tolerance results of ``study`` [-].
+        The tolerance results of ``study``.
     study
-        The study [-].
+        The study.
     csv_path
-        The CSV file written, to mention [-].
+        The CSV file written, to mention.
 
     Returns
     -------
@@ -303,7 +310,7 @@ def _allocation_lines(report: ToleranceReport, study: Study) -> list[str]:
         out.append(f"  kept at the current spread (not a manufacturing tolerance): "
                    f"{', '.join(a.kept)}")
     v = a.verification
-    t = st.target
+    t = _target(report)
     if v.met:
         verdict = "MET"
     elif v.met_estimate:
@@ -321,6 +328,7 @@ def _allocation_lines(report: ToleranceReport, study: Study) -> list[str]:
 
 def _shift_lines(report: ToleranceReport, study: Study) -> list[str]:
     s = report.nominal_shift
+    assert s is not None, "called for a report with a nominal shift"
     p = next(q for q in study.parameters if q.name == s.name)
     rng = f"[{p.format(s.low)}, {p.format(s.high)}]"
     if s.status == "not reachable":

@@ -16,7 +16,7 @@ from plyrisk.tolerances.core import XTOL, Runner, ToleranceProblem, ToleranceSet
 __all__ = ["NominalShift", "shift_distribution", "shift_nominal"]
 
 NOMINAL_GRID = 17
-"""Grid points of the nominal scan before bisection [-]."""
+"""Grid points of the nominal scan before bisection."""
 
 
 # ----------------------------------------------------------------------------------------------
@@ -74,10 +74,10 @@ class NominalShift:
     Attributes
     ----------
     name
-        The parameter [-].
+        The parameter.
     status
         ``"met"`` (the current nominal meets the target), ``"shift"`` (move it to
-        ``required``) or ``"not reachable"`` (no nominal in [low, high] meets it) [-].
+        ``required``) or ``"not reachable"`` (no nominal in [low, high] meets it).
     current
         The current nominal [SI].
     required
@@ -89,7 +89,7 @@ class NominalShift:
     low, high
         The range searched, narrowed where the physical bounds forbid a distribution [SI].
     monotone
-        False when the nominals meeting the target form more than one interval [-].
+        False when the nominals meeting the target form more than one interval.
     """
 
     name: str
@@ -110,11 +110,11 @@ def shift_nominal(problem: ToleranceProblem, settings: ToleranceSettings,
     Parameters
     ----------
     problem
-        The problem [-].
+        The problem.
     settings
-        Target, design, basis and ``nominal_range`` [-].
+        Target, design, basis and ``nominal_range``.
     name
-        The parameter; default ``settings.nominal_shift`` [-].
+        The parameter; default ``settings.nominal_shift``.
 
     Returns
     -------

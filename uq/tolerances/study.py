@@ -13,7 +13,7 @@ Conventions
   specification,
   f = 0.5 halves the tolerance, f = 0 holds the parameter at its nominal value.
 * The *metric* is the target's statistic of the inner-surface temperature (a quantile [K] or
-  the exceedance probability of the limit [-]) at the worst exposure: with a scenario sweep the
+  the exceedance probability of the limit) at the worst exposure: with a scenario sweep the
   target must hold at every exposure, so the maximum over exposures is compared with the bound.
 * The *basis* decides which number of the metric is compared: ``"bound"`` (default) the upper
   end of its two-sided ``confidence`` interval (order statistics for a quantile, Wilson for the
@@ -40,7 +40,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from plyrisk.study.targets import parse_target
+from plyrisk.study.targets import Target, parse_target
 from plyrisk.tolerances.allocation import (
     Allocation,
     Verification,
@@ -99,7 +99,7 @@ class ToleranceReport:
     whatif, allowable, allocation, nominal_shift
         The answers (``nominal_shift`` is ``None`` unless configured).
     runs
-        Model runs on the design, plus one for the verification [-].
+        Model runs on the design, plus one for the verification.
     """
 
     settings: ToleranceSettings
@@ -118,11 +118,11 @@ def analyse_tolerances(problem: ToleranceProblem, settings: ToleranceSettings, *
     Parameters
     ----------
     problem
-        The problem [-].
+        The problem.
     settings
-        The settings; ``seed`` must be set [-].
+        The settings; ``seed`` must be set.
     progress
-        Called with the name of each stage as it starts [-].
+        Called with the name of each stage as it starts.
 
     Returns
     -------
@@ -151,7 +151,7 @@ def problem_from_study(study: Study) -> ToleranceProblem:
     Parameters
     ----------
     study
-        The parsed study [-].
+        The parsed study.
 
     Returns
     -------
@@ -176,13 +176,13 @@ def settings_for_study(study: Study, *, target: str | None = None, samples: int 
     Parameters
     ----------
     study
-        The parsed study; its ``tolerances`` attribute may be ``None`` [-].
+        The parsed study; its ``tolerances`` attribute may be ``None``.
     target
-        Target text overriding the config [-].
+        Target text overriding the config.
     samples
-        Design size overriding the config [-].
+        Design size overriding the config.
     seed
-        Seed overriding the config (default: the ``[tolerances]`` seed, else the study's) [-].
+        Seed overriding the config (default: the ``[tolerances]`` seed, else the study's).
 
     Returns
     -------
@@ -220,9 +220,10 @@ def check_sample_size(settings: ToleranceSettings) -> None:
     Parameters
     ----------
     settings
-        Resolved settings [-].
+        Resolved settings.
     """
     t = settings.target
+    assert isinstance(t, Target), "resolved settings hold the parsed target"
     if settings.basis != "bound" or t.kind != "quantile":
         return
     alpha = 1.0 - settings.level
@@ -242,11 +243,11 @@ def run_tolerances(study: Study, *, target: str | None = None, samples: int | No
     Parameters
     ----------
     study
-        The parsed study [-].
+        The parsed study.
     target, samples, seed
-        Overrides of the ``[tolerances]`` settings [-].
+        Overrides of the ``[tolerances]`` settings.
     progress
-        Called with the name of each stage [-].
+        Called with the name of each stage.
 
     Returns
     -------

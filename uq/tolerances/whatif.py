@@ -38,7 +38,7 @@ class WhatIf:
     Attributes
     ----------
     name
-        The parameter [-].
+        The parameter.
     halved, nominal
         The run with the spread halved (factor 0.5) and held at the nominal (factor 0).
     contribution
@@ -47,7 +47,7 @@ class WhatIf:
         f = 1 (baseline) and f = 0.5, Y_0 being the run held at the nominal. Exact for an
         additive model; with interactions it includes them (like a total-effect index).
     variance_share
-        ``contribution`` / Var(Y) at the reference exposure [-] (a first-order estimate; the
+        ``contribution`` / Var(Y) at the reference exposure (a first-order estimate; the
         shares add to about 1 for a nearly additive model).
     variance_drop
         Var(Y) - Var(Y_0): the drop in output variance when the parameter is held at its
@@ -74,9 +74,9 @@ class WhatIfStudy:
     rows
         One :class:`WhatIf` per parameter, in problem order.
     reference_scenario
-        The exposure the variance shares refer to: the worst at baseline [-].
+        The exposure the variance shares refer to: the worst at baseline.
     seed, samples
-        The design [-].
+        The design.
     """
 
     baseline: Outcome
@@ -92,9 +92,9 @@ def what_if(problem: ToleranceProblem, settings: ToleranceSettings) -> WhatIfStu
     Parameters
     ----------
     problem
-        The problem [-].
+        The problem.
     settings
-        Design, target and confidence [-].
+        Design, target and confidence.
 
     Returns
     -------
@@ -142,21 +142,21 @@ class AllowableSpread:
     Attributes
     ----------
     name
-        The parameter [-].
+        The parameter.
     status
         ``"limited"`` (met up to ``factor``), ``"any"`` (met at every factor up to ``cap``) or
-        ``"none"`` (not met even with the parameter held at its nominal) [-].
+        ``"none"`` (not met even with the parameter held at its nominal).
     factor
-        Largest spread factor meeting the target [-]; ``cap`` for ``"any"``, NaN for ``"none"``.
+        Largest spread factor meeting the target; ``cap`` for ``"any"``, NaN for ``"none"``.
     cap
         Largest factor tried: ``max_factor``, or less where the physical bounds forbid a
-        wider distribution [-].
+        wider distribution.
     bounded
-        True when the physical bounds set ``cap`` [-].
+        True when the physical bounds set ``cap``.
     spread
         The parameter's spread at ``factor`` [SI; ln(gsd) for lognormal].
     monotone
-        False when the met region is not one interval from zero (see module notes) [-].
+        False when the met region is not one interval from zero (see module notes).
     """
 
     name: str
@@ -175,9 +175,9 @@ def allowable_spreads(problem: ToleranceProblem,
     Parameters
     ----------
     problem
-        The problem [-].
+        The problem.
     settings
-        Target, design, ``max_factor`` and basis [-].
+        Target, design, ``max_factor`` and basis.
 
     Returns
     -------

@@ -15,10 +15,12 @@ from __future__ import annotations
 
 from collections.abc import Iterator
 from contextlib import contextmanager
+from typing import Any
 
 import matplotlib as mpl
 import numpy as np
 import xarray as xr
+from matplotlib.rcsetup import cycler
 
 from plyrisk.study.units import QUANTITIES, TEMPERATURE, from_si
 
@@ -57,7 +59,7 @@ SOLID_FILL = "#ece8e1"
 GAP_FILL = "#f7f9fc"
 PRIMARY = "inner_surface_temperature"
 
-STYLE = {
+STYLE: dict[Any, Any] = {  # rcParams (matplotlib types their names as literals)
     "font.family": "DejaVu Sans",
     "font.size": 9.0,
     "axes.titlesize": 10.0,
@@ -84,7 +86,7 @@ STYLE = {
     "hatch.linewidth": 0.6,
     "svg.fonttype": "path",
     "svg.hashsalt": "plyrisk",
-    "axes.prop_cycle": mpl.cycler(color=[BLUE, ORANGE, GREY]),
+    "axes.prop_cycle": cycler(color=[BLUE, ORANGE, GREY]),
 }
 """The plyrisk look: rcParams applied while a figure is built (and saved, by
 :mod:`plyrisk.report.html`)."""
@@ -104,7 +106,7 @@ def styled() -> Iterator[None]:
 
 def pretty_unit(unit: str) -> str:
     """A unit string for display: ``"degC"`` → ``"°C"``, ``"kW/m^2"`` → ``"kW/m²"``, ``""`` →
-    ``"-"`` [-]."""
+    ``"-"``."""
     if not unit:
         return "-"
     out = unit.replace("delta_degC", "°C").replace("delta_degF", "°F")
@@ -115,7 +117,7 @@ def pretty_unit(unit: str) -> str:
 
 
 def temperature_unit(ds: xr.Dataset) -> str:
-    """The unit temperatures are shown in: the limit's unit, ``"K"`` if none was stored [-]."""
+    """The unit temperatures are shown in: the limit's unit, ``"K"`` if none was stored."""
     return str(ds.attrs.get("limit_display_unit") or "K")
 
 
@@ -125,29 +127,29 @@ def to_display_temperature(ds: xr.Dataset, kelvin) -> np.ndarray:
 
 
 def temperature_label(ds: xr.Dataset, what: str) -> str:
-    """An axis label for a temperature, e.g. ``"temperature [°C]"`` [-].
+    """An axis label for a temperature, e.g. ``"temperature [°C]"``.
 
     Parameters
     ----------
     ds
-        A results dataset (for its display unit) [-].
+        A results dataset (for its display unit).
     what
-        The quantity's name, e.g. ``"inner-surface temperature"`` [-].
+        The quantity's name, e.g. ``"inner-surface temperature"``.
     """
     return f"{what} [{pretty_unit(temperature_unit(ds))}]"
 
 
 def format_temperature(ds: xr.Dataset, kelvin: float, *, digits: int = 1) -> str:
-    """A temperature [K] as display text in the dataset's unit, e.g. ``"43.2 °C"`` [-].
+    """A temperature [K] as display text in the dataset's unit, e.g. ``"43.2 °C"``.
 
     Parameters
     ----------
     ds
-        A results dataset (for its display unit) [-].
+        A results dataset (for its display unit).
     kelvin
         The temperature [K]; non-finite gives ``"n/a"``.
     digits
-        Decimals shown [-].
+        Decimals shown.
     """
     if not np.isfinite(kelvin):
         return "n/a"
@@ -156,7 +158,7 @@ def format_temperature(ds: xr.Dataset, kelvin: float, *, digits: int = 1) -> str
 
 
 def format_percent(p: float) -> str:
-    """A probability [-] as a percentage with 3 significant digits, ``"n/a"`` if not finite."""
+    """A probability as a percentage with 3 significant digits, ``"n/a"`` if not finite."""
     return "n/a" if not np.isfinite(p) else f"{100 * p:.3g} %"
 
 
@@ -166,9 +168,9 @@ def one_exposure(ds: xr.Dataset, scenario: int | None) -> tuple[str, xr.Dataset]
     Parameters
     ----------
     ds
-        A results dataset [-].
+        A results dataset.
     scenario
-        Index of the exposure for a swept dataset, ``None`` (or 0) otherwise [-].
+        Index of the exposure for a swept dataset, ``None`` (or 0) otherwise.
 
     Returns
     -------
@@ -197,11 +199,11 @@ def add_title(ax, text: str, *subs: str) -> None:
     Parameters
     ----------
     ax
-        The matplotlib Axes to title [-].
+        The matplotlib Axes to title.
     text
-        The title [-].
+        The title.
     *subs
-        Subtitle lines; empty ones are left out [-].
+        Subtitle lines; empty ones are left out.
     """
     sub = "\n".join(s for s in subs if s)
     ax.set_title(text, pad=6 + (11 * (sub.count("\n") + 1) if sub else 0))
@@ -211,7 +213,7 @@ def add_title(ax, text: str, *subs: str) -> None:
 
 
 def select_quantile(da: xr.DataArray, p: float) -> xr.DataArray:
-    """The slice of a quantile variable at cumulative probability ``p`` [-].
+    """The slice of a quantile variable at cumulative probability ``p``.
 
     Raises
     ------
@@ -228,7 +230,7 @@ def select_quantile(da: xr.DataArray, p: float) -> xr.DataArray:
 
 
 def independent_mask(ds: xr.Dataset) -> np.ndarray:
-    """Rows drawn from the joint input distribution that converged, for one exposure [-].
+    """Rows drawn from the joint input distribution that converged, for one exposure.
 
     Saltelli designs: the A and B rows (``sample_block`` 0 or 1); other designs: every row. Only
     samples flagged ``converged`` with a finite inner-surface temperature are kept.
@@ -236,12 +238,12 @@ def independent_mask(ds: xr.Dataset) -> np.ndarray:
     Parameters
     ----------
     ds
-        A results dataset of one exposure (no ``scenario`` dimension) [-].
+        A results dataset of one exposure (no ``scenario`` dimension).
 
     Returns
     -------
     numpy.ndarray
-        Boolean mask over ``sample`` [-].
+        Boolean mask over ``sample``.
     """
     if "scenario" in ds["inner_surface_temperature"].dims:
         raise ValueError("independent_mask needs one exposure: select a scenario first")
@@ -259,9 +261,9 @@ def parameter_values(ds: xr.Dataset, name: str) -> tuple[np.ndarray, str]:
     Parameters
     ----------
     ds
-        A results dataset [-].
+        A results dataset.
     name
-        Parameter name, e.g. ``"outer gap.width"`` [-].
+        Parameter name, e.g. ``"outer gap.width"``.
 
     Returns
     -------

@@ -129,9 +129,9 @@ def profile_figure(ds: xr.Dataset, *, scenario: int | None = None) -> Figure:
     Parameters
     ----------
     ds
-        A results dataset [-].
+        A results dataset.
     scenario
-        Index of the exposure for a swept dataset, ``None`` otherwise [-].
+        Index of the exposure for a swept dataset, ``None`` otherwise.
 
     Returns
     -------
@@ -241,9 +241,9 @@ def distribution_figure(ds: xr.Dataset, *, scenario: int | None = None) -> Figur
     Parameters
     ----------
     ds
-        A results dataset [-].
+        A results dataset.
     scenario
-        Index of the exposure for a swept dataset, ``None`` otherwise [-].
+        Index of the exposure for a swept dataset, ``None`` otherwise.
 
     Returns
     -------
@@ -283,7 +283,7 @@ def distribution_figure(ds: xr.Dataset, *, scenario: int | None = None) -> Figur
         bottom.axhline(0.95, color=GREY, lw=0.7, ls="-.")
         bottom.set_ylim(0.0, 1.02)
         top.set_ylabel(f"probability density [1/{unit}]")
-        bottom.set_ylabel("cumulative probability [-]")
+        bottom.set_ylabel("cumulative probability")
         bottom.set_xlabel(temperature_label(one, "inner-surface temperature"))
         add_title(top, "Distribution of the inner-surface temperature", label,
                   "independent, converged samples only")
@@ -314,7 +314,7 @@ def distribution_figure(ds: xr.Dataset, *, scenario: int | None = None) -> Figur
 def top_parameters(ds: xr.Dataset, *, scenario: int | None = None, count: int = 3) -> list[str]:
     """The ``count`` most influential parameters: by ``parameter_rank`` of the inner-surface
     temperature (Sobol), else by the surrogate's total index (``pce_total``) when there is
-    one, else by the magnitude of ``rank_correlation`` [-]."""
+    one, else by the magnitude of ``rank_correlation``."""
     _, one = one_exposure(ds, scenario)
     names = [str(n) for n in one["parameter"].values]
     if "parameter_rank" in one:
@@ -335,11 +335,11 @@ def scatter_figure(ds: xr.Dataset, *, scenario: int | None = None, count: int = 
     Parameters
     ----------
     ds
-        A results dataset [-].
+        A results dataset.
     scenario
-        Index of the exposure for a swept dataset, ``None`` otherwise [-].
+        Index of the exposure for a swept dataset, ``None`` otherwise.
     count
-        Number of parameters (panels) [-].
+        Number of parameters (panels).
 
     Returns
     -------

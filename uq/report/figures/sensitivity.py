@@ -99,11 +99,11 @@ def indices_figure(ds: xr.Dataset, *, scenario: int | None = None,
     Parameters
     ----------
     ds
-        A results dataset [-].
+        A results dataset.
     scenario
-        Index of the exposure for a swept dataset, ``None`` otherwise [-].
+        Index of the exposure for a swept dataset, ``None`` otherwise.
     output
-        Output the indices refer to (Sobol only) [-].
+        Output the indices refer to (Sobol only).
 
     Returns
     -------
@@ -128,7 +128,7 @@ def indices_figure(ds: xr.Dataset, *, scenario: int | None = None,
                      s["sobol_total"].values, s["sobol_total_ci"].values,
                      s["index_converged"].values,
                      s["index_converged"].attrs.get("threshold"))
-        ax.set_xlabel("Sobol index [-]")
+        ax.set_xlabel("Sobol index")
         add_title(ax, f"Sobol indices of the {_what(output)}", label, _design_note(one))
     return fig
 
@@ -150,7 +150,7 @@ def _screening(ax, one: xr.Dataset, names: list[str]) -> None:
     ax.axvline(0.0, color="#555555", lw=0.8)
     ax.grid(axis="y", visible=False)
     ax.set_xlim(-1.0, 1.0)
-    ax.set_xlabel("Spearman rank correlation ρ [-]")
+    ax.set_xlabel("Spearman rank correlation ρ")
     ax.figure.legend(handles=[Patch(facecolor=BLUE, label="higher input → hotter"),
                               Patch(facecolor=ORANGE, hatch="\\\\\\", edgecolor="white",
                                     label="higher input → cooler")],
@@ -170,11 +170,11 @@ def group_indices_figure(ds: xr.Dataset, *, scenario: int | None = None,
     Parameters
     ----------
     ds
-        A results dataset with ``method = "saltelli"`` [-].
+        A results dataset with ``method = "saltelli"``.
     scenario
-        Index of the exposure for a swept dataset, ``None`` otherwise [-].
+        Index of the exposure for a swept dataset, ``None`` otherwise.
     output
-        Output the indices refer to [-].
+        Output the indices refer to.
 
     Returns
     -------
@@ -193,7 +193,7 @@ def group_indices_figure(ds: xr.Dataset, *, scenario: int | None = None,
                      s["sobol_group_total"].values, s["sobol_group_total_ci"].values,
                      s["group_index_converged"].values,
                      s["group_index_converged"].attrs.get("threshold"))
-        ax.set_xlabel("Sobol index of the layer's parameters together [-]")
+        ax.set_xlabel("Sobol index of the layer's parameters together")
         add_title(ax, f"Which layer dominates: grouped Sobol indices of the {_what(output)}",
                   label, "each layer's parameters varied together; " + _design_note(one))
     return fig
@@ -211,11 +211,11 @@ def surrogate_indices_figure(ds: xr.Dataset, *, scenario: int | None = None,
     Parameters
     ----------
     ds
-        A results dataset holding ``pce_total`` [-].
+        A results dataset holding ``pce_total``.
     scenario
-        Index of the exposure for a swept dataset, ``None`` otherwise [-].
+        Index of the exposure for a swept dataset, ``None`` otherwise.
     groups
-        Per layer group (``pce_group_*``) instead of per parameter [-].
+        Per layer group (``pce_group_*``) instead of per parameter.
 
     Returns
     -------
@@ -233,9 +233,10 @@ def surrogate_indices_figure(ds: xr.Dataset, *, scenario: int | None = None,
         fig = Figure(figsize=(8.0, 1.9 + 0.42 * len(names)), layout="constrained")
         ax = fig.add_subplot()
         ax.set_label("surrogate group indices" if groups else "surrogate indices")
-        _paired_bars(ax, names, *(one[f"{prefix}_{v}"].values for v in
-                                  ("first", "first_ci", "total", "total_ci")), None, None)
-        ax.set_xlabel("Sobol index from the surrogate [-]")
+        first, first_ci, total, total_ci = (one[f"{prefix}_{v}"].values for v in
+                                            ("first", "first_ci", "total", "total_ci"))
+        _paired_bars(ax, names, first, first_ci, total, total_ci, None, None)
+        ax.set_xlabel("Sobol index from the surrogate")
         fit = (f"polynomial-chaos surrogate of order {order}, leave-one-out Q2 = {q2:.3f}"
                if np.isfinite(q2) else "no surrogate could be fitted")
         add_title(ax, "Sobol indices from a surrogate " + ("per layer" if groups else

@@ -41,7 +41,7 @@ class LimitCrossing:
     ----------
     status
         ``"crosses"``, ``"below"`` (stays below over the swept range), ``"above"`` (exceeds at
-        every swept level) or ``"unavailable"`` (no finite P95) [-].
+        every swept level) or ``"unavailable"`` (no finite P95).
     exposure
         Exposure at which P95 reaches the limit, by linear interpolation between the two swept
         levels around the first crossing; NaN unless ``status == "crosses"`` [display unit].
@@ -49,11 +49,11 @@ class LimitCrossing:
         The same read-off for the upper confidence bound of P95 (a cautious reading); NaN when
         that bound does not cross within the swept range [display unit].
     quantity
-        The swept hot-side quantity, e.g. ``"incident_flux"`` [-].
+        The swept hot-side quantity, e.g. ``"incident_flux"``.
     unit
-        Display unit of the exposure [-].
+        Display unit of the exposure.
     text
-        One sentence for the figure and the report [-].
+        One sentence for the figure and the report.
     """
 
     status: str
@@ -99,7 +99,7 @@ def limit_crossing(ds: xr.Dataset) -> LimitCrossing:
     Parameters
     ----------
     ds
-        A results dataset with a ``scenario`` dimension [-].
+        A results dataset with a ``scenario`` dimension.
 
     Returns
     -------
@@ -149,7 +149,7 @@ def sweep_figure(ds: xr.Dataset) -> Figure:
     Parameters
     ----------
     ds
-        A results dataset with a ``scenario`` dimension [-].
+        A results dataset with a ``scenario`` dimension.
 
     Returns
     -------
