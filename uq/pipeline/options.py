@@ -221,7 +221,7 @@ def memory_estimate(study: Study, samples: int | None = None) -> int:
         times = len(study.transient.output_times)
         per_row = 16 * d + scenario_count(study) * 8 * (times * (faces + 2) + 24)
         return int(1.5 * rows * per_row)
-    faces = len(interface_names(study.layers, study.cold_side))
+    faces = len(interface_names(study.layers, study.steady_sides()[1]))
     per_row = 16 * d + scenario_count(study) * 8 * (6 * faces + 4)
     return int(1.5 * rows * per_row)
 

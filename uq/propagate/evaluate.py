@@ -79,7 +79,7 @@ class Outputs:
         face names (the ``face`` axis of ``face_temperature``) and its element labels are
         empty.
     inner_surface_index
-        Column of ``interface_temperature`` that is the inner surface; -1 for a transient
+        Column of ``interface_temperature`` that is the inner surface [-]; -1 for a transient
         study.
     time
         The history grid of a transient study (the ``time`` axis of its histories) [s];
@@ -186,8 +186,7 @@ def scenario_count(study: Study) -> int:
     return 1 if study.scenarios is None else len(study.scenarios.values)
 
 
-def _evaluate_block(study: Study, block: np.ndarray
-                    ) -> list[NetworkSolution | TransientSolution]:
+def _evaluate_block(study: Study, block: np.ndarray) -> list[NetworkSolution | TransientSolution]:
     """Solve one chunk of samples for every scenario (runs on a worker too)."""
     scenarios = [None] if study.scenarios is None else range(scenario_count(study))
     return [_solve(study, block, scenario) for scenario in scenarios]
@@ -261,7 +260,7 @@ def evaluate(
     return Outputs(fields=store, **solution_labels(meta[0]))
 
 
-def nominal_solution(study, *, scenario: int | None = None
+def nominal_solution(study: Study, *, scenario: int | None = None
                      ) -> NetworkSolution | TransientSolution:
     """Solve the nominal stack (every uncertain value at its distribution's nominal)."""
     return _solve(study, None, scenario)

@@ -320,8 +320,8 @@ def _create(study: Study, plan: DesignPlan, layout: StoreLayout, digest: str) ->
               long_name="time from the start of the exposure (history grid)")
         group["time"][:] = time
     group.attrs.update({
-        STORE_MARK: 1,
-        "plyrisk_study": digest, "chunk_size": c, "evaluations": n, "title": study.title,
+        STORE_MARK: 1, "plyrisk_study": digest, "chunk_size": c, "evaluations": n,
+        "title": study.title,
         "config_text": study.text, "interface_names": list(labels["interface_names"]),
         "element_names": list(labels["element_names"]),
         "element_kinds": list(labels["element_kinds"]),

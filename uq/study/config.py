@@ -24,6 +24,7 @@ import os
 import re
 import stat
 import tomllib
+from collections.abc import Sequence
 from dataclasses import replace
 from pathlib import Path
 from typing import Any
@@ -33,7 +34,8 @@ import numpy as np
 from plyrisk.errors import ConfigError
 from plyrisk.methods import METHODS, get_method
 from plyrisk.models.boundary import COLD_SIDE_KINDS, HOT_SIDE_KINDS
-from plyrisk.models.stack import StackError, validate_stack
+from plyrisk.models.stack import Gap, Solid, StackError, validate_stack
+from plyrisk.models.wearer import Wearer
 from plyrisk.study import values as cv
 from plyrisk.study.definition import (
     Analysis,
@@ -265,7 +267,7 @@ def _check_study(ctx: Context, study: Study) -> None:
         _check_transient(ctx, study)
         return
     try:
-        validate_stack(study.layers, study.hot_side, study.cold_side)
+        validate_stack(study.layers, *study.steady_sides())
     except StackError as err:
         raise ctx.error(stack_key_path(err), str(err)) from None
     _check_support(ctx, study)
@@ -304,6 +306,7 @@ def require_runnable(study: Study) -> None:
 
 def _check_transient(ctx: Context, study: Study) -> None:
     """Rules of a transient study spanning sections: the layers, the wearer, the supports."""
+    assert study.transient is not None, "called for a transient study"
     check_transient_models(ctx, study.layers, study.transient.wearer)
     if study.parameters:
         u = np.array([1e-9, 1.0 - 1e-9])
@@ -315,7 +318,8 @@ def _check_transient(ctx: Context, study: Study) -> None:
     check_outputs(ctx, study.analysis.outputs)
 
 
-def check_transient_models(ctx: Context, layers, wearer, *, prefix: str = "") -> None:
+def check_transient_models(ctx: Context, layers: Sequence[Solid | Gap], wearer: Wearer, *,
+                           prefix: str = "") -> None:
     """Validate the layers and wearer of a transient study, as one-line config errors.
 
     Parameters
@@ -364,7 +368,7 @@ def _interface_names(study: Study) -> tuple[str, ...]:
     """Face names as the solver labels them, for the nominal stack."""
     from plyrisk.models.network import interface_names
 
-    return interface_names(study.layers, study.cold_side)
+    return interface_names(study.layers, study.steady_sides()[1])
 
 
 def override(study: Study, *, samples: int | None = None, seed: int | None = None,

@@ -408,6 +408,12 @@ class Study:
     max_temperatures: tuple[float | None, ...] = ()
     transient: TransientSetup | None = None
 
+    def steady_sides(self) -> tuple[HotSide, ColdSide]:
+        """The hot and cold sides of a steady study (a transient study has none) [-]."""
+        if self.hot_side is None or self.cold_side is None:
+            raise ValueError("a transient study has no hot or cold side; see study.transient")
+        return self.hot_side, self.cold_side
+
     @property
     def is_transient(self) -> bool:
         """True for a transient study (time to burn), False for the steady network [-]."""
@@ -476,8 +482,9 @@ def assemble(
         sides["hot_side"][study.scenarios.quantity] = float(study.scenarios.values[scenario])
     for i, changes in per_layer.items():
         layers[i] = replace(layers[i], **changes)
-    hot = replace(study.hot_side, **sides["hot_side"])
-    cold = replace(study.cold_side, **sides["cold_side"])
+    hot_side, cold_side = study.steady_sides()
+    hot = replace(hot_side, **sides["hot_side"])
+    cold = replace(cold_side, **sides["cold_side"])
     return layers, hot, cold
 
 
@@ -485,7 +492,7 @@ def _assemble_transient(study: Study, values: Mapping[str, ArrayLike], by_name: 
                         scenario: int | None) -> tuple[list[Solid | Gap], Any, Any]:
     """Layers, exposure and wearer of a transient study with sampled values in place."""
     setup = study.transient
-    assert setup is not None
+    assert setup is not None, "called for a transient study"
     layers = list(study.layers)
     per_layer: dict[int, dict] = {}
     exposure: dict[str, Any] = {}
@@ -514,7 +521,8 @@ def _assemble_transient(study: Study, values: Mapping[str, ArrayLike], by_name: 
     return layers, replace(setup.exposure, **exposure), _wearer(setup, wearer, skin_layers)
 
 
-def _wearer(setup: TransientSetup, values: dict[str, Any], skin_layers: dict[str, dict]):
+def _wearer(setup: TransientSetup, values: dict[str, Any], skin_layers: dict[str, dict]
+            ) -> SkinWearer | SensorWearer | PrescribedWearer:
     """The nominal wearer of ``setup`` with sampled values in place."""
     w = setup.wearer
     if isinstance(w, SkinWearer):

@@ -14,9 +14,10 @@ Each parser reads its raw TOML value and returns fields of
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import replace
 from inspect import signature
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
@@ -32,6 +33,9 @@ from plyrisk.study import values as cv
 from plyrisk.study.definition import Parameter, Scenarios, TransientSetup, sensor_disc
 from plyrisk.study.units import DIMENSIONLESS, QUANTITIES, TIME_POINT
 from plyrisk.study.values import Context, join, show, suggest
+
+if TYPE_CHECKING:  # pragma: no cover
+    from plyrisk.study.definition import Study
 
 DEFAULT_SKIN = "jiang_2002"
 """Skin property set used when ``[wearer] properties`` is not given: the set whose values are
@@ -220,7 +224,7 @@ def output_grid(horizon: float, step: float) -> np.ndarray:
 # ----------------------------------------------------------------------------------------------
 
 
-def _numeric(ctx: Context, t: dict, path: str, keys, target: tuple,
+def _numeric(ctx: Context, t: dict, path: str, keys: Sequence[str], target: tuple,
              params: list[Parameter]) -> dict[str, float]:
     """Values of ``keys`` present in ``t`` (nominal), appending uncertain ones to ``params``."""
     out: dict[str, float] = {}
@@ -310,13 +314,14 @@ def parse_wearer(ctx: Context, raw: Any, parsed: dict) -> dict:
     return {"transient": setup, "parameters": params}
 
 
-def with_layout(study):
+def with_layout(study: Study) -> Study:
     """The study with the grid layout of its transient model set, from the nominal study.
 
     Called once the layers and the wearer are validated. Every chunk of the study is solved on
     this one layout, so results do not depend on how samples are chunked or distributed.
     """
     setup = study.transient
+    assert setup is not None, "called for a transient study"
     layout = mesh_layout(list(study.layers), setup.wearer, setup.exposure.horizon)
     return replace(study, transient=replace(setup, layout=layout))
 

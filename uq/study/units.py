@@ -144,16 +144,17 @@ TEMPERATURE_DIFFERENCE = QuantitySpec(
     "a temperature difference", "K", "1e-6 K", lower=0.0
 )
 DIMENSIONLESS = QuantitySpec("a dimensionless number", "", "1.4")
-TIME = QuantitySpec("a time", "s", "8 s", lower=0.0)
-TIME_POINT = QuantitySpec("a time from the start of the exposure", "s", "2 s", lower=0.0,
-                          lower_open=False)
 DENSITY = QuantitySpec("a density", "kg/m^3", "300 kg/m^3", lower=0.0)
 SPECIFIC_HEAT = QuantitySpec("a specific heat capacity", "J/kg/K", "1300 J/kg/K", lower=0.0)
 SPECIFIC_HEAT_SLOPE = QuantitySpec(
-    "a specific-heat slope (specific heat per kelvin)", "J/kg/K^2", "1.5 J/kg/K^2"
+    "a specific-heat slope (specific heat per kelvin)", "J/kg/K^2", "1 J/kg/K^2"
 )
-TRANSMISSIVITY = QuantitySpec("a transmissivity (dimensionless)", "", "0.2", lower=0.0,
-                              upper=1.0)
+TRANSMISSIVITY = QuantitySpec(
+    "a radiant transmissivity (dimensionless)", "", "0.2", lower=0.0, upper=1.0
+)
+TIME = QuantitySpec("a time", "s", "8 s", lower=0.0)
+TIME_POINT = QuantitySpec("a time from the start of the exposure", "s", "2 s", lower=0.0,
+                          lower_open=False)
 PERFUSION_RATE = QuantitySpec(
     "a blood perfusion rate (blood volume per tissue volume per time)", "1/s", "1.25e-3 1/s",
     lower=0.0, lower_open=False,

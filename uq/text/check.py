@@ -46,7 +46,8 @@ def check_text(study: Study) -> tuple[str, bool]:
 
         return transient_check_text(study, _parameter_lines(study))
     solution, notes = _nominal_solve(study)
-    if study.cold_side.kind == "temperature":
+    hot_side, cold_side = study.steady_sides()
+    if cold_side.kind == "temperature":
         notes.append("the cold side prescribes the innermost face's temperature, so the "
                      "inner-surface temperature is fixed; use a cold side of kind 'surface' or "
                      "'environment' to study it, or analyse other outputs")
@@ -183,8 +184,9 @@ def _scenario_lines(study: Study, notes: list[str]) -> tuple[list[str], bool]:
     sc = study.scenarios
     assert sc is not None, "called for a study with [scenarios]"
     swept: dict[str, Any] = {sc.quantity: np.asarray(sc.values, dtype=float)}
-    hot = replace(study.hot_side, **swept)
-    sol = _solve(study, study.layers, hot, study.cold_side, notes)
+    hot_side, cold_side = study.steady_sides()
+    hot = replace(hot_side, **swept)
+    sol = _solve(study, study.layers, hot, cold_side, notes)
     rows = []
     for k, label in enumerate(sc.labels):
         if not bool(sol.converged[k]):

@@ -17,8 +17,9 @@ from plyrisk.methods import get_method
 from plyrisk.models.stack import Solid, StackError
 from plyrisk.models.transient import solve_transient
 from plyrisk.models.transient_outputs import TransientSolution
+from plyrisk.models.wearer import SensorWearer, SkinWearer
 from plyrisk.study.config import require_runnable, stack_key_path
-from plyrisk.study.definition import Study, assemble
+from plyrisk.study.definition import Scenarios, Study, TransientSetup, assemble
 from plyrisk.study.units import format_value
 from plyrisk.text.tables import text_table
 
@@ -55,7 +56,7 @@ def transient_check_text(study: Study, parameter_lines: list[str]) -> tuple[str,
     out += [""] + _history_lines(study, solution)
     converged = bool(np.all(solution.converged))
     if study.scenarios is not None:
-        swept = _solve(study, study.scenarios.values, notes)
+        swept = _solve(study, _scenarios(study).values, notes)
         out += [""] + _scenario_lines(study, swept)
         converged &= bool(np.all(swept.converged))
     if notes:
@@ -64,16 +65,26 @@ def transient_check_text(study: Study, parameter_lines: list[str]) -> tuple[str,
     return "\n".join(out), converged
 
 
+def _setup(study: Study) -> TransientSetup:
+    assert study.transient is not None, "called for a transient study"
+    return study.transient
+
+
+def _scenarios(study: Study) -> Scenarios:
+    assert study.scenarios is not None, "called for a study with [scenarios]"
+    return study.scenarios
+
+
 def _solve(study: Study, levels: np.ndarray | None, notes: list[str]) -> TransientSolution:
     """The nominal solve, or one nominal sample per scenario level."""
     from dataclasses import replace
 
     from plyrisk.study.definition import exposure_field
 
-    setup = study.transient
+    setup = _setup(study)
     layers, exposure, wearer = assemble(study, {})
     if levels is not None:
-        field = exposure_field(study.scenarios.quantity)
+        field = exposure_field(_scenarios(study).quantity)
         exposure = replace(exposure, **{field: np.asarray(levels, dtype=float)})
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
@@ -86,6 +97,15 @@ def _solve(study: Study, levels: np.ndarray | None, notes: list[str]) -> Transie
             raise ConfigError(study.source, stack_key_path(err), str(err)) from None
     notes.extend(" ".join(str(w.message).split()) for w in caught)
     return solution
+
+
+def _slices(setup: TransientSetup) -> int:
+    return 0 if setup.layout is None else sum(setup.layout.cells().values())
+
+
+def _mean(value: object) -> float:
+    """A scalar of a nominal model value (a scalar, or the mean of one per sample) [SI]."""
+    return float(np.mean(np.asarray(value, dtype=float)))
 
 
 def _t(study: Study, kelvin: float) -> str:
@@ -102,23 +122,24 @@ def _energy(value: float) -> str:
     return f"{value / 1e3:.4g} kJ/m^2" if np.isfinite(value) else "n/a"
 
 
-def _quantity(study: Study, key: str, value) -> str:
+def _quantity(study: Study, key: str, value: object) -> str:
     from plyrisk.models.exposure import Table
     from plyrisk.study.units import QUANTITIES
 
-    unit = study.transient.units.get(key, "")
+    unit = _setup(study).units.get(key, "")
     spec = QUANTITIES[key]
     if isinstance(value, Table):
-        t, v = value.times, value.values
-        shown = ", ".join(f"{ti:g} s: {format_value(vi, unit, spec)}" for ti, vi in
+        t = np.asarray(value.times, dtype=float)
+        v = np.asarray(value.values, dtype=float)
+        shown = ", ".join(f"{ti:g} s: {format_value(float(vi), unit, spec)}" for ti, vi in
                           zip(t, v, strict=True))
         return f"table ({shown})"
     uncertain = any(p.target == ("exposure", key) for p in study.parameters)
-    return format_value(float(value), unit, spec) + (" (nominal; uncertain)" if uncertain else "")
+    return format_value(_mean(value), unit, spec) + (" (nominal; uncertain)" if uncertain else "")
 
 
 def _setup_lines(study: Study) -> list[str]:
-    a, setup = study.analysis, study.transient
+    a, setup = study.analysis, _setup(study)
     e, w = setup.exposure, setup.wearer
     method = get_method(a.method).describe(study)
     target = ("P(criterion reached)" if w.kind == "sensor" else "P(second-degree burn)")
@@ -132,7 +153,7 @@ def _setup_lines(study: Study) -> list[str]:
         f"Model: transient; gap radiation {study.model.radiation}; natural convection in gaps "
         f"{'on' if study.model.convection else 'off'}; histories every "
         f"{t[1] - t[0]:.3g} s to the horizon ({t.size} times); grid of "
-        f"{sum(setup.layout.cells().values())} slices",
+        f"{_slices(setup)} slices",
     ]
     if a.outputs:
         lines.insert(3, "  extra outputs: " + ", ".join(a.outputs))
@@ -148,22 +169,22 @@ def _setup_lines(study: Study) -> list[str]:
                                             e.convection_coefficient)]
     lines.append("Exposure: " + "; ".join(parts))
     lines.append(f"  duration {_quantity(study, 'duration', e.exposure_duration)}; horizon "
-                 f"{_s(e.horizon)}; before it: ambient {_t(study, float(e.ambient_temperature))}")
-    if w.kind == "skin":
+                 f"{_s(e.horizon)}; before it: ambient {_t(study, _mean(e.ambient_temperature))}")
+    if isinstance(w, SkinWearer):
         skin = w.skin
         third = ("the basal depth (damage 1e4)" if setup.third_degree == "basal"
                  else "the dermis base (damage 1, Takata 1974)")
         lines.append(f"Wearer: skin, property set {setup.skin_properties}; damage model "
                      f"{setup.damage_model}; third degree at {third}"
                      f"; perfusion {'on' if w.perfusion else 'off'}; core "
-                     f"{_t(study, float(np.mean(skin.core_temperature)))}")
-    elif w.kind == "sensor":
+                     f"{_t(study, _mean(skin.core_temperature))}")
+    elif isinstance(w, SensorWearer):
         d = w.sensor
         lines.append(f"Wearer: copper-disc sensor, m c / A = "
-                     f"{float(np.mean(d.heat_capacity_per_area)) / 1e3:.4g} kJ/(m^2 K); "
+                     f"{_mean(d.heat_capacity_per_area) / 1e3:.4g} kJ/(m^2 K); "
                      "criterion: Stoll & Chianta (1969) second-degree curve")
     else:
-        lines.append(f"Wearer: surface held at {_t(study, float(np.mean(w.temperature)))}")
+        lines.append(f"Wearer: surface held at {_t(study, _mean(w.temperature))}")
     return lines
 
 
@@ -171,12 +192,12 @@ def _layer_lines(study: Study) -> list[str]:
     rows = []
     for layer in study.layers:
         if isinstance(layer, Solid):
-            L, rho, c = (float(np.mean(x)) for x in (layer.thickness, layer.density,
-                                                      layer.specific_heat))
+            L, rho, c = (_mean(x) for x in (layer.thickness, layer.density,
+                                             layer.specific_heat))
             rows.append([layer.name, "solid", f"{1e3 * L:.4g}", f"{rho:.4g}", f"{c:.4g}",
-                         f"{float(np.mean(layer.conductivity)):.4g}", f"{rho * c * L / 1e3:.4g}"])
+                         f"{_mean(layer.conductivity):.4g}", f"{rho * c * L / 1e3:.4g}"])
         else:
-            rows.append([layer.name, "gap", f"{1e3 * float(np.mean(layer.width)):.4g}", "-",
+            rows.append([layer.name, "gap", f"{1e3 * _mean(layer.width):.4g}", "-",
                          "-", "air", "-"])
     header = ["layer", "kind", "thickness [mm]", "density [kg/m^3]", "specific heat [J/(kg K)]",
               "conductivity [W/(m K)]", "heat capacity [kJ/(m^2 K)]"]
@@ -185,7 +206,7 @@ def _layer_lines(study: Study) -> list[str]:
 
 
 def _history_lines(study: Study, sol: TransientSolution) -> list[str]:
-    horizon = study.transient.horizon
+    horizon = _setup(study).horizon
     lines = ["Nominal history (every uncertain input at its nominal value)"]
     if not bool(sol.converged[0]):
         return lines + ["  WARNING: the nominal integration did not converge: no results.",
@@ -194,7 +215,7 @@ def _history_lines(study: Study, sol: TransientSolution) -> list[str]:
     def when(t: float) -> str:
         return _s(t) if np.isfinite(t) else f"none within the horizon ({_s(horizon)})"
 
-    kind = study.transient.wearer_kind
+    kind = _setup(study).wearer_kind
     if kind == "skin":
         for label, name in _BURNS:
             lines.append(f"  time to {label}-degree burn: {when(float(getattr(sol, name)[0]))}")
@@ -224,8 +245,8 @@ def _history_lines(study: Study, sol: TransientSolution) -> list[str]:
 
 
 def _scenario_lines(study: Study, sol: TransientSolution) -> list[str]:
-    sc = study.scenarios
-    kind = study.transient.wearer_kind
+    sc = _scenarios(study)
+    kind = _setup(study).wearer_kind
     rows = []
     for k, label in enumerate(sc.labels):
         if not bool(sol.converged[k]):
