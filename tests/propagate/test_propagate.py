@@ -134,6 +134,6 @@ def test_identical_results_whatever_the_number_of_workers():
 
 
 def test_bad_worker_count_is_rejected():
-    study = loads_study(panel(**UNCERTAIN, samples=8))
+    study = loads_study(panel(**UNCERTAIN, samples=16))
     with pytest.raises(ValueError, match="workers must be at least 1, got 0"):
         evaluate(study, np.zeros((0, 3)), workers=0)

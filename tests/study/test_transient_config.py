@@ -17,7 +17,7 @@ BASE = """
 [study]
 title = "Invented transient test"
 method = "saltelli"
-samples = 8
+samples = 16
 seed = 1
 
 [exposure]
