@@ -5,7 +5,7 @@ Physics Communications 181, 259-270) with ``calc_second_order=False``. The desig
 intervals:
 
 * A replicated design (``Design.replicates = R > 1``: R independently scrambled Saltelli
-  designs, replicated randomized quasi-Monte Carlo; Owen 1995, Lecture Notes in Statistics
+  designs, replicated randomized quasi-Monte Carlo; Owen 1995, Springer LNS
   106, 299-317; L'Ecuyer & Lemieux 2002, Modeling Uncertainty, 419-474): SALib's estimators
   are applied to every replicate on its own (its output centred as SALib centres it), the
   index is the mean of the R estimates and the half-width the Student t interval with R - 1

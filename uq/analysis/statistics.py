@@ -15,7 +15,7 @@ interval is conservative because K is discrete). When n is too small for a side 
 Point estimates use numpy's default (linear interpolation) quantile.
 
 Replicated designs (R independently scrambled quasi-Monte Carlo designs: replicated randomized
-QMC, Owen 1995, Lecture Notes in Statistics 106, 299-317; L'Ecuyer & Lemieux 2002, Modeling
+QMC, Owen 1995, Springer LNS 106, 299-317; L'Ecuyer & Lemieux 2002, Modeling
 Uncertainty, 419-474) are not independent draws row by row, but the replicates are independent
 of each other. :func:`replicate_quantiles` and :func:`replicate_exceedance` pool every
 replicate's values for the estimate and take the interval from the spread of the replicates

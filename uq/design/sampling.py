@@ -18,7 +18,7 @@ maps each column to an input. Three methods:
 
     With ``replicates = R > 1`` the design is R independent randomizations of the same
     construction (replicated randomized quasi-Monte Carlo: Owen 1995, "Randomly permuted
-    (t,m,s)-nets and (t,s)-sequences", Lecture Notes in Statistics 106, 299-317; L'Ecuyer &
+    (t,m,s)-nets and (t,s)-sequences", Springer LNS 106, 299-317; L'Ecuyer &
     Lemieux 2002, "Recent advances in randomized quasi-Monte Carlo methods", in Modeling
     Uncertainty, Kluwer, 419-474): replicate r is its own scrambled Sobol' sequence in 2d
     dimensions, scrambled by ``numpy.random.default_rng(numpy.random.SeedSequence(seed,
