@@ -171,7 +171,12 @@ def parse_scenarios(ctx: Context, raw: Any, parsed: dict) -> dict:
     if any(p.target == ("hot_side", quantity) for p in parsed["parameters"]):
         raise ctx.error("scenarios.quantity", f"hot_side.{quantity} is uncertain; a swept "
                         "quantity must have a fixed value in [hot_side]")
-    values = t["values"]
+    levels, si = scenario_levels(ctx, t["values"], quantity)
+    return {"scenarios": Scenarios(quantity, si, tuple(p.text for p in levels), levels[0].unit)}
+
+
+def scenario_levels(ctx: Context, values: Any, quantity: str) -> tuple[list[Any], np.ndarray]:
+    """The swept levels of ``[scenarios] values``: parsed, in SI, none repeated."""
     if not isinstance(values, list) or not values:
         raise ctx.error("scenarios.values", f"expected a non-empty list of values, got "
                         f"{show(values)}")
@@ -181,6 +186,4 @@ def parse_scenarios(ctx: Context, raw: Any, parsed: dict) -> dict:
     for i in range(1, len(si)):
         if np.any(si[:i] == si[i]):
             raise ctx.error(join("scenarios.values", i), f"duplicate level {levels[i].text}")
-    return {"scenarios": Scenarios(quantity, si, tuple(p.text for p in levels), levels[0].unit)}
-
-
+    return levels, si

@@ -31,6 +31,7 @@ from plyrisk.models.transient_outputs import TRANSIENT_OUTPUTS
 from plyrisk.models.wearer import PrescribedWearer, SensorWearer, SkinWearer
 from plyrisk.study import values as cv
 from plyrisk.study.definition import Parameter, Scenarios, TransientSetup, sensor_disc
+from plyrisk.study.sections_assembly import scenario_levels
 from plyrisk.study.units import DIMENSIONLESS, QUANTITIES, TIME_POINT
 from plyrisk.study.values import Context, join, show, suggest
 
@@ -357,16 +358,7 @@ def parse_transient_scenarios(ctx: Context, t: dict, parsed: dict) -> Scenarios:
     if exposure.mode == "absorbed_flux" and quantity in ENVIRONMENT_ONLY:
         raise ctx.error("scenarios.quantity", f"{quantity!r} is not used with mode = "
                         "'absorbed_flux'")
-    values = t["values"]
-    if not isinstance(values, list) or not values:
-        raise ctx.error("scenarios.values", f"expected a non-empty list of values, got "
-                        f"{show(values)}")
-    spec = QUANTITIES[quantity]
-    levels = [cv.fixed(ctx, v, join("scenarios.values", i), spec) for i, v in enumerate(values)]
-    si = np.array([p.si for p in levels])
-    for i in range(1, len(si)):
-        if np.any(si[:i] == si[i]):
-            raise ctx.error(join("scenarios.values", i), f"duplicate level {levels[i].text}")
+    levels, si = scenario_levels(ctx, t["values"], quantity)
     if quantity == "duration":
         horizon = float(exposure.horizon)
         for i, p in enumerate(levels):
