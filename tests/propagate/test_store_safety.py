@@ -110,11 +110,16 @@ def test_one_run_at_a_time_per_store(tmp_path):
     """)], stdout=subprocess.PIPE, text=True)
     try:
         assert holder.stdout.readline().strip() == "locked"
-        with pytest.raises(store.StoreError, match="in use by another plyrisk run"), \
+        with pytest.raises(store.StoreError,
+                           match=rf"in use by another plyrisk run \(pid {holder.pid} on "), \
                 store.store_lock(path):
             pass  # pragma: no cover
     finally:
         holder.kill()
         holder.wait()
+    # A killed holder leaves its holder file; the lock is free and the folder still counts as
+    # empty (the file is ours and is not mistaken for foreign content).
+    assert store.store_state(path) == "empty"
     with store.store_lock(path):
         pass
+    assert not (path / store.HOLDER_NAME).exists()

@@ -28,6 +28,8 @@ import hashlib
 import json
 import os
 import shutil
+import socket
+import time
 from contextlib import contextmanager
 from dataclasses import dataclass
 from importlib import metadata
@@ -72,7 +74,9 @@ class StoreError(PlyriskError, ValueError):
     """A store that cannot be used for this study (one line)."""
 
 
-
+HOLDER_NAME = ".plyrisk-holder"
+"""File inside a store naming the run that holds its lock (pid, host, start); written when the
+lock is taken, removed when it is released, and ignored when judging what a folder holds [-]."""
 
 
 def _node_kind(folder: Path) -> str | None:
@@ -99,7 +103,7 @@ def store_state(path: str | Path) -> str:
         return "missing"
     if not path.is_dir() or path.is_symlink():
         raise StoreError(f"{path}: --store: not a folder; give a new path for the store")
-    entries = [p for p in path.iterdir()]
+    entries = [p for p in path.iterdir() if p.name != HOLDER_NAME]
     if not entries:
         return "empty"
     why = ""
@@ -129,6 +133,15 @@ def _remove_store(path: Path) -> None:
         if p.is_dir() and _node_kind(p) is not None:
             shutil.rmtree(p)
     (path / "zarr.json").unlink(missing_ok=True)
+
+
+def _store_holder(path: Path) -> str:
+    """'pid N on HOST, started T' from a store's holder file, or 'holder unknown'."""
+    try:
+        h = json.loads((path / HOLDER_NAME).read_text(encoding="utf-8"))
+        return f"pid {h['pid']} on {h['host']}, started {h['started']}"
+    except (OSError, ValueError, KeyError, TypeError):
+        return "holder unknown"
 
 
 @contextmanager
@@ -161,11 +174,20 @@ def store_lock(path: str | Path, *, resume: bool = False):
         except OSError as err:
             if err.errno not in (errno.EWOULDBLOCK, errno.EACCES, errno.EAGAIN):
                 raise
-            raise StoreError(f"{path}: --store: in use by another plyrisk run; wait for it to "
-                             "finish or give another store path") from None
+            raise StoreError(f"{path}: --store: in use by another plyrisk run "
+                             f"({_store_holder(path)}); wait for it to finish or give another "
+                             "store path") from None
+        holder = path / HOLDER_NAME
+        try:
+            holder.write_text(json.dumps({"pid": os.getpid(), "host": socket.gethostname(),
+                                          "started": time.strftime("%Y-%m-%d %H:%M:%S %Z")}),
+                              encoding="utf-8")
+        except OSError:  # a read-only store can still be analysed; the holder stays unnamed
+            pass
         try:
             yield path
         finally:
+            holder.unlink(missing_ok=True)
             fcntl.flock(fd, fcntl.LOCK_UN)
     finally:
         os.close(fd)
@@ -291,7 +313,11 @@ def _create(study: Study, plan: DesignPlan, layout: StoreLayout, digest: str) ->
     labels = solution_labels(first)
     time = labels.pop("time", None)
     n, c, n_s = layout.n_rows, layout.chunk_size, scenario_count(study)
-    group = zarr.open_group(layout.path, mode="w-", zarr_format=3)  # never clears a folder
+    # Never clears a folder: "w-" refuses any content; a folder holding only the holder file of
+    # our own lock (store_state has judged it empty) is opened for appending instead.
+    folder = Path(layout.path)
+    ours_only = folder.is_dir() and all(p.name == HOLDER_NAME for p in folder.iterdir())
+    group = zarr.open_group(layout.path, mode="a" if ours_only else "w-", zarr_format=3)
     sizes = {"sample": n, "parameter": len(study.parameters), "scenario": n_s,
              "interface": len(labels["interface_names"]),
              "layer": len(labels["element_names"]), "chunk": layout.n_chunks,
