@@ -230,7 +230,8 @@ def cmd_run(args: argparse.Namespace) -> int:
                 print(summary.read_text(encoding="utf-8"), end="")
             return 0
         _interrupt_note = _kept(out_dir, decision.manifest is not None, store, args)
-        with OutputSet(out_dir, decision.manifest) as out:
+        with OutputSet(out_dir, decision.manifest,
+                       keep_earlier=decision.keep_earlier) as out:
             try:
                 result = run_study(study, options=options)
             except AnalysisError as err:

@@ -198,3 +198,18 @@ def test_too_few_samples_for_the_percentile_is_one_line(capsys, tmp_path):
     assert code == 2 and len(err) == 1
     assert "--samples: samples = 32 is too small to bound P99.9 at 90 % confidence; need at " \
            "least 2995" in err[0]
+
+
+def test_run_after_tolerances_into_a_fresh_folder_keeps_the_table(tmp_path, capsys):
+    """A tolerance table alone is not a study result: ``run`` adds to the folder without
+    ``--overwrite`` and keeps the table it does not replace."""
+    out = tmp_path / "out"
+    assert main(["tolerances", str(DEMO), "--out", str(out), "--samples", "64", "--quiet"]) == 0
+    table = (out / "tolerances.csv").read_bytes()
+    assert main(["run", str(DEMO), "--out", str(out), "--samples", "16", "--no-report",
+                 "--quiet"]) == 0
+    assert (out / "results.nc").is_file()
+    assert (out / "tolerances.csv").read_bytes() == table
+    assert main(["run", str(DEMO), "--out", str(out), "--samples", "16", "--no-report",
+                 "--quiet"]) == 0
+    assert "up to date" in capsys.readouterr().out

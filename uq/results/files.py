@@ -392,6 +392,9 @@ class Decision:
 
     up_to_date: bool
     manifest: Manifest | None
+    keep_earlier: bool = False
+    """The earlier set holds no study result (e.g. only a tolerance table written by
+    ``plyrisk tolerances`` into a fresh folder): the run adds to it instead of replacing it."""
 
 
 def decide(folder: str | Path, *, fingerprint: str, overwrite: bool,
@@ -435,6 +438,10 @@ def decide(folder: str | Path, *, fingerprint: str, overwrite: bool,
         intact = complete and _unchanged(folder, m.files)
         if same and intact and all(m.details.get(k) == v for k, v in (needs or {}).items()):
             return Decision(True, m)
+        if complete and not m.fingerprint:  # files of ours but no result: add to them
+            _refuse_changed(folder, m)
+            _refuse_foreign(folder, names, m)
+            return Decision(False, m, keep_earlier=True)
         if not complete and not overwrite:
             raise OutputError(f"{folder}: an earlier run was interrupted while replacing "
                               f"its files ({MANIFEST} is marked incomplete); add "
