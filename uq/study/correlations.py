@@ -184,11 +184,15 @@ class Correlations:
         return out
 
 
-def _fixed_names(parsed: dict) -> set[str]:
-    """Prefixes (layer names, sides) under which a parameter name could live."""
-    prefixes = {"hot_side", "cold_side", "exposure", "wearer"}
-    prefixes |= {getattr(layer, "name", "") for layer in parsed.get("layers") or ()}
-    return prefixes
+def _is_fixed_input(name: str, parsed: dict) -> bool:
+    """Whether ``name`` is an input of the study given as a single value (no distribution)."""
+    prefix, _, quantity = name.rpartition(".")
+    owners = {getattr(layer, "name", None): layer for layer in parsed.get("layers") or ()}
+    owners.update({side: parsed.get(side) for side in ("hot_side", "cold_side")})
+    obj = owners.get(prefix)
+    if obj is None or quantity.startswith("_") or quantity in ("name", "kind"):
+        return False
+    return hasattr(obj, quantity) or (quantity == "emissivity" and hasattr(obj, "emissivity_hot"))
 
 
 def _parameter(ctx: Context, raw: Any, path: str, uncertain: dict, parsed: dict) -> str:
@@ -201,8 +205,7 @@ def _parameter(ctx: Context, raw: Any, path: str, uncertain: dict, parsed: dict)
             raise ctx.error(path, f"parameter {raw!r} is fixed (no spread); only uncertain "
                             "parameters can be correlated")
         return raw
-    prefix = raw.rpartition(".")[0]
-    if prefix in _fixed_names(parsed):
+    if _is_fixed_input(raw, parsed):
         raise ctx.error(path, f"parameter {raw!r} is fixed (a single value, no distribution); "
                         "only uncertain parameters can be correlated; give it a distribution "
                         "or remove it")
