@@ -24,13 +24,18 @@ Conditional normal (eq. K.2)
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
 from scipy import special
 
+if TYPE_CHECKING:  # pragma: no cover
+    from plyrisk.study.correlations import Correlations
+
 __all__ = ["INNER_SAMPLES", "ShapleyLayout", "cholesky_factor", "correlate",
-           "iman_conover", "shapley_layout", "shapley_permutations", "shapley_rows"]
+           "iman_conover", "joint_design", "shapley_layout", "shapley_permutations", "shapley_rows"]
 
 INNER_SAMPLES = 3
 """Conditional draws per permutation step (N_I = 3, N_O = 1: the choice Song, Nelson & Staum
@@ -144,6 +149,46 @@ def iman_conover(unit: np.ndarray, linear: np.ndarray, *, seed: int,
         ranks = np.argsort(np.argsort(t[:, c], kind="stable"), kind="stable")
         out[:, j] = np.sort(unit[:, j])[ranks]
     return out
+
+
+def joint_design(design: str, samples: int, names: Sequence[str], *, seed: int,
+                 correlations: Correlations | None = None, optimization: str | None = None
+                 ) -> np.ndarray:
+    """Draws from the joint distribution in the unit cube: a design through the copula.
+
+    Parameters
+    ----------
+    design
+        ``"lhs"``, ``"sobol"`` (points of a scrambled Sobol' sequence) or ``"random"``.
+    samples
+        Rows.
+    names
+        The study's parameter names (the columns).
+    seed
+        Seed of the design (and of the Iman–Conover scores).
+    correlations
+        The study's :class:`plyrisk.study.correlations.Correlations`; ``None``: independent.
+    optimization
+        Latin hypercube optimization (``lhs`` only).
+
+    Returns
+    -------
+    numpy.ndarray
+        Shape ``(samples, d)``: uniform marginals, dependent through the Gaussian copula (or
+        a Latin hypercube reordered by Iman–Conover when the correlations ask for it).
+    """
+    from plyrisk.design.sampling import DesignPlan
+
+    d = len(names)
+    kind = "sobol-sequence" if design == "sobol" else design
+    unit = DesignPlan(kind, int(samples), d, int(seed),
+                      optimization=optimization if kind == "lhs" else None).design().unit
+    if correlations is None:
+        return np.array(unit)
+    cols = np.array([list(names).index(n) for n in correlations.names], dtype=int)
+    if correlations.lhs_reordering == "iman-conover" and design == "lhs":
+        return iman_conover(unit, correlations.linear, seed=int(seed), columns=cols)
+    return correlate(unit, correlations.linear, columns=cols)
 
 
 def shapley_permutations(permutations: int, n_params: int, *, seed: int) -> np.ndarray:

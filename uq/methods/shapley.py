@@ -106,25 +106,15 @@ class Shapley(Method):
         """Joint draws (through the copula) then the conditional draws, built whole."""
         import numpy as np
 
-        from plyrisk.design.copula import correlate, iman_conover, shapley_rows
-        from plyrisk.design.sampling import Design, DesignPlan
+        from plyrisk.design.copula import joint_design, shapley_rows
+        from plyrisk.design.sampling import Design
 
         a = study.analysis
         names = study.parameter_names
-        d = len(names)
-        kind = "sobol-sequence" if a.design == "sobol" else a.design
-        joint = DesignPlan(kind, int(a.samples), d, int(a.seed),
-                           optimization=a.lhs_optimization if kind == "lhs" else None
-                           ).design().unit
-        linear = np.eye(d)
         c = study.correlations
-        if c is not None:
-            linear = c.full_linear(names)
-            cols = np.array([names.index(n) for n in c.names], dtype=int)
-            if c.lhs_reordering == "iman-conover" and a.design == "lhs":
-                joint = iman_conover(joint, c.linear, seed=int(a.seed), columns=cols)
-            else:
-                joint = correlate(joint, c.linear, columns=cols)
+        joint = joint_design(a.design, int(a.samples), names, seed=int(a.seed), correlations=c,
+                             optimization=a.lhs_optimization)
+        linear = np.eye(len(names)) if c is None else c.full_linear(names)
         unit = shapley_rows(joint, linear, permutations=self.permutations(study),
                             seed=int(a.seed))
         block = np.zeros(unit.shape[0], dtype=np.int64)

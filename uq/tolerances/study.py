@@ -223,7 +223,9 @@ def problem_from_study(study: Study, target: Target | None = None, *,
         return np.where(out["converged"], out["inner_surface_temperature"], np.nan)
 
     labels = tuple(study.scenarios.labels) if study.scenarios is not None else ()
-    return ToleranceProblem(names, dists, model, float(study.analysis.limit), labels)
+    corr = (study.correlations.full_linear(names) if getattr(study, "correlations", None)
+            is not None else None)
+    return ToleranceProblem(names, dists, model, float(study.analysis.limit), labels, corr)
 
 
 def settings_for_study(study: Study, *, target: str | None = None, samples: int | None = None,
