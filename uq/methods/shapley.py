@@ -93,9 +93,10 @@ class Shapley(Method):
                f"joint draws; Shapley effects from {self.permutations(study)} random "
                "permutations with 3 conditional draws per step (Song, Nelson & Staum 2016)"]
         if c is not None:
+            pairs = "; ".join(f"{a} with {b} {v:+.2f}" for a, b, v in c.pairs()) or "all zero"
             out.append("inputs correlated through a Gaussian copula of the rank correlations "
-                       "in [correlations]"
-                       + (" (Latin hypercube reordered by Iman-Conover)"
+                       f"in [correlations] ({pairs})"
+                       + (", the Latin hypercube reordered by Iman-Conover"
                           if c.lhs_reordering == "iman-conover"
                           and study.analysis.design == "lhs" else ""))
             if c.repair_note:
@@ -222,6 +223,12 @@ class Shapley(Method):
                                            "from the joint draws, in the output's SI unit "
                                            "squared (K2 for temperatures, W2 m-4 for "
                                            "heat_flux)", {})
+        if study.correlations is not None:
+            rank = study.correlations.full_rank(pnames)
+            data["input_rank_correlation"] = (
+                ("parameter", "other_parameter"), np.broadcast_to(rank, (n_s, n_p, n_p)), "1",
+                "Spearman rank correlation of the inputs as configured ([correlations]; columns "
+                "follow the parameter coordinate)", {"copula": "gaussian"})
         for name in INDEX_VARIABLES:
             data[name][4]["method"] = "shapley"
         return data

@@ -32,6 +32,7 @@ import xarray as xr
 from plyrisk.cautions import CAUTIONS
 from plyrisk.report.csv_tables import write_csv, write_csv_tables
 from plyrisk.report.figures import outputs as fg
+from plyrisk.report.shapley import has_shapley, shapley_paragraphs, shapley_tables
 from plyrisk.report.tables import (
     Table,
     cell_text,
@@ -430,7 +431,10 @@ def _html_lines(ds: xr.Dataset, c: _Content) -> list[str]:
     h += [_html_table(t) for t in quantile_tables(ds)]
     h.append(f"<p>{_esc(quantile_note(ds))}</p>")
     h.append("<h2>Ranking: which inputs and layers matter</h2>")
-    if "sobol_total" not in ds:
+    if has_shapley(ds):
+        h += [f"<p>{_esc(t)}</p>" for t in shapley_paragraphs(ds)]
+        h += [_html_table(t) for t in shapley_tables(ds)]
+    elif "sobol_total" not in ds:
         h.append(f"<p>{_esc(NO_SOBOL)}</p>")
     h += [_html_table(t) for t in ranking]
     h.append("<h2>Figures</h2>")
@@ -472,7 +476,12 @@ def _markdown_lines(ds: xr.Dataset, c: _Content, out: Path, files: list[Path]) -
     m += [f"- {v}" for v in verdicts]
     if crossing is not None:
         m += ["", f"**{crossing.text}** (linear interpolation between swept levels)"]
-    m += ["", "## Ranking", ""] + ([NO_SOBOL, ""] if "sobol_total" not in ds else [])
+    m += ["", "## Ranking", ""]
+    if has_shapley(ds):
+        m += [x for t in shapley_paragraphs(ds) for x in (t, "")]
+        m += [x for t in shapley_tables(ds) for x in (_md_table(t), "")]
+    elif "sobol_total" not in ds:
+        m += [NO_SOBOL, ""]
     for t in ranking:
         m += [_md_table(Table(t.header, t.rows[:TOP_COUNT], t.caption
                               + (f" (top {TOP_COUNT})" if len(t.rows) > TOP_COUNT else ""))), ""]
