@@ -2,9 +2,10 @@
 
 :data:`METHODS` maps each ``[study] method`` value to its :class:`~plyrisk.methods.base.Method`
 object (one module each: :mod:`~plyrisk.methods.saltelli`, :mod:`~plyrisk.methods.pce`,
-:mod:`~plyrisk.methods.morris`, :mod:`~plyrisk.methods.shapley`). The config reader, ``--method`` and ``--help`` read their
-choices from it. To add a method, write a module with a :class:`Method` subclass and a
-``METHOD`` instance, and list it here (DEVELOPERS.md, "Adding a method").
+:mod:`~plyrisk.methods.morris`, :mod:`~plyrisk.methods.shapley`). The config reader,
+``--method`` and ``--help`` read their choices from it. To add a method, write a module with a
+:class:`Method` subclass and a ``METHOD`` instance, and list it here (DEVELOPERS.md, "Adding a
+method").
 
 Examples
 --------

@@ -339,11 +339,11 @@ def parse_correlations(ctx: Context, raw: Any, parsed: dict) -> dict:
         new_rank = rank_from_linear(linear)
         np.fill_diagonal(new_rank, 1.0)
         change = np.abs(new_rank - rank)
-        i, j = np.unravel_index(int(np.argmax(change)), change.shape)
+        ia, ib = (int(v) for v in np.unravel_index(int(np.argmax(change)), change.shape))
         note = (f"[correlations] repair = \"nearest\": the rank correlations were inconsistent "
                 f"(smallest eigenvalue {smallest:.3g}) and were projected onto the nearest "
-                f"valid matrix; largest change {float(change[i, j]):.3f}, {order[i]} with "
-                f"{order[j]}: {rank[i, j]:+.3f} -> {new_rank[i, j]:+.3f}")
+                f"valid matrix; largest change {float(change[ia, ib]):.3f}, {order[ia]} with "
+                f"{order[ib]}: {rank[ia, ib]:+.3f} -> {new_rank[ia, ib]:+.3f}")
         rank = new_rank
     given = tuple((a, b, v) for a, b, v, _ in entries)
     return {"correlations": Correlations(tuple(order), rank, linear, reorder, note, given)}

@@ -223,8 +223,7 @@ def problem_from_study(study: Study, target: Target | None = None, *,
         return np.where(out["converged"], out["inner_surface_temperature"], np.nan)
 
     labels = tuple(study.scenarios.labels) if study.scenarios is not None else ()
-    corr = (study.correlations.full_linear(names) if getattr(study, "correlations", None)
-            is not None else None)
+    corr = None if study.correlations is None else study.correlations.full_linear(names)
     return ToleranceProblem(names, dists, model, float(study.analysis.limit), labels, corr)
 
 
