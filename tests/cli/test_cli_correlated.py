@@ -25,7 +25,7 @@ def small(tmp: Path) -> Path:
     text = DEMO.read_text().replace("samples = 1024 ", "samples = 128 ").replace(
         "permutations = 2048 ", "permutations = 128 ")
     path = tmp / "correlated_fit.toml"
-    path.write_text(text)
+    path.write_text(text + '\n[tolerances]\nsamples = 256\ntarget = "P95 <= 75 degC"\n')
     return path
 
 
@@ -68,7 +68,22 @@ def test_run_writes_shapley_effects(tmp_path):
     report = (tmp_path / "out" / "report.html").read_text()
     assert "How to read Shapley effects" in report
     assert "Layers by Shapley effect" in report
+    assert "dependent through a Gaussian copula" in report
+    assert "sampled independently" not in report
+    assert "Shapley effect" in (tmp_path / "out" / "tolerances.csv").read_text()
+    csv_text = (tmp_path / "out" / "shapley.csv").read_text()
+    assert csv_text.startswith("scenario,output,kind,name,shapley_effect")
+    assert ",layer,skin gap," in csv_text
     assert np.isfinite(eff).all()
+
+
+def test_tolerances_leave_out_the_variance_share(tmp_path):
+    code, text = run(["tolerances", str(small(tmp_path)), "--samples", "256", "--out",
+                      str(tmp_path / "tol"), "--quiet"])
+    assert code == 0, text
+    assert "inputs correlated ([correlations])" in text
+    table = text[text.index("For manufacturing"):]
+    assert "n/a" in table
 
 
 def test_method_override_is_refused_with_one_line(capsys):

@@ -32,7 +32,13 @@ import xarray as xr
 from plyrisk.cautions import CAUTIONS
 from plyrisk.report.csv_tables import write_csv, write_csv_tables
 from plyrisk.report.figures import outputs as fg
-from plyrisk.report.shapley import has_shapley, shapley_paragraphs, shapley_tables
+from plyrisk.report.shapley import (
+    dependence_assumptions,
+    has_shapley,
+    shapley_paragraphs,
+    shapley_tables,
+    write_shapley_csv,
+)
 from plyrisk.report.tables import (
     Table,
     cell_text,
@@ -354,7 +360,7 @@ def write_report(
     out.mkdir(parents=True, exist_ok=True)
     figs = report_figures(ds)
     fig_paths, embedded = _save(figs, out / "figures")
-    tables = write_csv_tables(ds, out)
+    tables = write_csv_tables(ds, out) + write_shapley_csv(ds, out)
     if tol is not None:
         columns, records = tol
         tables.append(write_csv(out / "tolerances.csv", columns,
@@ -457,7 +463,7 @@ def _html_lines(ds: xr.Dataset, c: _Content) -> list[str]:
           "from every statistic and counted here; nothing is clipped.</p>",
           _html_table(nonconverged_table(ds))]
     h.append("<h2>Assumptions and limits of the model</h2><ul>"
-             + "".join(f"<li>{_esc(a)}</li>" for a in ASSUMPTIONS)
+             + "".join(f"<li>{_esc(a)}</li>" for a in dependence_assumptions(ds, ASSUMPTIONS))
              + "".join(f"<li>{_esc(n)}</li>" for n in notes) + "</ul>")
     h.append(_cautions_html())
     h += ["<h2>Provenance</h2>", _html_table(provenance_table(ds)),

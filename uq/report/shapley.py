@@ -8,7 +8,25 @@ import xarray as xr
 
 from plyrisk.report.tables import Table, exposure_text, scenario_values
 
-__all__ = ["has_shapley", "shapley_paragraphs", "shapley_tables"]
+__all__ = ["DEPENDENT_INPUTS", "dependence_assumptions", "has_shapley", "shapley_paragraphs",
+           "shapley_tables"]
+
+DEPENDENT_INPUTS = (
+    "The uncertain inputs are sampled from the distributions given, dependent through a "
+    "Gaussian copula of the rank correlations in [correlations] (each input keeps its own "
+    "distribution and truncation); inputs not listed there are independent. The results are "
+    "only as good as those distributions and correlations, and the copula is one model of "
+    "dependence among many (it has no tail dependence).")
+"""The assumption that replaces the independence one when the inputs are correlated."""
+
+
+def dependence_assumptions(ds: xr.Dataset, assumptions: tuple[str, ...]) -> tuple[str, ...]:
+    """The report's assumptions, the independence one replaced for correlated inputs."""
+    if "input_rank_correlation" not in ds:
+        return assumptions
+    return tuple(DEPENDENT_INPUTS if a.startswith("The uncertain inputs are sampled "
+                                                  "independently") else a
+                 for a in assumptions)
 
 PRIMARY = "inner_surface_temperature"
 
@@ -69,3 +87,28 @@ def shapley_tables(ds: xr.Dataset) -> list[Table]:
                              f"{what} by Shapley effect of the inner-surface temperature"
                              f"{suffix}"))
     return out
+
+
+def write_shapley_csv(ds: xr.Dataset, out) -> list:
+    """Write ``shapley.csv`` (every output, parameter and layer effect with its half-width,
+    rank and status) into the folder ``out``; ``[]`` without Shapley effects."""
+    from pathlib import Path
+
+    from plyrisk.report.csv_tables import write_csv
+
+    if not has_shapley(ds):
+        return []
+    rows = []
+    for _, label, one in scenario_values(ds):
+        for k, o in enumerate(str(v) for v in one["output"].values):
+            for dim, prefix, kind in (("parameter", "shapley", "parameter"),
+                                      ("group", "shapley_group", "layer")):
+                for j, name in enumerate(str(v) for v in one[dim].values):
+                    rows.append([label, o, kind, name,
+                                 float(one[f"{prefix}_effect"].values[k, j]),
+                                 float(one[f"{prefix}_effect_ci"].values[k, j]),
+                                 int(one[f"{prefix}_rank"].values[k, j]),
+                                 bool(one[f"{prefix}_converged"].values[k, j])])
+    return [write_csv(Path(out) / "shapley.csv", ["scenario", "output", "kind", "name",
+                                                  "shapley_effect", "ci_half_width", "rank",
+                                                  "converged"], rows)]
