@@ -8,7 +8,11 @@ import numpy as np
 import pytest
 from scipy import special
 
-from plyrisk.analysis.shapley import linear_gaussian_shapley, shapley_effects
+from plyrisk.analysis.shapley import (
+    linear_gaussian_indices,
+    linear_gaussian_shapley,
+    shapley_effects,
+)
 from plyrisk.design.copula import shapley_permutations, shapley_rows
 from plyrisk.design.sampling import random_design
 
@@ -169,3 +173,27 @@ def test_exposed_face_of_a_solid_stack_end_to_end():
     assert sc.group_ranking["exposed face"][0].name == "batt"
     # the inner surface is held by the cold side: no variance, no effects
     assert sc.shapley["inner_surface_temperature"][0].constant_output
+
+
+def test_full_first_and_independent_total_indices_of_a_correlated_linear_model():
+    # Source: Mara, Tarantola & Annoni 2015, doi:10.1016/j.envsoft.2015.07.010, and Kucherenko,
+    # Tarantola & Annoni 2012, doi:10.1016/j.cpc.2011.12.020: for a linear model of Gaussian
+    # inputs S_i^full = (b^T S_:i)^2 / (S_ii V) and ST_i^ind = b_i^2 S_ii|-i / V; the closed
+    # forms agree with the Shapley cost function c(J) of linear_gaussian_shapley.
+    b = np.array([1.0, 1.0, 2.0])
+    s = np.array([1.0, 1.5, 0.5])
+    r = np.array([[1.0, 0.6, 0.0], [0.6, 1.0, -0.3], [0.0, -0.3, 1.0]])
+    cov = r * np.outer(s, s)
+    full, indep = linear_gaussian_indices(b, cov)
+    v = b @ cov @ b
+    assert full[2] == pytest.approx((cov[2] @ b) ** 2 / cov[2, 2] / v)
+    sh, _ = estimate(lambda z: (z * s) @ b, r, n=20_000, m=12_000, seed=5, confidence=0.99)
+    assert np.all(np.abs(sh.full_first - full) <= sh.full_first_ci)
+    assert np.all(np.abs(sh.independent_total - indep) <= sh.independent_total_ci)
+    assert np.max(np.abs(sh.full_first - full)) < 0.03
+    assert np.max(np.abs(sh.independent_total - indep)) < 0.03
+    # with independent inputs both reduce to the first-order (= total) index of this
+    # additive model
+    full0, indep0 = linear_gaussian_indices(b, np.diag(s**2))
+    assert np.allclose(full0, indep0)
+    assert np.allclose(full0, linear_gaussian_shapley(b, np.diag(s**2)))

@@ -20,6 +20,22 @@ bootstrap over permutations and joint draws together (every resample sums to one
 
 A layer's effect is the sum of its parameters' effects: the share of the variance the Shapley
 allocation gives to that layer's inputs.
+
+The same design gives two of the four variance-based indices for dependent inputs of Mara &
+Tarantola (2012, Reliab. Eng. Syst. Saf. 107, 115-121, doi:10.1016/j.ress.2011.08.008) and
+Mara, Tarantola & Annoni (2015, Environ. Model. Softw. 72, 173-183,
+doi:10.1016/j.envsoft.2015.07.010), which are the first-order and total indices of Kucherenko,
+Tarantola & Annoni (2012, Comput. Phys. Commun. 183, 937-946, doi:10.1016/j.cpc.2011.12.020):
+
+    S_i^full = Var(E[Y | X_i]) / Var(Y) = 1 - c(-i) / Var(Y)     (eq. S.2; last step of the
+                                                                   permutations ending in i)
+    ST_i^ind = E[Var(Y | X_-i)] / Var(Y) = c({i}) / Var(Y)       (eq. S.3; first step of the
+                                                                   permutations starting with i)
+
+The "full" first-order index counts what X_i explains including through its correlated
+partners; the "independent" total index only what X_i adds beyond everything correlated with
+it. The other two (the independent first-order and the full total index) need the inputs
+decorrelated in another order (a Rosenblatt transform per input) and are not computed.
 """
 
 from __future__ import annotations
@@ -27,11 +43,12 @@ from __future__ import annotations
 import itertools
 import math
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
-__all__ = ["ShapleyEffects", "linear_gaussian_shapley", "rank_effects", "shapley_effects"]
+__all__ = ["ShapleyEffects", "linear_gaussian_indices", "linear_gaussian_shapley",
+           "rank_effects", "shapley_effects"]
 
 
 @dataclass(frozen=True)
@@ -58,6 +75,12 @@ class ShapleyEffects:
         Var(Y) from the joint draws [output unit squared].
     constant_output
         True when the output had no variance; the effects are then NaN.
+    full_first, full_first_ci
+        "Full" first-order index ``Var(E[Y | X_i]) / Var(Y)`` (eq. S.2) and its half-width,
+        per parameter (NaN per layer) [-].
+    independent_total, independent_total_ci
+        "Independent" total index ``E[Var(Y | X_-i)] / Var(Y)`` (eq. S.3) and its half-width,
+        per parameter (NaN per layer) [-].
     """
 
     names: tuple[str, ...]
@@ -69,6 +92,27 @@ class ShapleyEffects:
     joint_used: int
     variance: float
     constant_output: bool = False
+    full_first: np.ndarray | None = None
+    full_first_ci: np.ndarray | None = None
+    independent_total: np.ndarray | None = None
+    independent_total_ci: np.ndarray | None = None
+
+
+def _end_costs(y_cond: np.ndarray, permutations: np.ndarray, inner: int
+               ) -> tuple[np.ndarray, np.ndarray]:
+    """Per permutation: c of its first input alone, E[Var(Y | X_-first)], and c of all but its
+    last input, E[Var(Y | X_last)] [output unit squared]."""
+    m, d = permutations.shape
+    c = np.var(y_cond.reshape(m, d - 1, inner), axis=2, ddof=1)
+    return c[:, 0], c[:, -1]
+
+
+def _by_input(values: np.ndarray, which: np.ndarray, d: int) -> np.ndarray:
+    """Mean of ``values`` over the permutations whose ``which`` input is i, per i."""
+    counts = np.bincount(which, minlength=d).astype(float)
+    sums = np.bincount(which, weights=values, minlength=d)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        return sums / counts
 
 
 def _contributions(y_cond: np.ndarray, permutations: np.ndarray, inner: int
@@ -181,20 +225,32 @@ def shapley_effects(y_joint: np.ndarray, y_cond: np.ndarray, permutations: np.nd
                       bool(var == 0.0)) if g_members is not None else None)
         return ind, grp
     effect = d0.mean(axis=0) / var + e.mean(axis=0)
+    c_first, c_last = _end_costs(np.asarray(y_cond, dtype=float), perms, inner)
+    c_first, c_last = c_first[ok], c_last[ok]
+    first_in, last_in = perms[ok, 0], perms[ok, -1]
+    # eq. S.2, S.3: the first and the last step of every permutation
+    full = 1.0 - _by_input(c_last, last_in, d) / var
+    indep = _by_input(c_first, first_in, d) / var
     rng = np.random.default_rng(np.random.SeedSequence(int(seed), spawn_key=(11,)))
     boot = np.empty((int(n_bootstrap), d))
+    boot_full = np.empty((int(n_bootstrap), d))
+    boot_indep = np.empty((int(n_bootstrap), d))
     for b in range(int(n_bootstrap)):
         ip = rng.integers(0, used, used)
         ij = rng.integers(0, yj.size, yj.size)
         v = float(np.var(yj[ij], ddof=1))
         boot[b] = d0[ip].mean(axis=0) / v + e[ip].mean(axis=0)
+        boot_full[b] = 1.0 - _by_input(c_last[ip], last_in[ip], d) / v
+        boot_indep[b] = _by_input(c_first[ip], first_in[ip], d) / v
     alpha = 0.5 * (1.0 - confidence)
 
     def half(samples: np.ndarray) -> np.ndarray:
-        lo, hi = np.quantile(samples, [alpha, 1.0 - alpha], axis=0)
+        lo, hi = np.nanquantile(samples, [alpha, 1.0 - alpha], axis=0)
         return 0.5 * (hi - lo)
 
-    ind = result(names, effect, half(boot), used, var, False)
+    ind = replace(result(names, effect, half(boot), used, var, False), full_first=full,
+                  full_first_ci=half(boot_full), independent_total=indep,
+                  independent_total_ci=half(boot_indep))
     grp = None
     if g_members is not None:
         grp = result(group_names, effect @ membership, half(boot @ membership), used, var,
@@ -221,6 +277,42 @@ def rank_effects(effects: ShapleyEffects, *, ci_threshold: float) -> list:
         out.append(RankedIndex(name, s, ci, s, ci, converged, suggested,
                                first_converged=converged, total_converged=converged))
     return sorted(out, key=lambda r: math.inf if math.isnan(r.total) else -r.total)
+
+
+def linear_gaussian_indices(coefficients: Sequence[float], covariance: np.ndarray
+                            ) -> tuple[np.ndarray, np.ndarray]:
+    """Exact full first-order and independent total indices of ``Y = b^T X``, X normal.
+
+    Parameters
+    ----------
+    coefficients
+        b, shape ``(d,)`` [output unit per input unit].
+    covariance
+        Covariance of X, positive definite [input unit squared].
+
+    Returns
+    -------
+    full_first, independent_total
+        ``Var(E[Y | X_i]) / Var(Y) = (b^T S_:i)^2 / (S_ii Var(Y))`` and
+        ``E[Var(Y | X_-i)] / Var(Y) = b_i^2 (S_ii - S_i,-i S_-i,-i^-1 S_-i,i) / Var(Y)`` [-].
+
+    Notes
+    -----
+    Eqs. S.2 and S.3 with the Gaussian conditional moments (Mara, Tarantola & Annoni 2015,
+    doi:10.1016/j.envsoft.2015.07.010, sec. 4.1, linear models).
+    """
+    b = np.asarray(coefficients, dtype=float)
+    s = np.asarray(covariance, dtype=float)
+    d = b.size
+    total = float(b @ s @ b)
+    full = (s @ b) ** 2 / np.diag(s) / total
+    indep = np.empty(d)
+    for i in range(d):
+        rest = [k for k in range(d) if k != i]
+        cond = s[i, i] - (s[i, rest] @ np.linalg.solve(s[np.ix_(rest, rest)], s[rest, i])
+                          if rest else 0.0)
+        indep[i] = b[i] ** 2 * cond / total
+    return full, indep
 
 
 def linear_gaussian_shapley(coefficients: Sequence[float], covariance: np.ndarray

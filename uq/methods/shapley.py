@@ -27,7 +27,8 @@ if TYPE_CHECKING:  # pragma: no cover
 INDEX_VARIABLES = ("shapley_effect", "shapley_effect_ci", "shapley_group_effect",
                    "shapley_group_effect_ci", "shapley_rank", "shapley_group_rank",
                    "shapley_converged", "shapley_group_converged", "shapley_permutations_used",
-                   "shapley_output_variance")
+                   "shapley_output_variance", "full_first_index", "full_first_index_ci",
+                   "independent_total_index", "independent_total_index_ci")
 """Dataset variables of the Shapley effects (each carries ``method = "shapley"``)."""
 
 HOW_TO_READ = (
@@ -174,7 +175,7 @@ class Shapley(Method):
             for s, sc in enumerate(sa):
                 for k, o in enumerate(outputs):
                     eff = sc.shapley.get(o, (None, None))[which]
-                    if eff is not None:
+                    if eff is not None and getattr(eff, attr) is not None:
                         arr[s, k] = getattr(eff, attr)
             return arr
 
@@ -208,6 +209,16 @@ class Shapley(Method):
                                       ranks(which, size, pnames if which == 0 else gnames),
                                       "1", f"rank of each {who} by Shapley effect (1 = most "
                                       "influential)", {})
+        for attr, name, what in (
+                ("full_first", "full_first_index", "'full' first-order index Var(E[Y|X_i]) / "
+                 "Var(Y): what the parameter explains, through its correlated partners too"),
+                ("independent_total", "independent_total_index", "'independent' total index "
+                 "E[Var(Y|X_-i)] / Var(Y): what the parameter adds beyond everything "
+                 "correlated with it")):
+            data[name] = (("output", "parameter"), table(0, attr, n_p), "1", what, {})
+            data[f"{name}_ci"] = (("output", "parameter"), table(0, f"{attr}_ci", n_p), "1",
+                                  f"half-width of the {name.replace('_', ' ')}'s interval",
+                                  dict(interval))
         used = np.zeros((n_s, n_o), dtype=np.int64)
         var = np.full((n_s, n_o), np.nan)
         for s, sc in enumerate(sa):

@@ -9,9 +9,20 @@ from typing import Any
 __all__ = ["shapley_lines"]
 
 
-def _line(rank: int, item: Any) -> str:
+def _line(rank: int, item: Any, extra: str = "") -> str:
     ok = "ok" if item.converged else "WIDE"
-    return f"  {rank}. {item.name:<32} {item.total:6.3f} ± {item.total_ci:.3f}  {ok}"
+    return (f"  {rank}. {item.name:<32} {item.total:6.3f} ± {item.total_ci:.3f}  {ok:<4}"
+            f"{extra}").rstrip()
+
+
+def _extra(effects: Any, name: str) -> str:
+    """The full first-order and independent total index of one parameter, as text."""
+    if effects is None or effects.full_first is None:
+        return ""
+    k = list(effects.names).index(name)
+    return (f"   full first {effects.full_first[k]:6.3f} ± {effects.full_first_ci[k]:.3f}"
+            f"   independent total {effects.independent_total[k]:6.3f} ± "
+            f"{effects.independent_total_ci[k]:.3f}")
 
 
 def shapley_lines(study: Any, sc: Any, *, top: int,
@@ -45,8 +56,11 @@ def shapley_lines(study: Any, sc: Any, *, top: int,
         lines.append(f"Shapley effects ({'correlated' if study.correlations else 'independent'}"
                      f" inputs; {effects.permutations_used} permutations{dropped}; "
                      f"{100 * a.confidence:g} % bootstrap intervals; ok = half-width ≤ {thr}, "
-                     "WIDE = not converged; they sum to one):")
-    lines += [_line(r, item) for r, item in enumerate(ranking[:top], start=1)]
+                     "WIDE = not converged; they sum to one; beside them the 'full' first-order "
+                     "and 'independent' total index, Var(E[Y|X_i]) / Var(Y) and "
+                     "E[Var(Y|X_-i)] / Var(Y)):")
+    lines += [_line(r, item, _extra(effects, item.name))
+              for r, item in enumerate(ranking[:top], start=1)]
     if groups:
         lines.append("layers (sum of their parameters' Shapley effects):")
         lines += [_line(r, item) for r, item in enumerate(groups[:top], start=1)]
