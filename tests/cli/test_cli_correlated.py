@@ -63,6 +63,7 @@ def test_run_writes_shapley_effects(tmp_path):
     names = list(ds["parameter"].values)
     assert r[names.index("outer gap.width"), names.index("skin gap.width")] == 0.6
     assert "sobol_total" not in ds
+    assert "full_first_index" in ds and "independent_total_index_ci" in ds
     assert int(ds.attrs["evaluations"]) == 128 + 128 * 6 * 3
     ds.close()
     report = (tmp_path / "out" / "report.html").read_text()
