@@ -47,6 +47,8 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
+from plyrisk.design.copula import SPAWN
+
 __all__ = ["ShapleyEffects", "linear_gaussian_indices", "linear_gaussian_shapley",
            "rank_effects", "shapley_effects"]
 
@@ -231,7 +233,7 @@ def shapley_effects(y_joint: np.ndarray, y_cond: np.ndarray, permutations: np.nd
     # eq. S.2, S.3: the first and the last step of every permutation
     full = 1.0 - _by_input(c_last, last_in, d) / var
     indep = _by_input(c_first, first_in, d) / var
-    rng = np.random.default_rng(np.random.SeedSequence(int(seed), spawn_key=(11,)))
+    rng = np.random.default_rng(np.random.SeedSequence(int(seed), spawn_key=(SPAWN, 11)))
     boot = np.empty((int(n_bootstrap), d))
     boot_full = np.empty((int(n_bootstrap), d))
     boot_indep = np.empty((int(n_bootstrap), d))

@@ -34,13 +34,16 @@ from scipy import special
 if TYPE_CHECKING:  # pragma: no cover
     from plyrisk.study.correlations import Correlations
 
-__all__ = ["INNER_SAMPLES", "ShapleyLayout", "cholesky_factor", "correlate",
+__all__ = ["INNER_SAMPLES", "SPAWN", "ShapleyLayout", "cholesky_factor", "correlate",
            "iman_conover", "joint_design", "shapley_layout", "shapley_permutations", "shapley_rows"]
 
 INNER_SAMPLES = 3
 """Conditional draws per permutation step (N_I = 3, N_O = 1: the choice Song, Nelson & Staum
 2016 recommend for the random-permutation estimator)."""
 _EDGE = 2.0**-54
+SPAWN = 0x5348
+"""First spawn key of every random stream of this module (and of the Shapley bootstrap), kept
+apart from the spawned blocks ``(k,)`` of a random design drawn from the same seed."""
 
 
 def cholesky_factor(linear: np.ndarray) -> np.ndarray:
@@ -138,7 +141,7 @@ def iman_conover(unit: np.ndarray, linear: np.ndarray, *, seed: int,
     n = unit.shape[0]
     cols = np.arange(unit.shape[1]) if columns is None else np.asarray(columns, dtype=int)
     k = len(cols)
-    rng = np.random.default_rng(np.random.SeedSequence(seed, spawn_key=(7,)))
+    rng = np.random.default_rng(np.random.SeedSequence(seed, spawn_key=(SPAWN, 7)))
     base = special.ndtri(np.arange(1, n + 1) / (n + 1.0))
     scores = np.column_stack([rng.permutation(base) for _ in range(k)])
     e = np.corrcoef(scores, rowvar=False).reshape(k, k)
@@ -194,10 +197,11 @@ def joint_design(design: str, samples: int, names: Sequence[str], *, seed: int,
 def shapley_permutations(permutations: int, n_params: int, *, seed: int) -> np.ndarray:
     """The random permutations of a Shapley design, shape ``(m, d)`` [-].
 
-    Drawn by ``numpy.random.default_rng(numpy.random.SeedSequence(seed, spawn_key=(1,)))``,
+    Drawn by ``numpy.random.default_rng(numpy.random.SeedSequence(seed,
+    spawn_key=(SPAWN, 1)))``,
     so the analysis redraws the ones the design used.
     """
-    rng = np.random.default_rng(np.random.SeedSequence(int(seed), spawn_key=(1,)))
+    rng = np.random.default_rng(np.random.SeedSequence(int(seed), spawn_key=(SPAWN, 1)))
     return np.argsort(rng.random((int(permutations), int(n_params))), axis=1)
 
 
@@ -259,7 +263,7 @@ def shapley_rows(joint_unit: np.ndarray, linear: np.ndarray, *, permutations: in
         Random permutations m.
     seed
         Seed; permutations from :func:`shapley_permutations`, draws from
-        ``SeedSequence(seed, spawn_key=(2,))``.
+        ``SeedSequence(seed, spawn_key=(SPAWN, 2))``.
     inner
         Conditional draws per step.
 
@@ -275,7 +279,7 @@ def shapley_rows(joint_unit: np.ndarray, linear: np.ndarray, *, permutations: in
     lower = cholesky_factor(r)
     m = int(permutations)
     perms = shapley_permutations(m, d, seed=seed)
-    rng = np.random.default_rng(np.random.SeedSequence(int(seed), spawn_key=(2,)))
+    rng = np.random.default_rng(np.random.SeedSequence(int(seed), spawn_key=(SPAWN, 2)))
     steps = d - 1
     outer = rng.standard_normal((m, max(steps, 1), d)) @ lower.T
     eps = rng.standard_normal((m, max(steps, 1), inner, d))

@@ -23,7 +23,7 @@ doi:10.1093/imanum/22.3.329) with a floor on its eigenvalues, and the change is 
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
@@ -129,7 +129,7 @@ def nearest_correlation(matrix: np.ndarray, *, floor: float = 10 * MIN_EIGENVALU
     return (y + y.T) / 2.0
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class Correlations:
     """Validated rank correlations of a study (the ``[correlations]`` section).
 
@@ -153,7 +153,6 @@ class Correlations:
     linear: np.ndarray
     lhs_reordering: str = "copula"
     repair_note: str = ""
-    _given: tuple[tuple[str, str, float], ...] = field(default=(), repr=False)
 
     @property
     def is_independent(self) -> bool:
@@ -345,5 +344,4 @@ def parse_correlations(ctx: Context, raw: Any, parsed: dict) -> dict:
                 f"valid matrix; largest change {float(change[ia, ib]):.3f}, {order[ia]} with "
                 f"{order[ib]}: {rank[ia, ib]:+.3f} -> {new_rank[ia, ib]:+.3f}")
         rank = new_rank
-    given = tuple((a, b, v) for a, b, v, _ in entries)
-    return {"correlations": Correlations(tuple(order), rank, linear, reorder, note, given)}
+    return {"correlations": Correlations(tuple(order), rank, linear, reorder, note)}
