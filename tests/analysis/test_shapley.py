@@ -60,7 +60,7 @@ def test_estimates_of_a_correlated_linear_model():
     r[3, 0] = r[0, 3] = -0.5                  # ... but is correlated with x0
     r[1, 4] = r[4, 1] = 0.3
     exact = linear_gaussian_shapley(b, r * np.outer(s, s))
-    sh, grp = estimate(lambda z: (z * s) @ b, r, n=20_000, m=6000, seed=7, confidence=0.99,
+    sh, grp = estimate(lambda z: (z * s) @ b, r, n=20_000, m=12_000, seed=7, confidence=0.99,
                        groups=[(0, 3), (1, 2), (4,)], group_names=["a", "b", "c"])
     assert sh.effect.sum() == pytest.approx(1.0, abs=1e-12)
     assert np.all(np.abs(sh.effect - exact) <= sh.effect_ci)

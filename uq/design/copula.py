@@ -284,21 +284,26 @@ def shapley_rows(joint_unit: np.ndarray, linear: np.ndarray, *, permutations: in
     outer = rng.standard_normal((m, max(steps, 1), d)) @ lower.T
     eps = rng.standard_normal((m, max(steps, 1), inner, d))
     z = np.repeat(outer[:, :, None, :], inner, axis=2)  # (m, steps, inner, d)
-    cache: dict[int, tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]] = {}
-    for k in range(m):
-        for j in range(steps):
-            chosen = np.sort(perms[k, :j + 1])
-            key = int(np.sum(1 << chosen))
-            if key not in cache:
-                rest = np.setdiff1d(np.arange(d), chosen)
-                r_cc = r[np.ix_(rest, rest)]
-                r_jc = r[np.ix_(chosen, rest)]
-                gain = np.linalg.solve(r_cc, r_jc.T).T          # R_JC R_CC^-1
-                cov = r[np.ix_(chosen, chosen)] - gain @ r_jc.T
-                cov = (cov + cov.T) / 2.0
-                cache[key] = (chosen, rest, gain, np.linalg.cholesky(cov))
-            chosen, rest, gain, chol = cache[key]
-            mean = gain @ outer[k, j, rest]
-            z[k, j][:, chosen] = mean + eps[k, j, :, :len(chosen)] @ chol.T
+    # the set J of step j of permutation k, as a bit mask; every (k, j) with the same set
+    # shares the conditional mean gain and covariance factor, drawn in one batch
+    bits = np.cumsum(1 << perms[:, :steps].astype(np.int64), axis=1) if steps else None
+    if steps:
+        flat_z = z.reshape(m * steps, inner, d)
+        flat_outer = outer.reshape(m * steps, d)
+        flat_eps = eps.reshape(m * steps, inner, d)
+        keys = bits.reshape(-1)
+        for key in np.unique(keys):
+            where = np.flatnonzero(keys == key)
+            chosen = np.flatnonzero((int(key) >> np.arange(d)) & 1)
+            rest = np.setdiff1d(np.arange(d), chosen)
+            r_jc = r[np.ix_(chosen, rest)]
+            gain = np.linalg.solve(r[np.ix_(rest, rest)], r_jc.T).T      # R_JC R_CC^-1
+            cov = r[np.ix_(chosen, chosen)] - gain @ r_jc.T
+            chol = np.linalg.cholesky((cov + cov.T) / 2.0)
+            mean = flat_outer[np.ix_(where, rest)] @ gain.T               # (n, |J|)
+            block = flat_z[where]
+            block[:, :, chosen] = mean[:, None, :] + flat_eps[where][:, :, :len(chosen)] @ chol.T
+            flat_z[where] = block
+        z = flat_z.reshape(m, steps, inner, d)
     cond = _phi(z.reshape(-1, d)) if steps else np.empty((0, d))
     return np.vstack([joint_unit, cond])
