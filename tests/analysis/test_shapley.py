@@ -197,3 +197,20 @@ def test_full_first_and_independent_total_indices_of_a_correlated_linear_model()
     full0, indep0 = linear_gaussian_indices(b, np.diag(s**2))
     assert np.allclose(full0, indep0)
     assert np.allclose(full0, linear_gaussian_shapley(b, np.diag(s**2)))
+
+
+def test_results_do_not_depend_on_the_chunk_size():
+    from plyrisk.methods import get_method
+    from plyrisk.propagate.evaluate import propagate
+    from plyrisk.study.config import loads_study
+
+    text = STACK.replace("samples = 4096", "samples = 64").replace(
+        "permutations = 12000", "permutations = 40")
+    study = loads_study(text, source="stack.toml")
+    method = get_method("shapley")
+    effects = []
+    for chunk in (None, 37):
+        prop = propagate(study, chunk_size=chunk, quiet=True)
+        effects.append(method.analyse(study, prop).scenarios[0].shapley["exposed face"][0])
+    assert np.array_equal(effects[0].effect, effects[1].effect)
+    assert np.array_equal(effects[0].effect_ci, effects[1].effect_ci)
