@@ -52,6 +52,7 @@ def test_independent_gaussian_linear_model_has_variance_shares():
         b**2 * s**2))
 
 
+@pytest.mark.slow
 def test_estimates_of_a_correlated_linear_model():
     b = np.array([1.0, 1.0, 1.0, 0.0, 2.0])   # x3 has no effect of its own
     s = np.array([1.0, 1.5, 0.5, 1.0, 0.5])
