@@ -201,7 +201,7 @@ def cmd_run(args: argparse.Namespace) -> int:
     from plyrisk.results.dataset import write_results
     from plyrisk.results.files import OutputSet, decide, folder_lock
     from plyrisk.study.config import load_study, require_runnable
-    from plyrisk.tolerances.output import manufacturing_table
+    from plyrisk.tolerances.output import manufacturing_table, shapley_shares
     from plyrisk.tolerances.study import run_tolerances, settings_for_study
 
     study = load_study(args.config)
@@ -252,7 +252,10 @@ def cmd_run(args: argparse.Namespace) -> int:
                           args.quiet)
                     full = (result.screening.study if result.screening is not None
                             else result.study)
-                    rows = manufacturing_table(run_tolerances(full), full)
+                    tol = run_tolerances(full)
+                    shares = shapley_shares(tol, result.analysis)  # correlated: Shapley
+                    rows = manufacturing_table(tol, full, indices=shares,
+                                               index_name="Shapley effect")
                 phase("report: figures, tables, report.html", args.quiet)
                 lines.append(_write_report(result.dataset, out.staging, rows, shown=out_dir))
             text = "\n".join(lines) + "\n"

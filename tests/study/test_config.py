@@ -383,7 +383,8 @@ def test_duplicate_scenario_level():
 
 def test_sections_registry_order():
     assert list(SECTIONS) == ["study", "model", "exposure", "hot_side", "layer", "wearer",
-                             "cold_side", "scenarios", "tolerances", "screening", "compute"]
+                             "cold_side", "scenarios", "tolerances", "screening", "compute",
+                             "correlations"]
 
 
 def test_every_bad_config_is_labelled():

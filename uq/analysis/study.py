@@ -85,6 +85,9 @@ class ScenarioAnalysis:
         cross-validation error) is at most ``pce_max_loo_error`` (else ``None``) [K].
     surrogate_quantile_status
         Why the surrogate's quantiles were computed or refused [-].
+    shapley
+        Output name → (per-parameter, per-layer)
+        :class:`plyrisk.analysis.shapley.ShapleyEffects` (``method = "shapley"``), else empty.
     """
 
     inner_quantiles: QuantileEstimate
@@ -101,6 +104,7 @@ class ScenarioAnalysis:
     air_range_samples: int = 0
     surrogate_quantiles: np.ndarray | None = None
     surrogate_quantile_status: str = ""
+    shapley: dict[str, tuple] = field(default_factory=dict)
 
 
 @dataclass(frozen=True)
@@ -134,6 +138,8 @@ class IndexResult:
         Output → one line on the surrogate fit behind its indices (transient studies).
     screening
         Output → Morris measures (``method = "morris"`` on a transient study).
+    shapley
+        Output → (per-parameter, per-layer) Shapley effects (``method = "shapley"``).
     """
 
     indices: dict[str, tuple[SobolIndices, SobolIndices | None]] = field(default_factory=dict)
@@ -145,6 +151,7 @@ class IndexResult:
     surrogate_quantile_status: str = ""
     quality: dict[str, str] = field(default_factory=dict)
     screening: dict[str, object] = field(default_factory=dict)
+    shapley: dict[str, tuple] = field(default_factory=dict)
 
 
 def analysis_for(study: Study):
@@ -237,6 +244,7 @@ def analyse(study: Study, propagation: Propagation, *,
                 surrogate_groups=ix.surrogate_groups,
                 surrogate_quantiles=ix.surrogate_quantiles,
                 surrogate_quantile_status=ix.surrogate_quantile_status,
+                shapley=ix.shapley,
                 onset_samples=int(np.sum(np.any(
                     propagation.outputs["convection_onset"][s], axis=1))),
                 air_range_samples=int(np.sum(propagation.outputs["air_range_exceeded"][s])),

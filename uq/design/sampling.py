@@ -117,7 +117,7 @@ class Design:
             For a Sobol' design the A and B rows (2N rows; quasi-random, not i.i.d.); all rows
             otherwise.
         """
-        if self.method == "sobol":
+        if self.method in ("sobol", "shapley"):  # shapley: the joint draws (block 0)
             return np.flatnonzero(self.block <= 1)
         return np.arange(self.n_rows)
 

@@ -2,24 +2,26 @@
 
 :data:`METHODS` maps each ``[study] method`` value to its :class:`~plyrisk.methods.base.Method`
 object (one module each: :mod:`~plyrisk.methods.saltelli`, :mod:`~plyrisk.methods.pce`,
-:mod:`~plyrisk.methods.morris`). The config reader, ``--method`` and ``--help`` read their
-choices from it. To add a method, write a module with a :class:`Method` subclass and a
-``METHOD`` instance, and list it here (DEVELOPERS.md, "Adding a method").
+:mod:`~plyrisk.methods.morris`, :mod:`~plyrisk.methods.shapley`). The config reader,
+``--method`` and ``--help`` read their choices from it. To add a method, write a module with a
+:class:`Method` subclass and a ``METHOD`` instance, and list it here (DEVELOPERS.md, "Adding a
+method").
 
 Examples
 --------
 >>> sorted(METHODS)
-['morris', 'pce', 'saltelli']
+['morris', 'pce', 'saltelli', 'shapley']
 >>> get_method("pce").designs
 ('lhs', 'sobol', 'random')
 """
 
 from __future__ import annotations
 
-from plyrisk.methods import morris, pce, saltelli
+from plyrisk.methods import morris, pce, saltelli, shapley
 from plyrisk.methods.base import Method
 
-METHODS: dict[str, Method] = {m.METHOD.name: m.METHOD for m in (saltelli, pce, morris)}
+METHODS: dict[str, Method] = {m.METHOD.name: m.METHOD for m in (saltelli, pce, morris,
+                                                                      shapley)}
 """Every analysis method, by its ``[study] method`` name (the first is the default)."""
 
 RENAMED_METHODS = {

@@ -78,6 +78,13 @@ class Method:
     samples_distributions
         Its design samples the joint input distribution, so percentiles and probabilities come
         from it (False for a Morris grid).
+    handles_dependence
+        Correct for correlated inputs (a ``[correlations]`` section); the others are refused
+        with ``independence`` (why) in a one-line error.
+    supports_transient
+        Applies to transient studies too.
+    builds_design
+        Builds its whole design itself (:meth:`make_design`) instead of a design plan.
     """
 
     name: ClassVar[str]
@@ -91,6 +98,10 @@ class Method:
     fits_surrogate: ClassVar[bool] = False
     writes_report: ClassVar[bool] = True
     samples_distributions: ClassVar[bool] = True
+    handles_dependence: ClassVar[bool] = False
+    supports_transient: ClassVar[bool] = True
+    builds_design: ClassVar[bool] = False
+    independence: ClassVar[str] = "assumes independent inputs"
 
     # -- config facts -------------------------------------------------------------------------
     @property
@@ -101,6 +112,11 @@ class Method:
     def design_kind(self, study: Study) -> str:
         """The :class:`plyrisk.design.sampling.DesignPlan` kind of the study's design."""
         return study.analysis.design
+
+    def make_design(self, study: Study) -> Any:
+        """The whole design when the method builds its own (else ``None``: the design plan of
+        :func:`plyrisk.propagate.evaluate.study_plan`)."""
+        return None
 
     def describe(self, study: Study) -> str:
         """What the study computes and from which design, for ``plyrisk check``."""

@@ -29,6 +29,7 @@ class Morris(Method):
     """Morris screening: mu*, mu, sigma and the inputs safe to fix."""
 
     name = "morris"
+    independence = "moves one input at a time along independent grids, which ignores dependence"
     summary = "Morris elementary-effects screening: which inputs matter, which are safe to " \
               "fix (no percentiles)"
     designs = ("morris",)

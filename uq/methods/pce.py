@@ -28,6 +28,8 @@ class PolynomialChaos(Method):
     """Sobol' indices from a polynomial-chaos surrogate of the inner-surface temperature."""
 
     name = "pce"
+    independence = ("fits a polynomial chaos in independent inputs, whose Sobol indices assume "
+                    "independence")
     summary = "polynomial-chaos surrogate fitted to Latin-hypercube, Sobol' or random " \
               "samples: indices from its coefficients (far fewer runs than saltelli)"
     designs = ("lhs", "sobol", "random")

@@ -42,6 +42,8 @@ class Saltelli(Method):
     """Sobol' first-order and total indices from a Saltelli design."""
 
     name = "saltelli"
+    independence = ("computes Sobol indices, which assume independent inputs (the AB blocks "
+                    "swap one input at a time and break any dependence)")
     summary = "Sobol' indices (first-order, total; per parameter and per layer) from a " \
               "Saltelli design of a scrambled Sobol' sequence"
     designs = ("sobol",)

@@ -288,6 +288,8 @@ def study_plan(study: Study) -> DesignPlan:
     a = study.analysis
     if a.design == "morris":
         raise ValueError("Morris trajectories are built whole; they have no design plan")
+    if get_method(a.method).builds_design:
+        raise ValueError(f"method {a.method!r} builds its design whole; it has no design plan")
     kind = get_method(a.method).design_kind(study)
     groups = parameter_groups(study)[1]
     return DesignPlan(
@@ -304,6 +306,9 @@ def study_plan(study: Study) -> DesignPlan:
 def study_design(study: Study) -> Design:
     """The whole unit-hypercube design of a study (see :func:`study_plan`)."""
     a = study.analysis
+    own = get_method(a.method).make_design(study)
+    if own is not None:
+        return own
     if a.design == "morris":
         return morris_design(int(a.samples), len(study.parameters), seed=int(a.seed),
                              levels=int(a.levels))

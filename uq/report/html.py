@@ -32,6 +32,13 @@ import xarray as xr
 from plyrisk.cautions import CAUTIONS
 from plyrisk.report.csv_tables import write_csv, write_csv_tables
 from plyrisk.report.figures import outputs as fg
+from plyrisk.report.shapley import (
+    dependence_assumptions,
+    has_shapley,
+    shapley_paragraphs,
+    shapley_tables,
+    write_shapley_csv,
+)
 from plyrisk.report.tables import (
     Table,
     cell_text,
@@ -353,7 +360,7 @@ def write_report(
     out.mkdir(parents=True, exist_ok=True)
     figs = report_figures(ds)
     fig_paths, embedded = _save(figs, out / "figures")
-    tables = write_csv_tables(ds, out)
+    tables = write_csv_tables(ds, out) + write_shapley_csv(ds, out)
     if tol is not None:
         columns, records = tol
         tables.append(write_csv(out / "tolerances.csv", columns,
@@ -430,7 +437,10 @@ def _html_lines(ds: xr.Dataset, c: _Content) -> list[str]:
     h += [_html_table(t) for t in quantile_tables(ds)]
     h.append(f"<p>{_esc(quantile_note(ds))}</p>")
     h.append("<h2>Ranking: which inputs and layers matter</h2>")
-    if "sobol_total" not in ds:
+    if has_shapley(ds):
+        h += [f"<p>{_esc(t)}</p>" for t in shapley_paragraphs(ds)]
+        h += [_html_table(t) for t in shapley_tables(ds)]
+    elif "sobol_total" not in ds:
         h.append(f"<p>{_esc(NO_SOBOL)}</p>")
     h += [_html_table(t) for t in ranking]
     h.append("<h2>Figures</h2>")
@@ -453,7 +463,7 @@ def _html_lines(ds: xr.Dataset, c: _Content) -> list[str]:
           "from every statistic and counted here; nothing is clipped.</p>",
           _html_table(nonconverged_table(ds))]
     h.append("<h2>Assumptions and limits of the model</h2><ul>"
-             + "".join(f"<li>{_esc(a)}</li>" for a in ASSUMPTIONS)
+             + "".join(f"<li>{_esc(a)}</li>" for a in dependence_assumptions(ds, ASSUMPTIONS))
              + "".join(f"<li>{_esc(n)}</li>" for n in notes) + "</ul>")
     h.append(_cautions_html())
     h += ["<h2>Provenance</h2>", _html_table(provenance_table(ds)),
@@ -472,7 +482,12 @@ def _markdown_lines(ds: xr.Dataset, c: _Content, out: Path, files: list[Path]) -
     m += [f"- {v}" for v in verdicts]
     if crossing is not None:
         m += ["", f"**{crossing.text}** (linear interpolation between swept levels)"]
-    m += ["", "## Ranking", ""] + ([NO_SOBOL, ""] if "sobol_total" not in ds else [])
+    m += ["", "## Ranking", ""]
+    if has_shapley(ds):
+        m += [x for t in shapley_paragraphs(ds) for x in (t, "")]
+        m += [x for t in shapley_tables(ds) for x in (_md_table(t), "")]
+    elif "sobol_total" not in ds:
+        m += [NO_SOBOL, ""]
     for t in ranking:
         m += [_md_table(Table(t.header, t.rows[:TOP_COUNT], t.caption
                               + (f" (top {TOP_COUNT})" if len(t.rows) > TOP_COUNT else ""))), ""]

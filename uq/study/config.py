@@ -37,6 +37,7 @@ from plyrisk.models.boundary import COLD_SIDE_KINDS, HOT_SIDE_KINDS
 from plyrisk.models.stack import Gap, Solid, StackError, validate_stack
 from plyrisk.models.wearer import Wearer
 from plyrisk.study import values as cv
+from plyrisk.study.correlations import parse_correlations
 from plyrisk.study.definition import (
     Analysis,
     ModelOptions,
@@ -243,6 +244,7 @@ SECTIONS: dict[str, Parser] = {
     "tolerances": parse_tolerances,
     "screening": parse_screening,
     "compute": parse_compute,
+    "correlations": parse_correlations,
 }
 """Top-level sections in parse order: name → parser returning :class:`Study` fields."""
 
@@ -405,6 +407,10 @@ def override(study: Study, *, samples: int | None = None, seed: int | None = Non
         except ValueError as err:
             raise ValueError(f"--method: {err}") from None
         design = chosen.default_design
+        if study.correlations is not None and not chosen.handles_dependence:
+            raise ValueError(f"--method {method}: the config has a [correlations] section and "
+                             f"method {method!r} {chosen.independence}; use a method for "
+                             "dependent inputs (shapley)")
         if a.lhs_optimization is not None and design != "lhs":
             raise ValueError(f"--method {method}: the config's study.lhs_optimization applies "
                              "to method = pce with design = lhs only; remove it from the config")

@@ -28,6 +28,7 @@ from plyrisk.study.distributions import Distribution
 from plyrisk.study.units import QUANTITIES, TEMPERATURE, QuantitySpec, format_value, from_si
 
 if TYPE_CHECKING:  # pragma: no cover
+    from plyrisk.study.correlations import Correlations
     from plyrisk.study.settings import ScreeningSettings, ToleranceSettings
 
 __all__ = ["Analysis", "ComputeOptions", "ModelOptions", "Parameter", "Scenarios", "Study",
@@ -239,6 +240,8 @@ class Analysis:
     replicates
         Independently scrambled replicates R of the Saltelli design (saltelli); ``samples`` is
         R times a power of 2, and every interval comes from the spread of the replicates.
+    permutations
+        Random permutations of the Shapley estimator (shapley); 0 = as many as ``samples``.
     """
 
     method: str
@@ -257,6 +260,7 @@ class Analysis:
     screening_threshold: float = 0.1
     pce_max_loo_error: float = 1e-3
     replicates: int = 8
+    permutations: int = 0
 
 
 @dataclass(frozen=True)
@@ -387,7 +391,9 @@ class Study:
     ``[tolerances]`` settings (:class:`plyrisk.study.settings.ToleranceSettings`) and ``screening``
     the ``[screening]`` settings (:class:`plyrisk.study.settings.ScreeningSettings`), ``None``
     when the
-    section is absent. ``max_temperatures`` holds each layer's rated maximum temperature
+    section is absent. ``correlations`` holds the ``[correlations]`` section
+    (:class:`plyrisk.study.correlations.Correlations`), ``None`` for independent inputs.
+    ``max_temperatures`` holds each layer's rated maximum temperature
     (``max_temperature`` of a solid layer) [K], ``None`` where the layer has none.
     """
 
@@ -407,6 +413,7 @@ class Study:
     screening: ScreeningSettings | None = None
     max_temperatures: tuple[float | None, ...] = ()
     transient: TransientSetup | None = None
+    correlations: Correlations | None = None
 
     def steady_sides(self) -> tuple[HotSide, ColdSide]:
         """The hot and cold sides of a steady study (a transient study has none) [-]."""

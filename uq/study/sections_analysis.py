@@ -36,7 +36,7 @@ _STUDY_REQUIRED = ("title", "method", "samples", "seed", "limit")
 _STUDY_OPTIONAL = (
     "percentiles", "confidence", "bootstrap", "index_ci_threshold", "chunk_size",
     "lhs_optimization", "outputs", "design", "levels", "screening_threshold",
-    "pce_max_loo_error", "replicates",
+    "pce_max_loo_error", "replicates", "permutations",
 )  # fmt: skip
 _TRANSIENT_OPTIONAL = ("acceptable_burn_probability",)
 TRANSIENT_CHUNK_SIZE = 256
@@ -53,9 +53,9 @@ def _method(ctx: Context, raw: Any) -> Method:
     return METHODS[cv.choice(ctx, raw, "study.method", tuple(METHODS), "method")]
 
 
-def _only_for(key: str) -> Method | None:
-    """The one method a ``[study]`` key applies to, if any."""
-    return next((m for m in METHODS.values() if key in m.only_keys), None)
+def _only_for(key: str) -> tuple[Method, ...]:
+    """The methods a ``[study]`` key applies to (empty: every method)."""
+    return tuple(m for m in METHODS.values() if key in m.only_keys)
 
 
 def levels_value(ctx: Context, raw: Any, path: str) -> int:
@@ -92,10 +92,14 @@ def parse_study_section(ctx: Context, raw: Any, parsed: dict) -> dict:
             ctx, t["acceptable_burn_probability"], "study.acceptable_burn_probability")
     title = cv.string(ctx, t["title"], "study.title")
     method = _method(ctx, t["method"])
+    if transient and not method.supports_transient:
+        raise ctx.error("study.method", f"method {method.name!r} applies to steady studies "
+                        "only (a study without [exposure]); use saltelli, pce or morris")
     for key in t:
         only = _only_for(key)
-        if only is not None and only is not method:
-            raise ctx.error(f"study.{key}", f"applies only to method = '{only.name}', not "
+        if only and method not in only:
+            names = " or ".join(f"'{m.name}'" for m in only)
+            raise ctx.error(f"study.{key}", f"applies only to method = {names}, not "
                             f"{method.name!r}; remove it")
     design = (cv.choice(ctx, t["design"], "study.design", method.designs, "design")
               if "design" in t else method.default_design)
@@ -112,6 +116,9 @@ def parse_study_section(ctx: Context, raw: Any, parsed: dict) -> dict:
     }
     if "replicates" in t:
         kw["replicates"] = replicates
+    if "permutations" in t:
+        kw["permutations"] = cv.integer(ctx, t["permutations"], "study.permutations",
+                                        minimum=MIN_SAMPLES)
     if "levels" in t:
         kw["levels"] = levels_value(ctx, t["levels"], "study.levels")
     if "screening_threshold" in t:

@@ -119,8 +119,11 @@ def _parameter_lines(study: Study) -> list[str]:
         rows.append([p.name, p.describe(), p.format(d.mean),
                      f"{lo_u:.4g} .. {hi_u:.4g} {p.unit}".rstrip(), p.truncation()])
     header = ["parameter", "distribution", "mean", "5-95 % range", "truncation"]
+    from plyrisk.text.correlations import correlation_lines
+
     return ([f"Uncertain parameters ({len(rows)})"] + text_table(header, rows)
-            + [f"  {w}" for w in truncation_warnings(study.parameters)])
+            + [f"  {w}" for w in truncation_warnings(study.parameters)]
+            + correlation_lines(study))
 
 
 def _solution_lines(study: Study, sol: NetworkSolution) -> list[str]:

@@ -79,6 +79,10 @@ def index_lines(study: Study, sc, *, top: int, temperature: Callable[[float], st
     ranking = sc.ranking.get("inner_surface_temperature")
     if not ranking:
         return []
+    if getattr(sc, "shapley", None):
+        from plyrisk.text.shapley import shapley_lines
+
+        return shapley_lines(study, sc, top=top)
     lines = []
     thr = f"±{a.index_ci_threshold:g}"
     if sc.surrogate is not None:

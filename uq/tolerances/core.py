@@ -14,6 +14,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from plyrisk.analysis.statistics import exceedance, quantiles
+from plyrisk.design.copula import correlate
 from plyrisk.design.sampling import make_design
 from plyrisk.study.distributions import Distribution
 from plyrisk.study.settings import BASES, DEFAULT_TARGET, METHODS, ToleranceSettings
@@ -31,7 +32,8 @@ XTOL = 1e-5          # bisection stops at this fraction of the searched range
 
 @dataclass(frozen=True)
 class ToleranceProblem:
-    """Independent uncertain inputs, a model and a limit.
+    """Uncertain inputs (independent, or dependent through a Gaussian copula), a model and a
+    limit.
 
     Parameters
     ----------
@@ -46,6 +48,10 @@ class ToleranceProblem:
         Limit of the output; "exceed" means strictly above it [K].
     scenario_labels
         Names of the exposures, one per output row; empty for one exposure.
+    correlation
+        Linear correlation of the inputs' normal scores (a Gaussian copula, see
+        :mod:`plyrisk.design.copula`), shape ``(d, d)``; ``None`` for independent inputs.
+        The copula acts in the unit cube, so a changed spread keeps the dependence [-].
     """
 
     names: tuple[str, ...]
@@ -53,6 +59,7 @@ class ToleranceProblem:
     evaluate: Callable[[np.ndarray], np.ndarray]
     limit: float
     scenario_labels: tuple[str, ...] = ()
+    correlation: np.ndarray | None = None
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "names", tuple(self.names))
@@ -180,6 +187,11 @@ class Runner:
                             else REPORT_PROBABILITY)
         d = len(problem.names)
         self.unit = make_design(settings.method, settings.samples, d, seed=self.seed).unit
+        if problem.correlation is not None:
+            r = np.asarray(problem.correlation, dtype=float)
+            cols = np.flatnonzero(np.any((r - np.eye(d)) != 0.0, axis=1))
+            if cols.size:
+                self.unit = correlate(self.unit, r[np.ix_(cols, cols)], columns=cols)
         self.base = np.empty_like(self.unit)
         for j, dist in enumerate(problem.distributions):
             self.base[:, j] = dist.ppf(self.unit[:, j])

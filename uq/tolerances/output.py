@@ -14,6 +14,7 @@ import math
 from collections.abc import Mapping, Sequence
 from dataclasses import asdict, dataclass, replace
 from pathlib import Path
+from typing import Any
 
 from plyrisk.cautions import cautions_text
 from plyrisk.study.definition import Parameter, Study
@@ -22,7 +23,34 @@ from plyrisk.study.units import TEMPERATURE, from_si
 from plyrisk.text.tables import text_table
 from plyrisk.tolerances.study import Outcome, ToleranceReport
 
-__all__ = ["ManufacturingRow", "manufacturing_table", "tolerance_text", "write_tolerance_csv"]
+__all__ = ["CORRELATED_SHARE", "ManufacturingRow", "manufacturing_table", "shapley_shares",
+           "tolerance_text", "write_tolerance_csv"]
+
+CORRELATED_SHARE = ("n/a with correlated inputs (holding one input at nominal also drops its "
+                    "correlation); see the Shapley effects of plyrisk run")
+"""``share_source`` of a correlated study without Shapley effects."""
+
+
+def shapley_shares(report: ToleranceReport, analysis: Any) -> dict[str, float] | None:
+    """Shapley effects of the inner-surface temperature at the tolerance study's worst exposure,
+    by parameter name, for :func:`manufacturing_table`; ``None`` without Shapley effects.
+
+    Parameters
+    ----------
+    report
+        The tolerance results [-].
+    analysis
+        The study's :class:`plyrisk.analysis.study.StudyAnalysis` [-].
+    """
+    scenarios = getattr(analysis, "scenarios", None) or []
+    if not scenarios:
+        return None
+    s = min(int(report.whatif.baseline.scenario), len(scenarios) - 1)
+    effects = getattr(scenarios[s], "shapley", {}).get("inner_surface_temperature")
+    if not effects:
+        return None
+    ind = effects[0]
+    return {n: float(v) for n, v in zip(ind.names, ind.effect, strict=True)}
 
 
 @dataclass(frozen=True)
@@ -38,9 +66,12 @@ class ManufacturingRow:
     variance_share
         Share of the output variance: Var(Y - Y_0) / Var(Y) over the CRN pairs with the
         parameter held at its nominal (:attr:`plyrisk.tolerances.whatif.WhatIf.variance_share`),
-        or the Sobol total index when given.
+        or the index given (Sobol total index; Shapley effect with correlated inputs). With
+        correlated inputs and no index given: NaN (holding one input at nominal also removes
+        its correlation, so that ratio is no share of the variance).
     share_source
-        ``"held at nominal (CRN)"`` or ``"Sobol total index"``.
+        ``"held at nominal (CRN)"``, ``"Sobol total index"``, ``"Shapley effect"`` or why
+        there is none.
     quantile_label
         The quantile reported, e.g. ``"P95"``.
     quantile_if_halved
@@ -117,7 +148,8 @@ def _recommended(p: Parameter, factor: float, status: str, kept: bool = False) -
 
 
 def manufacturing_table(report: ToleranceReport, study: Study, *,
-                        indices: Mapping[str, float] | None = None) -> list[ManufacturingRow]:
+                        indices: Mapping[str, float] | None = None,
+                        index_name: str = "Sobol total index") -> list[ManufacturingRow]:
     """One row per parameter: spec, variance share, tightened quantile, recommendation.
 
     Parameters
@@ -127,7 +159,10 @@ def manufacturing_table(report: ToleranceReport, study: Study, *,
     study
         The study.
     indices
-        Sobol total index per parameter name to use as the variance share.
+        Sobol total index (or, with correlated inputs, Shapley effect) per parameter name to use
+        as the variance share (see :func:`shapley_shares`).
+    index_name
+        What ``indices`` are, for ``share_source``.
 
     Returns
     -------
@@ -139,8 +174,10 @@ def manufacturing_table(report: ToleranceReport, study: Study, *,
     rows = []
     for j, (p, w) in enumerate(zip(study.parameters, report.whatif.rows, strict=True)):
         share, source = w.variance_share, "held at nominal (CRN)"
+        if study.correlations is not None:
+            share, source = math.nan, CORRELATED_SHARE
         if indices is not None and p.name in indices:
-            share, source = float(indices[p.name]), "Sobol total index"
+            share, source = float(indices[p.name]), index_name
         factor = float(alloc.factors[j]) if alloc.status != "infeasible" else math.nan
         rows.append(ManufacturingRow(
             parameter=p.name, layer=p.group, current_spec=p.describe(), variance_share=share,
@@ -282,7 +319,7 @@ def tolerance_text(report: ToleranceReport, study: Study, *,
                      _t(study, w.nominal.worst_quantile),
                      _t(study, w.nominal.worst_quantile - base.worst_quantile, difference=True),
                      _pct(w.halved.worst_exceedance), _pct(w.nominal.worst_exceedance),
-                     _pct(w.variance_share)])
+                     "n/a" if study.correlations is not None else _pct(w.variance_share)])
     out += ["", "What-if: one parameter tightened, the others as specified (worst exposure)"]
     out += text_table(["parameter", f"{label} halved", "change", f"{label} at nominal", "change",
                    "P(exceed) halved" if not flip else "P(event) halved",
@@ -323,6 +360,12 @@ def tolerance_text(report: ToleranceReport, study: Study, *,
                     f"{r.quantile_if_halved:.4g} {r.temperature_unit}", r.recommended_spec,
                     r.target] for r in table])
     notes = _notes(report)
+    if study.correlations is not None:
+        notes.append("inputs correlated ([correlations]): every run draws its design through "
+                     "the Gaussian copula, so a changed spread keeps the dependence; the "
+                     "variance share is left out (n/a) because holding one input at nominal "
+                     "also removes its correlation; the Shapley effects of plyrisk run give "
+                     "the shares")
     if notes:
         out += ["", "Notes"] + [f"  - {n}" for n in notes]
     if csv_path is not None:

@@ -223,7 +223,8 @@ def problem_from_study(study: Study, target: Target | None = None, *,
         return np.where(out["converged"], out["inner_surface_temperature"], np.nan)
 
     labels = tuple(study.scenarios.labels) if study.scenarios is not None else ()
-    return ToleranceProblem(names, dists, model, float(study.analysis.limit), labels)
+    corr = None if study.correlations is None else study.correlations.full_linear(names)
+    return ToleranceProblem(names, dists, model, float(study.analysis.limit), labels, corr)
 
 
 def settings_for_study(study: Study, *, target: str | None = None, samples: int | None = None,

@@ -1,0 +1,217 @@
+"""Shapley effects against closed forms: a linear model of Gaussian inputs (correlated and
+not), an additive model with independent inputs, and the steady network itself (the exposed
+face of an all-solid stack under a prescribed flux is linear in the thicknesses)."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from scipy import special
+
+from plyrisk.analysis.shapley import (
+    linear_gaussian_indices,
+    linear_gaussian_shapley,
+    shapley_effects,
+)
+from plyrisk.design.copula import shapley_permutations, shapley_rows
+from plyrisk.design.sampling import random_design
+
+
+def estimate(model, linear: np.ndarray, *, n: int, m: int, seed: int, confidence: float = 0.9,
+             groups=None, group_names=()):
+    """Run the estimator on a model of the normal scores."""
+    d = linear.shape[0]
+    lower = np.linalg.cholesky(linear)
+    joint = special.ndtr(special.ndtri(random_design(n, d, seed=seed).unit) @ lower.T)
+    rows = shapley_rows(np.clip(joint, 1e-16, 1 - 1e-16), linear, permutations=m, seed=seed)
+    y = model(special.ndtri(rows))
+    return shapley_effects(y[:n], y[n:], shapley_permutations(m, d, seed=seed),
+                           names=[f"x{i}" for i in range(d)], confidence=confidence,
+                           groups=groups, group_names=group_names, seed=seed)
+
+
+def test_closed_form_of_the_three_input_linear_model():
+    # Source: Iooss & Prieur 2019, doi:10.1615/Int.J.UncertaintyQuantification.2019028372,
+    # sec. 3.1 (from memory): Y = X1 + X2 + X3, X1 independent, corr(X2, X3) = rho:
+    # Sh1 = s1^2 / V, Sh2 = [s2^2 (1 - rho^2/2) + rho s2 s3 + rho^2 s3^2 / 2] / V, Sh3 likewise,
+    # V = s1^2 + s2^2 + s3^2 + 2 rho s2 s3.
+    s1, s2, s3, rho = 1.0, 2.0, 0.5, 0.6
+    cov = np.array([[s1**2, 0, 0], [0, s2**2, rho * s2 * s3], [0, rho * s2 * s3, s3**2]])
+    v = s1**2 + s2**2 + s3**2 + 2 * rho * s2 * s3
+    expected = np.array([s1**2,
+                         s2**2 * (1 - rho**2 / 2) + rho * s2 * s3 + rho**2 * s3**2 / 2,
+                         s3**2 * (1 - rho**2 / 2) + rho * s2 * s3 + rho**2 * s2**2 / 2]) / v
+    assert np.allclose(linear_gaussian_shapley([1, 1, 1], cov), expected, atol=1e-12)
+
+
+def test_independent_gaussian_linear_model_has_variance_shares():
+    # Source: Owen & Prieur 2017, doi:10.1137/16M1097717: with independent inputs the Shapley
+    # effect of a linear model is b_i^2 s_i^2 / sum_j b_j^2 s_j^2.
+    b, s = np.array([1.0, -2.0, 0.5, 3.0]), np.array([1.0, 0.5, 2.0, 0.2])
+    assert np.allclose(linear_gaussian_shapley(b, np.diag(s**2)), b**2 * s**2 / np.sum(
+        b**2 * s**2))
+
+
+@pytest.mark.slow
+def test_estimates_of_a_correlated_linear_model():
+    b = np.array([1.0, 1.0, 1.0, 0.0, 2.0])   # x3 has no effect of its own
+    s = np.array([1.0, 1.5, 0.5, 1.0, 0.5])
+    r = np.eye(5)
+    r[1, 2] = r[2, 1] = 0.7
+    r[3, 0] = r[0, 3] = -0.5                  # ... but is correlated with x0
+    r[1, 4] = r[4, 1] = 0.3
+    exact = linear_gaussian_shapley(b, r * np.outer(s, s))
+    sh, grp = estimate(lambda z: (z * s) @ b, r, n=20_000, m=12_000, seed=7, confidence=0.99,
+                       groups=[(0, 3), (1, 2), (4,)], group_names=["a", "b", "c"])
+    assert sh.effect.sum() == pytest.approx(1.0, abs=1e-12)
+    assert np.all(np.abs(sh.effect - exact) <= sh.effect_ci)
+    assert np.max(np.abs(sh.effect - exact)) < 0.02
+    assert exact[3] > 0.01                    # the correlated, inactive input gets a share
+    assert np.allclose(grp.effect, [sh.effect[0] + sh.effect[3], sh.effect[1] + sh.effect[2],
+                                    sh.effect[4]])
+
+
+def test_additive_model_with_independent_inputs_gives_first_order_shares():
+    # Source: Ishigami & Homma 1990 (Proc. ISUMA '90, 398-403); partial variances as in Sobol'
+    # & Levitan 1999, Comput. Phys. Commun. 117, 52-61: for sin X1 + a sin^2 X2 (b = 0, X_i
+    # uniform on (-pi, pi)) V1 = 1/2, V2 = a^2/8, no interaction; an additive model's Shapley
+    # effects are its first-order Sobol indices (Owen 2014, doi:10.1137/130936233).
+    a = 7.0
+    first_order = np.array([0.5, a**2 / 8, 0.0]) / (0.5 + a**2 / 8)
+
+    def model(z):
+        x = (2 * special.ndtr(z) - 1) * np.pi
+        return np.sin(x[:, 0]) + a * np.sin(x[:, 1]) ** 2 + 0.0 * x[:, 2]
+
+    sh, _ = estimate(model, np.eye(3), n=20_000, m=6000, seed=3, confidence=0.99)
+    assert np.all(np.abs(sh.effect - first_order) <= sh.effect_ci + 1e-12)
+    assert np.max(np.abs(sh.effect - first_order)) < 0.02
+
+
+def test_dropped_permutations_and_constant_output():
+    r = np.eye(2)
+    joint = random_design(64, 2, seed=1).unit
+    rows = shapley_rows(joint, r, permutations=50, seed=1)
+    y = special.ndtri(rows) @ np.array([1.0, 1.0])
+    y[64 + 3] = np.nan                                   # permutation 1's conditional draw
+    sh, _ = shapley_effects(y[:64], y[64:], shapley_permutations(50, 2, seed=1),
+                            names=["a", "b"])
+    assert sh.permutations_dropped == 1 and sh.permutations_used == 49
+    flat, _ = shapley_effects(np.ones(64), np.ones(150), shapley_permutations(50, 2, seed=1),
+                              names=["a", "b"])
+    assert flat.constant_output and np.all(np.isnan(flat.effect))
+
+
+STACK = """
+[study]
+title = "Invented test study: three solids under a prescribed flux"
+method = "shapley"
+samples = 4096
+permutations = 12000
+seed = 11
+limit = "44 degC"
+design = "random"
+outputs = ["exposed face"]
+
+[hot_side]
+kind = "flux"
+heat_flux = "2 kW/m^2"
+
+[[layer]]
+name = "shell"
+kind = "solid"
+thickness = { normal = { mean = "0.6 mm", sd = "0.06 mm" } }
+conductivity = "0.08 W/m/K"
+
+[[layer]]
+name = "batt"
+kind = "solid"
+thickness = { normal = { mean = "3 mm", sd = "0.3 mm" } }
+conductivity = "0.04 W/m/K"
+
+[[layer]]
+name = "liner"
+kind = "solid"
+thickness = { normal = { mean = "1 mm", sd = "0.15 mm" } }
+conductivity = "0.05 W/m/K"
+
+[cold_side]
+kind = "temperature"
+temperature = "34 degC"
+
+[correlations]
+pairs = [["shell.thickness", "batt.thickness", 0.5], ["batt.thickness", "liner.thickness", -0.4]]
+"""
+
+
+@pytest.mark.slow
+def test_exposed_face_of_a_solid_stack_end_to_end():
+    from plyrisk.methods import get_method
+    from plyrisk.models.network import solve_network
+    from plyrisk.propagate.evaluate import model_objects, propagate
+    from plyrisk.study.config import loads_study
+
+    study = loads_study(STACK, source="stack.toml")
+    q, k = 2000.0, np.array([0.08, 0.04, 0.05])
+    # Source: Carslaw & Jaeger 1959, Conduction of Heat in Solids, sec. 1.6 (steady conduction
+    # through a composite wall): T_exposed = T_cold + q sum(t_i / k_i) — linear in thicknesses.
+    t = np.array([[0.6e-3, 3e-3, 1e-3], [0.5e-3, 3.4e-3, 0.8e-3]])
+    layers, hot, cold = model_objects(study, t)
+    sol = solve_network(layers, hot, cold, **study.model.solver_kwargs())
+    face = list(sol.interface_names).index("exposed face")
+    assert np.allclose(sol.interface_temperature[:, face] - 307.15, q * (t / k).sum(axis=1),
+                       rtol=1e-9)
+    prop = propagate(study, quiet=True)
+    sc = get_method("shapley").analyse(study, prop).scenarios[0]
+    sh, grp = sc.shapley["exposed face"]
+    # normal scores of normal marginals: Pearson correlation 2 sin(pi rho_s / 6)
+    sd = np.array([0.06e-3, 0.3e-3, 0.15e-3])
+    r = study.correlations.full_linear(study.parameter_names)
+    exact = linear_gaussian_shapley(q / k, r * np.outer(sd, sd))
+    assert np.all(np.abs(sh.effect - exact) <= sh.effect_ci)
+    assert np.max(np.abs(sh.effect - exact)) < 0.02
+    assert np.allclose(grp.effect, sh.effect)          # one parameter per layer
+    assert sc.group_ranking["exposed face"][0].name == "batt"
+    # the inner surface is held by the cold side: no variance, no effects
+    assert sc.shapley["inner_surface_temperature"][0].constant_output
+
+
+def test_full_first_and_independent_total_indices_of_a_correlated_linear_model():
+    # Source: Mara, Tarantola & Annoni 2015, doi:10.1016/j.envsoft.2015.07.010, and Kucherenko,
+    # Tarantola & Annoni 2012, doi:10.1016/j.cpc.2011.12.020: for a linear model of Gaussian
+    # inputs S_i^full = (b^T S_:i)^2 / (S_ii V) and ST_i^ind = b_i^2 S_ii|-i / V; the closed
+    # forms agree with the Shapley cost function c(J) of linear_gaussian_shapley.
+    b = np.array([1.0, 1.0, 2.0])
+    s = np.array([1.0, 1.5, 0.5])
+    r = np.array([[1.0, 0.6, 0.0], [0.6, 1.0, -0.3], [0.0, -0.3, 1.0]])
+    cov = r * np.outer(s, s)
+    full, indep = linear_gaussian_indices(b, cov)
+    v = b @ cov @ b
+    assert full[2] == pytest.approx((cov[2] @ b) ** 2 / cov[2, 2] / v)
+    sh, _ = estimate(lambda z: (z * s) @ b, r, n=20_000, m=12_000, seed=5, confidence=0.99)
+    assert np.all(np.abs(sh.full_first - full) <= sh.full_first_ci)
+    assert np.all(np.abs(sh.independent_total - indep) <= sh.independent_total_ci)
+    assert np.max(np.abs(sh.full_first - full)) < 0.03
+    assert np.max(np.abs(sh.independent_total - indep)) < 0.03
+    # with independent inputs both reduce to the first-order (= total) index of this
+    # additive model
+    full0, indep0 = linear_gaussian_indices(b, np.diag(s**2))
+    assert np.allclose(full0, indep0)
+    assert np.allclose(full0, linear_gaussian_shapley(b, np.diag(s**2)))
+
+
+def test_results_do_not_depend_on_the_chunk_size():
+    from plyrisk.methods import get_method
+    from plyrisk.propagate.evaluate import propagate
+    from plyrisk.study.config import loads_study
+
+    text = STACK.replace("samples = 4096", "samples = 64").replace(
+        "permutations = 12000", "permutations = 40")
+    study = loads_study(text, source="stack.toml")
+    method = get_method("shapley")
+    effects = []
+    for chunk in (None, 37):
+        prop = propagate(study, chunk_size=chunk, quiet=True)
+        effects.append(method.analyse(study, prop).scenarios[0].shapley["exposed face"][0])
+    assert np.array_equal(effects[0].effect, effects[1].effect)
+    assert np.array_equal(effects[0].effect_ci, effects[1].effect_ci)
