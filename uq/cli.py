@@ -22,6 +22,7 @@ from plyrisk.cautions import cautions_text
 from plyrisk.errors import ConfigError, PlyriskError
 from plyrisk.methods import METHODS, get_method
 from plyrisk.pipeline.options import MAX_SEED, RunOptions, default_output_dir
+from plyrisk.text.tables import fit_width
 
 # Heavy modules (xarray, matplotlib, SALib, dask) are imported inside the verb that needs them,
 # so that --help, --version and check start fast (benchmarks/startup.py).
@@ -75,7 +76,7 @@ def cmd_check(args: argparse.Namespace) -> int:
     from plyrisk.text.check import check_text
 
     text, converged = check_text(load_study(args.config))
-    print(text)
+    print(fit_width(text))
     return 0 if converged else 1
 
 
@@ -201,7 +202,7 @@ def cmd_run(args: argparse.Namespace) -> int:
     from plyrisk.results.dataset import write_results
     from plyrisk.results.files import OutputSet, decide, folder_lock
     from plyrisk.study.config import load_study, require_runnable
-    from plyrisk.tolerances.output import manufacturing_table
+    from plyrisk.tolerances.output import manufacturing_table, tolerance_advice
     from plyrisk.tolerances.study import run_tolerances, settings_for_study
 
     study = load_study(args.config)
@@ -245,16 +246,19 @@ def cmd_run(args: argparse.Namespace) -> int:
                 lines.append(f"report: not written for method = {method.name} (a screening: "
                              f"the summary above and {result.path} hold its results)")
             elif report:
-                rows = None
+                rows, advice = None, []
                 if study.tolerances is not None:
                     phase("tolerance feedback for the report ([tolerances] in the config)",
                           args.quiet)
                     full = (result.screening.study if result.screening is not None
                             else result.study)
-                    rows = manufacturing_table(run_tolerances(full), full)
+                    tol_report = run_tolerances(full)
+                    rows = manufacturing_table(tol_report, full)
+                    advice = tolerance_advice(tol_report, full)
                 phase("report: figures, tables, report.html", args.quiet)
-                lines.append(_write_report(result.dataset, out.staging, rows, shown=out_dir))
-            text = "\n".join(lines) + "\n"
+                lines.append(_write_report(result.dataset, out.staging, rows, shown=out_dir,
+                                           advice=advice))
+            text = fit_width("\n".join(lines)) + "\n"
             (out.staging / "summary.txt").write_text(text, encoding="utf-8")
             _interrupt_note = (f"{out_dir} was being replaced and may hold a mix of files: "
                                "run again with --overwrite")
@@ -266,18 +270,23 @@ def cmd_run(args: argparse.Namespace) -> int:
     return 0
 
 
-def _write_report(ds: Any, out_dir: Path, rows: Any, *, shown: Path | None = None) -> str:
-    """Write the report (and the tolerance table, when given) into ``out_dir``; return the
-    line to print, naming the files in ``shown`` (where they end up) [-]."""
+def _write_report(ds: Any, out_dir: Path, rows: Any, *, shown: Path | None = None,
+                  advice: Sequence[str] = ()) -> str:
+    """Write the report (and the tolerance table and advice, when given) into ``out_dir``;
+    return the line to print, naming the files in ``shown`` (where they end up) [-].
+
+    ``rows`` are :class:`plyrisk.tolerances.output.ManufacturingRow`; the canonical
+    ``tolerances.csv`` (cautions first) is written from them.
+    """
     from dataclasses import asdict
 
     from plyrisk.report.html import write_report
     from plyrisk.tolerances.output import write_tolerance_csv
 
     files = write_report(ds, out_dir, tolerance_table=None if rows is None else
-                         [asdict(r) for r in rows])
+                         [asdict(r) for r in rows], tolerance_advice=advice)
     if rows is not None:  # the canonical tolerance CSV, cautions first
-        write_tolerance_csv(rows, out_dir / "tolerances.csv")
+        write_tolerance_csv(rows, out_dir / "tolerances.csv", advice=advice)
     where = out_dir if shown is None else shown
     return f"report: {where / files.html.name}  (summary: {files.markdown.name}; figures and " \
            f"CSV tables in {where})"
@@ -345,10 +354,11 @@ def cmd_report(args: argparse.Namespace) -> int:
     except (OSError, ValueError) as err:
         raise UsageError(f"{path}: not a readable NetCDF results file ({err})") from None
     out_dir = Path(args.out) if args.out else path.parent
+    rows, advice = _stored_tolerances(path.parent / "tolerances.csv")
 
     def write(staging: Path) -> str:
         try:
-            return _write_report(ds, staging, None, shown=out_dir)
+            return _write_report(ds, staging, rows, shown=out_dir, advice=advice)
         except (KeyError, TypeError, ValueError) as err:
             raise UsageError(f"{path}: not a complete plyrisk results file ({err})") from None
 
@@ -357,6 +367,23 @@ def cmd_report(args: argparse.Namespace) -> int:
     print(line)
     print(cautions_text())
     return 0
+
+
+def _stored_tolerances(path: Path) -> tuple[list[Any] | None, list[str]]:
+    """The tolerance table and advice ``plyrisk tolerances`` or ``run`` stored beside a
+    results file, so that a regenerated report keeps its tolerance section [-]."""
+    from plyrisk.tolerances.output import manufacturing_rows, read_tolerance_csv
+
+    if not path.is_file():
+        return None, []
+    try:
+        records, advice = read_tolerance_csv(path)
+        rows = manufacturing_rows(records)
+    except (OSError, ValueError, UnicodeDecodeError) as err:
+        print(f"{PROG}: note: {path} was not read; the report has no tolerance section "
+              f"({err})", file=sys.stderr)
+        return None, []
+    return rows, advice
 
 
 # ----------------------------------------------------------------------------------------------
@@ -402,7 +429,12 @@ def cmd_tolerances(args: argparse.Namespace) -> int:
     from plyrisk.results.dataset import read_results
     from plyrisk.study.config import load_study, require_runnable
     from plyrisk.study.targets import parse_target
-    from plyrisk.tolerances.output import manufacturing_table, tolerance_text, write_tolerance_csv
+    from plyrisk.tolerances.output import (
+        manufacturing_table,
+        tolerance_advice,
+        tolerance_text,
+        write_tolerance_csv,
+    )
     from plyrisk.tolerances.study import run_tolerances, settings_for_study
 
     study = load_study(args.config)
@@ -428,6 +460,7 @@ def cmd_tolerances(args: argparse.Namespace) -> int:
         progress=(lambda stage: print(f"{PROG}: {stage} ...", file=sys.stderr)) if show
         else None)
     rows = manufacturing_table(report, study)
+    advice = tolerance_advice(report, study)
     results = out_dir / "results.nc"
     ds = note = None
     if results.is_file():  # a study run already in the folder: add the table to its report
@@ -439,19 +472,19 @@ def cmd_tolerances(args: argparse.Namespace) -> int:
 
     def write(staging: Path) -> str:
         nonlocal note
-        path = write_tolerance_csv(rows, staging / "tolerances.csv")
+        path = write_tolerance_csv(rows, staging / "tolerances.csv", advice=advice)
         text = tolerance_text(report, study, csv_path=out_dir / path.name)
         if ds is not None:
             try:
-                text += "\n" + _write_report(ds, staging, rows, shown=out_dir)
+                text += "\n" + _write_report(ds, staging, rows, shown=out_dir, advice=advice)
             except (KeyError, TypeError, ValueError) as err:
                 note = (f"{PROG}: note: the report in {out_dir} was left as it is: {results} is "
                         f"not a complete results file ({err})")
         return text
 
     fingerprint = "" if ds is None else str(ds.attrs.get("study_fingerprint", ""))
-    print(_update_folder(out_dir, fingerprint, ds, write,
-                         "--out" if args.out else "output folder"))
+    print(fit_width(_update_folder(out_dir, fingerprint, ds, write,
+                                   "--out" if args.out else "output folder")))
     if note:
         print(note, file=sys.stderr)
     return 0

@@ -34,7 +34,6 @@ from plyrisk.report.csv_tables import write_csv, write_csv_tables
 from plyrisk.report.figures import outputs as fg
 from plyrisk.report.tables import (
     Table,
-    cell_text,
     convergence_summary,
     exposure_text,
     headline_table,
@@ -45,6 +44,7 @@ from plyrisk.report.tables import (
     ranking_tables,
     scenario_values,
     stack_tables,
+    tolerance_tables,
 )
 from plyrisk.study.config import loads_study
 
@@ -305,11 +305,57 @@ def _cautions_md() -> str:
     return "## Cautions\n\n" + "\n".join(f"- **{c}**" for c in CAUTIONS)
 
 
+@dataclass(frozen=True)
+class _Tolerances:
+    """The tolerance section: the table's columns and records and the advice lines."""
+
+    columns: list[str]
+    records: list[dict]
+    advice: tuple[str, ...] = ()
+
+    @classmethod
+    def of(cls, table: Any, advice: Sequence[str] | None) -> _Tolerances | None:
+        if table is None and not advice:
+            return None
+        columns, records = _tolerance_table(table) if table is not None else ([], [])
+        return cls(columns, records, tuple(str(a) for a in (advice or ())))
+
+    def write_csv(self, out: Path) -> Path:
+        path = write_csv(out / "tolerances.csv", self.columns,
+                         [[r.get(c) for c in self.columns] for r in self.records])
+        if self.advice:
+            from plyrisk.tolerances.output import ADVICE_PREFIX
+
+            text = path.read_text(encoding="utf-8")
+            path.write_text("".join(f"{ADVICE_PREFIX}{' '.join(a.split())}\n"
+                                    for a in self.advice) + text, encoding="utf-8")
+        return path
+
+    def html(self) -> list[str]:
+        h = ['<h2 id="tolerances">Tolerance recommendations</h2>']
+        if self.advice:
+            h.append('<ul class="advice">' + "".join(f"<li><strong>{_esc(a)}</strong></li>"
+                                                    for a in self.advice) + "</ul>")
+        if self.records:
+            h += [_html_table(t) for t in tolerance_tables(self.columns, self.records)]
+        else:
+            h.append("<p>The tolerance table has no rows.</p>")
+        return h
+
+    def markdown(self) -> list[str]:
+        m = ["## Tolerance recommendations", ""]
+        m += [f"- **{a}**" for a in self.advice] + ([""] if self.advice else [])
+        for t in tolerance_tables(self.columns, self.records) if self.records else []:
+            m += [_md_table(t), ""]
+        return m
+
+
 def write_report(
     ds: xr.Dataset,
     out_dir: str | Path,
     *,
     tolerance_table: Any = None,
+    tolerance_advice: Sequence[str] | None = None,
 ) -> ReportFiles:
     """Write the report of a results dataset: HTML, Markdown summary, figures and CSV tables.
 
@@ -323,7 +369,13 @@ def write_report(
         Folder to write into (created if missing).
     tolerance_table
         Tolerance recommendations to include: a pandas DataFrame or a list of dicts (one per
-        row; columns are rendered as they come), or ``None``.
+        row), or ``None``. The columns of ``tolerances.csv``
+        (:class:`plyrisk.tolerances.output.ManufacturingRow`) are shown with human headers and
+        units; any other columns as they come.
+    tolerance_advice
+        Lines to act on shown above the tolerance table and written as ``# advice:`` lines
+        of ``tolerances.csv``: the independent verification's verdict and the nominal-shift
+        advice (:func:`plyrisk.tolerances.output.tolerance_advice`).
 
     Returns
     -------
@@ -343,21 +395,20 @@ def write_report(
     if ds.attrs.get("study_kind") == "transient":
         from plyrisk.report.transient import write_transient_report
 
-        return write_transient_report(ds, out_dir, tolerance_table=tolerance_table)
+        return write_transient_report(ds, out_dir, tolerance_table=tolerance_table,
+                                      tolerance_advice=tolerance_advice)
     missing = [v for v in _REQUIRED if v not in ds.variables]
     if missing or "limit" not in ds.attrs:
         raise ValueError("not a plyrisk results dataset: missing "
                          + ", ".join(missing + ([] if "limit" in ds.attrs else ["attrs.limit"])))
-    tol = _tolerance_table(tolerance_table) if tolerance_table is not None else None
+    tol = _Tolerances.of(tolerance_table, tolerance_advice)
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
     figs = report_figures(ds)
     fig_paths, embedded = _save(figs, out / "figures")
     tables = write_csv_tables(ds, out)
     if tol is not None:
-        columns, records = tol
-        tables.append(write_csv(out / "tolerances.csv", columns,
-                                [[r.get(c) for c in columns] for r in records]))
+        tables.append(tol.write_csv(out))
     content = _Content.of(ds, figs, embedded, tol)
     html_path = out / "report.html"
     html_path.write_text("\n".join(_html_lines(ds, content)) + "\n", encoding="utf-8")
@@ -439,11 +490,7 @@ def _html_lines(ds: xr.Dataset, c: _Content) -> list[str]:
                  f'<img src="data:image/png;base64,{embedded[f.stem]}" alt="{_esc(f.title)}">'
                  f"<figcaption>{_esc(f.caption)}</figcaption></figure>")
     if tol is not None:
-        columns, records = tol
-        h.append("<h2>Tolerance recommendations</h2>")
-        h.append(_html_table(Table(columns, [[cell_text(r.get(c)) for c in columns]
-                                             for r in records])) if records else
-                 "<p>The tolerance table has no rows.</p>")
+        h += tol.html()
     h.append("<h2>Convergence of the indices</h2>")
     h += [f"<p>{_esc(t)}</p>" for t in conv_text]
     if conv_table is not None:
@@ -476,6 +523,8 @@ def _markdown_lines(ds: xr.Dataset, c: _Content, out: Path, files: list[Path]) -
     for t in ranking:
         m += [_md_table(Table(t.header, t.rows[:TOP_COUNT], t.caption
                               + (f" (top {TOP_COUNT})" if len(t.rows) > TOP_COUNT else ""))), ""]
+    if c.tol is not None:
+        m += c.tol.markdown()
     m += ["## Convergence", "", *conv_text, ""]
     if conv_table is not None:
         m += [_md_table(conv_table), ""]

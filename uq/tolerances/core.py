@@ -179,7 +179,7 @@ class Runner:
         self.probability = (self.target.engine_probability if self.target.kind == "quantile"
                             else REPORT_PROBABILITY)
         d = len(problem.names)
-        self.unit = make_design(settings.method, settings.samples, d, seed=self.seed).unit
+        self.unit = make_design(settings.design, settings.samples, d, seed=self.seed).unit
         self.base = np.empty_like(self.unit)
         for j, dist in enumerate(problem.distributions):
             self.base[:, j] = dist.ppf(self.unit[:, j])
