@@ -236,8 +236,8 @@ def parse_model_section(ctx: Context, raw: Any, parsed: dict) -> dict:
 # ----------------------------------------------------------------------------------------------
 
 _TOLERANCE_KEYS = (
-    "target", "samples", "design", "method", "seed", "cost", "max_factor", "allow_loosening", "keep",
-    "basis", "confidence", "nominal_shift", "nominal_range",
+    "target", "samples", "design", "method", "seed", "cost", "max_factor", "allow_loosening",
+    "keep", "basis", "confidence", "nominal_shift", "nominal_range",
 )  # fmt: skip
 
 
