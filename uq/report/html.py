@@ -161,7 +161,7 @@ def report_figures(ds: xr.Dataset) -> list[ReportFigure]:
             "The inner-surface temperature of each independent, converged sample against the "
             "three most influential inputs (by total Sobol index; for method = pce by the "
             "surrogate's total index, or by |rank correlation| without a surrogate), in the "
-            "units they were given in.",
+            "units they were given in. Samples over the limit are marked as orange triangles.",
             fg.scatter_figure(ds, scenario=i)))
     if "scenario" in ds.dims:
         out.append(ReportFigure(
@@ -170,7 +170,32 @@ def report_figures(ds: xr.Dataset) -> list[ReportFigure]:
             "upper confidence bound of P95 and the limit. The read-off interpolates linearly "
             "between swept levels; run a finer sweep around it before relying on it.",
             fg.sweep_figure(ds)))
+        target = _exceedance_target(ds)
+        out.append(ReportFigure(
+            "exceedance_sweep", "Probability of exceeding the limit against the exposure",
+            "The probability that the inner-surface temperature exceeds the limit at each "
+            "swept level, with its confidence band"
+            + (" and the target of [tolerances]" if target is not None else "")
+            + ". Nothing is computed between the swept levels.",
+            fg.exceedance_sweep_figure(ds, target=target)))
+    if "growth_sobol_total" in ds:
+        out.append(ReportFigure(
+            "index_convergence", "Convergence of the indices as the study grew",
+            "The total Sobol indices of the most influential inputs (inner-surface "
+            "temperature) at each doubling of the base samples (--until-converged), with "
+            "their confidence half-widths. Rankings that still cross at the last step are not "
+            "settled.", fg.growth_figure(ds)))
     return out
+
+
+def _exceedance_target(ds: xr.Dataset) -> float | None:
+    """The bound of a ``[tolerances]`` target on P(exceed) in the stored config, if any."""
+    study, _ = _study(ds)
+    settings = getattr(study, "tolerances", None)
+    target = getattr(settings, "target", None)
+    if getattr(target, "kind", None) == "exceedance":
+        return float(target.threshold)  # type: ignore[union-attr]
+    return None
 
 
 def _save(figs: list[ReportFigure], folder: Path) -> tuple[list[Path], dict[str, str]]:
