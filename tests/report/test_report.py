@@ -229,11 +229,12 @@ def test_indices_group_and_ranking_csv(report):
     n_o = ds.sizes["output"] if sobol else 1
     cols, rows = read_csv(folder / "indices.csv")
     assert cols == ["scenario", "output", "parameter", "group", "unit", "first", "first_ci",
-                    "total", "total_ci", "rank", "converged", "rank_correlation", "estimator"]
+                    "total", "total_ci", "rank", "converged", "rank_correlation", "estimator",
+                    "status"]
     assert len(rows) == n_s * n_o * n_p
     gcols, grows = read_csv(folder / "group_indices.csv")
     assert gcols == ["scenario", "output", "group", "first", "first_ci", "total", "total_ci",
-                     "rank", "converged", "estimator"]
+                     "rank", "converged", "estimator", "status"]
     assert len(grows) == n_s * n_o * n_g
     rcols, rrows = read_csv(folder / "ranking.csv")
     assert rcols == ["scenario", "output", "kind", "rank", "name", "measure", "value", "ci",

@@ -22,6 +22,7 @@ from __future__ import annotations
 
 import base64
 import html
+import re
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -291,11 +292,78 @@ figure{margin:1.2rem 0}figure img{max-width:100%;height:auto;border:1px solid #d
 figcaption{font-size:.9rem;color:#444}
 pre{background:#f6f6f6;padding:.8rem;overflow-x:auto;font-size:.8rem}
 .sub{color:#555}
+table{max-width:100%}td{overflow-wrap:break-word}
+nav.toc{border:1px solid #d8dee8;background:#f8fafc;padding:.4rem 1.2rem;margin:1rem 0}
+nav.toc h2{border:none;margin:.3rem 0;font-size:1.05rem}
+nav.toc ol{margin:.2rem 0;padding-left:1.4rem;columns:2 18rem}nav.toc li{break-inside:avoid}
+nav.toc a{color:#1f4e79;text-decoration:none}nav.toc a:hover{text-decoration:underline}
+ul.advice{padding-left:1.2rem}
+@media (max-width:900px){body{margin:1rem auto;padding:0 .6rem}
+ table{font-size:.82rem}th,td{padding:.2rem .35rem;overflow-wrap:anywhere}}
+@media print{
+ @page{margin:15mm 14mm}
+ body{max-width:none;margin:0;padding:0;font-size:10pt;line-height:1.35}
+ h1,h2,h3,caption{break-after:avoid;page-break-after:avoid}
+ h2,h3{break-inside:avoid}
+ figure,tr,.cautions,nav.toc,ul.advice{break-inside:avoid;page-break-inside:avoid}
+ figure img{max-width:100%;max-height:22cm;object-fit:contain;border:none}
+ table{width:100%;font-size:8.5pt;break-inside:auto}
+ thead{display:table-header-group}
+ th,td{overflow-wrap:anywhere;padding:.15rem .3rem}
+ pre{white-space:pre-wrap;overflow:visible;font-size:7.5pt}
+ nav.toc a{color:inherit}
+ nav.toc ol{columns:2}
+}
 """
 
 
 def _esc(text: Any) -> str:
     return html.escape(str(text), quote=True)
+
+
+_HEADING = re.compile(r"<h2(?P<attrs>[^>]*)>(?P<text>.*?)</h2>")
+
+
+def with_contents(lines: list[str]) -> list[str]:
+    """The HTML lines with an id on every ``<h2>`` and a table of contents of them, placed
+    after the first cautions box (before the first section heading when there is none).
+
+    Parameters
+    ----------
+    lines
+        Lines of a report page.
+
+    Returns
+    -------
+    list of str
+    """
+    seen: dict[str, int] = {}
+    entries: list[tuple[str, str]] = []
+
+    def tag(m: re.Match) -> str:
+        text = re.sub(r"<[^>]+>", "", m.group("text"))
+        found = re.search(r'id="([^"]+)"', m.group("attrs"))
+        if found:
+            anchor = found.group(1)
+        else:
+            base = re.sub(r"[^a-z0-9]+", "-", html.unescape(text).lower()).strip("-") or "s"
+            seen[base] = seen.get(base, 0) + 1
+            anchor = base if seen[base] == 1 else f"{base}-{seen[base]}"
+        if text not in {t for _, t in entries}:
+            entries.append((anchor, text))
+        return f'<h2 id="{anchor}"{m.group("attrs")}>{m.group("text")}</h2>' if not found \
+            else m.group(0)
+
+    out = [_HEADING.sub(tag, line) for line in lines]
+    if not entries:
+        return out
+    nav = ('<nav class="toc" aria-label="Contents"><h2 class="toc-title">Contents</h2><ol>'
+           + "".join(f'<li><a href="#{a}">{t}</a></li>' for a, t in entries) + "</ol></nav>")
+    box = next((i for i, line in enumerate(out) if line.startswith('<div class="cautions">')),
+               None)
+    if box is None:
+        box = next(i for i, line in enumerate(out) if _HEADING.search(line)) - 1
+    return out[:box + 1] + [nav] + out[box + 1:]
 
 
 def _html_table(t: Table) -> str:
@@ -436,7 +504,8 @@ def write_report(
         tables.append(tol.write_csv(out))
     content = _Content.of(ds, figs, embedded, tol)
     html_path = out / "report.html"
-    html_path.write_text("\n".join(_html_lines(ds, content)) + "\n", encoding="utf-8")
+    html_path.write_text("\n".join(with_contents(_html_lines(ds, content))) + "\n",
+                         encoding="utf-8")
     md_path = out / "summary.md"
     md_path.write_text("\n".join(_markdown_lines(ds, content, out, fig_paths + tables)),
                        encoding="utf-8")

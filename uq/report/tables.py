@@ -453,6 +453,14 @@ def share_text(v: Any) -> str:
     return f"{100 * x:.2g} %" if x < 0.1 else f"{100 * x:.0f} %"
 
 
+def _level(x: float, unit: str) -> str:
+    """A temperature to 0.01 of its unit (the what-if changes are that small), a time to 3
+    significant digits."""
+    if not math.isfinite(x):
+        return "n/a"
+    return f"{x:.3g}" if unit == "s" else f"{x:.2f}"
+
+
 def tolerance_tables(columns: list[str], records: list[dict]) -> list[Table]:
     """The tolerance recommendations as display tables.
 
@@ -484,7 +492,7 @@ def tolerance_tables(columns: list[str], records: list[dict]) -> list[Table]:
          f"{label} with this spread halved [{unit}]"],
         [[str(r["parameter"]), str(r["layer"]).replace("_", " "),
           share_text(r.get("variance_share")),
-          (f"{x:.4g}" if math.isfinite(x := _number(r.get("quantile_if_halved"))) else "n/a")]
+          _level(_number(r.get("quantile_if_halved")), unit)]
          for r in records],
         "What each spread does" + (f" (share: {', '.join(sources)})" if sources else ""))
 

@@ -306,6 +306,7 @@ def write_transient_report(ds: xr.Dataset, out_dir: str | Path, *,
         _md_table,
         _save,
         _Tolerances,
+        with_contents,
     )
 
     missing = [v for v in ("converged", "sample_block") if v not in ds.variables]
@@ -372,7 +373,7 @@ def write_transient_report(ds: xr.Dataset, out_dir: str | Path, *,
     h += ["<h2>Provenance</h2>", _html_table(_provenance(ds)), "<h3>Config text</h3>",
           f"<pre>{_esc(ds.attrs.get('config_text', ''))}</pre>", "</body>", "</html>"]
     html_path = out / "report.html"
-    html_path.write_text("\n".join(h) + "\n", encoding="utf-8")
+    html_path.write_text("\n".join(with_contents(h)) + "\n", encoding="utf-8")
     cautions_md = "## Cautions\n\n" + "\n".join(f"- **{c}**" for c in TRANSIENT_CAUTIONS)
     m = [f"# {title}", "", "plyrisk transient study summary; the full report is "
          "`report.html`.", "", "## Answer", ""]

@@ -17,19 +17,25 @@ _MIN_COLUMN = 10
 """Narrowest a wrapped column gets [characters]."""
 
 
-def _fit(widths: list[int], width: int) -> list[int]:
+def _fit(widths: list[int], floors: list[int], width: int) -> list[int]:
+    """Column widths within ``width``: the widest columns shrink first, each down to its
+    floor (its longest word: words are not broken), the first column (the names) last; only
+    when every column is at its floor are words broken, down to :data:`_MIN_COLUMN`."""
     widths = list(widths)
-    total = 2 + sum(widths) + 2 * (len(widths) - 1)
-    while total > width:  # the first column (the names) is wrapped last
-        wide = [k for k in range(1, len(widths)) if widths[k] > _MIN_COLUMN]
-        if not wide and widths[0] > _MIN_COLUMN:
-            wide = [0]
-        if not wide:
-            break
-        j = max(wide, key=lambda k: widths[k])
-        second = max([widths[k] for k in wide if k != j] + [_MIN_COLUMN])
-        widths[j] -= max(min(total - width, widths[j] - second), 1)
-        total = 2 + sum(widths) + 2 * (len(widths) - 1)
+
+    def total() -> int:
+        return 2 + sum(widths) + 2 * (len(widths) - 1)
+
+    for floor in (floors, [_MIN_COLUMN] * len(widths)):
+        while total() > width:
+            wide = [k for k in range(1, len(widths)) if widths[k] > floor[k]]
+            if not wide and widths[0] > floor[0]:
+                wide = [0]
+            if not wide:
+                break
+            j = max(wide, key=lambda k: widths[k])
+            second = max([widths[k] for k in wide if k != j] + [floor[j]])
+            widths[j] -= max(min(total() - width, widths[j] - second), 1)
     return widths
 
 
@@ -63,7 +69,9 @@ def text_table(header: Sequence[str], rows: Sequence[Sequence[str]], *,
     """
     cols = list(zip(header, *rows, strict=True))
     natural = [max(len(str(c)) for c in col) for col in cols]
-    widths = _fit(natural, width)
+    floors = [min(n, max(max((len(w) for c in col for w in str(c).split()), default=0), 4))
+              for n, col in zip(natural, cols, strict=True)]
+    widths = _fit(natural, floors, width)
 
     def lines(cells) -> list[str]:
         parts = [textwrap.wrap(str(c), w, break_on_hyphens=False) or [""] if len(str(c)) > w

@@ -18,7 +18,7 @@ from pathlib import Path
 from plyrisk.cautions import cautions_text
 from plyrisk.study.definition import Parameter, Study
 from plyrisk.study.targets import Target
-from plyrisk.study.units import TEMPERATURE, from_si
+from plyrisk.study.units import TEMPERATURE, difference_unit, from_si
 from plyrisk.text.tables import text_table
 from plyrisk.tolerances.study import Outcome, ToleranceReport
 
@@ -357,19 +357,33 @@ def tolerance_text(report: ToleranceReport, study: Study, *,
             f"{_pct(base.exceedance_upper[base.scenario])}]",
             f"  target metric = {_metric(report, study, base.score)}: "
             + ("MET" if base.met else "NOT MET")]
+    def bare(text: str) -> str:  # the unit goes in the heading, the number in the cell
+        if text == "n/a":
+            return text
+        number = text.rsplit(" ", 1)[0]
+        try:
+            return f"{float(number):+.3g}" if number[:1] in "+-" else number
+        except ValueError:
+            return number
+
     rows = []
     for w in wi.rows:
-        rows.append([w.name, _t(study, w.halved.worst_quantile),
-                     _t(study, w.halved.worst_quantile - base.worst_quantile, difference=True),
-                     _t(study, w.nominal.worst_quantile),
-                     _t(study, w.nominal.worst_quantile - base.worst_quantile, difference=True),
+        rows.append([w.name, bare(_t(study, w.halved.worst_quantile)),
+                     bare(_t(study, w.halved.worst_quantile - base.worst_quantile,
+                             difference=True)),
+                     bare(_t(study, w.nominal.worst_quantile)),
+                     bare(_t(study, w.nominal.worst_quantile - base.worst_quantile,
+                             difference=True)),
                      _pct(w.halved.worst_exceedance), _pct(w.nominal.worst_exceedance),
                      _pct(w.variance_share)])
-    out += ["", "What-if: one parameter tightened, the others as specified (worst exposure)"]
+    level_unit = "s" if flip else (study.limit_unit or "K")
+    change_unit = "s" if flip else difference_unit(level_unit)
+    out += ["", "What-if: one parameter tightened, the others as specified (worst exposure; "
+            f"{label} in {level_unit}, changes in {change_unit}; share: of the variance)"]
     out += text_table(["parameter", f"{label} halved", "change", f"{label} at nominal", "change",
-                   "P(exceed) halved" if not flip else "P(event) halved",
-                   "P(exceed) at nominal" if not flip else "P(event) at nominal",
-                   "variance share"], rows)
+                       "P(exceed) halved" if not flip else "P(event) halved",
+                       "P(exceed) at nominal" if not flip else "P(event) at nominal",
+                       "share"], rows)
     s = base.scenario
     half = 0.5 * (base.quantile_upper[s] - base.quantile_lower[s])
     half = abs(half)
