@@ -153,7 +153,9 @@ SMALLEST_PX = 10.5
 
 
 def smallest_text_px(fig) -> float:
-    fig.canvas.draw()  # realise every text
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    FigureCanvasAgg(fig).draw()  # realise every text
     sizes = [t.get_fontsize() for t in fig.findobj(lambda a: hasattr(a, "get_fontsize"))
              if getattr(a := t, "get_text", lambda: "")() and a.get_visible()]
     width_px = fig.get_figwidth() * 150  # saved at 150 dpi
@@ -165,10 +167,24 @@ def test_figure_text_is_readable_at_800_px(invented_dataset):
     ds = invented_dataset("saltelli", True)
     figs = [fg.profile_figure(ds, scenario=0), fg.indices_figure(ds, scenario=0),
             fg.group_indices_figure(ds, scenario=0), fg.distribution_figure(ds, scenario=0),
+            fg.indices_figure(invented_dataset("pce"), scenario=None),
             fg.scatter_figure(ds, scenario=0), fg.sweep_figure(ds),
             fg.exceedance_sweep_figure(ds, target=0.01)]
     for fig in figs:
         assert smallest_text_px(fig) >= SMALLEST_PX
+        from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+        renderer = FigureCanvasAgg(fig).get_renderer()
+        fig.draw(renderer)
+        right = fig.get_figwidth() * fig.dpi
+        texts = list(fig.texts) + [x for lg in fig.legends for x in lg.get_texts()]
+        for ax in fig.axes:
+            texts += [ax.title, ax._left_title, ax._right_title, ax.xaxis.label,
+                      ax.yaxis.label, *ax.texts]
+        for t in texts:
+            if t.get_text() and t.get_visible():  # no title or label cut at the edge
+                box = t.get_window_extent(renderer)
+                assert -2.0 <= box.x0 and box.x1 <= right + 2.0, t.get_text()
 
 
 def test_distribution_numbers_sit_above_the_histogram(invented_dataset):

@@ -222,10 +222,38 @@ def _study(ds: xr.Dataset):
     text = ds.attrs.get("config_text")
     if not text:
         return None, "the dataset holds no config text"
+    source = str(ds.attrs.get("config_source", "<results>"))
     try:
-        return loads_study(str(text), source=str(ds.attrs.get("config_source", "<results>"))), ""
+        return loads_study(str(text), source=source), ""
     except Exception as err:  # a newer or older config schema: report it, never fail the report
+        upgraded = upgrade_config_text(str(text))
+        if upgraded != text:
+            try:
+                return loads_study(upgraded, source=source), ""
+            except Exception:
+                pass
         return None, f"{type(err).__name__}: {err}"
+
+
+def upgrade_config_text(text: str) -> str:
+    """A stored config text with the former spellings the reader now refuses replaced by
+    the current ones (``[tolerances] method`` → ``design``), so that the report of an older
+    results file still shows its study. Only for re-reading stored texts.
+
+    Examples
+    --------
+    >>> upgrade_config_text('[tolerances]\nmethod = "lhs"\n[study]\nmethod = "pce"\n')
+    '[tolerances]\ndesign = "lhs"\n[study]\nmethod = "pce"\n'
+    """
+    out, section = [], ""
+    for line in text.splitlines(keepends=True):
+        head = re.match(r"\s*\[+\s*([^\]\s]+)", line)
+        if head:
+            section = head.group(1)
+        elif section == "tolerances":
+            line = re.sub(r"^(\s*)method(\s*=)", r"\1design\2", line)
+        out.append(line)
+    return "".join(out)
 
 
 def _tolerance_table(table) -> tuple[list[str], list[dict]]:
@@ -295,7 +323,8 @@ pre{background:#f6f6f6;padding:.8rem;overflow-x:auto;font-size:.8rem}
 table{max-width:100%}td{overflow-wrap:break-word}
 nav.toc{border:1px solid #d8dee8;background:#f8fafc;padding:.4rem 1.2rem;margin:1rem 0}
 nav.toc h2{border:none;margin:.3rem 0;font-size:1.05rem}
-nav.toc ol{margin:.2rem 0;padding-left:1.4rem;columns:2 18rem}nav.toc li{break-inside:avoid}
+nav.toc ol{margin:.2rem 0;padding-left:1.8rem;columns:2 18rem;column-gap:3.5rem}
+nav.toc li{break-inside:avoid}
 nav.toc a{color:#1f4e79;text-decoration:none}nav.toc a:hover{text-decoration:underline}
 ul.advice{padding-left:1.2rem}
 @media (max-width:900px){body{margin:1rem auto;padding:0 .6rem}

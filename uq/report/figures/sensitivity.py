@@ -118,11 +118,11 @@ def indices_figure(ds: xr.Dataset, *, scenario: int | None = None,
         ax.set_label("indices")
         if "sobol_total" not in one:
             _screening(ax, one, names)
-            add_title(ax, "Screening only: rank correlation with the inner-surface temperature",
-                      label, "a measure of monotone influence: it does not apportion variance or "
-                      "show interactions;", "Sobol indices need method = \"saltelli\" or "
-                      f"\"pce\" (this study: {one.attrs.get('method')}, "
-                      f"{one.attrs.get('evaluations')} samples)")
+            add_title(ax, "Screening only: rank correlation", label,
+                      "with the inner-surface temperature: a measure of monotone influence;",
+                      "it does not apportion variance or show interactions;",
+                      "Sobol indices need method = \"saltelli\" or \"pce\" (this study: "
+                      f"{one.attrs.get('method')}, {one.attrs.get('evaluations')} samples)")
             return fig
         s = _sobol_output(one, output)
         _paired_bars(ax, names, s["sobol_first"].values, s["sobol_first_ci"].values,
@@ -195,8 +195,9 @@ def group_indices_figure(ds: xr.Dataset, *, scenario: int | None = None,
                      s["group_index_converged"].values,
                      s["group_index_converged"].attrs.get("threshold"))
         ax.set_xlabel("Sobol index of the layer's parameters together")
-        add_title(ax, f"Which layer dominates: grouped Sobol indices of the {_what(output)}",
-                  label, "each layer's parameters varied together; " + _design_note(one))
+        add_title(ax, "Which layer dominates", label,
+                  f"grouped Sobol indices of the {_what(output)}: each layer's parameters varied "
+                  "together", _design_note(one))
     return fig
 
 

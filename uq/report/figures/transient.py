@@ -327,7 +327,7 @@ def layer_indices_figure(ds: xr.Dataset, *, scenario: int | None = None,
             if "surrogate_fit" in s:
                 fit = str(s["surrogate_fit"].item())
             add_title(ax, ("Which layer buys the most time" if groups else
-                           "Which input matters") + f": indices of {output}", label,
+                           "Which input matters"), f"indices of {output}", label,
                       textwrap.fill(f"rule: {rule}", 110), *([fit] if fit else []))
         elif "morris_mu_star" in s:
             names = [str(n) for n in s["parameter"].values]
