@@ -684,7 +684,7 @@ def main(argv: Sequence[str] | None = None) -> int:
     except Exception:  # a bug: the traceback under --verbose, else one line asking for it
         if getattr(args, "verbose", False):
             raise
-        kind = sys.exc_info()[0].__name__  # type: ignore[union-attr]
+        kind = sys.exc_info()[0].__name__
         print(f"{PROG}: internal error ({kind}); run again with --verbose for the traceback "
               "and report it", file=sys.stderr)
         return 3
