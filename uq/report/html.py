@@ -236,7 +236,7 @@ def _study(ds: xr.Dataset):
 
 
 def upgrade_config_text(text: str) -> str:
-    """A stored config text with the former spellings the reader now refuses replaced by
+    r"""A stored config text with the former spellings the reader now refuses replaced by
     the current ones (``[tolerances] method`` → ``design``), so that the report of an older
     results file still shows its study. Only for re-reading stored texts.
 
