@@ -9,7 +9,7 @@ import ast
 from pathlib import Path
 
 ROOT = Path(__file__).resolve().parents[1]
-LAYERS = ("errors", "cautions", "provenance", "models", "methods", "study", "design",
+LAYERS = ("errors", "cautions", "provenance", "templates", "models", "methods", "study", "design",
           "propagate", "analysis", "text", "results", "pipeline", "tolerances", "report", "cli",
           "__main__", "")
 """Low to high; ``""`` is the package's own ``__init__`` (the public API, loaded lazily)."""

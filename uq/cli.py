@@ -3,7 +3,9 @@
 ``plyrisk check CONFIG`` validates a study config and prints its uncertain parameters and the
 nominal solution. Exit codes: 0 success; 1 the nominal solve failed to converge; 2 a user
 mistake (bad config, missing file, bad arguments), reported as exactly one line on stderr,
-``plyrisk: error: <file>: <key path>: <message>``.
+``plyrisk: error: <file>: <key path>: <message>``; 1 also for an internal error (a bug;
+``--verbose`` shows its traceback). ``plyrisk run --fail-if-not-met`` exits 3 when the
+study's criterion is not met. Every verb's ``--help`` ends with examples.
 
 A verb is added by writing ``_add_<verb>(subparsers)`` (which sets ``func``) and a
 ``cmd_<verb>(args) -> int`` and listing the adder in :data:`VERBS`.
@@ -22,6 +24,7 @@ from plyrisk.cautions import cautions_text
 from plyrisk.errors import ConfigError, PlyriskError
 from plyrisk.methods import METHODS, get_method
 from plyrisk.pipeline.options import MAX_SEED, RunOptions, default_output_dir
+from plyrisk.text.tables import fit_width
 
 # Heavy modules (xarray, matplotlib, SALib, dask) are imported inside the verb that needs them,
 # so that --help, --version and check start fast (benchmarks/startup.py).
@@ -31,6 +34,35 @@ PROG = "plyrisk"
 
 class UsageError(Exception):
     """A command-line mistake; reported as one line, exit code 2."""
+
+
+class _Formatter(argparse.HelpFormatter):
+    """Wraps the description; keeps the examples of the epilog line by line."""
+
+    def _fill_text(self, text: str, width: int, indent: str) -> str:
+        if text.startswith("examples:"):
+            return "\n".join(indent + line for line in text.splitlines())
+        return super()._fill_text(text, width, indent)
+
+
+def _examples(*lines: str) -> str:
+    """The epilog of a verb's ``--help``: examples, one command per line, with a comment."""
+    return "examples:\n" + "\n".join(f"  {line}" for line in lines)
+
+
+def _verbosity(p: argparse.ArgumentParser, quiet: str) -> None:
+    """``-q/--quiet`` and ``-v/--verbose`` (mutually exclusive) on a verb."""
+    g = p.add_mutually_exclusive_group()
+    g.add_argument("-q", "--quiet", action="store_true", help=quiet)
+    g.add_argument("-v", "--verbose", action="store_true", help="progress lines with the "
+                   "elapsed time, and the full traceback of an unexpected internal error")
+
+
+def _progress_clock(args: argparse.Namespace) -> None:
+    """Stamp the progress lines with the elapsed time under ``--verbose``."""
+    from plyrisk.pipeline import run as pipeline_run
+
+    pipeline_run.set_progress_clock(bool(getattr(args, "verbose", False)))
 
 
 class _Parser(argparse.ArgumentParser):
@@ -53,6 +85,10 @@ def _add_check(subparsers) -> None:
         help="validate a study config and show its parameters and nominal solution",
         description="Validate a study config; print the uncertain parameters, the nominal "
         "solution (every uncertain input at its nominal value) and the margin to the limit.",
+        epilog=_examples(
+            "plyrisk check study.toml          # validate; show the nominal solution",
+            "plyrisk init study.toml && plyrisk check study.toml   # start from a template"),
+        formatter_class=_Formatter,
     )
     p.add_argument("config", help="study config file (TOML)")
     p.set_defaults(func=cmd_check)
@@ -75,7 +111,7 @@ def cmd_check(args: argparse.Namespace) -> int:
     from plyrisk.text.check import check_text
 
     text, converged = check_text(load_study(args.config))
-    print(text)
+    print(fit_width(text))
     return 0 if converged else 1
 
 
@@ -88,9 +124,17 @@ def _add_run(subparsers) -> None:
     p = subparsers.add_parser(
         "run",
         help="run the study: sample, solve, analyse, write results.nc and the report",
-        description="Run the study of a config: draw the design, solve the network for every "
-        "sample and exposure, compute percentiles, exceedance and Sobol indices, write "
+        description="Run the study of a config: draw the design, solve the model for every "
+        "sample and exposure, compute percentiles, exceedance and sensitivity indices, write "
         "DIR/results.nc and the report, and print the summary.",
+        epilog=_examples(
+            "plyrisk run study.toml                       # results in ./study/",
+            "plyrisk run study.toml --out runs/a --samples 1024 --seed 7",
+            "plyrisk run study.toml --until-converged --max-runs 200000",
+            "plyrisk run study.toml --workers 2 --store runs/a.zarr   # out of core, resumable",
+            "plyrisk run study.toml --store runs/a.zarr --resume      # after an interruption",
+            "plyrisk run study.toml --out runs/a --overwrite          # replace an older result"),
+        formatter_class=_Formatter,
     )
     p.add_argument("config", help="study config file (TOML)")
     p.add_argument("--out", metavar="DIR", help="output folder (default: a folder named after "
@@ -123,7 +167,7 @@ def _add_run(subparsers) -> None:
                    "--resume, a plyrisk store at --store; files plyrisk did not write are never "
                    "touched")
     p.add_argument("--no-report", action="store_true", help="write results.nc only")
-    p.add_argument("--quiet", action="store_true", help="no progress bar")
+    _verbosity(p, "no progress bar or progress lines")
     p.set_defaults(func=cmd_run)
 
 
@@ -201,9 +245,10 @@ def cmd_run(args: argparse.Namespace) -> int:
     from plyrisk.results.dataset import write_results
     from plyrisk.results.files import OutputSet, decide, folder_lock
     from plyrisk.study.config import load_study, require_runnable
-    from plyrisk.tolerances.output import manufacturing_table, shapley_shares
+    from plyrisk.tolerances.output import manufacturing_table, shapley_shares, tolerance_advice
     from plyrisk.tolerances.study import run_tolerances, settings_for_study
 
+    _progress_clock(args)
     study = load_study(args.config)
     require_runnable(study)
     options = run_options(args)
@@ -246,19 +291,21 @@ def cmd_run(args: argparse.Namespace) -> int:
                 lines.append(f"report: not written for method = {method.name} (a screening: "
                              f"the summary above and {result.path} hold its results)")
             elif report:
-                rows = None
+                rows, advice = None, []
                 if study.tolerances is not None:
                     phase("tolerance feedback for the report ([tolerances] in the config)",
                           args.quiet)
                     full = (result.screening.study if result.screening is not None
                             else result.study)
-                    tol = run_tolerances(full)
-                    shares = shapley_shares(tol, result.analysis)  # correlated: Shapley
-                    rows = manufacturing_table(tol, full, indices=shares,
+                    tol_report = run_tolerances(full)
+                    shares = shapley_shares(tol_report, result.analysis)  # correlated: Shapley
+                    rows = manufacturing_table(tol_report, full, indices=shares,
                                                index_name="Shapley effect")
+                    advice = tolerance_advice(tol_report, full)
                 phase("report: figures, tables, report.html", args.quiet)
-                lines.append(_write_report(result.dataset, out.staging, rows, shown=out_dir))
-            text = "\n".join(lines) + "\n"
+                lines.append(_write_report(result.dataset, out.staging, rows, shown=out_dir,
+                                           advice=advice))
+            text = fit_width("\n".join(lines)) + "\n"
             (out.staging / "summary.txt").write_text(text, encoding="utf-8")
             _interrupt_note = (f"{out_dir} was being replaced and may hold a mix of files: "
                                "run again with --overwrite")
@@ -270,18 +317,23 @@ def cmd_run(args: argparse.Namespace) -> int:
     return 0
 
 
-def _write_report(ds: Any, out_dir: Path, rows: Any, *, shown: Path | None = None) -> str:
-    """Write the report (and the tolerance table, when given) into ``out_dir``; return the
-    line to print, naming the files in ``shown`` (where they end up) [-]."""
+def _write_report(ds: Any, out_dir: Path, rows: Any, *, shown: Path | None = None,
+                  advice: Sequence[str] = ()) -> str:
+    """Write the report (and the tolerance table and advice, when given) into ``out_dir``;
+    return the line to print, naming the files in ``shown`` (where they end up) [-].
+
+    ``rows`` are :class:`plyrisk.tolerances.output.ManufacturingRow`; the canonical
+    ``tolerances.csv`` (cautions first) is written from them.
+    """
     from dataclasses import asdict
 
     from plyrisk.report.html import write_report
     from plyrisk.tolerances.output import write_tolerance_csv
 
     files = write_report(ds, out_dir, tolerance_table=None if rows is None else
-                         [asdict(r) for r in rows])
+                         [asdict(r) for r in rows], tolerance_advice=advice)
     if rows is not None:  # the canonical tolerance CSV, cautions first
-        write_tolerance_csv(rows, out_dir / "tolerances.csv")
+        write_tolerance_csv(rows, out_dir / "tolerances.csv", advice=advice)
     where = out_dir if shown is None else shown
     return f"report: {where / files.html.name}  (summary: {files.markdown.name}; figures and " \
            f"CSV tables in {where})"
@@ -318,7 +370,13 @@ def _add_report(subparsers) -> None:
         "report",
         help="write the HTML report, Markdown summary, figures and CSV tables of a results.nc",
         description="Write the report of a finished study (plyrisk run does this by default): "
-        "report.html (self-contained), summary.md, figures/*.png|svg and CSV tables.",
+        "report.html (self-contained), summary.md, figures/*.png|svg and CSV tables. The "
+        "tolerance section comes from the tolerances.csv beside the results file, when there "
+        "is one.",
+        epilog=_examples(
+            "plyrisk report study/results.nc              # rewrite the report in study/",
+            "plyrisk report study/results.nc --out share  # write it to another folder"),
+        formatter_class=_Formatter,
     )
     p.add_argument("results", help="a results.nc written by plyrisk run")
     p.add_argument("--out", metavar="DIR", help="output folder (default: the folder of the "
@@ -349,10 +407,11 @@ def cmd_report(args: argparse.Namespace) -> int:
     except (OSError, ValueError) as err:
         raise UsageError(f"{path}: not a readable NetCDF results file ({err})") from None
     out_dir = Path(args.out) if args.out else path.parent
+    rows, advice = _stored_tolerances(path.parent / "tolerances.csv")
 
     def write(staging: Path) -> str:
         try:
-            return _write_report(ds, staging, None, shown=out_dir)
+            return _write_report(ds, staging, rows, shown=out_dir, advice=advice)
         except (KeyError, TypeError, ValueError) as err:
             raise UsageError(f"{path}: not a complete plyrisk results file ({err})") from None
 
@@ -361,6 +420,23 @@ def cmd_report(args: argparse.Namespace) -> int:
     print(line)
     print(cautions_text())
     return 0
+
+
+def _stored_tolerances(path: Path) -> tuple[list[Any] | None, list[str]]:
+    """The tolerance table and advice ``plyrisk tolerances`` or ``run`` stored beside a
+    results file, so that a regenerated report keeps its tolerance section [-]."""
+    from plyrisk.tolerances.output import manufacturing_rows, read_tolerance_csv
+
+    if not path.is_file():
+        return None, []
+    try:
+        records, advice = read_tolerance_csv(path)
+        rows = manufacturing_rows(records)
+    except (OSError, ValueError, UnicodeDecodeError) as err:
+        print(f"{PROG}: note: {path} was not read; the report has no tolerance section "
+              f"({err})", file=sys.stderr)
+        return None, []
+    return rows, advice
 
 
 # ----------------------------------------------------------------------------------------------
@@ -377,6 +453,12 @@ def _add_tolerances(subparsers) -> None:
         "of spreads (verified with a new seed) and, if configured, the nominal shift that "
         "meets it; print the table for manufacturing and write DIR/tolerances.csv. Settings: "
         "[tolerances] in the config (docs/tolerances.md).",
+        epilog=_examples(
+            "plyrisk tolerances study.toml                  # settings from [tolerances]",
+            "plyrisk tolerances study.toml --target \"P(exceed) <= 1 %\"",
+            "plyrisk tolerances study.toml --samples 4096 --seed 3 --out study",
+            "plyrisk run study.toml && plyrisk tolerances study.toml   # table into the report"),
+        formatter_class=_Formatter,
     )
     p.add_argument("config", help="study config file (TOML)")
     p.add_argument("--target", metavar="TEXT", help="target overriding [tolerances] target, "
@@ -386,7 +468,7 @@ def _add_tolerances(subparsers) -> None:
     p.add_argument("--seed", metavar="S", type=int, help="seed (overrides [tolerances] seed)")
     p.add_argument("--out", metavar="DIR", help="output folder (default: a folder named after "
                    "the config, in the current directory)")
-    p.add_argument("--quiet", action="store_true", help="no progress messages")
+    _verbosity(p, "no progress messages")
     p.set_defaults(func=cmd_tolerances)
 
 
@@ -403,12 +485,19 @@ def cmd_tolerances(args: argparse.Namespace) -> int:
     int
         0 on success [-].
     """
+    from plyrisk.pipeline.run import phase
     from plyrisk.results.dataset import read_results
     from plyrisk.study.config import load_study, require_runnable
     from plyrisk.study.targets import parse_target
-    from plyrisk.tolerances.output import manufacturing_table, tolerance_text, write_tolerance_csv
+    from plyrisk.tolerances.output import (
+        manufacturing_table,
+        tolerance_advice,
+        tolerance_text,
+        write_tolerance_csv,
+    )
     from plyrisk.tolerances.study import run_tolerances, settings_for_study
 
+    _progress_clock(args)
     study = load_study(args.config)
     require_runnable(study)
     if args.samples is not None and args.samples < 2:
@@ -429,9 +518,9 @@ def cmd_tolerances(args: argparse.Namespace) -> int:
     show = not args.quiet  # a plain line per stage, on a terminal or not
     report = run_tolerances(
         study, target=args.target, samples=args.samples, seed=args.seed,
-        progress=(lambda stage: print(f"{PROG}: {stage} ...", file=sys.stderr)) if show
-        else None)
+        progress=(lambda stage: phase(stage, False)) if show else None)
     rows = manufacturing_table(report, study)
+    advice = tolerance_advice(report, study)
     results = out_dir / "results.nc"
     ds = note = None
     if results.is_file():  # a study run already in the folder: add the table to its report
@@ -443,21 +532,85 @@ def cmd_tolerances(args: argparse.Namespace) -> int:
 
     def write(staging: Path) -> str:
         nonlocal note
-        path = write_tolerance_csv(rows, staging / "tolerances.csv")
+        path = write_tolerance_csv(rows, staging / "tolerances.csv", advice=advice)
         text = tolerance_text(report, study, csv_path=out_dir / path.name)
         if ds is not None:
             try:
-                text += "\n" + _write_report(ds, staging, rows, shown=out_dir)
+                text += "\n" + _write_report(ds, staging, rows, shown=out_dir, advice=advice)
             except (KeyError, TypeError, ValueError) as err:
                 note = (f"{PROG}: note: the report in {out_dir} was left as it is: {results} is "
                         f"not a complete results file ({err})")
         return text
 
     fingerprint = "" if ds is None else str(ds.attrs.get("study_fingerprint", ""))
-    print(_update_folder(out_dir, fingerprint, ds, write,
-                         "--out" if args.out else "output folder"))
+    print(fit_width(_update_folder(out_dir, fingerprint, ds, write,
+                                   "--out" if args.out else "output folder")))
     if note:
         print(note, file=sys.stderr)
+    return 0
+
+
+# ----------------------------------------------------------------------------------------------
+# init
+# ----------------------------------------------------------------------------------------------
+
+
+def _add_init(subparsers) -> None:
+    from plyrisk.templates import TEMPLATES
+
+    p = subparsers.add_parser(
+        "init",
+        help="write a commented starting config (an invented demo study) to edit",
+        description="Write a commented starting config: one of the invented demo studies, "
+        "labelled as such, to replace with the data of your own assembly. It passes "
+        "'plyrisk check' as written. An existing file is never overwritten. Templates: "
+        + "; ".join(f"{k}: {v[2]}" for k, v in TEMPLATES.items()) + ".",
+        epilog=_examples(
+            "plyrisk init study.toml                        # the garment template",
+            "plyrisk init --template transient flash.toml   # a transient (burn) study",
+            "plyrisk init --template blanket blanket.toml && plyrisk check blanket.toml"),
+        formatter_class=_Formatter,
+    )
+    p.add_argument("file", help="config file to write (must not exist)")
+    p.add_argument("--template", metavar="NAME", default="garment",
+                   choices=tuple(TEMPLATES), help="starting study: " + ", ".join(TEMPLATES)
+                   + " (default garment)")
+    p.set_defaults(func=cmd_init)
+
+
+def cmd_init(args: argparse.Namespace) -> int:
+    """Run ``plyrisk init``: write a starting config, refusing to overwrite.
+
+    Parameters
+    ----------
+    args
+        Parsed arguments [-].
+
+    Returns
+    -------
+    int
+        0 on success [-].
+    """
+    from plyrisk.provenance import package_version
+    from plyrisk.templates import template_text
+
+    path = Path(args.file)
+    head = (f"# Starting config written by `plyrisk init --template {args.template}` (plyrisk "
+            f"{package_version()}).\n"
+            "# Every value below is INVENTED: replace each one with the data of your own "
+            "assembly.\n"
+            "# Keys: docs/config.md. Next: `plyrisk check FILE`, then `plyrisk run FILE`.\n"
+            "# Results are engineering estimates only, not a substitute for certification "
+            "testing by\n# accredited laboratories; defer to the applicable standards, local "
+            "codes and qualified\n# practice.\n#\n")
+    try:
+        with path.open("x", encoding="utf-8") as f:
+            f.write(head + template_text(args.template))
+    except FileExistsError:
+        raise UsageError(f"{path}: already exists; plyrisk init never overwrites a file "
+                         "(choose another name)") from None
+    print(f"wrote {path} (template {args.template}: an invented study to edit); next: "
+          f"{PROG} check {shlex.quote(str(path))}")
     return 0
 
 
@@ -465,7 +618,7 @@ def cmd_tolerances(args: argparse.Namespace) -> int:
 # Entry point
 # ----------------------------------------------------------------------------------------------
 
-VERBS: tuple[Callable, ...] = (_add_check, _add_run, _add_report, _add_tolerances)
+VERBS: tuple[Callable, ...] = (_add_init, _add_check, _add_run, _add_report, _add_tolerances)
 """Adders of the subcommands, in help order."""
 
 
@@ -473,8 +626,16 @@ def build_parser() -> argparse.ArgumentParser:
     """The argument parser with every verb of :data:`VERBS` [-]."""
     parser = _Parser(
         prog=PROG,
-        description="Uncertainty and sensitivity studies of steady heat transfer through "
-        "multilayer heat-protective assemblies. Engineering estimates only.",
+        description="Uncertainty and sensitivity studies of heat transfer through "
+        "multilayer heat-protective assemblies: steady temperatures and transient exposures "
+        "with skin burn injury. Engineering estimates only.",
+        epilog=_examples(
+            "plyrisk init study.toml        # a commented starting config (invented values)",
+            "plyrisk check study.toml       # validate it; nominal solution",
+            "plyrisk run study.toml         # the study; results and report in ./study/",
+            "plyrisk tolerances study.toml  # tolerance feedback",
+            "plyrisk VERB --help            # options and examples of one verb"),
+        formatter_class=_Formatter,
     )
     from plyrisk.provenance import package_version
 
@@ -496,8 +657,8 @@ def main(argv: Sequence[str] | None = None) -> int:
     Returns
     -------
     int
-        The exit code: 0 success, 1 a failed solve, 2 a user mistake, 130 interrupted
-        (Ctrl-C) [-].
+        The exit code: 0 success, 1 a failed solve or an internal error, 2 a user mistake,
+        3 the criterion not met (``run --fail-if-not-met``), 130 interrupted (Ctrl-C).
     """
     parser = build_parser()
     try:
@@ -524,6 +685,13 @@ def main(argv: Sequence[str] | None = None) -> int:
     except OSError as err:  # unwritable output folder, disk full, ...
         where = f"{err.filename}: " if getattr(err, "filename", None) else ""
         return _fail(f"{where}{err.strerror or err}")
+    except Exception:  # a bug: the traceback under --verbose, else one line asking for it
+        if getattr(args, "verbose", False):
+            raise
+        kind = sys.exc_info()[0].__name__
+        print(f"{PROG}: internal error ({kind}); run again with --verbose for the traceback "
+              "and report it", file=sys.stderr)
+        return 1
 
 
 def _fail(message: str) -> int:

@@ -48,7 +48,7 @@ def test_tolerances_verb_prints_verification_and_cautions(capsys, tmp_path):
     out, err = capsys.readouterr()
     assert code == 0, err
     for heading in ("Baseline (current spreads)", "What-if:", "Allowable spread:",
-                    "Allocation:", "Independent verification (new seed", "For manufacturing"):
+                    "Allocation:", "Independent verification -> ", "For manufacturing"):
         assert heading in out
     assert "(90 % CI)" in out
     assert out.rstrip().endswith(cautions_text())
@@ -104,7 +104,7 @@ def test_config_error_in_the_section_exits_2(capsys, tmp_path):
 def test_configured_section_with_nominal_shift(capsys, tmp_path):
     path = tmp_path / "shift.toml"
     path.write_text(demo_with(
-        'target = "P95 <= 42 degC"\nsamples = 128\nseed = 4\nmethod = "random"\n'
+        'target = "P95 <= 42 degC"\nsamples = 128\nseed = 4\ndesign = "random"\n'
         'cost = { "air gap.width" = 2.0 }\nnominal_shift = "shirt fabric.thickness"\n'
         'nominal_range = ["0.3 mm", "3 mm"]\n'))
     code = main(["tolerances", str(path), "--out", str(tmp_path)])
@@ -122,14 +122,14 @@ def test_configured_section_with_nominal_shift(capsys, tmp_path):
 
 def test_section_is_parsed_into_settings():
     study = loads_study(demo_with(
-        'target = "P99 <= 43 degC"\nsamples = 512\nmethod = "random"\nseed = 9\n'
+        'target = "P99 <= 43 degC"\nsamples = 512\ndesign = "random"\nseed = 9\n'
         'cost = { "air gap.width" = 2.5 }\nmax_factor = 4\nallow_loosening = true\n'
         'keep = ["shirt fabric.emissivity"]\nbasis = "estimate"\nconfidence = 0.95\n'
         'nominal_shift = "shirt fabric.thickness"\nnominal_range = ["0.4 mm", "1.2 mm"]\n'))
     st = study.tolerances
     assert st.target.kind == "quantile" and st.target.probability == 0.99
     assert st.target.threshold == pytest.approx(43.0 + ZERO_CELSIUS, rel=1e-12)
-    assert (st.samples, st.method, st.seed, st.max_factor) == (512, "random", 9, 4.0)
+    assert (st.samples, st.design, st.seed, st.max_factor) == (512, "random", 9, 4.0)
     assert st.cost == {"air gap.width": 2.5} and st.keep == ("shirt fabric.emissivity",)
     assert st.allow_loosening and st.basis == "estimate" and st.confidence == 0.95
     assert st.nominal_shift == "shirt fabric.thickness"
@@ -141,7 +141,8 @@ def test_section_is_parsed_into_settings():
 @pytest.mark.parametrize(("section", "path", "match"), [
     ('targt = "P95 <= limit"\n', "tolerances", "unknown key 'targt'; did you mean 'target'?"),
     ('target = "P95 < limit"\n', "tolerances.target", "bad target 'P95 < limit'"),
-    ('method = "sobol"\n', "tolerances.method", "unknown method 'sobol'; valid: lhs, random"),
+    ('design = "sobol"\n', "tolerances.design", "unknown design 'sobol'; valid: lhs, random"),
+    ('method = "lhs"\n', "tolerances.method", 'is now design = "lhs"'),
     ("samples = 1\n", "tolerances.samples", "must be at least 2, got 1"),
     ("max_factor = 0.5\n", "tolerances.max_factor", "expected a number >= 1"),
     ('cost = { "air gap.width" = -1 }\n', 'tolerances.cost.air gap.width',

@@ -38,7 +38,7 @@ def test_transient_report_answers_first_and_carries_the_cautions(tmp_path):
     ds = read_results(write_results(_dataset(ts.skin_sweep), tmp_path / "results.nc"))
     files = write_report(ds, tmp_path / "report")
     html = files.html.read_text(encoding="utf-8")
-    assert html.index("<h2>Answer</h2>") < html.index("<h2>Figures</h2>")
+    assert html.index('<h2 id="answer">Answer</h2>') < html.index('<h2 id="figures">Figures</h2>')
     assert "Time to second-degree burn: P5" in html and "P(second-degree burn within 30 s)" \
         in html
     assert "scatter widely" in html and "not a substitute for certification" in html

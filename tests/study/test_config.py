@@ -308,7 +308,7 @@ def test_temperature_distribution_spread_is_a_difference():
     assert p.distribution.params["sd"] == pytest.approx(2.0)  # a difference: 2 degC = 2 K
     np.testing.assert_allclose(p.to_unit([307.15]), [34.0])
     assert p.to_unit(2.0, difference=True) == pytest.approx(2.0)
-    assert p.describe() == "normal(mean 34 degC, sd 2 degC)"
+    assert p.describe() == "normal(mean 34 degC, sd 2 K)"  # a spread: K
 
 
 def test_emissivity_shorthand_is_one_parameter_for_both_faces():

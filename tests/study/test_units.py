@@ -121,7 +121,9 @@ def test_from_si_back_to_user_units():
     assert from_si(2.0, "degC", TEMPERATURE, difference=True) == pytest.approx(2.0)
     assert from_si(5e-4, "mm", LENGTH) == pytest.approx(0.5)
     assert format_value(307.15, "degC", TEMPERATURE) == "34 degC"
-    assert format_value(2.0, "degC", TEMPERATURE, difference=True) == "2 degC"
+    assert format_value(2.0, "degC", TEMPERATURE, difference=True) == "2 K"
+    # Source: 1 K = 1.8 degF as an interval (NIST SP 811, 2008, sec. B.8).
+    assert format_value(2.0, "degF", TEMPERATURE, difference=True) == "3.6 delta_degF"
     assert format_value(0.9, "", EMISSIVITY) == "0.9"
 
 

@@ -303,7 +303,7 @@ def test_shift_scales_a_lognormal_and_keeps_bounds():
 
 
 @pytest.mark.parametrize(("kw", "match"), [
-    ({"method": "sobol"}, r"unknown method 'sobol'; valid: lhs, random"),
+    ({"design": "sobol"}, r"unknown design 'sobol'; valid: lhs, random"),
     ({"basis": "mean"}, r"unknown basis 'mean'; valid: bound, estimate"),
     ({"max_factor": 0.5}, r"max_factor must be a finite number >= 1, got 0.5"),
     ({"samples": 1}, r"samples must be a whole number >= 2, got 1"),

@@ -217,11 +217,27 @@ def _run_to_store(study: Study, store, *, chunk_size, resume, overwrite, workers
 ANALYSIS_PHASE = "analysis (percentiles, exceedance, sensitivity indices or surrogate fit)"
 
 
+_CLOCK: list[float] = []
+"""Start time of the progress clock (``plyrisk -v``); empty when off."""
+
+
+def set_progress_clock(on: bool) -> None:
+    """Stamp the lines of :func:`phase` with the seconds since this call (``on``), or not."""
+    import time
+
+    _CLOCK[:] = [time.perf_counter()] if on else []
+
+
 def phase(text: str, quiet: bool) -> None:
     """One line on stderr as a phase of a run begins (unless ``quiet``): on a terminal and off
     it, so that a long run shows where it is [-]."""
     if not quiet:
-        print(f"plyrisk: {text} ...", file=sys.stderr, flush=True)
+        stamp = ""
+        if _CLOCK:
+            import time
+
+            stamp = f"[{time.perf_counter() - _CLOCK[0]:7.1f} s] "
+        print(f"plyrisk: {stamp}{text} ...", file=sys.stderr, flush=True)
 
 
 FILE_SAMPLE_ROWS = 2**18

@@ -16,7 +16,7 @@ exposure; Student t intervals on the spread of the replicates) has a half-width 
 
 from __future__ import annotations
 
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, field, replace
 from typing import TYPE_CHECKING
 
 import numpy as np
@@ -53,12 +53,18 @@ class GrowthStep:
         Largest index half-width over every index, output and exposure.
     unconverged
         Indices whose half-width is above the target.
+    total, total_ci
+        Total Sobol index of the inner-surface temperature per exposure and parameter, and its
+        half-width, at this step (shape ``(n_scenarios, n_parameters)``; empty when unknown):
+        the path the convergence figure of the report draws.
     """
 
     base_samples: int
     runs: int
     widest: float
     unconverged: int
+    total: np.ndarray = field(default_factory=lambda: np.zeros((0, 0)))
+    total_ci: np.ndarray = field(default_factory=lambda: np.zeros((0, 0)))
 
 
 @dataclass(frozen=True)
@@ -113,6 +119,23 @@ def interval_widths(analysis: StudyAnalysis, target: float) -> tuple[float, int]
     h = np.concatenate(halves) if halves else np.zeros(0)
     h = h[np.isfinite(h)]
     return (float(h.max()) if h.size else 0.0), int(np.sum(h > target))
+
+
+PATH_OUTPUT = "inner_surface_temperature"
+"""Output whose total indices the growth path records."""
+
+
+def total_path(analysis: StudyAnalysis) -> tuple[np.ndarray, np.ndarray]:
+    """Total Sobol indices of :data:`PATH_OUTPUT` and their half-widths, per exposure and
+    parameter (NaN where there are none)."""
+    totals, halves = [], []
+    for sc in analysis.scenarios:
+        per = sc.indices.get(PATH_OUTPUT, (None, None))[0]
+        if per is None:
+            return np.zeros((0, 0)), np.zeros((0, 0))
+        totals.append(np.asarray(per.total, dtype=float))
+        halves.append(np.asarray(per.total_ci, dtype=float))
+    return np.array(totals), np.array(halves)
 
 
 def _join(first: Outputs, second: Outputs) -> Outputs:
@@ -171,7 +194,7 @@ def grow_until_converged(study: Study, *, max_runs: int | None = None,
         analysis = analyse(current, prop)
         widest, wide = interval_widths(analysis, a.index_ci_threshold)
         runs = design.n_rows * n_s
-        steps.append(GrowthStep(n, runs, widest, wide))
+        steps.append(GrowthStep(n, runs, widest, wide, *total_path(analysis)))
         if wide == 0:
             reason = (f"every index interval is at most ±{a.index_ci_threshold:g} at N = {n}")
             return Growth(current, prop, analysis, tuple(steps), True, reason,
@@ -230,6 +253,19 @@ def add_growth(ds: xr.Dataset, growth: Growth) -> xr.Dataset:
         "growth_unconverged": var([s.unconverged for s in steps], np.int64,
                                   "indices wider than the target at each step"),
     }
+    if steps and all(st.total.size and st.total.shape == steps[0].total.shape for st in steps):
+        total = np.stack([st.total for st in steps])
+        half = np.stack([st.total_ci for st in steps])
+        tdims: tuple[str, ...] = ("growth_step", "scenario", "parameter")
+        if "scenario" not in ds.dims:
+            total, half, tdims = total[:, 0], half[:, 0], ("growth_step", "parameter")
+        for name, values, what in (
+                ("growth_sobol_total", total, "total Sobol index of the inner-surface "
+                 "temperature at each growth step"),
+                ("growth_sobol_total_ci", half, "half-width of that index's interval at each "
+                 "growth step")):
+            new[name] = xr.Variable(tdims, values, {"units": "1", "long_name": what,
+                                                     "method": "saltelli"})
     out = ds.assign(new)
     out.attrs.update({"growth_converged": int(growth.converged), "growth_reason": growth.reason,
                       "growth_target": float(growth.target),

@@ -13,10 +13,24 @@ from typing import Any
 import numpy as np
 import xarray as xr
 
+from plyrisk.analysis.sobol import not_resolved
 from plyrisk.report.figures import outputs as fg
 from plyrisk.report.figures.common import PRIMARY
 from plyrisk.report.tables import INDEX_KEYS, index_sets, scenario_values
 from plyrisk.results.dataset import independent_samples, subset_warning
+from plyrisk.text.indices import NOT_RESOLVED
+
+
+def index_status(values: dict, j: int, converged: np.ndarray | None) -> str:
+    """The status of one index row: ``"not resolved: more samples"`` when the first-order or
+    total estimate lies outside [0, 1] by more than its interval, else ``"converged"`` or
+    ``"unconverged"`` (interval wider than the threshold), ``""`` without flags."""
+    if any(not_resolved(float(values[k][j]), float(values[f"{k}_ci"][j]))
+           for k in ("first", "total")):
+        return NOT_RESOLVED
+    if converged is None:
+        return ""
+    return "converged" if bool(converged[j]) else "unconverged"
 
 __all__ = ["write_csv", "write_csv_tables"]
 
@@ -74,21 +88,23 @@ def write_csv_tables(ds: xr.Dataset, out: Path) -> list[Path]:
                             str(one["parameter_unit"].values[j]),
                             *(float(ix.p[k][j]) for k in INDEX_KEYS), int(ix.p_rank[j]),
                             None if pc is None else bool(pc[j]),
-                            rho[j] if ix.output == PRIMARY else None, ix.estimator])
+                            rho[j] if ix.output == PRIMARY else None, ix.estimator,
+                            index_status(ix.p, j, pc)])
                 rank.append([label, ix.output, "parameter", int(ix.p_rank[j]), name,
                              f"total_sobol_index_{ix.estimator}", float(ix.p["total"][j]),
                              float(ix.p["total_ci"][j]), None if pc is None else bool(pc[j])])
             for j, g in enumerate(groups):
                 grp.append([label, ix.output, g, *(float(ix.g[k][j]) for k in INDEX_KEYS),
                             int(ix.g_rank[j]), None if gc is None else bool(gc[j]),
-                            ix.estimator])
+                            ix.estimator, index_status(ix.g, j, gc)])
                 rank.append([label, ix.output, "layer", int(ix.g_rank[j]), g,
                              f"total_sobol_index_{ix.estimator}", float(ix.g["total"][j]),
                              float(ix.g["total_ci"][j]), None if gc is None else bool(gc[j])])
         if not sets:
             for j, name in enumerate(names):
                 ind.append([label, PRIMARY, name, str(one["parameter_group"].values[j]),
-                            str(one["parameter_unit"].values[j]), *([None] * 6), rho[j], ""])
+                            str(one["parameter_unit"].values[j]), *([None] * 6), rho[j], "",
+                            ""])
         if "sobol_total" not in one:
             for r, j in enumerate(np.argsort(-np.nan_to_num(np.abs(rho), nan=-1.0),
                                              kind="stable"), start=1):
@@ -104,10 +120,11 @@ def write_csv_tables(ds: xr.Dataset, out: Path) -> list[Path]:
                   quant),
         write_csv(out / "indices.csv", ["scenario", "output", "parameter", "group", "unit",
                                         "first", "first_ci", "total", "total_ci", "rank",
-                                        "converged", "rank_correlation", "estimator"], ind),
+                                        "converged", "rank_correlation", "estimator", "status"],
+                  ind),
         write_csv(out / "group_indices.csv", ["scenario", "output", "group", "first",
                                               "first_ci", "total", "total_ci", "rank",
-                                              "converged", "estimator"], grp),
+                                              "converged", "estimator", "status"], grp),
         write_csv(out / "ranking.csv", ["scenario", "output", "kind", "rank", "name", "measure",
                                         "value", "ci", "converged"], rank),
     ]

@@ -22,6 +22,7 @@ from __future__ import annotations
 
 import base64
 import html
+import re
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -41,7 +42,6 @@ from plyrisk.report.shapley import (
 )
 from plyrisk.report.tables import (
     Table,
-    cell_text,
     convergence_summary,
     exposure_text,
     headline_table,
@@ -52,6 +52,7 @@ from plyrisk.report.tables import (
     ranking_tables,
     scenario_values,
     stack_tables,
+    tolerance_tables,
 )
 from plyrisk.study.config import loads_study
 
@@ -168,7 +169,7 @@ def report_figures(ds: xr.Dataset) -> list[ReportFigure]:
             "The inner-surface temperature of each independent, converged sample against the "
             "three most influential inputs (by total Sobol index; for method = pce by the "
             "surrogate's total index, or by |rank correlation| without a surrogate), in the "
-            "units they were given in.",
+            "units they were given in. Samples over the limit are marked as orange triangles.",
             fg.scatter_figure(ds, scenario=i)))
     if "scenario" in ds.dims:
         out.append(ReportFigure(
@@ -177,7 +178,32 @@ def report_figures(ds: xr.Dataset) -> list[ReportFigure]:
             "upper confidence bound of P95 and the limit. The read-off interpolates linearly "
             "between swept levels; run a finer sweep around it before relying on it.",
             fg.sweep_figure(ds)))
+        target = _exceedance_target(ds)
+        out.append(ReportFigure(
+            "exceedance_sweep", "Probability of exceeding the limit against the exposure",
+            "The probability that the inner-surface temperature exceeds the limit at each "
+            "swept level, with its confidence band"
+            + (" and the target of [tolerances]" if target is not None else "")
+            + ". Nothing is computed between the swept levels.",
+            fg.exceedance_sweep_figure(ds, target=target)))
+    if "growth_sobol_total" in ds:
+        out.append(ReportFigure(
+            "index_convergence", "Convergence of the indices as the study grew",
+            "The total Sobol indices of the most influential inputs (inner-surface "
+            "temperature) at each doubling of the base samples (--until-converged), with "
+            "their confidence half-widths. Rankings that still cross at the last step are not "
+            "settled.", fg.growth_figure(ds)))
     return out
+
+
+def _exceedance_target(ds: xr.Dataset) -> float | None:
+    """The bound of a ``[tolerances]`` target on P(exceed) in the stored config, if any."""
+    study, _ = _study(ds)
+    settings = getattr(study, "tolerances", None)
+    target = getattr(settings, "target", None)
+    if getattr(target, "kind", None) == "exceedance":
+        return float(target.threshold)  # type: ignore[union-attr]
+    return None
 
 
 def _save(figs: list[ReportFigure], folder: Path) -> tuple[list[Path], dict[str, str]]:
@@ -203,10 +229,38 @@ def _study(ds: xr.Dataset):
     text = ds.attrs.get("config_text")
     if not text:
         return None, "the dataset holds no config text"
+    source = str(ds.attrs.get("config_source", "<results>"))
     try:
-        return loads_study(str(text), source=str(ds.attrs.get("config_source", "<results>"))), ""
+        return loads_study(str(text), source=source), ""
     except Exception as err:  # a newer or older config schema: report it, never fail the report
+        upgraded = upgrade_config_text(str(text))
+        if upgraded != text:
+            try:
+                return loads_study(upgraded, source=source), ""
+            except Exception:
+                pass
         return None, f"{type(err).__name__}: {err}"
+
+
+def upgrade_config_text(text: str) -> str:
+    r"""A stored config text with the former spellings the reader now refuses replaced by
+    the current ones (``[tolerances] method`` → ``design``), so that the report of an older
+    results file still shows its study. Only for re-reading stored texts.
+
+    Examples
+    --------
+    >>> upgrade_config_text('[tolerances]\nmethod = "lhs"\n[study]\nmethod = "pce"\n')
+    '[tolerances]\ndesign = "lhs"\n[study]\nmethod = "pce"\n'
+    """
+    out, section = [], ""
+    for line in text.splitlines(keepends=True):
+        head = re.match(r"\s*\[+\s*([^\]\s]+)", line)
+        if head:
+            section = head.group(1)
+        elif section == "tolerances":
+            line = re.sub(r"^(\s*)method(\s*=)", r"\1design\2", line)
+        out.append(line)
+    return "".join(out)
 
 
 def _tolerance_table(table) -> tuple[list[str], list[dict]]:
@@ -273,11 +327,79 @@ figure{margin:1.2rem 0}figure img{max-width:100%;height:auto;border:1px solid #d
 figcaption{font-size:.9rem;color:#444}
 pre{background:#f6f6f6;padding:.8rem;overflow-x:auto;font-size:.8rem}
 .sub{color:#555}
+table{max-width:100%}td{overflow-wrap:break-word}
+nav.toc{border:1px solid #d8dee8;background:#f8fafc;padding:.4rem 1.2rem;margin:1rem 0}
+nav.toc h2{border:none;margin:.3rem 0;font-size:1.05rem}
+nav.toc ol{margin:.2rem 0;padding-left:1.8rem;columns:2 18rem;column-gap:3.5rem}
+nav.toc li{break-inside:avoid}
+nav.toc a{color:#1f4e79;text-decoration:none}nav.toc a:hover{text-decoration:underline}
+ul.advice{padding-left:1.2rem}
+@media (max-width:900px){body{margin:1rem auto;padding:0 .6rem}
+ table{font-size:.82rem}th,td{padding:.2rem .35rem;overflow-wrap:anywhere}}
+@media print{
+ @page{margin:15mm 14mm}
+ body{max-width:none;margin:0;padding:0;font-size:10pt;line-height:1.35}
+ h1,h2,h3,caption{break-after:avoid;page-break-after:avoid}
+ h2,h3{break-inside:avoid}
+ figure,tr,.cautions,nav.toc,ul.advice{break-inside:avoid;page-break-inside:avoid}
+ figure img{max-width:100%;max-height:22cm;object-fit:contain;border:none}
+ table{width:100%;font-size:8.5pt;break-inside:auto}
+ thead{display:table-header-group}
+ th,td{overflow-wrap:anywhere;padding:.15rem .3rem}
+ pre{white-space:pre-wrap;overflow:visible;font-size:7.5pt}
+ nav.toc a{color:inherit}
+ nav.toc ol{columns:2}
+}
 """
 
 
 def _esc(text: Any) -> str:
     return html.escape(str(text), quote=True)
+
+
+_HEADING = re.compile(r"<h2(?P<attrs>[^>]*)>(?P<text>.*?)</h2>")
+
+
+def with_contents(lines: list[str]) -> list[str]:
+    """The HTML lines with an id on every ``<h2>`` and a table of contents of them, placed
+    after the first cautions box (before the first section heading when there is none).
+
+    Parameters
+    ----------
+    lines
+        Lines of a report page.
+
+    Returns
+    -------
+    list of str
+    """
+    seen: dict[str, int] = {}
+    entries: list[tuple[str, str]] = []
+
+    def tag(m: re.Match) -> str:
+        text = re.sub(r"<[^>]+>", "", m.group("text"))
+        found = re.search(r'id="([^"]+)"', m.group("attrs"))
+        if found:
+            anchor = found.group(1)
+        else:
+            base = re.sub(r"[^a-z0-9]+", "-", html.unescape(text).lower()).strip("-") or "s"
+            seen[base] = seen.get(base, 0) + 1
+            anchor = base if seen[base] == 1 else f"{base}-{seen[base]}"
+        if text not in {t for _, t in entries}:
+            entries.append((anchor, text))
+        return f'<h2 id="{anchor}"{m.group("attrs")}>{m.group("text")}</h2>' if not found \
+            else m.group(0)
+
+    out = [_HEADING.sub(tag, line) for line in lines]
+    if not entries:
+        return out
+    nav = ('<nav class="toc" aria-label="Contents"><h2 class="toc-title">Contents</h2><ol>'
+           + "".join(f'<li><a href="#{a}">{t}</a></li>' for a, t in entries) + "</ol></nav>")
+    box = next((i for i, line in enumerate(out) if line.startswith('<div class="cautions">')),
+               None)
+    if box is None:
+        box = next(i for i, line in enumerate(out) if _HEADING.search(line)) - 1
+    return out[:box + 1] + [nav] + out[box + 1:]
 
 
 def _html_table(t: Table) -> str:
@@ -312,11 +434,57 @@ def _cautions_md() -> str:
     return "## Cautions\n\n" + "\n".join(f"- **{c}**" for c in CAUTIONS)
 
 
+@dataclass(frozen=True)
+class _Tolerances:
+    """The tolerance section: the table's columns and records and the advice lines."""
+
+    columns: list[str]
+    records: list[dict]
+    advice: tuple[str, ...] = ()
+
+    @classmethod
+    def of(cls, table: Any, advice: Sequence[str] | None) -> _Tolerances | None:
+        if table is None and not advice:
+            return None
+        columns, records = _tolerance_table(table) if table is not None else ([], [])
+        return cls(columns, records, tuple(str(a) for a in (advice or ())))
+
+    def write_csv(self, out: Path) -> Path:
+        path = write_csv(out / "tolerances.csv", self.columns,
+                         [[r.get(c) for c in self.columns] for r in self.records])
+        if self.advice:
+            from plyrisk.tolerances.output import ADVICE_PREFIX
+
+            text = path.read_text(encoding="utf-8")
+            path.write_text("".join(f"{ADVICE_PREFIX}{' '.join(a.split())}\n"
+                                    for a in self.advice) + text, encoding="utf-8")
+        return path
+
+    def html(self) -> list[str]:
+        h = ['<h2 id="tolerances">Tolerance recommendations</h2>']
+        if self.advice:
+            h.append('<ul class="advice">' + "".join(f"<li><strong>{_esc(a)}</strong></li>"
+                                                    for a in self.advice) + "</ul>")
+        if self.records:
+            h += [_html_table(t) for t in tolerance_tables(self.columns, self.records)]
+        else:
+            h.append("<p>The tolerance table has no rows.</p>")
+        return h
+
+    def markdown(self) -> list[str]:
+        m = ["## Tolerance recommendations", ""]
+        m += [f"- **{a}**" for a in self.advice] + ([""] if self.advice else [])
+        for t in tolerance_tables(self.columns, self.records) if self.records else []:
+            m += [_md_table(t), ""]
+        return m
+
+
 def write_report(
     ds: xr.Dataset,
     out_dir: str | Path,
     *,
     tolerance_table: Any = None,
+    tolerance_advice: Sequence[str] | None = None,
 ) -> ReportFiles:
     """Write the report of a results dataset: HTML, Markdown summary, figures and CSV tables.
 
@@ -330,7 +498,13 @@ def write_report(
         Folder to write into (created if missing).
     tolerance_table
         Tolerance recommendations to include: a pandas DataFrame or a list of dicts (one per
-        row; columns are rendered as they come), or ``None``.
+        row), or ``None``. The columns of ``tolerances.csv``
+        (:class:`plyrisk.tolerances.output.ManufacturingRow`) are shown with human headers and
+        units; any other columns as they come.
+    tolerance_advice
+        Lines to act on shown above the tolerance table and written as ``# advice:`` lines
+        of ``tolerances.csv``: the independent verification's verdict and the nominal-shift
+        advice (:func:`plyrisk.tolerances.output.tolerance_advice`).
 
     Returns
     -------
@@ -350,24 +524,24 @@ def write_report(
     if ds.attrs.get("study_kind") == "transient":
         from plyrisk.report.transient import write_transient_report
 
-        return write_transient_report(ds, out_dir, tolerance_table=tolerance_table)
+        return write_transient_report(ds, out_dir, tolerance_table=tolerance_table,
+                                      tolerance_advice=tolerance_advice)
     missing = [v for v in _REQUIRED if v not in ds.variables]
     if missing or "limit" not in ds.attrs:
         raise ValueError("not a plyrisk results dataset: missing "
                          + ", ".join(missing + ([] if "limit" in ds.attrs else ["attrs.limit"])))
-    tol = _tolerance_table(tolerance_table) if tolerance_table is not None else None
+    tol = _Tolerances.of(tolerance_table, tolerance_advice)
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
     figs = report_figures(ds)
     fig_paths, embedded = _save(figs, out / "figures")
     tables = write_csv_tables(ds, out) + write_shapley_csv(ds, out)
     if tol is not None:
-        columns, records = tol
-        tables.append(write_csv(out / "tolerances.csv", columns,
-                                [[r.get(c) for c in columns] for r in records]))
+        tables.append(tol.write_csv(out))
     content = _Content.of(ds, figs, embedded, tol)
     html_path = out / "report.html"
-    html_path.write_text("\n".join(_html_lines(ds, content)) + "\n", encoding="utf-8")
+    html_path.write_text("\n".join(with_contents(_html_lines(ds, content))) + "\n",
+                         encoding="utf-8")
     md_path = out / "summary.md"
     md_path.write_text("\n".join(_markdown_lines(ds, content, out, fig_paths + tables)),
                        encoding="utf-8")
@@ -449,11 +623,7 @@ def _html_lines(ds: xr.Dataset, c: _Content) -> list[str]:
                  f'<img src="data:image/png;base64,{embedded[f.stem]}" alt="{_esc(f.title)}">'
                  f"<figcaption>{_esc(f.caption)}</figcaption></figure>")
     if tol is not None:
-        columns, records = tol
-        h.append("<h2>Tolerance recommendations</h2>")
-        h.append(_html_table(Table(columns, [[cell_text(r.get(c)) for c in columns]
-                                             for r in records])) if records else
-                 "<p>The tolerance table has no rows.</p>")
+        h += tol.html()
     h.append("<h2>Convergence of the indices</h2>")
     h += [f"<p>{_esc(t)}</p>" for t in conv_text]
     if conv_table is not None:
@@ -491,6 +661,8 @@ def _markdown_lines(ds: xr.Dataset, c: _Content, out: Path, files: list[Path]) -
     for t in ranking:
         m += [_md_table(Table(t.header, t.rows[:TOP_COUNT], t.caption
                               + (f" (top {TOP_COUNT})" if len(t.rows) > TOP_COUNT else ""))), ""]
+    if c.tol is not None:
+        m += c.tol.markdown()
     m += ["## Convergence", "", *conv_text, ""]
     if conv_table is not None:
         m += [_md_table(conv_table), ""]

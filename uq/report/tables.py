@@ -423,3 +423,87 @@ def provenance_table(ds: xr.Dataset) -> Table:
     rows += [[f"{k.removeprefix('version_')} version", str(v)] for k, v in a.items()
              if k.startswith("version_")]
     return Table(["item", "value"], rows)
+
+
+# ----------------------------------------------------------------------------------------------
+# Tolerance recommendations
+# ----------------------------------------------------------------------------------------------
+
+MANUFACTURING_COLUMNS = ("parameter", "layer", "current_spec", "variance_share", "share_source",
+                         "quantile_label", "quantile_if_halved", "temperature_unit",
+                         "recommended_spec", "recommended_factor", "target")
+"""The columns of :class:`plyrisk.tolerances.output.ManufacturingRow` (``tolerances.csv``)."""
+
+
+def _number(v: Any) -> float:
+    try:
+        return float(v)
+    except (TypeError, ValueError):
+        return math.nan
+
+
+def share_text(v: Any) -> str:
+    """A variance share (a fraction) as a percentage with 2 significant digits; ``"< 0.01 %"``
+    for the negligible ones, ``"n/a"`` when missing."""
+    x = _number(v)
+    if not math.isfinite(x):
+        return "n/a"
+    if x < 1e-4:
+        return "< 0.01 %"
+    return f"{100 * x:.2g} %" if x < 0.1 else f"{100 * x:.0f} %"
+
+
+def _level(x: float, unit: str) -> str:
+    """A temperature to 0.01 of its unit (the what-if changes are that small), a time to 3
+    significant digits."""
+    if not math.isfinite(x):
+        return "n/a"
+    return f"{x:.3g}" if unit == "s" else f"{x:.2f}"
+
+
+def tolerance_tables(columns: list[str], records: list[dict]) -> list[Table]:
+    """The tolerance recommendations as display tables.
+
+    A manufacturing table (the columns of ``tolerances.csv``) becomes two narrow tables with
+    human headers and units: what each parameter's spread does, then the recommended
+    specification; the target, common to every row, goes in the caption. Any other table is
+    rendered as it comes.
+
+    Parameters
+    ----------
+    columns
+        Column names.
+    records
+        One dict per row.
+
+    Returns
+    -------
+    list of Table
+    """
+    if not set(MANUFACTURING_COLUMNS) <= set(columns):
+        return [Table(list(columns), [[cell_text(r.get(c)) for c in columns] for r in records])]
+    first = records[0] if records else {}
+    label = str(first.get("quantile_label", "P95"))
+    unit = fg.pretty_unit(str(first.get("temperature_unit", "")))
+    target = str(first.get("target", ""))
+    sources = sorted({str(r.get("share_source", "")) for r in records} - {""})
+    effect = Table(
+        ["Parameter", "Layer", "Share of the variance",
+         f"{label} with this spread halved [{unit}]"],
+        [[str(r["parameter"]), str(r["layer"]).replace("_", " "),
+          share_text(r.get("variance_share")),
+          _level(_number(r.get("quantile_if_halved")), unit)]
+         for r in records],
+        "What each spread does" + (f" (share: {', '.join(sources)})" if sources else ""))
+
+    def factor(v: Any) -> str:
+        x = _number(v)
+        return f"{x:.2f}×" if math.isfinite(x) else "—"
+
+    spec = Table(
+        ["Parameter", "Current specification", "Recommended specification",
+         "Spread factor"],
+        [[str(r["parameter"]), str(r["current_spec"]), str(r["recommended_spec"]),
+          factor(r.get("recommended_factor"))] for r in records],
+        "Recommended specification" + (f" for the target {target}" if target else ""))
+    return [effect, spec]

@@ -279,7 +279,8 @@ def _nonconverged(ds: xr.Dataset) -> Table:
 
 
 def write_transient_report(ds: xr.Dataset, out_dir: str | Path, *,
-                           tolerance_table: Any = None) -> Any:
+                           tolerance_table: Any = None,
+                           tolerance_advice: Any = None) -> Any:
     """Write the report of a transient results dataset (see the module docstring).
 
     Parameters
@@ -290,6 +291,8 @@ def write_transient_report(ds: xr.Dataset, out_dir: str | Path, *,
         Folder to write into.
     tolerance_table
         Tolerance recommendations (as for :func:`plyrisk.report.html.write_report`).
+    tolerance_advice
+        Lines to act on (as for :func:`plyrisk.report.html.write_report`).
 
     Returns
     -------
@@ -302,7 +305,8 @@ def write_transient_report(ds: xr.Dataset, out_dir: str | Path, *,
         _html_table,
         _md_table,
         _save,
-        _tolerance_table,
+        _Tolerances,
+        with_contents,
     )
 
     missing = [v for v in ("converged", "sample_block") if v not in ds.variables]
@@ -310,7 +314,7 @@ def write_transient_report(ds: xr.Dataset, out_dir: str | Path, *,
         raise ValueError("not a plyrisk transient results dataset: missing "
                          + ", ".join(missing + ([] if "horizon" in ds.attrs
                                                 else ["attrs.horizon"])))
-    tol = _tolerance_table(tolerance_table) if tolerance_table is not None else None
+    tol = _Tolerances.of(tolerance_table, tolerance_advice)
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
     figs = transient_figures(ds)
@@ -324,9 +328,7 @@ def write_transient_report(ds: xr.Dataset, out_dir: str | Path, *,
     rules = _rules_table(ds)
     tables = _csv(ds, out)
     if tol is not None:
-        columns, records = tol
-        tables.append(write_csv(out / "tolerances.csv", columns,
-                                [[r.get(c) for c in columns] for r in records]))
+        tables.append(tol.write_csv(out))
     title = str(ds.attrs.get("title", "plyrisk study"))
     notes = [n for n in str(ds.attrs.get("notes", "")).split("\n") if n.strip()]
     cautions = "".join(f"<li>{_esc(c)}</li>" for c in TRANSIENT_CAUTIONS)
@@ -360,10 +362,7 @@ def write_transient_report(ds: xr.Dataset, out_dir: str | Path, *,
     h += [_html_table(t) for t in ranking]
     h.append(_html_table(rules))
     if tol is not None:
-        columns, records = tol
-        h.append("<h2>Tolerance recommendations</h2>")
-        h.append(_html_table(Table(columns, [[cell_text(r.get(c)) for c in columns]
-                                             for r in records])))
+        h += tol.html()
     h += ["<h2>Samples that did not converge</h2>",
           "<p>Samples whose transient solve failed are excluded from every statistic and "
           "counted here.</p>", _html_table(_nonconverged(ds))]
@@ -374,7 +373,7 @@ def write_transient_report(ds: xr.Dataset, out_dir: str | Path, *,
     h += ["<h2>Provenance</h2>", _html_table(_provenance(ds)), "<h3>Config text</h3>",
           f"<pre>{_esc(ds.attrs.get('config_text', ''))}</pre>", "</body>", "</html>"]
     html_path = out / "report.html"
-    html_path.write_text("\n".join(h) + "\n", encoding="utf-8")
+    html_path.write_text("\n".join(with_contents(h)) + "\n", encoding="utf-8")
     cautions_md = "## Cautions\n\n" + "\n".join(f"- **{c}**" for c in TRANSIENT_CAUTIONS)
     m = [f"# {title}", "", "plyrisk transient study summary; the full report is "
          "`report.html`.", "", "## Answer", ""]
@@ -390,7 +389,8 @@ def write_transient_report(ds: xr.Dataset, out_dir: str | Path, *,
     m += ["## Ranking", ""]
     for t in ranking:
         m += [_md_table(Table(t.header, t.rows[:5], t.caption)), ""]
-    m += [_md_table(rules), "", "## Samples that did not converge", "",
+    m += [_md_table(rules), ""] + (tol.markdown() if tol is not None else [])
+    m += ["## Samples that did not converge", "",
           _md_table(_nonconverged(ds)), ""]
     if notes:
         m += ["## Notes", "", *[f"- {n}" for n in notes], ""]

@@ -15,7 +15,7 @@ from plyrisk.methods import METHODS, RENAMED_METHODS, Method
 from plyrisk.study import values as cv
 from plyrisk.study.definition import Analysis, ComputeOptions, ModelOptions, Parameter
 from plyrisk.study.settings import BASES, ScreeningSettings, ToleranceSettings
-from plyrisk.study.settings import METHODS as TOLERANCE_METHODS
+from plyrisk.study.settings import DESIGNS as TOLERANCE_DESIGNS
 from plyrisk.study.targets import parse_target
 from plyrisk.study.units import TEMPERATURE, TEMPERATURE_DIFFERENCE, Parsed
 from plyrisk.study.values import Context, join, show, suggest
@@ -243,8 +243,8 @@ def parse_model_section(ctx: Context, raw: Any, parsed: dict) -> dict:
 # ----------------------------------------------------------------------------------------------
 
 _TOLERANCE_KEYS = (
-    "target", "samples", "method", "seed", "cost", "max_factor", "allow_loosening", "keep",
-    "basis", "confidence", "nominal_shift", "nominal_range",
+    "target", "samples", "design", "method", "seed", "cost", "max_factor", "allow_loosening",
+    "keep", "basis", "confidence", "nominal_shift", "nominal_range",
 )  # fmt: skip
 
 
@@ -263,9 +263,14 @@ def parse_tolerances(ctx: Context, raw: Any, parsed: dict) -> dict:
             raise ctx.error("tolerances.target", str(err)) from None
     if "samples" in t:
         kw["samples"] = cv.integer(ctx, t["samples"], "tolerances.samples", minimum=2)
-    if "method" in t:
-        kw["method"] = cv.choice(ctx, t["method"], "tolerances.method", TOLERANCE_METHODS,
-                                 "method")
+    if "method" in t:  # the former name: one word (design) for one concept in every section
+        old = t["method"]
+        new = f'"{old}"' if isinstance(old, str) else show(old)
+        raise ctx.error("tolerances.method", f"is now design = {new} (the same key as [study] "
+                        "design)")
+    if "design" in t:
+        kw["design"] = cv.choice(ctx, t["design"], "tolerances.design", TOLERANCE_DESIGNS,
+                                 "design")
     if "seed" in t:
         kw["seed"] = cv.integer(ctx, t["seed"], "tolerances.seed", minimum=0,
                                 maximum=MAX_SEED)

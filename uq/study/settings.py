@@ -12,11 +12,14 @@ from dataclasses import dataclass, field
 
 from plyrisk.study.targets import Target, parse_target
 
-__all__ = ["BASES", "DEFAULT_TARGET", "METHODS", "ScreeningSettings", "ToleranceSettings"]
+__all__ = ["BASES", "DEFAULT_TARGET", "DESIGNS", "METHODS", "ScreeningSettings",
+           "ToleranceSettings"]
 
 DEFAULT_TARGET = "P95 <= limit"
-METHODS = ("lhs", "random")
-"""Designs of the tolerance engine's common-random-number runs."""
+DESIGNS = ("lhs", "random")
+"""Designs of the tolerance engine's common-random-number runs (``[tolerances] design``)."""
+METHODS = DESIGNS
+"""Former name of :data:`DESIGNS`."""
 BASES = ("bound", "estimate")
 """What a tolerance target is checked on: the confidence bound or the estimate."""
 
@@ -53,7 +56,7 @@ class ToleranceSettings:
         The target, or its text (see :mod:`plyrisk.study.targets`) [-].
     samples
         Rows of the CRN design [-].
-    method
+    design
         ``"lhs"`` (Latin hypercube) or ``"random"`` [-].
     seed
         Seed of the design; ``None`` = the study's seed (must be set before computing) [-].
@@ -82,7 +85,7 @@ class ToleranceSettings:
 
     target: Target | str = DEFAULT_TARGET
     samples: int = 2048
-    method: str = "lhs"
+    design: str = "lhs"
     seed: int | None = None
     cost: Mapping[str, float] = field(default_factory=dict)
     max_factor: float = 10.0
@@ -101,8 +104,8 @@ class ToleranceSettings:
         if isinstance(self.samples, bool) or not isinstance(self.samples, int) or \
                 self.samples < 2:
             raise ValueError(f"samples must be a whole number >= 2, got {self.samples!r}")
-        if self.method not in METHODS:
-            raise ValueError(f"unknown method {self.method!r}; valid: {', '.join(METHODS)}")
+        if self.design not in DESIGNS:
+            raise ValueError(f"unknown design {self.design!r}; valid: {', '.join(DESIGNS)}")
         if self.basis not in BASES:
             raise ValueError(f"unknown basis {self.basis!r}; valid: {', '.join(BASES)}")
         if self.seed is not None and (isinstance(self.seed, bool) or

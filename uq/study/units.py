@@ -381,12 +381,36 @@ def format_value(
     spec
         The quantity.
     difference
-        The value is a temperature difference.
+        The value is a temperature difference: shown in ``K`` for a Celsius unit and as
+        ``delta_<unit>`` for another offset unit (``delta_degF``), never with the offset
+        unit's own name (a drop of 10 K is not "10 degC").
     digits
         Significant digits.
+
+    Examples
+    --------
+    >>> from plyrisk.study.units import TEMPERATURE, format_value
+    >>> format_value(10.0, "degC", TEMPERATURE, difference=True)
+    '10 K'
+    >>> format_value(10.0, "degF", TEMPERATURE, difference=True)
+    '18 delta_degF'
     """
     shown = float(from_si(value, unit, spec, difference=difference))
-    return f"{_g(shown, digits)} {unit}".rstrip()
+    return f"{_g(shown, digits)} {difference_unit(unit) if difference else unit}".rstrip()
+
+
+def difference_unit(unit: str) -> str:
+    """The label of a difference in ``unit``: ``K`` for a Celsius unit, ``delta_<unit>`` for
+    another offset unit (Fahrenheit), else ``unit`` itself."""
+    try:
+        units = parse_unit(unit)
+    except Exception:  # not a unit pint knows: leave the text as it is
+        return unit
+    items = dict(units._units)
+    if len(items) != 1 or ureg.Quantity(1, units)._is_multiplicative:
+        return unit
+    (name, _), = items.items()
+    return "K" if name == "degree_Celsius" else f"delta_{unit.strip()}"
 
 
 def _magnitudes(values: ArrayLike) -> float | np.ndarray:

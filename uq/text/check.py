@@ -111,17 +111,22 @@ def _analysis_lines(study: Study) -> list[str]:
 def _parameter_lines(study: Study) -> list[str]:
     if not study.parameters:
         return ["Uncertain parameters: none (every input is fixed)"]
-    rows = []
+    width = max(len(p.name) for p in study.parameters)
+    lines = [f"Uncertain parameters ({len(study.parameters)}): the distribution as given, then "
+             "its mean, 5-95 % range and truncation"]
     for p in study.parameters:
         d = p.distribution
         lo, hi = d.interval(0.90)
         lo_u, hi_u = p.to_unit([lo, hi])
-        rows.append([p.name, p.describe(), p.format(d.mean),
-                     f"{lo_u:.4g} .. {hi_u:.4g} {p.unit}".rstrip(), p.truncation()])
-    header = ["parameter", "distribution", "mean", "5-95 % range", "truncation"]
+        cut = p.truncation()
+        lines += [f"  {p.name:<{width}}  {p.describe()}",
+                  f"  {'':<{width}}    mean {p.format(d.mean)}; 5-95 % "
+                  f"{lo_u:.4g} .. {hi_u:.4g} {p.unit}".rstrip()]
+        if cut != "none":
+            lines.append(f"  {'':<{width}}    {cut}")
     from plyrisk.text.correlations import correlation_lines
 
-    return ([f"Uncertain parameters ({len(rows)})"] + text_table(header, rows)
+    return (lines
             + [f"  {w}" for w in truncation_warnings(study.parameters)]
             + correlation_lines(study))
 
@@ -140,7 +145,7 @@ def _solution_lines(study: Study, sol: NetworkSolution) -> list[str]:
         return lines
     r = sol.layer_resistance[0]
     total = float(np.sum(r))
-    rows = []
+    rows, notes = [], []
     for j, name in enumerate(sol.element_names):
         kind = sol.element_kinds[j]
         gap = kind == "gap"
@@ -154,11 +159,12 @@ def _solution_lines(study: Study, sol: NetworkSolution) -> list[str]:
             f"{100 * r[j] / total:.1f}",
             f"{100 * sol.radiative_share[0, j]:.1f}" if gap else "-",
             f"{sol.rayleigh_number[0, j]:.3g}" if gap else "-",
-            note,
         ])
-    header = ["element", "kind", "R [m^2 K/W]", "temperature drop", "share of R [%]",
-              "radiative [%]", "Rayleigh", "note"]
-    lines += text_table(header, rows)
+        if note:
+            notes.append(f"  {name}: {note}")
+    header = ["element", "kind", "R [m^2 K/W]", "drop", "share of R [%]", "radiative [%]",
+              "Rayleigh"]
+    lines += text_table(header, rows) + notes
     lines += ["", f"Interface temperatures [{unit or 'K'}] (hot side first)"]
     lines += text_table(["interface", "temperature"],
                     [[n, fmt_t(t)] for n, t in zip(sol.interface_names,

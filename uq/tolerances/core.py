@@ -186,7 +186,7 @@ class Runner:
         self.probability = (self.target.engine_probability if self.target.kind == "quantile"
                             else REPORT_PROBABILITY)
         d = len(problem.names)
-        self.unit = make_design(settings.method, settings.samples, d, seed=self.seed).unit
+        self.unit = make_design(settings.design, settings.samples, d, seed=self.seed).unit
         if problem.correlation is not None:
             r = np.asarray(problem.correlation, dtype=float)
             cols = np.flatnonzero(np.any((r - np.eye(d)) != 0.0, axis=1))

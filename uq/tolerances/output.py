@@ -19,12 +19,17 @@ from typing import Any
 from plyrisk.cautions import cautions_text
 from plyrisk.study.definition import Parameter, Study
 from plyrisk.study.targets import Target
-from plyrisk.study.units import TEMPERATURE, from_si
+from plyrisk.study.units import TEMPERATURE, difference_unit, from_si
 from plyrisk.text.tables import text_table
 from plyrisk.tolerances.study import Outcome, ToleranceReport
 
-__all__ = ["CORRELATED_SHARE", "ManufacturingRow", "manufacturing_table", "shapley_shares",
+__all__ = ["ADVICE_PREFIX", "CORRELATED_SHARE", "ManufacturingRow", "manufacturing_rows",
+           "manufacturing_table", "read_tolerance_csv", "shapley_shares", "tolerance_advice",
            "tolerance_text", "write_tolerance_csv"]
+
+ADVICE_PREFIX = "# advice: "
+"""Start of the ``tolerances.csv`` comment lines that carry the verification verdict and the
+nominal-shift advice (:func:`tolerance_advice`)."""
 
 CORRELATED_SHARE = ("n/a with correlated inputs (holding one input at nominal also drops its "
                     "correlation); see the Shapley effects of plyrisk run")
@@ -190,8 +195,9 @@ def manufacturing_table(report: ToleranceReport, study: Study, *,
     return rows
 
 
-def write_tolerance_csv(rows: Sequence[ManufacturingRow], path: str | Path) -> Path:
-    """Write the manufacturing table as CSV, the cautions first as ``#`` lines.
+def write_tolerance_csv(rows: Sequence[ManufacturingRow], path: str | Path, *,
+                        advice: Sequence[str] = ()) -> Path:
+    """Write the manufacturing table as CSV, the cautions and the advice first as ``#`` lines.
 
     Parameters
     ----------
@@ -199,6 +205,8 @@ def write_tolerance_csv(rows: Sequence[ManufacturingRow], path: str | Path) -> P
         The table.
     path
         The file to write; its folder is created.
+    advice
+        Lines of :func:`tolerance_advice`, written as ``# advice: ...`` comment lines.
 
     Returns
     -------
@@ -212,6 +220,8 @@ def write_tolerance_csv(rows: Sequence[ManufacturingRow], path: str | Path) -> P
         transient = any(r.temperature_unit == "s" for r in rows)
         for line in cautions_text(transient=transient).splitlines():
             f.write(f"# {line}\n")
+        for line in advice:
+            f.write(f"{ADVICE_PREFIX}{' '.join(line.split())}\n")
         writer = csv.DictWriter(f, fieldnames=names)
         writer.writeheader()
         for row in rows:
@@ -221,6 +231,77 @@ def write_tolerance_csv(rows: Sequence[ManufacturingRow], path: str | Path) -> P
             d["recommended_factor"] = f"{row.recommended_factor:.6g}"
             writer.writerow(d)
     return path
+
+
+def read_tolerance_csv(path: str | Path) -> tuple[list[dict[str, str]], list[str]]:
+    """Read a ``tolerances.csv`` back: its rows (as text) and its advice lines.
+
+    Parameters
+    ----------
+    path
+        A file written by :func:`write_tolerance_csv`.
+
+    Returns
+    -------
+    rows, advice
+        One dict per row (column name to cell text) and the ``# advice:`` lines.
+
+    Raises
+    ------
+    ValueError
+        When the file has no header row.
+    """
+    lines = Path(path).read_text(encoding="utf-8").splitlines()
+    advice = [ln[len(ADVICE_PREFIX):] for ln in lines if ln.startswith(ADVICE_PREFIX)]
+    body = [ln for ln in lines if not ln.startswith("#")]
+    if not body:
+        raise ValueError(f"{path}: no header row")
+    return [dict(r) for r in csv.DictReader(body)], advice
+
+
+def manufacturing_rows(records: Sequence[Mapping[str, str]]) -> list[ManufacturingRow]:
+    """The rows of :func:`read_tolerance_csv` as :class:`ManufacturingRow`.
+
+    Raises
+    ------
+    ValueError
+        When a column of the table is missing.
+    """
+    names = list(ManufacturingRow.__dataclass_fields__)
+    out = []
+    for i, r in enumerate(records):
+        missing = [n for n in names if n not in r]
+        if missing:
+            raise ValueError(f"row {i + 1}: missing column(s) {', '.join(missing)}")
+        d: dict = {n: r[n] for n in names}
+        for n in ("variance_share", "quantile_if_halved", "recommended_factor"):
+            try:
+                d[n] = float(d[n]) if d[n] not in ("", None) else math.nan
+            except ValueError:
+                raise ValueError(f"row {i + 1}: {n} = {d[n]!r} is not a number") from None
+        out.append(ManufacturingRow(**d))
+    return out
+
+
+def tolerance_advice(report: ToleranceReport, study: Study) -> list[str]:
+    """What to act on, one line each: the independent verification's verdict and, when
+    configured, the nominal-shift advice.
+
+    Parameters
+    ----------
+    report
+        The tolerance results of ``study``.
+    study
+        The study.
+
+    Returns
+    -------
+    list of str
+    """
+    out = [_verification_line(report, study).strip()]
+    if report.nominal_shift is not None:
+        out += [ln.strip() for ln in _shift_lines(report, study)]
+    return out
 
 
 # ----------------------------------------------------------------------------------------------
@@ -301,7 +382,7 @@ def tolerance_text(report: ToleranceReport, study: Study, *,
         exceed = f"P(inner surface > {study.format_temperature(study.analysis.limit)})"
     out = [f"Tolerance study: {study.title}", f"Config: {study.source}",
            f"Target: {target_text(report, study)}; judged on {basis} ({level})",
-           f"Design: {st.method}, {st.samples} samples, seed {st.seed}, common random numbers; "
+           f"Design: {st.design}, {st.samples} samples, seed {st.seed}, common random numbers; "
            f"{report.runs} model runs"]
     out += ["", f"Baseline (current spreads){_exposure(study, base)}:",
             f"  {label} = {_t(study, base.quantile[base.scenario])} "
@@ -312,19 +393,33 @@ def tolerance_text(report: ToleranceReport, study: Study, *,
             f"{_pct(base.exceedance_upper[base.scenario])}]",
             f"  target metric = {_metric(report, study, base.score)}: "
             + ("MET" if base.met else "NOT MET")]
+    def bare(text: str) -> str:  # the unit goes in the heading, the number in the cell
+        if text == "n/a":
+            return text
+        number = text.rsplit(" ", 1)[0]
+        try:
+            return f"{float(number):+.3g}" if number[:1] in "+-" else number
+        except ValueError:
+            return number
+
     rows = []
     for w in wi.rows:
-        rows.append([w.name, _t(study, w.halved.worst_quantile),
-                     _t(study, w.halved.worst_quantile - base.worst_quantile, difference=True),
-                     _t(study, w.nominal.worst_quantile),
-                     _t(study, w.nominal.worst_quantile - base.worst_quantile, difference=True),
+        rows.append([w.name, bare(_t(study, w.halved.worst_quantile)),
+                     bare(_t(study, w.halved.worst_quantile - base.worst_quantile,
+                             difference=True)),
+                     bare(_t(study, w.nominal.worst_quantile)),
+                     bare(_t(study, w.nominal.worst_quantile - base.worst_quantile,
+                             difference=True)),
                      _pct(w.halved.worst_exceedance), _pct(w.nominal.worst_exceedance),
                      "n/a" if study.correlations is not None else _pct(w.variance_share)])
-    out += ["", "What-if: one parameter tightened, the others as specified (worst exposure)"]
+    level_unit = "s" if flip else (study.limit_unit or "K")
+    change_unit = "s" if flip else difference_unit(level_unit)
+    out += ["", "What-if: one parameter tightened, the others as specified (worst exposure; "
+            f"{label} in {level_unit}, changes in {change_unit}; share: of the variance)"]
     out += text_table(["parameter", f"{label} halved", "change", f"{label} at nominal", "change",
-                   "P(exceed) halved" if not flip else "P(event) halved",
-                   "P(exceed) at nominal" if not flip else "P(event) at nominal",
-                   "variance share"], rows)
+                       "P(exceed) halved" if not flip else "P(event) halved",
+                       "P(exceed) at nominal" if not flip else "P(event) at nominal",
+                       "share"], rows)
     s = base.scenario
     half = 0.5 * (base.quantile_upper[s] - base.quantile_lower[s])
     half = abs(half)
@@ -352,13 +447,13 @@ def tolerance_text(report: ToleranceReport, study: Study, *,
     out += [""] + _allocation_lines(report, study)
     if report.nominal_shift is not None:
         out += [""] + _shift_lines(report, study)
-    out += ["", "For manufacturing"]
     table = manufacturing_table(report, study)
-    out += text_table(["parameter", "layer", "current spec", "variance share",
-                   f"{label} if halved", "recommended", "target"],
-                  [[r.parameter, r.layer, r.current_spec, _pct(r.variance_share),
-                    f"{r.quantile_if_halved:.4g} {r.temperature_unit}", r.recommended_spec,
-                    r.target] for r in table])
+    out += ["", f"For manufacturing (target {target_text(report, study)})"]
+    out += text_table(["parameter", "current spec", "variance share", f"{label} if halved",
+                       "recommended"],
+                      [[r.parameter, r.current_spec, _pct(r.variance_share),
+                        f"{r.quantile_if_halved:.4g} {r.temperature_unit}", r.recommended_spec]
+                       for r in table])
     notes = _notes(report)
     if study.correlations is not None:
         notes.append("inputs correlated ([correlations]): every run draws its design through "
@@ -393,6 +488,12 @@ def _allocation_lines(report: ToleranceReport, study: Study) -> list[str]:
     if a.kept:
         out.append(f"  kept at the current spread (not a manufacturing tolerance): "
                    f"{', '.join(a.kept)}")
+    out.append(_verification_line(report, study))
+    return out
+
+
+def _verification_line(report: ToleranceReport, study: Study) -> str:
+    a, st = report.allocation, report.settings
     v = a.verification
     t = _target(report)
     lo, hi = ((v.upper, v.lower) if _flip(report) and t.kind == "quantile"
@@ -403,13 +504,12 @@ def _allocation_lines(report: ToleranceReport, study: Study) -> list[str]:
         verdict = "NOT VERIFIED (the point estimate meets, but not with confidence)"
     else:
         verdict = "NOT MET"
-    out += [f"  Independent verification (new seed {v.seed}, {v.samples} samples"
-            f"{_exposure(study, v.outcome)}): {t.label} = {_metric(report, study, v.value)} "
-            f"[{_metric(report, study, lo)}, {_metric(report, study, hi)}] "
-            f"({100 * st.level:g} % CI) -> {verdict}"
-            f" (point estimate {'meets' if v.met_estimate else 'misses'}, upper bound "
-            f"{'meets' if v.met_bound else 'misses'} the bound)"]
-    return out
+    return (f"  Independent verification -> {verdict}: {t.label} = "
+            f"{_metric(report, study, v.value)} [{_metric(report, study, lo)}, "
+            f"{_metric(report, study, hi)}] ({100 * st.level:g} % CI); new seed {v.seed}, "
+            f"{v.samples} samples{_exposure(study, v.outcome)}; point estimate "
+            f"{'meets' if v.met_estimate else 'misses'}, upper bound "
+            f"{'meets' if v.met_bound else 'misses'} the bound")
 
 
 def _shift_lines(report: ToleranceReport, study: Study) -> list[str]:

@@ -61,11 +61,11 @@ PRIMARY = "inner_surface_temperature"
 
 STYLE: dict[Any, Any] = {  # rcParams (matplotlib types their names as literals)
     "font.family": "DejaVu Sans",
-    "font.size": 9.0,
-    "axes.titlesize": 10.0,
+    "font.size": 11.5,  # every other size is relative to it
+    "axes.titlesize": "large",
     "axes.titleweight": "bold",
     "axes.titlelocation": "left",
-    "axes.labelsize": 9.0,
+    "axes.labelsize": "medium",
     "axes.edgecolor": "#555555",
     "axes.labelcolor": INK,
     "axes.linewidth": 0.8,
@@ -77,10 +77,10 @@ STYLE: dict[Any, Any] = {  # rcParams (matplotlib types their names as literals)
     "grid.linewidth": 0.6,
     "xtick.color": "#444444",
     "ytick.color": "#444444",
-    "xtick.labelsize": 8.0,
-    "ytick.labelsize": 8.0,
+    "xtick.labelsize": "small",
+    "ytick.labelsize": "small",
     "legend.frameon": False,
-    "legend.fontsize": 8.0,
+    "legend.fontsize": "small",
     "figure.facecolor": "white",
     "figure.dpi": 100.0,
     "hatch.linewidth": 0.6,
@@ -89,7 +89,9 @@ STYLE: dict[Any, Any] = {  # rcParams (matplotlib types their names as literals)
     "axes.prop_cycle": cycler(color=[BLUE, ORANGE, GREY]),
 }
 """The plyrisk look: rcParams applied while a figure is built (and saved, by
-:mod:`plyrisk.report.html`)."""
+:mod:`plyrisk.report.html`). Every figure is 8 in wide and every text size is relative to
+``font.size``, chosen so that the smallest text ("small") stays about 11 px high when the
+report is read in an 800 px wide window (``tests/report/test_figures.py`` checks it)."""
 
 
 @contextmanager
@@ -206,10 +208,11 @@ def add_title(ax, text: str, *subs: str) -> None:
         Subtitle lines; empty ones are left out.
     """
     sub = "\n".join(s for s in subs if s)
-    ax.set_title(text, pad=6 + (11 * (sub.count("\n") + 1) if sub else 0))
+    ax.set_title(text, pad=6 + (13 * (sub.count("\n") + 1) if sub else 0))
     if sub:
         ax.annotate(sub, xy=(0.0, 1.0), xycoords="axes fraction", xytext=(0, 5),
-                    textcoords="offset points", va="bottom", ha="left", fontsize=8, color=GREY)
+                    textcoords="offset points", va="bottom", ha="left", fontsize="small",
+                    color=GREY)
 
 
 def select_quantile(da: xr.DataArray, p: float) -> xr.DataArray:

@@ -55,10 +55,16 @@ from plyrisk.report.figures.common import (
 )
 from plyrisk.report.figures.sensitivity import (
     group_indices_figure,
+    growth_figure,
     indices_figure,
     surrogate_indices_figure,
 )
-from plyrisk.report.figures.sweep import LimitCrossing, limit_crossing, sweep_figure
+from plyrisk.report.figures.sweep import (
+    LimitCrossing,
+    exceedance_sweep_figure,
+    limit_crossing,
+    sweep_figure,
+)
 
 __all__ = [
     "BLUE",
@@ -73,7 +79,9 @@ __all__ = [
     "to_display_temperature",
     "top_parameters",
     "distribution_figure",
+    "exceedance_sweep_figure",
     "group_indices_figure",
+    "growth_figure",
     "independent_mask",
     "indices_figure",
     "limit_crossing",
@@ -184,7 +192,7 @@ def profile_figure(ds: xr.Dataset, *, scenario: int | None = None) -> Figure:
         right = span > 0 and x[inner] > 0.7 * span
         ax.annotate("inner surface", (x[inner], band[0.5][inner]),
                     xytext=(-8 if right else 8, 14), ha="right" if right else "left",
-                    textcoords="offset points", fontsize=8, color=INK,
+                    textcoords="offset points", fontsize="small", color=INK,
                     arrowprops={"arrowstyle": "-", "color": INK, "lw": 0.6})
         shown = np.concatenate([band[0.01], band[0.99], [limit]])
         shown = shown[np.isfinite(shown)]
@@ -194,17 +202,17 @@ def profile_figure(ds: xr.Dataset, *, scenario: int | None = None) -> Figure:
         ax.set_xlim(0.0, span if span > 0 else 1.0)
         ax.set_xlabel("distance from the exposed face [mm]")
         ax.set_ylabel(temperature_label(one, "temperature"))
-        ax.text(0.005, 0.015, "exposed side", transform=ax.transAxes, fontsize=8,
+        ax.text(0.005, 0.015, "exposed side", transform=ax.transAxes, fontsize="small",
                 style="italic", color=GREY, ha="left", va="bottom")
         ax.text(0.995, 0.015, "skin" if faces[-1] == "skin surface" else "inner side",
-                transform=ax.transAxes, fontsize=8, style="italic", color=GREY, ha="right",
+                transform=ax.transAxes, fontsize="small", style="italic", color=GREY, ha="right",
                 va="bottom")
         # the label strip: element names, staggered so that none overlap, with leader lines
         head.set_ylim(0.0, n_rows + 0.15)
         head.axis("off")
         for i, name in enumerate(names):
             y = rows[i] + 0.35
-            head.text(lx[i], y, name, ha="center", va="bottom", fontsize=8, color=INK)
+            head.text(lx[i], y, name, ha="center", va="bottom", fontsize="small", color=INK)
             head.plot([mids[i], lx[i]], [0.0, y - 0.05], color=GREY, lw=0.6)
         add_title(head, "Temperature through the assembly", label,
                   "bands: percentiles of each face temperature, joined by straight lines")
@@ -285,20 +293,18 @@ def distribution_figure(ds: xr.Dataset, *, scenario: int | None = None) -> Figur
         top.set_ylabel(f"probability density [1/{unit}]")
         bottom.set_ylabel("cumulative probability")
         bottom.set_xlabel(temperature_label(one, "inner-surface temperature"))
-        add_title(top, "Distribution of the inner-surface temperature", label,
-                  "independent, converged samples only")
         e, lo_, hi_ = (float(one[v].item()) for v in ("exceedance_probability",
                                                         "exceedance_probability_lower",
                                                         "exceedance_probability_upper"))
         c = f"{100 * conf:g} %" if np.isfinite(conf) else "confidence"
         pct = format_percent
-        text = (f"P(T > {limit:.4g} {unit}) = {pct(e)}  [{pct(lo_)}, {pct(hi_)}]\n"
-                f"P95 = {p95:.1f} {unit}  [{p95_lo:.1f}, {p95_hi:.1f}]\n"
-                f"({c} intervals; {int(one['samples_used'].item())} converged samples; "
-                f"{int(one['nonconverged_count'].item())} not converged)")
-        top.text(0.01, 0.97, text, transform=top.transAxes, va="top", ha="left", fontsize=8,
-                 color=INK, bbox={"facecolor": "white", "edgecolor": "#cccccc", "lw": 0.6,
-                                  "boxstyle": "round,pad=0.4"})
+        # The numbers go above the axes, never over the data (a box inside the axes hid the
+        # peak of the histogram).
+        add_title(top, "Distribution of the inner-surface temperature", label,
+                  f"P(T > {limit:.4g} {unit}) = {pct(e)} [{pct(lo_)}, {pct(hi_)}];  "
+                  f"P95 = {p95:.1f} {unit} [{p95_lo:.1f}, {p95_hi:.1f}]  ({c} intervals)",
+                  f"{int(one['samples_used'].item())} independent, converged samples; "
+                  f"{int(one['nonconverged_count'].item())} not converged")
         handles = [Patch(facecolor=BLUE, label="samples"),
                    Line2D([], [], color=ORANGE, ls=":", lw=2.0, label="P95 (shade: interval)"),
                    Line2D([], [], color=INK, ls="--", lw=1.2, label=f"limit {limit:.4g} {unit}")]
@@ -352,16 +358,21 @@ def scatter_figure(ds: xr.Dataset, *, scenario: int | None = None, count: int = 
     limit = float(to_display_temperature(one, one.attrs["limit"]))
     names = [str(n) for n in one["parameter"].values]
     with styled():
-        fig = Figure(figsize=(8.0, 3.4), layout="constrained")
+        fig = Figure(figsize=(8.0, 4.2), layout="constrained")
         axes = np.atleast_1d(fig.subplots(1, max(len(chosen), 1), sharey=True, squeeze=False)[0])
         for ax, name in zip(axes, chosen, strict=False):
             ax.set_label(f"scatter:{name}")
             values, unit = parameter_values(one, name)
             ax.scatter(values[mask], t, s=6, color=BLUE, alpha=0.45, lw=0, rasterized=True,
                        gid=f"points:{name}")
+            over = t > limit  # the samples over the limit, marked on top of the others
+            if np.any(over):
+                ax.scatter(values[mask][over], t[over], s=14, marker="^", color=ORANGE,
+                           edgecolor=INK, lw=0.3, rasterized=True, gid=f"over:{name}")
             ax.axhline(limit, color=INK, ls="--", lw=1.1)
             group, quantity = _split(name)
-            ax.set_xlabel(f"{quantity} [{pretty_unit(unit)}]")
+            xlabel = f"{quantity} [{pretty_unit(unit)}]"
+            ax.set_xlabel(xlabel if len(xlabel) <= 24 else xlabel.replace(" [", "\n["))
             j = names.index(name)
             if "sobol_total" in one:
                 s = one.sel(output=PRIMARY, parameter=name)
@@ -372,14 +383,17 @@ def scatter_figure(ds: xr.Dataset, *, scenario: int | None = None, count: int = 
                         f"ρ = {float(one['rank_correlation'].values[j]):+.2f}")
             else:
                 note = f"ρ = {float(one['rank_correlation'].values[j]):+.2f}"
-            ax.set_title(f"{group}\n{note}", fontsize=8.5, fontweight="normal")
+            ax.set_title(f"{group}\n{note}", fontsize="medium", fontweight="normal")
         axes[0].set_ylabel(temperature_label(one, "inner-surface temperature"))
         fig.suptitle("Inner-surface temperature against the top inputs"
-                     + (f"  ({label})" if label else ""), x=0.01, ha="left", fontsize=10,
+                     + (f"\n{label}" if label else ""), x=0.01, ha="left", fontsize="large",
                      fontweight="bold")
-        axes[-1].legend(handles=[Line2D([], [], color=INK, ls="--", lw=1.1,
-                                        label=f"limit {limit:.4g} "
-                                        f"{pretty_unit(temperature_unit(one))}")],
-                        loc="best")
+        n_over = int(np.sum(t > limit))
+        fig.legend(handles=[  # below the panels, never over the samples
+            Line2D([], [], color=INK, ls="--", lw=1.1,
+                   label=f"limit {limit:.4g} {pretty_unit(temperature_unit(one))}"),
+            Line2D([], [], ls="", marker="^", color=ORANGE, markeredgecolor=INK, mew=0.3,
+                   label=f"over the limit ({n_over} of {t.size} samples)")],
+            loc="outside lower center", ncols=2)
     return fig
 

@@ -25,7 +25,8 @@ from plyrisk.report.figures.common import (
     styled,
 )
 
-__all__ = ["group_indices_figure", "indices_figure", "surrogate_indices_figure"]
+__all__ = ["group_indices_figure", "growth_figure", "indices_figure",
+           "surrogate_indices_figure"]
 
 
 def _what(output: str) -> str:
@@ -46,7 +47,7 @@ def _paired_bars(ax, names: list[str], first, first_ci, total, total_ci, converg
         for value, ci, dy, colour, gid in ((total[j], total_ci[j], h / 2, BLUE, "total"),
                                            (first[j], first_ci[j], -h / 2, ORANGE, "first")):
             if not np.isfinite(value):
-                ax.text(0.0, pos + dy, " n/a", va="center", fontsize=7, color=GREY)
+                ax.text(0.0, pos + dy, " n/a", va="center", fontsize="small", color=GREY)
                 continue
             ax.barh(pos + dy, value, height=h, color=colour, hatch=hatch, edgecolor="white",
                     lw=0.0, gid=f"{gid}:{names[j]}")
@@ -56,7 +57,7 @@ def _paired_bars(ax, names: list[str], first, first_ci, total, total_ci, converg
         if not converged[j]:
             right = max(np.nan_to_num(total[j] + np.nan_to_num(total_ci[j])),
                         np.nan_to_num(first[j] + np.nan_to_num(first_ci[j])), 0.0)
-            ax.text(right + 0.02, pos, "unconverged", va="center", fontsize=7.5, color=INK,
+            ax.text(right + 0.02, pos, "unconverged", va="center", fontsize="small", color=INK,
                     style="italic")
     ax.set_yticks(y, [names[j] for j in order])
     ax.axvline(0.0, color="#555555", lw=0.8)
@@ -117,11 +118,11 @@ def indices_figure(ds: xr.Dataset, *, scenario: int | None = None,
         ax.set_label("indices")
         if "sobol_total" not in one:
             _screening(ax, one, names)
-            add_title(ax, "Screening only: rank correlation with the inner-surface temperature",
-                      label, "a measure of monotone influence: it does not apportion variance or "
-                      "show interactions;", "Sobol indices need method = \"saltelli\" or "
-                      f"\"pce\" (this study: {one.attrs.get('method')}, "
-                      f"{one.attrs.get('evaluations')} samples)")
+            add_title(ax, "Screening only: rank correlation", label,
+                      "with the inner-surface temperature: a measure of monotone influence;",
+                      "it does not apportion variance or show interactions;",
+                      "Sobol indices need method = \"saltelli\" or \"pce\" (this study: "
+                      f"{one.attrs.get('method')}, {one.attrs.get('evaluations')} samples)")
             return fig
         s = _sobol_output(one, output)
         _paired_bars(ax, names, s["sobol_first"].values, s["sobol_first_ci"].values,
@@ -139,7 +140,7 @@ def _screening(ax, one: xr.Dataset, names: list[str]) -> None:
     y = np.arange(len(order))[::-1].astype(float)
     for pos, j in zip(y, order, strict=True):
         if not np.isfinite(rho[j]):
-            ax.text(0.02, pos, "n/a (input or output constant)", va="center", fontsize=7,
+            ax.text(0.02, pos, "n/a (input or output constant)", va="center", fontsize="small",
                     color=GREY)
             continue
         positive = rho[j] >= 0
@@ -194,8 +195,9 @@ def group_indices_figure(ds: xr.Dataset, *, scenario: int | None = None,
                      s["group_index_converged"].values,
                      s["group_index_converged"].attrs.get("threshold"))
         ax.set_xlabel("Sobol index of the layer's parameters together")
-        add_title(ax, f"Which layer dominates: grouped Sobol indices of the {_what(output)}",
-                  label, "each layer's parameters varied together; " + _design_note(one))
+        add_title(ax, "Which layer dominates", label,
+                  f"grouped Sobol indices of the {_what(output)}: each layer's parameters varied "
+                  "together", _design_note(one))
     return fig
 
 
@@ -245,3 +247,67 @@ def surrogate_indices_figure(ds: xr.Dataset, *, scenario: int | None = None,
                   "trust these indices only when Q2 is close to 1")
     return fig
 
+
+
+def growth_figure(ds: xr.Dataset, *, count: int = 5) -> Figure:
+    """The total Sobol indices of the top parameters against the base samples, step by step,
+    for a study grown with ``--until-converged`` (one panel per exposure).
+
+    Parameters
+    ----------
+    ds
+        A results dataset with the growth path (``growth_sobol_total``).
+    count
+        Parameters drawn: the ``count`` largest total indices at the last step.
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+
+    Raises
+    ------
+    ValueError
+        When the dataset holds no growth path.
+    """
+    if "growth_sobol_total" not in ds:
+        raise ValueError("the dataset holds no growth path (run with --until-converged)")
+    n = np.asarray(ds["growth_base_samples"].values, dtype=float)
+    total = np.asarray(ds["growth_sobol_total"].values, dtype=float)
+    half = np.asarray(ds["growth_sobol_total_ci"].values, dtype=float)
+    if total.ndim == 2:
+        total, half = total[:, None, :], half[:, None, :]
+    names = [str(v) for v in ds["parameter"].values]
+    labels = ([str(v) for v in ds["scenario_label"].values] if "scenario_label" in ds
+              else [""] * total.shape[1])
+    target = float(ds.attrs.get("growth_target", np.nan))
+    styles = ["-", "--", "-.", ":", (0, (5, 1, 1, 1))]
+    colours = [BLUE, ORANGE, GREY, INK, BLUE]
+    with styled():
+        k = total.shape[1]
+        fig = Figure(figsize=(8.0, 2.4 + 2.6 * k), layout="constrained")
+        axes = np.atleast_1d(fig.subplots(k, 1, sharex=True, squeeze=False)[:, 0])
+        for s, ax in enumerate(axes):
+            ax.set_label(f"growth:{s}")
+            last = np.nan_to_num(total[-1, s], nan=-np.inf)
+            top = np.argsort(-last, kind="stable")[:count]
+            for r, j in enumerate(top):
+                ax.errorbar(n, total[:, s, j], yerr=half[:, s, j], color=colours[r % 5],
+                            ls=styles[r % 5], marker="o", ms=3.5, lw=1.4, capsize=2.5,
+                            label=names[j], gid=f"growth:{s}:{names[j]}")
+            ax.set_xscale("log", base=2)
+            ax.set_xticks(n, [f"{int(v)}" for v in n])
+            ax.minorticks_off()
+            ax.set_ylabel("total Sobol index")
+            if labels[s]:
+                ax.set_title(labels[s].replace("_", " "), loc="left", fontsize="medium",
+                             fontweight="normal")
+            ax.legend(loc="best", fontsize="small")
+        axes[-1].set_xlabel("base samples N (each doubling reuses every earlier model run)")
+        fig.suptitle("Convergence of the top total indices as the study grew", x=0.01,
+                     ha="left", fontweight="bold")
+        sub = ("bars: confidence half-width of each index; target half-width "
+               f"±{target:g}" if np.isfinite(target) else "bars: confidence half-width")
+        axes[0].annotate(sub, xy=(0.0, 1.0), xycoords="axes fraction", xytext=(0, 18),
+                         textcoords="offset points", va="bottom", ha="left",
+                         fontsize="small", color=GREY)
+    return fig

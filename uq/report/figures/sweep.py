@@ -20,6 +20,8 @@ from plyrisk.report.figures.common import (
     GREY,
     INK,
     ORANGE,
+    add_title,
+    format_percent,
     format_temperature,
     pretty_unit,
     select_quantile,
@@ -30,7 +32,7 @@ from plyrisk.report.figures.common import (
 )
 from plyrisk.study.units import QUANTITIES, from_si
 
-__all__ = ["LimitCrossing", "limit_crossing", "sweep_figure"]
+__all__ = ["LimitCrossing", "exceedance_sweep_figure", "limit_crossing", "sweep_figure"]
 
 
 @dataclass(frozen=True)
@@ -191,8 +193,61 @@ def sweep_figure(ds: xr.Dataset) -> Figure:
         ax.grid(axis="x", visible=False)
         ax.set_title("Inner-surface temperature against the exposure")
         ax.text(0.99, 0.03, textwrap.fill(crossing.text, 70), transform=ax.transAxes,
-                fontsize=8, color=INK, va="bottom", ha="right",
+                fontsize="small", color=INK, va="bottom", ha="right",
                 bbox={"facecolor": "white", "edgecolor": "#cccccc", "lw": 0.6,
                       "boxstyle": "round,pad=0.4"})
         ax.legend(loc="upper left", ncols=2)
+    return fig
+
+
+def exceedance_sweep_figure(ds: xr.Dataset, *, target: float | None = None) -> Figure:
+    """P(inner surface > limit) against the swept exposure, with its confidence band and the
+    target probability.
+
+    Parameters
+    ----------
+    ds
+        A results dataset with a ``scenario`` dimension.
+    target
+        Largest acceptable exceedance probability, e.g. 0.01 from a ``[tolerances]`` target
+        ``"P(exceed) <= 1 %"``; ``None`` draws no target.
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+
+    Raises
+    ------
+    ValueError
+        When the dataset sweeps no exposure.
+    """
+    x, quantity, unit = _sweep(ds)
+    order = np.argsort(x, kind="stable")
+    x = x[order]
+    p, lo, hi = (100 * np.asarray(ds[v].values, dtype=float)[order] for v in (
+        "exceedance_probability", "exceedance_probability_lower",
+        "exceedance_probability_upper"))
+    limit = format_temperature(ds, float(ds.attrs["limit"]))
+    conf = float(ds.attrs.get("confidence", math.nan))
+    with styled():
+        fig = Figure(figsize=(8.0, 4.6), layout="constrained")
+        ax = fig.add_subplot()
+        ax.set_label("exceedance sweep")
+        ax.fill_between(x, lo, hi, color=BLUE, alpha=0.25, lw=0, gid="exceedance_band",
+                        label=(f"{100 * conf:g} % confidence band" if np.isfinite(conf)
+                               else "confidence band"))
+        ax.plot(x, p, color=BLUE, marker="o", lw=2.0, gid="exceedance",
+                label=f"P(inner surface > {limit})")
+        if target is not None and np.isfinite(target):
+            ax.axhline(100 * target, color=INK, ls="--", lw=1.1, gid="target",
+                       label=f"target {format_percent(target)}")
+        ax.set_xlabel(f"{quantity.replace('_', ' ')} [{pretty_unit(unit)}]")
+        ax.set_ylabel("probability of exceeding the limit [%]")
+        top = np.nanmax(np.concatenate([hi, [100 * target if target else 0.0]]))
+        ax.set_ylim(0.0, min(100.0, 1.15 * top) if np.isfinite(top) and top > 0 else 1.0)
+        ax.set_xticks(x, [f"{v:.3g}" for v in x])
+        ax.grid(axis="x", visible=False)
+        ax.legend(loc="upper left")
+        add_title(ax, "Probability of exceeding the limit against the exposure",
+                  "straight lines join the swept levels; nothing is computed between them")
     return fig

@@ -125,7 +125,7 @@ def bands_figure(ds: xr.Dataset, *, scenario: int | None = None) -> Figure:
                 ax.axvspan(0.0, duration, color=ORANGE, alpha=0.10, lw=0)
         what = "basal-layer temperature (80 µm)" if skin else "sensor temperature"
         top.set_ylabel(temperature_label(ds, what))
-        top.legend(loc="upper right", fontsize=7.5)
+        top.legend(loc="upper right", fontsize="small")
         add_title(top, f"{what.capitalize()} against time: percentile bands", label,
                   "each time's percentiles taken separately (not the history of one sample); "
                   f"{int(one['samples_used'].item()) if 'samples_used' in one else '?'} "
@@ -140,7 +140,7 @@ def bands_figure(ds: xr.Dataset, *, scenario: int | None = None) -> Figure:
             bottom.set_yticks([])
             bottom.set_ylabel("exposure")
         bottom.text(0.01, 0.9, "exposure (shaded) then cool-down to the horizon",
-                    transform=bottom.transAxes, fontsize=7.5, va="top", color=INK)
+                    transform=bottom.transAxes, fontsize="small", va="top", color=INK)
         bottom.set_xlabel("time from the start of the exposure [s]")
         bottom.set_xlim(0.0, horizon)
     return fig
@@ -217,7 +217,7 @@ def burn_time_figure(ds: xr.Dataset, *, scenario: int | None = None) -> Figure:
         ax.set_ylim(0.0, 1.02)
         ax.set_xlabel(f"{what} [s]")
         ax.set_ylabel("cumulative share of samples [-]")
-        ax.legend(loc="upper left", fontsize=7.5)
+        ax.legend(loc="upper left", fontsize="small")
         add_title(ax, f"Distribution of the {what}", label,
                   f"{n} converged independent samples; samples without the event by "
                   f"{horizon:g} s are censored, not given a time")
@@ -282,7 +282,7 @@ def burn_sweep_figure(ds: xr.Dataset) -> Figure:
         ax.set_ylabel(f"{what} within {float(ds.attrs['horizon']):g} s [%]")
         ax.set_ylim(0.0, 100.0)
         ax.set_xticks(x, [f"{v:.3g}" for v in x])
-        ax.legend(loc="upper left", fontsize=7.5)
+        ax.legend(loc="upper left", fontsize="small")
         add_title(ax, f"{what} against the exposure", textwrap.fill(text, 100) if text else
                   "Wilson intervals per swept level")
     return fig
@@ -327,7 +327,7 @@ def layer_indices_figure(ds: xr.Dataset, *, scenario: int | None = None,
             if "surrogate_fit" in s:
                 fit = str(s["surrogate_fit"].item())
             add_title(ax, ("Which layer buys the most time" if groups else
-                           "Which input matters") + f": indices of {output}", label,
+                           "Which input matters"), f"indices of {output}", label,
                       textwrap.fill(f"rule: {rule}", 110), *([fit] if fit else []))
         elif "morris_mu_star" in s:
             names = [str(n) for n in s["parameter"].values]
