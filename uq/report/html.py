@@ -6,7 +6,8 @@
 * ``report.html`` — everything, figures embedded as base64 PNG; no external links, scripts,
   fonts or stylesheets, so that it opens from disk in any browser with no network;
 * ``summary.md`` — the headline, ranking, convergence and cautions in Markdown;
-* ``figures/*.png`` and ``figures/*.svg`` — every figure of :mod:`plyrisk.report.figures.outputs`;
+* ``figures/*.png`` (and ``figures/*.svg`` with ``[report] formats = ["png", "svg"]``) —
+  every figure of :mod:`plyrisk.report.figures.outputs`, each drawn once per format;
 * ``quantiles.csv``, ``indices.csv``, ``group_indices.csv``, ``ranking.csv`` and, when a
   tolerance table is passed, ``tolerances.csv``.
 
@@ -32,6 +33,7 @@ import xarray as xr
 from plyrisk.cautions import CAUTIONS
 from plyrisk.report.csv_tables import write_csv, write_csv_tables
 from plyrisk.report.figures import outputs as fg
+from plyrisk.report.figures.common import save_figures
 from plyrisk.report.tables import (
     Table,
     cell_text,
@@ -47,8 +49,10 @@ from plyrisk.report.tables import (
     stack_tables,
 )
 from plyrisk.study.config import loads_study
+from plyrisk.study.settings import DEFAULT_REPORT_FORMATS, REPORT_FORMATS, report_formats_error
 
-__all__ = ["ReportFigure", "ReportFiles", "Table", "report_figures", "write_report"]
+__all__ = ["ReportFigure", "ReportFiles", "Table", "figure_formats", "report_figures",
+           "write_report"]
 
 TOP_COUNT = 5
 """Parameters listed in the Markdown summary's ranking."""
@@ -173,17 +177,29 @@ def report_figures(ds: xr.Dataset) -> list[ReportFigure]:
     return out
 
 
-def _save(figs: list[ReportFigure], folder: Path) -> tuple[list[Path], dict[str, str]]:
-    folder.mkdir(parents=True, exist_ok=True)
-    paths, embedded = [], {}
+def _save(figs: list[ReportFigure], folder: Path, formats: Sequence[str] = ("png",)
+          ) -> tuple[list[Path], dict[str, str]]:
+    """Write the figures (each drawn once per format) and embed their PNG files."""
     with fg.styled():
-        for f in figs:
-            png, svg = folder / f"{f.stem}.png", folder / f"{f.stem}.svg"
-            f.figure.savefig(png, dpi=150, metadata={"Software": None})
-            f.figure.savefig(svg, metadata={"Date": None})
-            paths += [png, svg]
-            embedded[f.stem] = base64.b64encode(png.read_bytes()).decode("ascii")
+        paths = save_figures([(f.stem, f.figure) for f in figs], folder, formats=formats)
+    embedded = {f.stem: base64.b64encode((folder / f"{f.stem}.png").read_bytes()).decode("ascii")
+                for f in figs}
     return paths, embedded
+
+
+def figure_formats(ds: xr.Dataset) -> tuple[str, ...]:
+    """The figure formats of the study behind ``ds`` (``[report] formats`` of its stored config
+    text; PNG only when it has none or an unreadable one) [-]."""
+    import tomllib
+
+    try:
+        raw = tomllib.loads(str(ds.attrs.get("config_text", ""))).get("report", {})
+    except tomllib.TOMLDecodeError:
+        return DEFAULT_REPORT_FORMATS
+    formats = raw.get("formats") if isinstance(raw, dict) else None
+    if formats is None or report_formats_error(formats) is not None:
+        return DEFAULT_REPORT_FORMATS
+    return tuple(f for f in REPORT_FORMATS if f in formats)
 
 
 # ----------------------------------------------------------------------------------------------
@@ -310,6 +326,7 @@ def write_report(
     out_dir: str | Path,
     *,
     tolerance_table: Any = None,
+    formats: Sequence[str] | None = None,
 ) -> ReportFiles:
     """Write the report of a results dataset: HTML, Markdown summary, figures and CSV tables.
 
@@ -324,6 +341,9 @@ def write_report(
     tolerance_table
         Tolerance recommendations to include: a pandas DataFrame or a list of dicts (one per
         row; columns are rendered as they come), or ``None``.
+    formats
+        Figure file formats (``"png"`` and optionally ``"svg"``); default: the study's
+        ``[report] formats`` (:func:`figure_formats`), PNG only without one.
 
     Returns
     -------
@@ -343,7 +363,8 @@ def write_report(
     if ds.attrs.get("study_kind") == "transient":
         from plyrisk.report.transient import write_transient_report
 
-        return write_transient_report(ds, out_dir, tolerance_table=tolerance_table)
+        return write_transient_report(ds, out_dir, tolerance_table=tolerance_table,
+                                      formats=formats)
     missing = [v for v in _REQUIRED if v not in ds.variables]
     if missing or "limit" not in ds.attrs:
         raise ValueError("not a plyrisk results dataset: missing "
@@ -352,7 +373,7 @@ def write_report(
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
     figs = report_figures(ds)
-    fig_paths, embedded = _save(figs, out / "figures")
+    fig_paths, embedded = _save(figs, out / "figures", _formats(ds, formats))
     tables = write_csv_tables(ds, out)
     if tol is not None:
         columns, records = tol
@@ -365,6 +386,15 @@ def write_report(
     md_path.write_text("\n".join(_markdown_lines(ds, content, out, fig_paths + tables)),
                        encoding="utf-8")
     return ReportFiles(html_path, md_path, fig_paths, tables)
+
+
+def _formats(ds: xr.Dataset, formats: Sequence[str] | None) -> tuple[str, ...]:
+    if formats is None:
+        return figure_formats(ds)
+    problem = report_formats_error(list(formats))
+    if problem is not None:
+        raise ValueError(f"formats: {problem}")
+    return tuple(f for f in REPORT_FORMATS if f in formats)
 
 
 @dataclass(frozen=True)

@@ -11,6 +11,7 @@ the horizon with its interval, the dominant layer. ``docs/report.md`` describes 
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from pathlib import Path
 from typing import Any
 
@@ -279,7 +280,8 @@ def _nonconverged(ds: xr.Dataset) -> Table:
 
 
 def write_transient_report(ds: xr.Dataset, out_dir: str | Path, *,
-                           tolerance_table: Any = None) -> Any:
+                           tolerance_table: Any = None,
+                           formats: Sequence[str] | None = None) -> Any:
     """Write the report of a transient results dataset (see the module docstring).
 
     Parameters
@@ -290,6 +292,8 @@ def write_transient_report(ds: xr.Dataset, out_dir: str | Path, *,
         Folder to write into.
     tolerance_table
         Tolerance recommendations (as for :func:`plyrisk.report.html.write_report`).
+    formats
+        Figure file formats (as for :func:`plyrisk.report.html.write_report`).
 
     Returns
     -------
@@ -299,6 +303,7 @@ def write_transient_report(ds: xr.Dataset, out_dir: str | Path, *,
         _CSS,
         ReportFiles,
         _esc,
+        _formats,
         _html_table,
         _md_table,
         _save,
@@ -314,7 +319,7 @@ def write_transient_report(ds: xr.Dataset, out_dir: str | Path, *,
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
     figs = transient_figures(ds)
-    fig_paths, embedded = _save(figs, out / "figures")
+    fig_paths, embedded = _save(figs, out / "figures", _formats(ds, formats))
     for f in figs:
         f.figure.clear()
     head = headline_lines(ds)

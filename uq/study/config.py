@@ -49,6 +49,7 @@ from plyrisk.study.sections_analysis import (
     MIN_SAMPLES,
     parse_compute,
     parse_model_section,
+    parse_report,
     parse_screening,
     parse_study_section,
     parse_tolerances,
@@ -243,6 +244,7 @@ SECTIONS: dict[str, Parser] = {
     "tolerances": parse_tolerances,
     "screening": parse_screening,
     "compute": parse_compute,
+    "report": parse_report,
 }
 """Top-level sections in parse order: name → parser returning :class:`Study` fields."""
 

@@ -389,6 +389,8 @@ class Study:
     when the
     section is absent. ``max_temperatures`` holds each layer's rated maximum temperature
     (``max_temperature`` of a solid layer) [K], ``None`` where the layer has none.
+    ``report_formats`` lists the figure file formats of the report (``[report] formats``; PNG
+    first, always).
     """
 
     source: str
@@ -407,6 +409,7 @@ class Study:
     screening: ScreeningSettings | None = None
     max_temperatures: tuple[float | None, ...] = ()
     transient: TransientSetup | None = None
+    report_formats: tuple[str, ...] = ("png",)
 
     def steady_sides(self) -> tuple[HotSide, ColdSide]:
         """The hot and cold sides of a steady study (a transient study has none) [-]."""
