@@ -252,8 +252,8 @@ def cmd_run(args: argparse.Namespace) -> int:
                     full = (result.screening.study if result.screening is not None
                             else result.study)
                     rows = manufacturing_table(run_tolerances(full), full)
-                phase("report: figures, tables, report.html", args.quiet)
-                lines.append(_write_report(result.dataset, out.staging, rows, shown=out_dir))
+                lines.append(_write_report(result.dataset, out.staging, rows, shown=out_dir,
+                                           quiet=args.quiet))
             text = "\n".join(lines) + "\n"
             (out.staging / "summary.txt").write_text(text, encoding="utf-8")
             _interrupt_note = (f"{out_dir} was being replaced and may hold a mix of files: "
@@ -266,16 +266,19 @@ def cmd_run(args: argparse.Namespace) -> int:
     return 0
 
 
-def _write_report(ds: Any, out_dir: Path, rows: Any, *, shown: Path | None = None) -> str:
+def _write_report(ds: Any, out_dir: Path, rows: Any, *, shown: Path | None = None,
+                  quiet: bool = True) -> str:
     """Write the report (and the tolerance table, when given) into ``out_dir``; return the
-    line to print, naming the files in ``shown`` (where they end up) [-]."""
+    line to print, naming the files in ``shown`` (where they end up) [-]. Unless ``quiet``, a
+    line on stderr as each stage begins."""
     from dataclasses import asdict
 
+    from plyrisk.pipeline.run import phase
     from plyrisk.report.html import write_report
     from plyrisk.tolerances.output import write_tolerance_csv
 
     files = write_report(ds, out_dir, tolerance_table=None if rows is None else
-                         [asdict(r) for r in rows])
+                         [asdict(r) for r in rows], progress=lambda text: phase(text, quiet))
     if rows is not None:  # the canonical tolerance CSV, cautions first
         write_tolerance_csv(rows, out_dir / "tolerances.csv")
     where = out_dir if shown is None else shown
@@ -319,6 +322,7 @@ def _add_report(subparsers) -> None:
     p.add_argument("results", help="a results.nc written by plyrisk run")
     p.add_argument("--out", metavar="DIR", help="output folder (default: the folder of the "
                    "results file)")
+    p.add_argument("--quiet", action="store_true", help="no progress lines")
     p.set_defaults(func=cmd_report)
 
 
@@ -335,11 +339,13 @@ def cmd_report(args: argparse.Namespace) -> int:
     int
         0 on success [-].
     """
+    from plyrisk.pipeline.run import phase
     from plyrisk.results.dataset import read_results
 
     path = Path(args.results)
     if not path.is_file():
         raise UsageError(f"{path}: no such results file")
+    phase(f"reading {path}", args.quiet)
     try:
         ds = read_results(path)
     except (OSError, ValueError) as err:
@@ -348,7 +354,7 @@ def cmd_report(args: argparse.Namespace) -> int:
 
     def write(staging: Path) -> str:
         try:
-            return _write_report(ds, staging, None, shown=out_dir)
+            return _write_report(ds, staging, None, shown=out_dir, quiet=args.quiet)
         except (KeyError, TypeError, ValueError) as err:
             raise UsageError(f"{path}: not a complete plyrisk results file ({err})") from None
 

@@ -23,7 +23,7 @@ from __future__ import annotations
 
 import base64
 import html
-from collections.abc import Mapping, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -327,6 +327,7 @@ def write_report(
     *,
     tolerance_table: Any = None,
     formats: Sequence[str] | None = None,
+    progress: Callable[[str], None] | None = None,
 ) -> ReportFiles:
     """Write the report of a results dataset: HTML, Markdown summary, figures and CSV tables.
 
@@ -344,6 +345,8 @@ def write_report(
     formats
         Figure file formats (``"png"`` and optionally ``"svg"``); default: the study's
         ``[report] formats`` (:func:`figure_formats`), PNG only without one.
+    progress
+        Called with a short text as each stage begins (figures, tables and HTML).
 
     Returns
     -------
@@ -364,7 +367,7 @@ def write_report(
         from plyrisk.report.transient import write_transient_report
 
         return write_transient_report(ds, out_dir, tolerance_table=tolerance_table,
-                                      formats=formats)
+                                      formats=formats, progress=progress)
     missing = [v for v in _REQUIRED if v not in ds.variables]
     if missing or "limit" not in ds.attrs:
         raise ValueError("not a plyrisk results dataset: missing "
@@ -372,8 +375,13 @@ def write_report(
     tol = _tolerance_table(tolerance_table) if tolerance_table is not None else None
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
+    kinds = _formats(ds, formats)
+    if progress is not None:
+        progress(f"report: figures ({', '.join(kinds)})")
     figs = report_figures(ds)
-    fig_paths, embedded = _save(figs, out / "figures", _formats(ds, formats))
+    fig_paths, embedded = _save(figs, out / "figures", kinds)
+    if progress is not None:
+        progress("report: CSV tables, report.html, summary.md")
     tables = write_csv_tables(ds, out)
     if tol is not None:
         columns, records = tol

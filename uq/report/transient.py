@@ -11,7 +11,7 @@ the horizon with its interval, the dominant layer. ``docs/report.md`` describes 
 from __future__ import annotations
 
 import math
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from pathlib import Path
 from typing import Any
 
@@ -281,7 +281,8 @@ def _nonconverged(ds: xr.Dataset) -> Table:
 
 def write_transient_report(ds: xr.Dataset, out_dir: str | Path, *,
                            tolerance_table: Any = None,
-                           formats: Sequence[str] | None = None) -> Any:
+                           formats: Sequence[str] | None = None,
+                           progress: Callable[[str], None] | None = None) -> Any:
     """Write the report of a transient results dataset (see the module docstring).
 
     Parameters
@@ -294,6 +295,9 @@ def write_transient_report(ds: xr.Dataset, out_dir: str | Path, *,
         Tolerance recommendations (as for :func:`plyrisk.report.html.write_report`).
     formats
         Figure file formats (as for :func:`plyrisk.report.html.write_report`).
+    progress
+        Called with a short text as each stage begins (as for
+        :func:`plyrisk.report.html.write_report`).
 
     Returns
     -------
@@ -318,8 +322,13 @@ def write_transient_report(ds: xr.Dataset, out_dir: str | Path, *,
     tol = _tolerance_table(tolerance_table) if tolerance_table is not None else None
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
+    kinds = _formats(ds, formats)
+    if progress is not None:
+        progress(f"report: figures ({', '.join(kinds)})")
     figs = transient_figures(ds)
-    fig_paths, embedded = _save(figs, out / "figures", _formats(ds, formats))
+    fig_paths, embedded = _save(figs, out / "figures", kinds)
+    if progress is not None:
+        progress("report: CSV tables, report.html, summary.md")
     for f in figs:
         f.figure.clear()
     head = headline_lines(ds)
