@@ -201,8 +201,7 @@ def cmd_run(args: argparse.Namespace) -> int:
     from plyrisk.results.dataset import write_results
     from plyrisk.results.files import OutputSet, decide, folder_lock
     from plyrisk.study.config import load_study, require_runnable
-    from plyrisk.tolerances.output import manufacturing_table
-    from plyrisk.tolerances.study import run_tolerances, settings_for_study
+    from plyrisk.tolerances.study import settings_for_study
 
     study = load_study(args.config)
     require_runnable(study)
@@ -247,11 +246,11 @@ def cmd_run(args: argparse.Namespace) -> int:
             elif report:
                 rows = None
                 if study.tolerances is not None:
-                    phase("tolerance feedback for the report ([tolerances] in the config)",
-                          args.quiet)
+                    phase("tolerance feedback for the report ([tolerances] in the config; "
+                          "computed while the figures are drawn)", args.quiet)
                     full = (result.screening.study if result.screening is not None
                             else result.study)
-                    rows = manufacturing_table(run_tolerances(full), full)
+                    rows = _meanwhile(_tolerance_rows, full)
                 lines.append(_write_report(result.dataset, out.staging, rows, shown=out_dir,
                                            quiet=args.quiet))
             text = "\n".join(lines) + "\n"
@@ -266,21 +265,71 @@ def cmd_run(args: argparse.Namespace) -> int:
     return 0
 
 
+def _tolerance_rows(study: Any) -> list:
+    """The tolerance table of the report: :func:`plyrisk.tolerances.study.run_tolerances` [-]."""
+    from plyrisk.tolerances.output import manufacturing_table
+    from plyrisk.tolerances.study import run_tolerances
+
+    return manufacturing_table(run_tolerances(study), study)
+
+
+def _meanwhile(function: Callable[..., Any], *args: Any) -> Callable[[], Any]:
+    """Start ``function(*args)`` in a forked process (Linux, two or more cores) and return a
+    function that waits for its result. Without a fork, or when the process fails, it is
+    computed here on the first call instead: same result, same errors [-]."""
+    import os
+
+    if sys.platform != "linux" or len(os.sched_getaffinity(0)) < 2:
+        return lambda: function(*args)
+    import multiprocessing
+    import pickle
+    import warnings
+
+    receive, send = multiprocessing.Pipe(duplex=False)
+
+    def child() -> None:
+        try:
+            payload = pickle.dumps(("ok", function(*args)))
+        except BaseException:  # the parent computes it again and reports the error itself
+            payload = pickle.dumps(("failed", None))
+        send.send_bytes(payload)
+
+    with warnings.catch_warnings():  # a fork while other threads run is fine here
+        warnings.simplefilter("ignore", DeprecationWarning)
+        process = multiprocessing.get_context("fork").Process(target=child, daemon=True)
+        process.start()
+    send.close()
+    done: list = []
+
+    def result() -> Any:
+        if not done:
+            try:
+                status, value = pickle.loads(receive.recv_bytes())
+            except (EOFError, OSError, pickle.UnpicklingError):
+                status, value = "failed", None
+            process.join()
+            done.append(value if status == "ok" else function(*args))
+        return done[0]
+    return result
+
+
 def _write_report(ds: Any, out_dir: Path, rows: Any, *, shown: Path | None = None,
                   quiet: bool = True) -> str:
-    """Write the report (and the tolerance table, when given) into ``out_dir``; return the
-    line to print, naming the files in ``shown`` (where they end up) [-]. Unless ``quiet``, a
-    line on stderr as each stage begins."""
+    """Write the report (and the tolerance table, when given: the rows, or a function
+    returning them) into ``out_dir``; return the line to print, naming the files in ``shown``
+    (where they end up) [-]. Unless ``quiet``, a line on stderr as each stage begins."""
     from dataclasses import asdict
 
     from plyrisk.pipeline.run import phase
     from plyrisk.report.html import write_report
     from plyrisk.tolerances.output import write_tolerance_csv
 
+    rows_of = rows if callable(rows) else (lambda: rows)
     files = write_report(ds, out_dir, tolerance_table=None if rows is None else
-                         [asdict(r) for r in rows], progress=lambda text: phase(text, quiet))
+                         (lambda: [asdict(r) for r in rows_of()]),
+                         progress=lambda text: phase(text, quiet))
     if rows is not None:  # the canonical tolerance CSV, cautions first
-        write_tolerance_csv(rows, out_dir / "tolerances.csv")
+        write_tolerance_csv(rows_of(), out_dir / "tolerances.csv")
     where = out_dir if shown is None else shown
     return f"report: {where / files.html.name}  (summary: {files.markdown.name}; figures and " \
            f"CSV tables in {where})"

@@ -341,7 +341,9 @@ def write_report(
         Folder to write into (created if missing).
     tolerance_table
         Tolerance recommendations to include: a pandas DataFrame or a list of dicts (one per
-        row; columns are rendered as they come), or ``None``.
+        row; columns are rendered as they come), or ``None``; or a function of no arguments
+        returning one, called once the figures are drawn (so that the table can be computed
+        meanwhile, e.g. in another process).
     formats
         Figure file formats (``"png"`` and optionally ``"svg"``); default: the study's
         ``[report] formats`` (:func:`figure_formats`), PNG only without one.
@@ -372,7 +374,9 @@ def write_report(
     if missing or "limit" not in ds.attrs:
         raise ValueError("not a plyrisk results dataset: missing "
                          + ", ".join(missing + ([] if "limit" in ds.attrs else ["attrs.limit"])))
-    tol = _tolerance_table(tolerance_table) if tolerance_table is not None else None
+    later = callable(tolerance_table)
+    tol = _tolerance_table(tolerance_table) if tolerance_table is not None and not later \
+        else None
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
     kinds = _formats(ds, formats)
@@ -380,6 +384,9 @@ def write_report(
         progress(f"report: figures ({', '.join(kinds)})")
     figs = report_figures(ds)
     fig_paths, embedded = _save(figs, out / "figures", kinds)
+    if later:
+        table = tolerance_table()
+        tol = _tolerance_table(table) if table is not None else None
     if progress is not None:
         progress("report: CSV tables, report.html, summary.md")
     tables = write_csv_tables(ds, out)

@@ -319,6 +319,8 @@ def write_transient_report(ds: xr.Dataset, out_dir: str | Path, *,
         raise ValueError("not a plyrisk transient results dataset: missing "
                          + ", ".join(missing + ([] if "horizon" in ds.attrs
                                                 else ["attrs.horizon"])))
+    if callable(tolerance_table):  # a table computed meanwhile (see write_report)
+        tolerance_table = tolerance_table()
     tol = _tolerance_table(tolerance_table) if tolerance_table is not None else None
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
