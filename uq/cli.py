@@ -371,7 +371,8 @@ def _add_report(subparsers) -> None:
     p.add_argument("results", help="a results.nc written by plyrisk run")
     p.add_argument("--out", metavar="DIR", help="output folder (default: the folder of the "
                    "results file)")
-    p.add_argument("--quiet", action="store_true", help="no progress lines")
+    p.add_argument("--quiet", action="store_true", help="no progress lines (they are shown on "
+                   "a terminal only)")
     p.set_defaults(func=cmd_report)
 
 
@@ -394,7 +395,10 @@ def cmd_report(args: argparse.Namespace) -> int:
     path = Path(args.results)
     if not path.is_file():
         raise UsageError(f"{path}: no such results file")
-    phase(f"reading {path}", args.quiet)
+    # stages on stderr when it is a terminal (a script reading stderr gets errors only, one
+    # line each)
+    quiet = args.quiet or not sys.stderr.isatty()
+    phase(f"reading {path}", quiet)
     try:
         ds = read_results(path)
     except (OSError, ValueError) as err:
@@ -403,7 +407,7 @@ def cmd_report(args: argparse.Namespace) -> int:
 
     def write(staging: Path) -> str:
         try:
-            return _write_report(ds, staging, None, shown=out_dir, quiet=args.quiet)
+            return _write_report(ds, staging, None, shown=out_dir, quiet=quiet)
         except (KeyError, TypeError, ValueError) as err:
             raise UsageError(f"{path}: not a complete plyrisk results file ({err})") from None
 
