@@ -31,6 +31,12 @@
    timed separately. Last line: ``transient_study_seconds: <float>`` (the whole run). With
    ``--transient-only`` the steady parts are skipped.
 
+5. ``--demo``: only the steady garment demo (``plyrisk run configs/reflective_garment.toml``
+   with its report) in ``--repeat`` fresh processes, split by phase (imports, solve,
+   analysis, results.nc, tolerances, figures, report, other); last line
+   ``demo_seconds: <float>``. See ``benchmarks/demo.py``, which also compares an older
+   installation with this one (``--compare``).
+
 Run from the repository root::
 
     /tmp/venv5/bin/python benchmarks/study.py [--repeat 3] [--profile]
@@ -301,8 +307,17 @@ def main() -> int:
                         help="seeds of the runs-to-precision comparison")
     parser.add_argument("--precision-only", action="store_true",
                         help="only the reference and the runs-to-precision comparison")
+    parser.add_argument("--demo", action="store_true",
+                        help="only the garment demo end to end, by phase (benchmarks/demo.py; "
+                        "--repeat fresh processes)")
     args = parser.parse_args()
     warnings.simplefilter("ignore")
+    if args.demo:
+        import demo  # benchmarks/demo.py, beside this script
+
+        seconds = demo.report_phases(demo.CONFIG, max(args.repeat, 1))
+        print(f"demo_seconds: {seconds:.3f}")
+        return 0
     if args.transient_only:
         total = transient_benchmark(args.transient_samples, args.workers)
         print(f"transient_study_seconds: {total:.2f}")

@@ -245,8 +245,7 @@ def cmd_run(args: argparse.Namespace) -> int:
     from plyrisk.results.dataset import write_results
     from plyrisk.results.files import OutputSet, decide, folder_lock
     from plyrisk.study.config import load_study, require_runnable
-    from plyrisk.tolerances.output import manufacturing_table, shapley_shares, tolerance_advice
-    from plyrisk.tolerances.study import run_tolerances, settings_for_study
+    from plyrisk.tolerances.study import settings_for_study
 
     _progress_clock(args)
     study = load_study(args.config)
@@ -291,20 +290,15 @@ def cmd_run(args: argparse.Namespace) -> int:
                 lines.append(f"report: not written for method = {method.name} (a screening: "
                              f"the summary above and {result.path} hold its results)")
             elif report:
-                rows, advice = None, []
+                rows: Any = None
                 if study.tolerances is not None:
-                    phase("tolerance feedback for the report ([tolerances] in the config)",
-                          args.quiet)
+                    phase("tolerance feedback for the report ([tolerances] in the config; "
+                          "computed while the figures are drawn)", args.quiet)
                     full = (result.screening.study if result.screening is not None
                             else result.study)
-                    tol_report = run_tolerances(full)
-                    shares = shapley_shares(tol_report, result.analysis)  # correlated: Shapley
-                    rows = manufacturing_table(tol_report, full, indices=shares,
-                                               index_name="Shapley effect")
-                    advice = tolerance_advice(tol_report, full)
-                phase("report: figures, tables, report.html", args.quiet)
+                    rows = _meanwhile(_tolerance_rows, full, result.analysis)
                 lines.append(_write_report(result.dataset, out.staging, rows, shown=out_dir,
-                                           advice=advice))
+                                           quiet=args.quiet))
             text = fit_width("\n".join(lines)) + "\n"
             (out.staging / "summary.txt").write_text(text, encoding="utf-8")
             _interrupt_note = (f"{out_dir} was being replaced and may hold a mix of files: "
@@ -317,23 +311,88 @@ def cmd_run(args: argparse.Namespace) -> int:
     return 0
 
 
+def _tolerance_rows(study: Any, analysis: Any) -> tuple[list, list[str]]:
+    """The tolerance table of the report and the advice lines to act on
+    (:func:`plyrisk.tolerances.study.run_tolerances`); with correlated inputs the table's
+    shares are the study's Shapley effects [-]."""
+    from plyrisk.tolerances.output import manufacturing_table, shapley_shares, tolerance_advice
+    from plyrisk.tolerances.study import run_tolerances
+
+    report = run_tolerances(study)
+    shares = shapley_shares(report, analysis)  # correlated inputs: Shapley effects
+    rows = manufacturing_table(report, study, indices=shares, index_name="Shapley effect")
+    return rows, tolerance_advice(report, study)
+
+
+def _meanwhile(function: Callable[..., Any], *args: Any) -> Callable[[], Any]:
+    """Start ``function(*args)`` in a forked process (Linux, two or more cores) and return a
+    function that waits for its result. Without a fork, or when the process fails, it is
+    computed here on the first call instead: same result, same errors [-]."""
+    import os
+
+    if sys.platform != "linux" or len(os.sched_getaffinity(0)) < 2:
+        return lambda: function(*args)
+    import multiprocessing
+    import pickle
+    import warnings
+
+    receive, send = multiprocessing.Pipe(duplex=False)
+
+    def child() -> None:
+        try:
+            payload = pickle.dumps(("ok", function(*args)))
+        except BaseException:  # the parent computes it again and reports the error itself
+            payload = pickle.dumps(("failed", None))
+        send.send_bytes(payload)
+
+    with warnings.catch_warnings():  # a fork while other threads run is fine here
+        warnings.simplefilter("ignore", DeprecationWarning)
+        process = multiprocessing.get_context("fork").Process(target=child, daemon=True)
+        process.start()
+    send.close()
+    done: list = []
+
+    def result() -> Any:
+        if not done:
+            try:
+                status, value = pickle.loads(receive.recv_bytes())
+            except (EOFError, OSError, pickle.UnpicklingError):
+                status, value = "failed", None
+            process.join()
+            done.append(value if status == "ok" else function(*args))
+        return done[0]
+    return result
+
+
 def _write_report(ds: Any, out_dir: Path, rows: Any, *, shown: Path | None = None,
-                  advice: Sequence[str] = ()) -> str:
+                  advice: Sequence[str] = (), quiet: bool = True) -> str:
     """Write the report (and the tolerance table and advice, when given) into ``out_dir``;
     return the line to print, naming the files in ``shown`` (where they end up) [-].
 
-    ``rows`` are :class:`plyrisk.tolerances.output.ManufacturingRow`; the canonical
-    ``tolerances.csv`` (cautions first) is written from them.
+    ``rows`` are :class:`plyrisk.tolerances.output.ManufacturingRow` (the canonical
+    ``tolerances.csv``, cautions first, is written from them), or a function returning a
+    ``(rows, advice)`` pair, called once the figures are drawn. Unless ``quiet``, a line on
+    stderr as each stage begins.
     """
     from dataclasses import asdict
 
+    from plyrisk.pipeline.run import phase
     from plyrisk.report.html import write_report
     from plyrisk.tolerances.output import write_tolerance_csv
 
+    got: list = []
+
+    def pending() -> tuple[list, Sequence[str]]:  # the rows and advice, computed once
+        if not got:
+            got.append(rows() if callable(rows) else (rows, advice))
+        return got[0]
+
     files = write_report(ds, out_dir, tolerance_table=None if rows is None else
-                         [asdict(r) for r in rows], tolerance_advice=advice)
+                         (lambda: ([asdict(r) for r in pending()[0]], pending()[1])),
+                         progress=lambda text: phase(text, quiet))
     if rows is not None:  # the canonical tolerance CSV, cautions first
-        write_tolerance_csv(rows, out_dir / "tolerances.csv", advice=advice)
+        table, notes = pending()
+        write_tolerance_csv(table, out_dir / "tolerances.csv", advice=notes)
     where = out_dir if shown is None else shown
     return f"report: {where / files.html.name}  (summary: {files.markdown.name}; figures and " \
            f"CSV tables in {where})"
@@ -381,6 +440,8 @@ def _add_report(subparsers) -> None:
     p.add_argument("results", help="a results.nc written by plyrisk run")
     p.add_argument("--out", metavar="DIR", help="output folder (default: the folder of the "
                    "results file)")
+    p.add_argument("--quiet", action="store_true", help="no progress lines (they are shown on "
+                   "a terminal only)")
     p.set_defaults(func=cmd_report)
 
 
@@ -397,11 +458,16 @@ def cmd_report(args: argparse.Namespace) -> int:
     int
         0 on success [-].
     """
+    from plyrisk.pipeline.run import phase
     from plyrisk.results.dataset import read_results
 
     path = Path(args.results)
     if not path.is_file():
         raise UsageError(f"{path}: no such results file")
+    # stages on stderr when it is a terminal (a script reading stderr gets errors only, one
+    # line each)
+    quiet = args.quiet or not sys.stderr.isatty()
+    phase(f"reading {path}", quiet)
     try:
         ds = read_results(path)
     except (OSError, ValueError) as err:
@@ -411,7 +477,7 @@ def cmd_report(args: argparse.Namespace) -> int:
 
     def write(staging: Path) -> str:
         try:
-            return _write_report(ds, staging, rows, shown=out_dir, advice=advice)
+            return _write_report(ds, staging, rows, shown=out_dir, advice=advice, quiet=quiet)
         except (KeyError, TypeError, ValueError) as err:
             raise UsageError(f"{path}: not a complete plyrisk results file ({err})") from None
 

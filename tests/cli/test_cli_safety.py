@@ -215,7 +215,8 @@ def test_a_plain_line_per_phase_unless_quiet(tmp_path, capsys):
     assert phases == ["plyrisk: solving ...",
                       "plyrisk: analysis (percentiles, exceedance, sensitivity indices or "
                       "surrogate fit) ...",
-                      "plyrisk: report: figures, tables, report.html ..."]
+                      "plyrisk: report: figures (png) ...",
+                      "plyrisk: report: CSV tables, report.html, summary.md ..."]
     assert main(["run", str(SMALL), "--out", str(tmp_path / "b"), "--samples", "16",
                  "--quiet"]) == 0
     assert capsys.readouterr().err == ""

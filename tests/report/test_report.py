@@ -46,7 +46,9 @@ def reports(tmp_path_factory, dataset) -> dict[tuple[str, bool], tuple[xr.Datase
     for method, swept in CASES:
         ds = dataset(method, swept)
         folder = tmp_path_factory.mktemp(f"{method}_{'swept' if swept else 'unswept'}")
-        out[(method, swept)] = ds, write_report(ds, folder)
+        # SVG on request ([report] formats); one case asks for it
+        formats = ("png", "svg") if (method, swept) == ("saltelli", True) else None
+        out[(method, swept)] = ds, write_report(ds, folder, formats=formats)
     return out
 
 
@@ -177,19 +179,29 @@ def test_html_contents(report):
 # ----------------------------------------------------------------------------------------------
 
 
-def test_figure_files_exist_as_png_and_svg(report):
+def test_figure_files_exist_as_png_and_svg_on_request(report):
     ds, files = report
     stems = {p.stem for p in files.figures}
     n = n_scenarios(ds)
     per = 5 if ds.attrs["method"] == "saltelli" else 6  # lhs: screening + 2 surrogate figures
     assert len(stems) == n * per + (2 if "scenario" in ds.dims else 0)  # the two sweep figures
+    with_svg = ds.attrs["method"] == "saltelli" and "scenario" in ds.dims
+    assert len(files.figures) == len(stems) * (2 if with_svg else 1)
     for stem in stems:
         png = files.html.parent / "figures" / f"{stem}.png"
         svg = png.with_suffix(".svg")
-        assert png in files.figures and svg in files.figures
+        assert png in files.figures and (svg in files.figures) == with_svg
         assert png.stat().st_size > 0 and png.read_bytes().startswith(PNG)
-        assert svg.stat().st_size > 0
-        assert ET.parse(svg).getroot().tag.endswith("svg")
+        assert svg.is_file() == with_svg
+        if with_svg:
+            assert ET.parse(svg).getroot().tag.endswith("svg")
+            # drawn with the layout the PNG was drawn with: same size
+            assert ET.parse(svg).getroot().get("width") == "576pt"
+
+
+def test_bad_figure_formats_are_one_line_errors(dataset, tmp_path):
+    with pytest.raises(ValueError, match="formats: expected a list of figure formats"):
+        write_report(dataset("saltelli", False), tmp_path, formats=("svg",))
 
 
 def test_markdown_summary(report):

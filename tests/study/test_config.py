@@ -384,7 +384,20 @@ def test_duplicate_scenario_level():
 def test_sections_registry_order():
     assert list(SECTIONS) == ["study", "model", "exposure", "hot_side", "layer", "wearer",
                              "cold_side", "scenarios", "tolerances", "screening", "compute",
-                             "correlations"]
+                             "correlations", "report"]
+
+
+def test_report_formats_default_png_and_svg_on_request():
+    assert loads_study(BASE, source="t").report_formats == ("png",)
+    text = BASE + '\n[report]\nformats = ["svg", "png"]\n'
+    assert loads_study(text, source="t").report_formats == ("png", "svg")
+
+
+@pytest.mark.parametrize("value", ['["svg"]', '["png", "pdf"]', '"png"', '["png", "png"]'])
+def test_bad_report_formats_are_one_line_errors(value):
+    with pytest.raises(ConfigError, match=r"^t: report\.formats: expected a list of figure "
+                       r"formats from 'png', 'svg' that includes 'png'[^\n]*$"):
+        loads_study(BASE + f"\n[report]\nformats = {value}\n", source="t")
 
 
 def test_every_bad_config_is_labelled():

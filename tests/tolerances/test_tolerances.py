@@ -370,3 +370,29 @@ def test_small_study_allocation_meets_target_in_an_independent_run():
     assert ver.seed != st.seed and ver.samples == VERIFICATION_SCALE * 256
     assert ver.met and ver.value <= rep.bound
     assert rep.whatif.baseline.nonconverged.sum() == 0
+
+
+def test_steady_model_solves_a_design_once(small_demo):
+    from plyrisk.propagate.evaluate import evaluate
+    from plyrisk.tolerances.study import problem_from_study
+
+    calls = []
+
+    def counting(study, values):
+        calls.append(values.shape)
+        return evaluate(study, values)
+
+    problem = problem_from_study(small_demo, evaluate=counting)
+    rng = np.random.default_rng(3)
+    unit = rng.random((32, len(small_demo.parameters)))
+    values = np.column_stack([p.distribution.ppf(unit[:, j])
+                              for j, p in enumerate(small_demo.parameters)])
+    first = problem.evaluate(values)
+    first[...] = 0.0                      # the caller's copy: the kept outputs are unchanged
+    again = problem.evaluate(values.copy())
+    other = problem.evaluate(values[:16])
+    assert calls == [values.shape, (16, values.shape[1])]
+    direct = evaluate(small_demo, values)
+    expected = np.where(direct["converged"], direct["inner_surface_temperature"], np.nan)
+    np.testing.assert_array_equal(again, expected)
+    assert other.shape[-1] == 16

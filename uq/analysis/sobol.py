@@ -1,7 +1,10 @@
 """First- and total-order Sobol' indices from a Saltelli design, and their ranking.
 
-The estimators are those of ``SALib.analyze.sobol.analyze`` (Saltelli et al. 2010, Computer
-Physics Communications 181, 259-270) with ``calc_second_order=False``. The design decides the
+The estimators are those of ``SALib.analyze.sobol.analyze`` with ``calc_second_order=False``
+(Saltelli et al. 2010, Computer Physics Communications 181, 259-270, doi:10.1016/j.cpc.2009.09.018:
+first order their Eq. (b) of Table 2, ``mean(f_B (f_AB_i - f_A)) / V``; total order Jansen's
+``mean((f_A - f_AB_i)^2) / (2 V)``, their Eq. (f)), the output centred and scaled as SALib does;
+they are computed here, vectorised, and tested against SALib. The design decides the
 intervals:
 
 * A replicated design (``Design.replicates = R > 1``: R independently scrambled Saltelli
@@ -13,7 +16,9 @@ intervals:
   and identically distributed, so the interval holds whatever the correlation of the rows
   within a scrambled sequence (which a bootstrap over rows ignores: on Saltelli designs its
   intervals are several times too wide).
-* One scrambled sequence (``replicates = 1``): SALib's bootstrap over base rows.
+* One scrambled sequence (``replicates = 1``): SALib's bootstrap over base rows (its resample
+  matrix, normal-quantile half-widths), vectorised: one matrix of resample counts over the base
+  rows, applied to the per-row terms of all blocks at once.
 
 Conventions
 -----------
@@ -24,9 +29,10 @@ Conventions
   of the largest magnitude) has no variance to apportion: indices and half-widths are NaN
   and :attr:`SobolIndices.constant_output` is True. No exception is raised, so a study in
   which an output does not respond to any input still completes.
-* The bootstrap seed handed to SALib is derived from ``seed`` with
-  ``numpy.random.SeedSequence`` (SALib treats seed 0 as "unseeded"); the same seed always
-  gives identical half-widths.
+* The bootstrap seed is derived from ``seed`` with ``numpy.random.SeedSequence`` (as it was
+  handed to SALib, which treats seed 0 as "unseeded"); the resample indices are those SALib
+  draws from it (``numpy.random.default_rng(seed).integers(N, size=(N, resamples))``), so the
+  same seed always gives identical half-widths, equal to SALib's to rounding.
 """
 
 from __future__ import annotations
@@ -37,7 +43,6 @@ from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
 import numpy as np
-from SALib.analyze import sobol as salib_sobol
 from scipy import stats
 
 from plyrisk.design.sampling import Design
@@ -174,11 +179,47 @@ def _salib_seed(seed: int) -> int:
     return int(np.random.SeedSequence(int(seed)).generate_state(1, dtype=np.uint32)[0]) or 1
 
 
-def _analyze(table: np.ndarray, problem: dict, n_bootstrap: int, confidence: float,
-             seed: int) -> tuple[np.ndarray, ...]:
-    res = salib_sobol.analyze(problem, table.reshape(-1), calc_second_order=False,
-                              num_resamples=n_bootstrap, conf_level=confidence, seed=seed)
-    return tuple(np.asarray(res[k], dtype=float) for k in ("S1", "S1_conf", "ST", "ST_conf"))
+BOOTSTRAP_BLOCK_VALUES = 2**22
+"""Resample counts held at once (resamples x base rows); a fixed bound, so the half-widths never
+depend on how anything else is chunked [-]."""
+
+
+def _bootstrap_estimates(block: np.ndarray, n_bootstrap: int, confidence: float, seed: int
+                         ) -> tuple[np.ndarray, ...]:
+    """First and total indices with bootstrap half-widths, as ``SALib.analyze.sobol.analyze``.
+
+    ``block`` holds the kept base rows, columns A, AB_1 ... AB_k, B. Every resample mean is a
+    weighted sum over the base rows with weights the resample's counts, so one matrix of counts
+    (resamples x rows) times the per-row terms gives every resample of every index (S.1).
+    """
+    n = block.shape[0]
+    y = (block - block.mean()) / block.std()            # SALib's normalisation
+    fa, fb, fab = y[:, 0], y[:, -1], y[:, 1:-1]
+    both = np.concatenate([fa, fb])
+    var = np.var(both)
+    first_terms = fb[:, None] * (fab - fa[:, None])
+    total_terms = (fa[:, None] - fab) ** 2
+    ok = var > np.finfo(float).eps
+    s1 = np.mean(first_terms, axis=0) / var if ok else np.zeros(fab.shape[1])
+    st = 0.5 * np.mean(total_terms, axis=0) / var if ok else np.zeros(fab.shape[1])
+    resamples = np.random.default_rng(seed).integers(n, size=(n, n_bootstrap))  # SALib's draw
+    terms = np.column_stack([first_terms, total_terms, fa + fb, fa * fa + fb * fb])
+    k = fab.shape[1]
+    boot = np.empty((n_bootstrap, terms.shape[1]))
+    step = max(1, BOOTSTRAP_BLOCK_VALUES // n)
+    for b0 in range(0, n_bootstrap, step):
+        b1 = min(b0 + step, n_bootstrap)
+        flat = (resamples[:, b0:b1] + n * np.arange(b1 - b0)).ravel(order="F")
+        counts = np.bincount(flat, minlength=(b1 - b0) * n).reshape(b1 - b0, n)
+        boot[b0:b1] = (counts @ terms) / n
+    mean2 = boot[:, 2 * k] / 2.0
+    var_b = boot[:, 2 * k + 1] / 2.0 - mean2 * mean2
+    good = var_b > np.finfo(float).eps
+    with np.errstate(invalid="ignore", divide="ignore"):
+        s1_b = np.where(good[:, None], boot[:, :k] / var_b[:, None], 0.0)
+        st_b = np.where(good[:, None], 0.5 * boot[:, k:2 * k] / var_b[:, None], 0.0)
+    z = float(stats.norm.ppf(0.5 + confidence / 2.0))
+    return s1, z * s1_b.std(axis=0, ddof=1), st, z * st_b.std(axis=0, ddof=1)
 
 
 def _result(names: Sequence[str], values: tuple[np.ndarray, ...] | None, confidence: float,
@@ -277,9 +318,9 @@ def sobol_indices(y: np.ndarray, design: Design, *, names: Sequence[str],
                                 "(more samples, or check why the solves failed)")
     table = table[keep]
 
-    def analyze(cols: list[int], prob: dict) -> tuple[np.ndarray, ...]:
+    def analyze(cols: list[int]) -> tuple[np.ndarray, ...]:
         if reps == 1:
-            return _analyze(table[:, cols], prob, n_bootstrap, confidence, salib_seed)
+            return _bootstrap_estimates(table[:, cols], n_bootstrap, confidence, salib_seed)
         s1, st = _replicate_estimates(table, cols, rep_label, reps)
         (m1, h1), (mt, ht) = (replicate_interval(v, confidence) for v in (s1, st))
         return m1, h1, mt, ht
@@ -293,21 +334,20 @@ def sobol_indices(y: np.ndarray, design: Design, *, names: Sequence[str],
                   else None)
         return first, groups
 
-    problem = {"num_vars": d, "names": list(names)}
-    first = _result(names, analyze([column[0], *ab, column[1]], problem),
+    first = _result(names, analyze([column[0], *ab, column[1]]),
                     confidence, used, dropped, reps)
     if not design.groups:
         return first, None
 
-    # SALib needs a group label for every parameter: ungrouped ones form their own group.
+    # As SALib's groups: every parameter has a group label, ungrouped ones form their own group
+    # (their columns share the normalisation, so they stay in).
     label = [f"p{i}" for i in range(d)]
     for k, g in enumerate(design.groups):
         for i in g:
             label[i] = f"g{k}"
     order = list(dict.fromkeys(label))          # SALib's group order: first appearance
     cols = [grp_cols[int(lab[1:])] if lab[0] == "g" else ab[int(lab[1:])] for lab in order]
-    gproblem = {"num_vars": d, "names": list(names), "groups": label}
-    values = analyze([column[0], *cols, column[1]], gproblem)
+    values = analyze([column[0], *cols, column[1]])
     pick = [order.index(f"g{k}") for k in range(len(design.groups))]
     grouped = _result(group_names, tuple(v[pick] for v in values), confidence, used, dropped,
                       reps)

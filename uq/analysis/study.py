@@ -22,7 +22,6 @@ import numpy as np
 from scipy import stats
 
 from plyrisk.analysis.outputs import MemoryRows, output_column
-from plyrisk.analysis.pce import SurrogateIndices
 from plyrisk.analysis.sobol import RankedIndex, SobolIndices, rank
 from plyrisk.analysis.statistics import (
     Exceedance,
@@ -37,6 +36,7 @@ from plyrisk.methods import get_method
 from plyrisk.propagate.evaluate import Propagation, parameter_groups
 
 if TYPE_CHECKING:  # pragma: no cover
+    from plyrisk.analysis.pce import SurrogateIndices  # chaospy: loaded by method = pce only
     from plyrisk.methods.base import Method
     from plyrisk.study.definition import Study
 

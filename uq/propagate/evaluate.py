@@ -20,7 +20,6 @@ from plyrisk.design.sampling import Design, DesignPlan
 from plyrisk.methods import get_method
 from plyrisk.models.network import NETWORK_OUTPUTS, NetworkSolution, solve_network
 from plyrisk.models.outputs import OutputSpec
-from plyrisk.models.transient import solve_transient
 from plyrisk.models.transient_outputs import TRANSIENT_OUTPUTS, TransientSolution
 from plyrisk.propagate.compute import run_tasks
 from plyrisk.study.definition import assemble
@@ -171,6 +170,9 @@ def model_objects(study: Study, values: np.ndarray | None = None, *, scenario: i
 def _solve(study: Study, values: np.ndarray | None, scenario: int | None
            ) -> NetworkSolution | TransientSolution:
     if study.transient is not None:
+        # imported here: the transient solver loads numba, which a steady study never needs
+        from plyrisk.models.transient import solve_transient
+
         layers, exposure, wearer = model_objects(study, values, scenario=scenario)
         # the study's one grid layout: results do not depend on how samples are chunked
         return solve_transient(layers, exposure, wearer, radiation=study.model.radiation,

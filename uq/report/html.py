@@ -6,7 +6,8 @@
 * ``report.html`` — everything, figures embedded as base64 PNG; no external links, scripts,
   fonts or stylesheets, so that it opens from disk in any browser with no network;
 * ``summary.md`` — the headline, ranking, convergence and cautions in Markdown;
-* ``figures/*.png`` and ``figures/*.svg`` — every figure of :mod:`plyrisk.report.figures.outputs`;
+* ``figures/*.png`` (and ``figures/*.svg`` with ``[report] formats = ["png", "svg"]``) —
+  every figure of :mod:`plyrisk.report.figures.outputs`, each drawn once per format;
 * ``quantiles.csv``, ``indices.csv``, ``group_indices.csv``, ``ranking.csv`` and, when a
   tolerance table is passed, ``tolerances.csv``.
 
@@ -23,7 +24,7 @@ from __future__ import annotations
 import base64
 import html
 import re
-from collections.abc import Mapping, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -33,6 +34,7 @@ import xarray as xr
 from plyrisk.cautions import CAUTIONS
 from plyrisk.report.csv_tables import write_csv, write_csv_tables
 from plyrisk.report.figures import outputs as fg
+from plyrisk.report.figures.common import save_figures
 from plyrisk.report.shapley import (
     dependence_assumptions,
     has_shapley,
@@ -55,8 +57,10 @@ from plyrisk.report.tables import (
     tolerance_tables,
 )
 from plyrisk.study.config import loads_study
+from plyrisk.study.settings import DEFAULT_REPORT_FORMATS, REPORT_FORMATS, report_formats_error
 
-__all__ = ["ReportFigure", "ReportFiles", "Table", "report_figures", "write_report"]
+__all__ = ["ReportFigure", "ReportFiles", "Table", "figure_formats", "report_figures",
+           "write_report"]
 
 TOP_COUNT = 5
 """Parameters listed in the Markdown summary's ranking."""
@@ -206,17 +210,29 @@ def _exceedance_target(ds: xr.Dataset) -> float | None:
     return None
 
 
-def _save(figs: list[ReportFigure], folder: Path) -> tuple[list[Path], dict[str, str]]:
-    folder.mkdir(parents=True, exist_ok=True)
-    paths, embedded = [], {}
+def _save(figs: list[ReportFigure], folder: Path, formats: Sequence[str] = ("png",)
+          ) -> tuple[list[Path], dict[str, str]]:
+    """Write the figures (each drawn once per format) and embed their PNG files."""
     with fg.styled():
-        for f in figs:
-            png, svg = folder / f"{f.stem}.png", folder / f"{f.stem}.svg"
-            f.figure.savefig(png, dpi=150, metadata={"Software": None})
-            f.figure.savefig(svg, metadata={"Date": None})
-            paths += [png, svg]
-            embedded[f.stem] = base64.b64encode(png.read_bytes()).decode("ascii")
+        paths = save_figures([(f.stem, f.figure) for f in figs], folder, formats=formats)
+    embedded = {f.stem: base64.b64encode((folder / f"{f.stem}.png").read_bytes()).decode("ascii")
+                for f in figs}
     return paths, embedded
+
+
+def figure_formats(ds: xr.Dataset) -> tuple[str, ...]:
+    """The figure formats of the study behind ``ds`` (``[report] formats`` of its stored config
+    text; PNG only when it has none or an unreadable one) [-]."""
+    import tomllib
+
+    try:
+        raw = tomllib.loads(str(ds.attrs.get("config_text", ""))).get("report", {})
+    except tomllib.TOMLDecodeError:
+        return DEFAULT_REPORT_FORMATS
+    formats = raw.get("formats") if isinstance(raw, dict) else None
+    if formats is None or report_formats_error(formats) is not None:
+        return DEFAULT_REPORT_FORMATS
+    return tuple(f for f in REPORT_FORMATS if f in formats)
 
 
 # ----------------------------------------------------------------------------------------------
@@ -434,6 +450,16 @@ def _cautions_md() -> str:
     return "## Cautions\n\n" + "\n".join(f"- **{c}**" for c in CAUTIONS)
 
 
+def _pending_tolerances(function: Callable[[], Any], advice: Sequence[str] | None
+                        ) -> tuple[Any, Sequence[str] | None]:
+    """Call a tolerance table computed meanwhile: it returns the table or a ``(table, advice)``
+    pair; the advice given to the report applies when it returns a table alone."""
+    got = function()
+    if isinstance(got, tuple):
+        return got[0], got[1]
+    return got, advice
+
+
 @dataclass(frozen=True)
 class _Tolerances:
     """The tolerance section: the table's columns and records and the advice lines."""
@@ -485,6 +511,8 @@ def write_report(
     *,
     tolerance_table: Any = None,
     tolerance_advice: Sequence[str] | None = None,
+    formats: Sequence[str] | None = None,
+    progress: Callable[[str], None] | None = None,
 ) -> ReportFiles:
     """Write the report of a results dataset: HTML, Markdown summary, figures and CSV tables.
 
@@ -500,11 +528,18 @@ def write_report(
         Tolerance recommendations to include: a pandas DataFrame or a list of dicts (one per
         row), or ``None``. The columns of ``tolerances.csv``
         (:class:`plyrisk.tolerances.output.ManufacturingRow`) are shown with human headers and
-        units; any other columns as they come.
+        units; any other columns as they come. It may also be a function of no arguments
+        returning the table, or a ``(table, advice)`` pair, called once the figures are drawn
+        (so that it can be computed meanwhile, e.g. in another process).
     tolerance_advice
         Lines to act on shown above the tolerance table and written as ``# advice:`` lines
         of ``tolerances.csv``: the independent verification's verdict and the nominal-shift
         advice (:func:`plyrisk.tolerances.output.tolerance_advice`).
+    formats
+        Figure file formats (``"png"`` and optionally ``"svg"``); default: the study's
+        ``[report] formats`` (:func:`figure_formats`), PNG only without one.
+    progress
+        Called with a short text as each stage begins (figures, tables and HTML).
 
     Returns
     -------
@@ -525,16 +560,25 @@ def write_report(
         from plyrisk.report.transient import write_transient_report
 
         return write_transient_report(ds, out_dir, tolerance_table=tolerance_table,
-                                      tolerance_advice=tolerance_advice)
+                                      tolerance_advice=tolerance_advice,
+                                      formats=formats, progress=progress)
     missing = [v for v in _REQUIRED if v not in ds.variables]
     if missing or "limit" not in ds.attrs:
         raise ValueError("not a plyrisk results dataset: missing "
                          + ", ".join(missing + ([] if "limit" in ds.attrs else ["attrs.limit"])))
-    tol = _Tolerances.of(tolerance_table, tolerance_advice)
+    later = callable(tolerance_table)
+    tol = None if later else _Tolerances.of(tolerance_table, tolerance_advice)
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
+    kinds = _formats(ds, formats)
+    if progress is not None:
+        progress(f"report: figures ({', '.join(kinds)})")
     figs = report_figures(ds)
-    fig_paths, embedded = _save(figs, out / "figures")
+    fig_paths, embedded = _save(figs, out / "figures", kinds)
+    if later:
+        tol = _Tolerances.of(*_pending_tolerances(tolerance_table, tolerance_advice))
+    if progress is not None:
+        progress("report: CSV tables, report.html, summary.md")
     tables = write_csv_tables(ds, out) + write_shapley_csv(ds, out)
     if tol is not None:
         tables.append(tol.write_csv(out))
@@ -546,6 +590,15 @@ def write_report(
     md_path.write_text("\n".join(_markdown_lines(ds, content, out, fig_paths + tables)),
                        encoding="utf-8")
     return ReportFiles(html_path, md_path, fig_paths, tables)
+
+
+def _formats(ds: xr.Dataset, formats: Sequence[str] | None) -> tuple[str, ...]:
+    if formats is None:
+        return figure_formats(ds)
+    problem = report_formats_error(list(formats))
+    if problem is not None:
+        raise ValueError(f"formats: {problem}")
+    return tuple(f for f in REPORT_FORMATS if f in formats)
 
 
 @dataclass(frozen=True)

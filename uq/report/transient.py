@@ -11,6 +11,7 @@ the horizon with its interval, the dominant layer. ``docs/report.md`` describes 
 from __future__ import annotations
 
 import math
+from collections.abc import Callable, Sequence
 from pathlib import Path
 from typing import Any
 
@@ -280,7 +281,9 @@ def _nonconverged(ds: xr.Dataset) -> Table:
 
 def write_transient_report(ds: xr.Dataset, out_dir: str | Path, *,
                            tolerance_table: Any = None,
-                           tolerance_advice: Any = None) -> Any:
+                           tolerance_advice: Any = None,
+                           formats: Sequence[str] | None = None,
+                           progress: Callable[[str], None] | None = None) -> Any:
     """Write the report of a transient results dataset (see the module docstring).
 
     Parameters
@@ -293,6 +296,11 @@ def write_transient_report(ds: xr.Dataset, out_dir: str | Path, *,
         Tolerance recommendations (as for :func:`plyrisk.report.html.write_report`).
     tolerance_advice
         Lines to act on (as for :func:`plyrisk.report.html.write_report`).
+    formats
+        Figure file formats (as for :func:`plyrisk.report.html.write_report`).
+    progress
+        Called with a short text as each stage begins (as for
+        :func:`plyrisk.report.html.write_report`).
 
     Returns
     -------
@@ -302,8 +310,10 @@ def write_transient_report(ds: xr.Dataset, out_dir: str | Path, *,
         _CSS,
         ReportFiles,
         _esc,
+        _formats,
         _html_table,
         _md_table,
+        _pending_tolerances,
         _save,
         _Tolerances,
         with_contents,
@@ -314,11 +324,19 @@ def write_transient_report(ds: xr.Dataset, out_dir: str | Path, *,
         raise ValueError("not a plyrisk transient results dataset: missing "
                          + ", ".join(missing + ([] if "horizon" in ds.attrs
                                                 else ["attrs.horizon"])))
+    if callable(tolerance_table):  # a table computed meanwhile (see write_report)
+        tolerance_table, tolerance_advice = _pending_tolerances(tolerance_table,
+                                                                tolerance_advice)
     tol = _Tolerances.of(tolerance_table, tolerance_advice)
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
+    kinds = _formats(ds, formats)
+    if progress is not None:
+        progress(f"report: figures ({', '.join(kinds)})")
     figs = transient_figures(ds)
-    fig_paths, embedded = _save(figs, out / "figures")
+    fig_paths, embedded = _save(figs, out / "figures", kinds)
+    if progress is not None:
+        progress("report: CSV tables, report.html, summary.md")
     for f in figs:
         f.figure.clear()
     head = headline_lines(ds)

@@ -8,7 +8,9 @@ an exposure; :func:`scenario_slices` iterates over either kind of dataset.
 
 from __future__ import annotations
 
+import sys
 from collections.abc import Iterator
+from contextlib import contextmanager
 from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
@@ -355,8 +357,28 @@ def write_results(ds: xr.Dataset, path: str | Path) -> Path:
         for name, v in ds.data_vars.items()
         if v.dtype.kind in "fiub"
     }
-    ds.to_netcdf(path, engine="netcdf4", encoding=encoding)
+    with _without_distributed(ds):
+        ds.to_netcdf(path, engine="netcdf4", encoding=encoding)
     return path
+
+
+@contextmanager
+def _without_distributed(ds: xr.Dataset) -> Iterator[None]:
+    """While an in-memory dataset is written, make ``distributed`` unimportable unless it is
+    already loaded. xarray asks dask which scheduler is active (it matters for chunked data
+    only), and dask imports ``distributed`` to look for a client: about a second of start-up
+    for a run that never uses it. No client can exist when ``distributed`` was never imported.
+    """
+    chunked = any(v.chunks is not None for v in ds.variables.values())
+    if chunked or "distributed" in sys.modules:
+        yield
+        return
+    sys.modules["distributed"] = None  # type: ignore[assignment]  # import raises ImportError
+    try:
+        yield
+    finally:
+        if sys.modules.get("distributed", 0) is None:
+            del sys.modules["distributed"]
 
 
 def read_results(path: str | Path) -> xr.Dataset:

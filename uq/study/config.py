@@ -50,6 +50,7 @@ from plyrisk.study.sections_analysis import (
     MIN_SAMPLES,
     parse_compute,
     parse_model_section,
+    parse_report,
     parse_screening,
     parse_study_section,
     parse_tolerances,
@@ -245,6 +246,7 @@ SECTIONS: dict[str, Parser] = {
     "screening": parse_screening,
     "compute": parse_compute,
     "correlations": parse_correlations,
+    "report": parse_report,
 }
 """Top-level sections in parse order: name → parser returning :class:`Study` fields."""
 

@@ -395,6 +395,8 @@ class Study:
     (:class:`plyrisk.study.correlations.Correlations`), ``None`` for independent inputs.
     ``max_temperatures`` holds each layer's rated maximum temperature
     (``max_temperature`` of a solid layer) [K], ``None`` where the layer has none.
+    ``report_formats`` lists the figure file formats of the report (``[report] formats``; PNG
+    first, always).
     """
 
     source: str
@@ -414,6 +416,7 @@ class Study:
     max_temperatures: tuple[float | None, ...] = ()
     transient: TransientSetup | None = None
     correlations: Correlations | None = None
+    report_formats: tuple[str, ...] = ("png",)
 
     def steady_sides(self) -> tuple[HotSide, ColdSide]:
         """The hot and cold sides of a steady study (a transient study has none) [-]."""

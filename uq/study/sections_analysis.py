@@ -1,5 +1,5 @@
 """Config sections that say how a study is analysed and run: ``[study]``, ``[model]``,
-``[screening]``, ``[tolerances]``, ``[compute]``.
+``[screening]``, ``[tolerances]``, ``[compute]``, ``[report]``.
 
 Each parser reads its raw TOML value and returns fields of
 :class:`~plyrisk.study.definition.Study` (see :mod:`plyrisk.study.config`).
@@ -14,7 +14,13 @@ from typing import Any
 from plyrisk.methods import METHODS, RENAMED_METHODS, Method
 from plyrisk.study import values as cv
 from plyrisk.study.definition import Analysis, ComputeOptions, ModelOptions, Parameter
-from plyrisk.study.settings import BASES, ScreeningSettings, ToleranceSettings
+from plyrisk.study.settings import (
+    BASES,
+    REPORT_FORMATS,
+    ScreeningSettings,
+    ToleranceSettings,
+    report_formats_error,
+)
 from plyrisk.study.settings import DESIGNS as TOLERANCE_DESIGNS
 from plyrisk.study.targets import parse_target
 from plyrisk.study.units import TEMPERATURE, TEMPERATURE_DIFFERENCE, Parsed
@@ -361,6 +367,29 @@ def parse_compute(ctx: Context, raw: Any, parsed: dict) -> dict:
     if "store" in t:
         kw["store"] = cv.string(ctx, t["store"], "compute.store")
     return {"compute": ComputeOptions(**kw)}
+
+
+# ----------------------------------------------------------------------------------------------
+# [report]
+# ----------------------------------------------------------------------------------------------
+
+_REPORT_KEYS = ("formats",)
+
+
+def parse_report(ctx: Context, raw: Any, parsed: dict) -> dict:
+    """The optional ``[report]`` section: the figure file formats (PNG always; SVG on request).
+    """
+    if raw is None:
+        return {}
+    t = cv.table(ctx, raw, "report", "[report]")
+    cv.check_keys(ctx, t, "report", _REPORT_KEYS)
+    if "formats" not in t:
+        return {}
+    problem = report_formats_error(t["formats"])
+    if problem is not None:
+        raise ctx.error("report.formats", problem)
+    order = [f for f in REPORT_FORMATS if f in t["formats"]]   # PNG first, then SVG
+    return {"report_formats": tuple(order)}
 
 
 # ----------------------------------------------------------------------------------------------

@@ -26,7 +26,6 @@ from plyrisk.models.exposure import EXPOSURE_MODES, Table, TransientExposure
 from plyrisk.models.mesh import mesh_layout
 from plyrisk.models.sensor import copper_disc
 from plyrisk.models.skin import SKIN_PROPERTY_SETS, skin_properties
-from plyrisk.models.transient import THIRD_DEGREE_RULES
 from plyrisk.models.transient_outputs import TRANSIENT_OUTPUTS
 from plyrisk.models.wearer import PrescribedWearer, SensorWearer, SkinWearer
 from plyrisk.study import values as cv
@@ -271,6 +270,8 @@ def parse_wearer(ctx: Context, raw: Any, parsed: dict) -> dict:
             damage = cv.choice(ctx, t["damage_model"], "wearer.damage_model",
                                DAMAGE_PARAMETER_SETS, "damage model")
         if "third_degree" in t:
+            from plyrisk.models.transient import THIRD_DEGREE_RULES  # loads numba: only here
+
             third = cv.choice(ctx, t["third_degree"], "wearer.third_degree", THIRD_DEGREE_RULES,
                               "third-degree rule")
         perfusion = (cv.boolean(ctx, t["perfusion"], "wearer.perfusion")

@@ -12,8 +12,8 @@ from dataclasses import dataclass, field
 
 from plyrisk.study.targets import Target, parse_target
 
-__all__ = ["BASES", "DEFAULT_TARGET", "DESIGNS", "METHODS", "ScreeningSettings",
-           "ToleranceSettings"]
+__all__ = ["BASES", "DEFAULT_REPORT_FORMATS", "DEFAULT_TARGET", "DESIGNS", "METHODS",
+           "REPORT_FORMATS", "ScreeningSettings", "ToleranceSettings", "report_formats_error"]
 
 DEFAULT_TARGET = "P95 <= limit"
 DESIGNS = ("lhs", "random")
@@ -22,6 +22,37 @@ METHODS = DESIGNS
 """Former name of :data:`DESIGNS`."""
 BASES = ("bound", "estimate")
 """What a tolerance target is checked on: the confidence bound or the estimate."""
+REPORT_FORMATS = ("png", "svg")
+"""Figure file formats of ``[report] formats``; PNG is always written (the HTML embeds it)."""
+DEFAULT_REPORT_FORMATS = ("png",)
+"""The figure formats of a study without ``[report] formats``."""
+
+
+def report_formats_error(value: object) -> str | None:
+    """What is wrong with a ``[report] formats`` value, or ``None`` when it is valid.
+
+    Parameters
+    ----------
+    value
+        The raw value: a list of format names.
+
+    Examples
+    --------
+    >>> report_formats_error(["png", "svg"]) is None
+    True
+    >>> print(report_formats_error(["svg"]))  # doctest: +NORMALIZE_WHITESPACE
+    expected a list of figure formats from 'png', 'svg' that includes 'png' (the report
+    embeds the PNG figures), got ['svg']
+    """
+    choices = ", ".join(map(repr, REPORT_FORMATS))
+    expected = (f"expected a list of figure formats from {choices} that includes 'png' (the "
+                "report embeds the PNG figures)")
+    if not isinstance(value, list | tuple) or not all(isinstance(v, str) for v in value):
+        return f"{expected}, got {value!r}"
+    if "png" not in value or any(v not in REPORT_FORMATS for v in value) \
+            or len(set(value)) != len(value):
+        return f"{expected}, got {list(value)!r}"
+    return None
 
 
 @dataclass(frozen=True)

@@ -33,6 +33,7 @@ shift), this module (everything together, the study wrapper) and :mod:`plyrisk.t
 
 from __future__ import annotations
 
+import hashlib
 import math
 from collections.abc import Callable
 from dataclasses import dataclass, replace
@@ -147,6 +148,9 @@ def analyse_tolerances(problem: ToleranceProblem, settings: ToleranceSettings, *
                            float(problem.limit))
 
 
+MODEL_MEMORY = 64
+"""Designs whose steady outputs a tolerance problem keeps, so that a design asked for again is
+not solved again (the same values give the same outputs) [-]."""
 KEPT_GROUPS = ("hot_side", "cold_side", "exposure", "wearer", "skin", "sensor")
 """Parameter groups that are conditions, not manufacturing tolerances: kept at their spread by
 default."""
@@ -217,10 +221,17 @@ def problem_from_study(study: Study, target: Target | None = None, *,
                          "this study is steady")
 
     run_steady = evaluate
+    solved: dict[bytes, np.ndarray] = {}  # the searches ask for some designs more than once
 
     def model(values: np.ndarray) -> np.ndarray:
-        out = run_steady(study, values)
-        return np.where(out["converged"], out["inner_surface_temperature"], np.nan)
+        values = np.ascontiguousarray(values, dtype=float)
+        key = hashlib.sha256(values.tobytes()).digest() + repr(values.shape).encode()
+        if key not in solved:
+            if len(solved) >= MODEL_MEMORY:
+                solved.pop(next(iter(solved)))
+            out = run_steady(study, values)
+            solved[key] = np.where(out["converged"], out["inner_surface_temperature"], np.nan)
+        return solved[key].copy()
 
     labels = tuple(study.scenarios.labels) if study.scenarios is not None else ()
     corr = None if study.correlations is None else study.correlations.full_linear(names)

@@ -13,8 +13,12 @@ the independent converged samples or one parameter's samples out of a results da
 
 from __future__ import annotations
 
-from collections.abc import Iterator
+import os
+import sys
+import warnings
+from collections.abc import Iterator, Sequence
 from contextlib import contextmanager
+from pathlib import Path
 from typing import Any
 
 import matplotlib as mpl
@@ -40,6 +44,7 @@ __all__ = [
     "one_exposure",
     "parameter_values",
     "pretty_unit",
+    "save_figures",
     "select_quantile",
     "styled",
     "temperature_label",
@@ -99,6 +104,111 @@ def styled() -> Iterator[None]:
     """Context in which :data:`STYLE` applies (figures are built and saved inside it)."""
     with mpl.rc_context(STYLE):
         yield
+
+
+# ----------------------------------------------------------------------------------------------
+# Saving: each figure drawn once per format, in two processes where that pays
+# ----------------------------------------------------------------------------------------------
+
+SAVE_OPTIONS: dict[str, dict[str, Any]] = {
+    # zlib level 3 instead of PIL's 6: on the garment demo's 16 figures 0.50 s of encoding
+    # instead of 0.81 s for files 2 % larger (measured once on the shared 2-core machine)
+    "png": {"dpi": 150, "metadata": {"Software": None}, "pil_kwargs": {"compress_level": 3}},
+    "svg": {"metadata": {"Date": None}},
+}
+"""``savefig`` options per figure format (reproducible files: no software or date stamp)."""
+
+PARALLEL_MIN_FIGURES = 4
+"""Fewest figures worth a second process: below this the fork costs more than it saves."""
+
+
+def _render(stem: str, figure: Any, folder: Path, formats: Sequence[str]) -> list[Path]:
+    """Draw one figure once per format. The layout engine runs on the first draw only: the
+    positions it found are kept (``layout_engine = "none"``) for the other formats."""
+    paths = []
+    for k, fmt in enumerate(formats):
+        path = folder / f"{stem}.{fmt}"
+        figure.savefig(path, format=fmt, **SAVE_OPTIONS[fmt])
+        if k == 0 and len(formats) > 1 and figure.get_layout_engine() is not None:
+            figure.set_layout_engine("none")
+        paths.append(path)
+    return paths
+
+
+def _processes(count: int, processes: int | None) -> int:
+    if processes is not None:
+        return max(1, min(int(processes), count))
+    if count < PARALLEL_MIN_FIGURES or sys.platform != "linux":  # fork: Linux only
+        return 1
+    cores = len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else 1
+    return max(1, min(2, cores))
+
+
+def save_figures(figures: Sequence[tuple[str, Any]], folder: str | Path, *,
+                 formats: Sequence[str] = ("png",), processes: int | None = None) -> list[Path]:
+    """Write every figure as ``<folder>/<stem>.<format>``, each drawn once per format.
+
+    With two or more cores (and at least :data:`PARALLEL_MIN_FIGURES` figures) a forked
+    process draws every other figure while this one draws the rest; a figure the other process
+    did not write (it failed) is drawn here afterwards, so nothing is dropped. The files are
+    the same whichever process drew them. Call inside :func:`styled` (a forked process keeps
+    the style).
+
+    Parameters
+    ----------
+    figures
+        ``(stem, matplotlib Figure)`` pairs.
+    folder
+        Folder to write into (created if missing).
+    formats
+        File formats, each one of ``"png"``, ``"svg"``; the first runs the layout engine.
+    processes
+        Processes to draw in (default: 2 on Linux with two or more cores, else 1).
+
+    Returns
+    -------
+    list of pathlib.Path
+        The files written, per figure in the order of ``formats``.
+    """
+    folder = Path(folder)
+    folder.mkdir(parents=True, exist_ok=True)
+    unknown = [f for f in formats if f not in SAVE_OPTIONS]
+    if unknown or not formats:
+        raise ValueError(f"formats must be one or more of {', '.join(SAVE_OPTIONS)}, got "
+                         f"{list(formats)!r}")
+    items = list(figures)
+    paths = [folder / f"{stem}.{fmt}" for stem, _ in items for fmt in formats]
+    shares = _processes(len(items), processes)
+    if shares == 1:
+        for stem, figure in items:
+            _render(stem, figure, folder, formats)
+        return paths
+    import multiprocessing
+
+    others = [items[i] for i in range(1, len(items), shares)]
+    mine = [item for i, item in enumerate(items) if i % shares != 1]
+    for stale in (folder / f"{stem}.{fmt}" for stem, _ in others for fmt in formats):
+        stale.unlink(missing_ok=True)   # so a failed child is noticed, never an old file kept
+    with warnings.catch_warnings():  # a fork while other threads run is fine for drawing
+        warnings.simplefilter("ignore", DeprecationWarning)
+        child = multiprocessing.get_context("fork").Process(
+            target=_render_all, args=(others, folder, tuple(formats)), daemon=True)
+        child.start()
+    try:
+        for stem, figure in mine:
+            _render(stem, figure, folder, formats)
+    finally:
+        child.join()
+    for stem, figure in others:
+        if child.exitcode != 0 or not all((folder / f"{stem}.{fmt}").is_file()
+                                          for fmt in formats):
+            _render(stem, figure, folder, formats)
+    return paths
+
+
+def _render_all(items: Sequence[tuple[str, Any]], folder: Path, formats: Sequence[str]) -> None:
+    for stem, figure in items:
+        _render(stem, figure, folder, formats)
 
 
 # ----------------------------------------------------------------------------------------------
