@@ -21,7 +21,7 @@ def problem(rank: float) -> ToleranceProblem:
 
 @pytest.mark.parametrize("rank", [-0.6, 0.0, 0.8])
 def test_the_common_design_carries_the_dependence(rank):
-    settings = ToleranceSettings(target="P95 <= 3 K", samples=20000, method="random", seed=3)
+    settings = ToleranceSettings(target="P95 <= 3 K", samples=20000, design="random", seed=3)
     run = Runner(problem(rank), settings)
     y = run.output({})[0]
     rho = float(linear_from_rank(rank))
