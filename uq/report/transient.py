@@ -270,6 +270,65 @@ def _rules_table(ds: xr.Dataset) -> Table:
                  "Outputs the indices refer to, and how each is derived")
 
 
+def studied_tables(ds: xr.Dataset) -> tuple[list[Table], str]:
+    """What was studied: the exposure, the layers (exposed side first) and the wearer as
+    written in the config, each uncertain value with its nominal, distribution and truncation;
+    re-read from the stored config text. Returns the tables and, when the config cannot be
+    re-read, the reason (no tables)."""
+    import tomllib
+
+    from plyrisk.report.html import _study
+
+    study, why = _study(ds)
+    if study is None:
+        return [], why
+    raw = tomllib.loads(study.text)
+    by_target = {p.target: p for p in study.parameters}
+    header = ["element", "kind", "quantity", "nominal or value", "uncertainty", "truncation"]
+
+    def rows_of(name: str, kind: str, given: dict, where: tuple) -> list[list[str]]:
+        rows = []
+        for key, value in given.items():
+            if key in ("name", "kind"):
+                continue
+            p = by_target.get((*where, key))
+            if p is not None:
+                found = [[key, p.format(p.distribution.nominal), p.describe(), p.truncation()]]
+            elif isinstance(value, dict) and all(isinstance(v, dict | str | int | float)
+                                                 for v in value.values()) and any(
+                    (*where, key, k) in by_target or not isinstance(v, dict)
+                    for k, v in value.items()) and not _is_distribution(value):
+                found = [[f"{key}.{r[2]}", *r[3:]] for r in rows_of("", "", value,
+                                                                    (*where, key))]
+            else:
+                found = [[key, value if isinstance(value, str) else cell_text(value), "fixed",
+                          ""]]
+            for row in found:
+                rows.append([name if not rows else "", kind if not rows else "", *row])
+        return rows
+
+    layers = []
+    for i, given in enumerate(raw.get("layer", [])):
+        layers += rows_of(str(given.get("name", f"layer {i + 1}")), str(given.get("kind", "")),
+                          given, ("layer", i))
+    wearer = raw.get("wearer", {})
+    tables = [
+        Table(header, rows_of("exposure", "", raw.get("exposure", {}), ("exposure",)),
+              "The exposure and the cool-down"),
+        Table(header, layers, "The assembly, exposed side first"),
+        Table(header, rows_of("wearer", str(wearer.get("kind", "")), wearer, ("wearer",)),
+              "The wearer"),
+    ]
+    return tables, ""
+
+
+def _is_distribution(value: dict) -> bool:
+    """Whether a TOML table is an uncertain value (one distribution key, or nominal/tolerance)."""
+    from plyrisk.study.distributions import KINDS
+
+    return bool(set(value) & (set(KINDS) | {"nominal", "tolerance"}))
+
+
 def _nonconverged(ds: xr.Dataset) -> Table:
     rows = []
     for label, one in scenario_slices(ds):
@@ -322,6 +381,7 @@ def write_transient_report(ds: xr.Dataset, out_dir: str | Path, *,
     events = _event_tables(ds)
     ranking = _ranking_tables(ds)
     rules = _rules_table(ds)
+    studied, why = studied_tables(ds)
     tables = _csv(ds, out)
     if tol is not None:
         columns, records = tol
@@ -348,6 +408,13 @@ def write_transient_report(ds: xr.Dataset, out_dir: str | Path, *,
              "burn criteria; the intervals cover the sampling of the inputs only. See the "
              "cautions below.</p>")
     h.append(box)
+    h.append("<h2>What was studied</h2>")
+    if studied:
+        h += [_html_table(t) for t in studied]
+    else:
+        h.append(f"<p>The stored config could not be re-read by this version of plyrisk "
+                 f"({_esc(why)}); the tables are left out. The config text is under "
+                 "Provenance.</p>")
     h.append("<h2>Figures</h2>")
     for f in figs:
         h.append(f"<figure><h3>{_esc(f.title)}</h3>"
@@ -384,7 +451,10 @@ def write_transient_report(ds: xr.Dataset, out_dir: str | Path, *,
         m += [f"- {t}" for t in lines] + [""]
     if sweep:
         m += [f"**{sweep}**", ""]
-    m += [cautions_md, "", "## Times to burn", ""]
+    m += [cautions_md, "", "## What was studied", ""]
+    for t in studied:
+        m += [_md_table(t), ""]
+    m += ["## Times to burn", ""]
     for t in events:
         m += [_md_table(t), ""]
     m += ["## Ranking", ""]
