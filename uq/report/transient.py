@@ -17,6 +17,7 @@ from typing import Any
 import numpy as np
 import xarray as xr
 
+from plyrisk.analysis.sobol import not_resolved
 from plyrisk.analysis.transient import CONDITION_GROUPS
 from plyrisk.cautions import TRANSIENT_CAUTIONS
 from plyrisk.report.csv_tables import write_csv
@@ -24,6 +25,7 @@ from plyrisk.report.figures import transient as tf
 from plyrisk.report.figures.common import format_percent, format_temperature
 from plyrisk.report.tables import Table, cell_text, provenance_table
 from plyrisk.results.dataset import scenario_slices
+from plyrisk.text.indices import NOT_RESOLVED
 
 __all__ = ["headline_lines", "transient_figures", "write_transient_report"]
 
@@ -60,6 +62,9 @@ def _dominant(one: xr.Dataset) -> str:
             j = int(np.nanargmax(np.where(layer, tot, np.nan)))
             text = (f"dominant layer: {names[j]} (total index {tot[j]:.2f} ± {ci[j]:.2f} for "
                     f"{output}")
+            threshold = float(one.attrs.get("index_ci_threshold", math.inf))
+            if not_resolved(tot[j], ci[j]) or not ci[j] <= threshold:
+                text += f"; {NOT_RESOLVED}"
             k = int(np.nanargmax(tot))
             if not layer[k]:
                 text += (f"; the {names[k]} itself moves it more: total index {tot[k]:.2f} ± "
@@ -238,13 +243,19 @@ def _ranking_tables(ds: xr.Dataset) -> list[Table]:
                 s = one.sel(output=o)
                 tot = np.asarray(s["sobol_total"].values, float)
                 order = np.argsort(-np.nan_to_num(tot, nan=-np.inf))
+                threshold = float(one.attrs.get("index_ci_threshold", math.inf))
+                tci = np.asarray(s["sobol_total_ci"].values, float)
+                first = np.asarray(s["sobol_first"].values, float)
+                fci = np.asarray(s["sobol_first_ci"].values, float)
+
                 rows = [[str(k + 1), str(s["parameter"].values[j]),
                          str(s["parameter_group"].values[j]),
-                         cell_text(f"{tot[j]:.3f} ± {float(s['sobol_total_ci'].values[j]):.3f}"),
-                         cell_text(f"{float(s['sobol_first'].values[j]):.3f} ± "
-                                   f"{float(s['sobol_first_ci'].values[j]):.3f}")]
+                         cell_text(f"{tot[j]:.3f} ± {tci[j]:.3f}"),
+                         cell_text(f"{first[j]:.3f} ± {fci[j]:.3f}"),
+                         _index_status(((tot[j], tci[j]), (first[j], fci[j])), threshold)]
                         for k, j in enumerate(order)]
-                tables.append(Table(["rank", "input", "layer", "total index", "first-order"],
+                tables.append(Table(["rank", "input", "layer", "total index", "first-order",
+                                     "status"],
                                     rows, f"Inputs ranked for {o}"
                                     + (f" — {label}" if label else "")))
             elif "morris_mu_star" in one:
@@ -259,6 +270,13 @@ def _ranking_tables(ds: xr.Dataset) -> list[Table]:
                                     f"Morris screening of {o}" + (f" — {label}" if label
                                                                   else "")))
     return tables
+
+
+def _index_status(pairs, threshold: float) -> str:
+    """``ok``, or ``not resolved: more samples`` when an estimate lies outside [0, 1] by more
+    than its interval or its interval is wider than ``threshold``."""
+    bad = any(not_resolved(v, c) or not c <= threshold for v, c in pairs if np.isfinite(v))
+    return NOT_RESOLVED if bad else "ok"
 
 
 def _rules_table(ds: xr.Dataset) -> Table:

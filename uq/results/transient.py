@@ -324,6 +324,7 @@ def _attributes(study, propagation, analysis: TransientAnalysis, method) -> dict
         "parameters": len(study.parameters),
         "confidence": float(a.confidence),
         "percentiles": np.asarray(a.percentiles, dtype=float),
+        "index_ci_threshold": float(a.index_ci_threshold),
         "horizon": f.horizon,
         "horizon_units": "s",
         "wearer_kind": f.wearer_kind,
