@@ -49,3 +49,43 @@ def test_without_initial_temperature_the_disc_starts_at_the_ambient():
                                  mode="absorbed_flux")
     sol = solve_transient([], exposure, SensorWearer(disc), output_times=[0.0])
     assert float(sol.initial_surface_temperature[0]) == pytest.approx(AMBIENT, abs=1e-6)
+
+
+def test_the_config_key_reaches_the_solution():
+    # the [wearer] key of a study (invented values), through the study reader to the solve
+    from plyrisk.propagate.evaluate import nominal_solution
+    from plyrisk.study.config import loads_study
+
+    text = """
+[study]
+title = "Invented test: bare copper disc"
+method = "saltelli"
+samples = 16
+seed = 1
+
+[exposure]
+incident_flux = { uniform = ["9 kW/m^2", "11 kW/m^2"] }
+gas_temperature = "30 degC"
+convection_coefficient = "0 W/m^2/K"
+duration = "10 s"
+horizon = "10 s"
+ambient_temperature = "30 degC"
+
+[[layer]]
+name = "fabric"
+kind = "solid"
+thickness = "0.5 mm"
+conductivity = "0.05 W/m/K"
+density = "300 kg/m^3"
+specific_heat = "1300 J/kg/K"
+
+[wearer]
+kind = "sensor"
+initial_temperature = "20 degC"
+"""
+    study = loads_study(text, source="disc.toml")
+    sol = nominal_solution(study)
+    # Source: the definition of the key (the disc's temperature when the exposure starts);
+    # 20 degC = 293.15 K (SI Brochure, 9th ed., sec. 2.3.1).
+    assert float(sol.initial_surface_temperature[0]) == pytest.approx(293.15, abs=1e-9)
+    assert float(sol.surface_temperature[0, 0]) == pytest.approx(293.15, abs=1e-9)
