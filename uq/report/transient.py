@@ -305,7 +305,7 @@ def studied_tables(ds: xr.Dataset) -> tuple[list[Table], str]:
     header = ["element", "kind", "quantity", "nominal or value", "uncertainty", "truncation"]
 
     def rows_of(name: str, kind: str, given: dict, where: tuple) -> list[list[str]]:
-        rows = []
+        rows: list[list[str]] = []
         for key, value in given.items():
             if key in ("name", "kind"):
                 continue
