@@ -14,9 +14,14 @@ Run from the repository root::
 
     .venv/bin/python benchmarks/transient.py [--samples N] [--loop-samples M] [--repeat R]
 
-The last two lines printed are ``samples_per_second: <float>`` (batched solve, best run) and
-``speedup_vs_scalar_loop: <float>`` (per-sample time of the loop over that of the batched
-solve, both best runs). Single-threaded: BLAS/OpenMP thread counts are set to 1 first.
+The same samples are also solved by the batched stepping (``compiled=False``: every sample
+stepped together, Python per step; the former path) as the baseline of the compiled loop
+(``compiled=True``, the default), and by the compiled loop on two threads. The last lines
+printed are ``samples_per_second: <float>`` (compiled loop, one thread, best run),
+``speedup_vs_batched: <float>`` (compiled loop over the batched path, best runs),
+``threads_2_speedup: <float>`` (two threads over one) and ``speedup_vs_scalar_loop: <float>``
+(per-sample time of the solve_ivp loop over that of the compiled loop, best runs).
+BLAS/OpenMP thread counts are set to 1 first.
 """
 
 from __future__ import annotations
@@ -69,7 +74,7 @@ def invented_garment(n: int, seed: int):
 
 def main(argv: list[str] | None = None) -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--samples", type=int, default=2000, help="batched samples")
+    parser.add_argument("--samples", type=int, default=2000, help="samples of the model solves")
     parser.add_argument("--loop-samples", type=int, default=3, help="solve_ivp loop samples")
     parser.add_argument("--repeat", type=int, default=3, help="interleaved repeats")
     parser.add_argument("--seed", type=int, default=20241202, help="generator seed")
@@ -86,21 +91,34 @@ def main(argv: list[str] | None = None) -> None:
 
     warm_layers, warm_exposure = invented_garment(16, args.seed + 1)
     solve_transient(warm_layers, warm_exposure, skin, layout=layout)  # first-call costs
-    batched, loop = [], []
+    compiled, threaded, batched, loop = [], [], [], []
     for _ in range(args.repeat):
         start = time.perf_counter()
         sol = solve_transient(layers, exposure, skin, output_times=times, layout=layout)
+        compiled.append(time.perf_counter() - start)
+        start = time.perf_counter()
+        solve_transient(layers, exposure, skin, output_times=times, layout=layout, threads=2)
+        threaded.append(time.perf_counter() - start)
+        start = time.perf_counter()
+        old = solve_transient(layers, exposure, skin, output_times=times, layout=layout,
+                              compiled=False)
         batched.append(time.perf_counter() - start)
         start = time.perf_counter()
         refs = [reference_solution(mesh, layers, exposure, skin, i, output_times=times,
                                    rtol=1e-6, atol=1e-3)
                 for i in range(args.loop_samples)]
         loop.append((time.perf_counter() - start) / args.loop_samples)
+    c_min, c_med = min(compiled), float(np.median(compiled))
+    t_min, t_med = min(threaded), float(np.median(threaded))
     b_min, b_med = min(batched), float(np.median(batched))
     l_min, l_med = min(loop), float(np.median(loop))
-    print(f"batched: {args.samples} samples, min {b_min:.3f} s, median {b_med:.3f} s; "
+    print(f"compiled loop: {args.samples} samples, min {c_min:.3f} s, median {c_med:.3f} s; "
           f"converged {int(sol.converged.sum())}/{args.samples}; mean steps "
           f"{sol.steps.mean():.1f}, rejected {sol.rejected_steps.mean():.1f}")
+    print(f"compiled loop, 2 threads: min {t_min:.3f} s, median {t_med:.3f} s")
+    print(f"batched stepping (baseline): min {b_min:.3f} s, median {b_med:.3f} s; max "
+          f"|compiled - batched| basal temperature "
+          f"{float(np.nanmax(np.abs(sol.basal_temperature - old.basal_temperature))):.2e} K")
     print(f"solve_ivp loop (Radau, rtol 1e-6, atol 1e-3 K): {args.loop_samples} samples, "
           f"per sample min {l_min:.3f} s, median {l_med:.3f} s")
     diff = max(float(np.max(np.abs(sol.basal_temperature[i] - r["basal"])))
@@ -108,9 +126,11 @@ def main(argv: list[str] | None = None) -> None:
     burned = float(np.mean(np.isfinite(sol.time_to_second_degree_burn)))
     print(f"max |batched - loop| basal temperature: {diff:.4f} K; "
           f"share with a second-degree burn: {burned:.3f}")
-    per_batched = b_min / args.samples
-    print(f"samples_per_second: {1.0 / per_batched:.1f}")
-    print(f"speedup_vs_scalar_loop: {l_min / per_batched:.1f}")
+    per_sample = c_min / args.samples
+    print(f"samples_per_second: {1.0 / per_sample:.1f}")
+    print(f"speedup_vs_batched: {b_min / c_min:.2f}")
+    print(f"threads_2_speedup: {c_min / t_min:.2f}")
+    print(f"speedup_vs_scalar_loop: {l_min / per_sample:.1f}")
 
 
 if __name__ == "__main__":

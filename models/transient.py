@@ -26,6 +26,7 @@ from plyrisk.models.mesh import MeshLayout, build_mesh, mesh_layout
 from plyrisk.models.stack import Gap, Solid, StackError
 from plyrisk.models.stepper import integrate, steady_state
 from plyrisk.models.transient_drive import Drive
+from plyrisk.models.transient_kernel import compiled_supported, integrate_compiled
 from plyrisk.models.transient_outputs import (
     TRANSIENT_OUTPUTS,
     TransientSolution,
@@ -58,6 +59,8 @@ def solve_transient(
     radiation: str = "exact",
     convection_enabled: bool = False,
     chunk_size: int = 4096,
+    compiled: bool = True,
+    threads: int = 1,
 ) -> TransientSolution:
     """Integrate the transient model of every sample from its initial steady state to the horizon.
 
@@ -99,6 +102,14 @@ def solve_transient(
         Gap options as in :func:`plyrisk.models.network.solve_network` [-].
     chunk_size
         Samples stepped together [-]; results do not depend on it.
+    compiled
+        Integrate each sample in the compiled time loop of
+        :mod:`plyrisk.models.transient_kernel` (numba; not with gap convection); ``False`` for
+        the batched stepping of :mod:`plyrisk.models.stepper` (Python per step, the former
+        path, kept as a reference). The two agree to rounding [-].
+    threads
+        Threads of the compiled loop, each integrating its own samples [-]; results do not
+        depend on it.
 
     Returns
     -------
@@ -147,8 +158,13 @@ def solve_transient(
         for start in range(0, n, int(chunk_size)):
             idx = np.arange(start, min(start + int(chunk_size), n))
             p, d = problem.take(idx), drive.take(idx)
-            T0, ok = steady_state(_held(p, wearer, mesh, idx), d, guess[:, idx], 1e-9)
-            T0[:, ~ok] = guess[:, idx][:, ~ok]
+            held = _held(p, wearer, mesh, idx)
+            start_guess = guess[:, idx].copy()
+            # fixed nodes keep their starting value in the steady Newton solve: start them at
+            # their prescribed temperature (the sensor's initial_temperature, the core)
+            start_guess[held.fixed] = held.fixed_value[held.fixed]
+            T0, ok = steady_state(held, d, start_guess, 1e-9)
+            T0[:, ~ok] = start_guess[:, ~ok]
             burn = (BurnTracker(idx.size, parameters, third_degree, dermis_parameters)
                     if isinstance(wearer, SkinWearer) else None)
             sensor = None
@@ -159,7 +175,11 @@ def solve_transient(
                                        (n,))[idx].astype(float), T0[mesh.surface_node].copy(),
                                        criterion_energy)
             chunk = {}
-            integrate(p, d, mesh, T0, chunk, opts, burn, sensor)
+            if compiled and compiled_supported(p, d):
+                integrate_compiled(p, d, mesh, T0, chunk, opts, burn, sensor,
+                                   threads=threads)
+            else:
+                integrate(p, d, mesh, T0, chunk, opts, burn, sensor)
             chunk["initial_surface_temperature"] = T0[mesh.surface_node]
             chunk["converged"] = chunk["converged"] & ok
             for name, values in chunk.items():

@@ -152,8 +152,9 @@ def _add_run(subparsers) -> None:
     p.add_argument("--chunk-size", metavar="N", type=int, help="samples per evaluation chunk "
                    "(memory bound; results do not depend on it)")
     p.add_argument("--workers", metavar="N", type=int, help="solve on a local dask cluster "
-                   "of N worker processes (default [compute] workers, else 1 = in this "
-                   "process; results do not depend on it)")
+                   "of N worker processes (a transient study: N threads in this process; "
+                   "default [compute] workers, else 1 = in this process; results do not "
+                   "depend on it)")
     p.add_argument("--scheduler", metavar="ADDRESS", help="solve on an existing dask "
                    "scheduler, e.g. tcp://10.0.0.5:8786 (default [compute] scheduler)")
     p.add_argument("--store", metavar="DIR", help="stream per-sample results to this Zarr "

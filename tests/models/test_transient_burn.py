@@ -94,6 +94,43 @@ def test_a_sample_is_bit_identical_alone_and_in_a_batch():
         np.testing.assert_array_equal(a[i], c[0], err_msg=spec.name)
 
 
+@pytest.mark.slow
+def test_compiled_loop_is_independent_of_threads_and_log_and_agrees_with_the_batched_path(
+        monkeypatch):
+    # Source: requirement of the study engine (results never depend on how samples are split);
+    # the two stepping paths run the same arithmetic up to the order of a few additions.
+    import plyrisk.models.transient_kernel as kernel
+
+    n = 5
+    layers, exposure = invented_garment(n, seed=5)
+    exposure = replace(exposure, incident_flux=60e3, exposure_duration=8.0)
+    skin = SkinWearer(skin_properties("torvi_dale_1994"))
+    times = np.linspace(0.0, 30.0, 7)
+    layout = coarse_layout(layers)
+    one = solve_transient(layers, exposure, skin, output_times=times, layout=layout)
+    threaded = solve_transient(layers, exposure, skin, output_times=times, layout=layout,
+                               threads=3)
+    monkeypatch.setattr(kernel, "PIECES", 3)  # every sample overflows its first log
+    relogged = solve_transient(layers, exposure, skin, output_times=times, layout=layout,
+                               third_degree="dermis_base")
+    monkeypatch.undo()
+    dermis = solve_transient(layers, exposure, skin, output_times=times, layout=layout,
+                             third_degree="dermis_base")
+    batched = solve_transient(layers, exposure, skin, output_times=times, layout=layout,
+                              compiled=False)
+    assert np.isfinite(one.time_to_second_degree_burn).any()
+    for spec in TRANSIENT_OUTPUTS:
+        a = getattr(one, spec.name)
+        np.testing.assert_array_equal(a, getattr(threaded, spec.name), err_msg=spec.name)
+        np.testing.assert_array_equal(getattr(dermis, spec.name), getattr(relogged, spec.name),
+                                      err_msg=spec.name)
+        b = getattr(batched, spec.name)
+        if a.dtype.kind == "f":
+            np.testing.assert_allclose(a, b, rtol=1e-8, atol=1e-9, err_msg=spec.name)
+        else:
+            np.testing.assert_array_equal(a, b, err_msg=spec.name)
+
+
 def _one(obj, i, n):
     if isinstance(obj, list):
         return [_one(x, i, n) for x in obj]

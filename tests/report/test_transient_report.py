@@ -61,3 +61,26 @@ def test_turnout_demo_runs_end_to_end(tmp_path):
     assert "time to second-degree burn: P5" in text and "dominant layer:" in text
     files = write_report(read_results(result.path), tmp_path)
     assert files.html.exists() and files.markdown.exists()
+    html = files.html.read_text(encoding="utf-8")
+    # what was studied: every uncertain input with its distribution, as written
+    assert html.index("<h2>What was studied</h2>") < html.index("<h2>Figures</h2>")
+    for text in ("The exposure and the cool-down", "The assembly, exposed side first",
+                 "uniform(low 6 s, high 18 s)", "lognormal(median 3 mm, gsd 1.5)",
+                 "thermal liner", "jiang_2002"):
+        assert text in html
+    assert "## What was studied" in files.markdown.read_text(encoding="utf-8")
+
+
+def test_unresolved_indices_are_flagged_not_shown_as_values():
+    from plyrisk.analysis.sobol import RankedIndex
+    from plyrisk.text.indices import NOT_RESOLVED
+    from plyrisk.text.transient import _status, index_resolved
+
+    def item(total, ci, converged=True):
+        return RankedIndex("liner", 0.1, 0.05, total, ci, converged, None, True, converged)
+
+    assert _status(item(0.5, 0.05)) == "ok"
+    assert _status(item(0.86, 1.19, converged=False)) == NOT_RESOLVED  # too wide
+    assert _status(item(1.4, 0.2)) == NOT_RESOLVED  # above 1 beyond its interval
+    assert _status(item(-0.3, 0.1)) == NOT_RESOLVED  # below 0 beyond its interval
+    assert index_resolved(1.05, 0.1, True)  # above 1 within its interval: noise

@@ -78,7 +78,7 @@ def test_defaults():
     assert setup.wearer.skin == skin_properties("jiang_2002")
     assert setup.wearer_kind == "skin" and setup.horizon == 30.0
     assert study.parameters == ()
-    assert study.analysis.chunk_size == 256 and np.isnan(study.analysis.limit)
+    assert study.analysis.chunk_size == 1024 and np.isnan(study.analysis.limit)
     assert setup.layout.names == ("shell", "epidermis", "dermis", "subcutis")
 
 

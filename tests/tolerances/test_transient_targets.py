@@ -8,6 +8,7 @@ import numpy as np
 import pytest
 
 from plyrisk.study.settings import ToleranceSettings
+from plyrisk.study.targets import parse_target
 from plyrisk.tolerances.study import analyse_tolerances, problem_from_study, settings_for_study
 from tests import transient_study as ts
 
@@ -60,12 +61,16 @@ def test_burn_probability_target_is_the_share_burning_within_the_horizon():
 
 def test_transient_problems_refuse_targets_of_the_wrong_kind():
     study = _study("P5(time_to_second_degree_burn) >= 40 s")
-    settings = settings_for_study(study)
+    with pytest.raises(ValueError, match="not below the horizon"):  # before any model run
+        settings_for_study(study)
+    target = parse_target("P5(time_to_second_degree_burn) >= 40 s")
     with pytest.raises(ValueError, match="not below the horizon"):
-        problem_from_study(study, settings.target, evaluate=_linear)
+        problem_from_study(study, target, evaluate=_linear)
     with pytest.raises(ValueError, match="transient study takes"):
-        problem_from_study(study, replace(settings.target, output="inner_surface_temperature"),
+        problem_from_study(study, replace(target, output="inner_surface_temperature"),
                            evaluate=_linear)
+    with pytest.raises(ValueError, match="transient study takes"):
+        settings_for_study(study, target="P95 <= 44 degC")
 
 
 def test_default_target_of_a_transient_study_is_its_acceptable_burn_probability():

@@ -167,7 +167,7 @@ def model_objects(study: Study, values: np.ndarray | None = None, *, scenario: i
     return assemble(study, columns, scenario=scenario if study.scenarios is not None else None)
 
 
-def _solve(study: Study, values: np.ndarray | None, scenario: int | None
+def _solve(study: Study, values: np.ndarray | None, scenario: int | None, threads: int = 1
            ) -> NetworkSolution | TransientSolution:
     if study.transient is not None:
         # imported here: the transient solver loads numba, which a steady study never needs
@@ -176,7 +176,7 @@ def _solve(study: Study, values: np.ndarray | None, scenario: int | None
         layers, exposure, wearer = model_objects(study, values, scenario=scenario)
         # the study's one grid layout: results do not depend on how samples are chunked
         return solve_transient(layers, exposure, wearer, radiation=study.model.radiation,
-                               convection_enabled=study.model.convection,
+                               convection_enabled=study.model.convection, threads=threads,
                                **study.transient.solver_kwargs())
     layers, hot, cold = model_objects(study, values, scenario=scenario)
     # validate=False: the distributions keep every draw inside its physical bounds
@@ -188,15 +188,27 @@ def scenario_count(study: Study) -> int:
     return 1 if study.scenarios is None else len(study.scenarios.values)
 
 
-def _evaluate_block(study: Study, block: np.ndarray) -> list[NetworkSolution | TransientSolution]:
+def _evaluate_block(study: Study, block: np.ndarray, threads: int = 1
+                    ) -> list[NetworkSolution | TransientSolution]:
     """Solve one chunk of samples for every scenario (runs on a worker too)."""
     scenarios = [None] if study.scenarios is None else range(scenario_count(study))
-    return [_solve(study, block, scenario) for scenario in scenarios]
+    return [_solve(study, block, scenario, threads) for scenario in scenarios]
 
 
-def _evaluate_range(study: Study, start: int, block: np.ndarray):
+def _evaluate_range(study: Study, threads: int, start: int, block: np.ndarray):
     """A task of :func:`evaluate`: the chunk's first row and its solutions."""
-    return start, start + block.shape[0], _evaluate_block(study, block)
+    return start, start + block.shape[0], _evaluate_block(study, block, threads)
+
+
+def _transient_threads(study: Study, workers: int, scheduler: str | None) -> int:
+    """Threads of the compiled transient loop standing in for local dask workers: a transient
+    study on this machine runs its samples on ``workers`` threads in this process (no worker
+    start-up, imports or result transfer per process); 1 otherwise."""
+    from plyrisk.models.transient_kernel import AVAILABLE
+
+    local = scheduler is None and int(workers) > 1
+    compiled = AVAILABLE and not study.model.convection
+    return int(workers) if study.transient is not None and local and compiled else 1
 
 
 def evaluate(
@@ -223,7 +235,9 @@ def evaluate(
         Called with the number of samples finished after each chunk.
     workers
         Worker processes of a local dask cluster solving chunks in parallel; 1 solves in
-        this process. Results do not depend on it: every sample is solved independently.
+        this process. A transient study solves in this process on that many threads of the
+        compiled time loop instead. Results do not depend on it: every sample is solved
+        independently.
     scheduler
         Address of an existing dask scheduler to solve the chunks on instead.
 
@@ -257,8 +271,10 @@ def evaluate(
         if progress is not None:
             progress(stop - start)
 
+    threads = _transient_threads(study, workers, scheduler)
     run_tasks(_evaluate_range, [(start, values[start:stop]) for start, stop in bounds], keep,
-              shared=(study,), workers=workers, scheduler=scheduler)
+              shared=(study, threads), workers=1 if threads > 1 else workers,
+              scheduler=scheduler)
     return Outputs(fields=store, **solution_labels(meta[0]))
 
 

@@ -18,6 +18,7 @@ from typing import Any
 import numpy as np
 import xarray as xr
 
+from plyrisk.analysis.sobol import not_resolved
 from plyrisk.analysis.transient import CONDITION_GROUPS
 from plyrisk.cautions import TRANSIENT_CAUTIONS
 from plyrisk.report.csv_tables import write_csv
@@ -25,6 +26,7 @@ from plyrisk.report.figures import transient as tf
 from plyrisk.report.figures.common import format_percent, format_temperature
 from plyrisk.report.tables import Table, cell_text, provenance_table
 from plyrisk.results.dataset import scenario_slices
+from plyrisk.text.indices import NOT_RESOLVED
 
 __all__ = ["headline_lines", "transient_figures", "write_transient_report"]
 
@@ -61,6 +63,9 @@ def _dominant(one: xr.Dataset) -> str:
             j = int(np.nanargmax(np.where(layer, tot, np.nan)))
             text = (f"dominant layer: {names[j]} (total index {tot[j]:.2f} ± {ci[j]:.2f} for "
                     f"{output}")
+            threshold = float(one.attrs.get("index_ci_threshold", math.inf))
+            if not_resolved(tot[j], ci[j]) or not ci[j] <= threshold:
+                text += f"; {NOT_RESOLVED}"
             k = int(np.nanargmax(tot))
             if not layer[k]:
                 text += (f"; the {names[k]} itself moves it more: total index {tot[k]:.2f} ± "
@@ -239,13 +244,19 @@ def _ranking_tables(ds: xr.Dataset) -> list[Table]:
                 s = one.sel(output=o)
                 tot = np.asarray(s["sobol_total"].values, float)
                 order = np.argsort(-np.nan_to_num(tot, nan=-np.inf))
+                threshold = float(one.attrs.get("index_ci_threshold", math.inf))
+                tci = np.asarray(s["sobol_total_ci"].values, float)
+                first = np.asarray(s["sobol_first"].values, float)
+                fci = np.asarray(s["sobol_first_ci"].values, float)
+
                 rows = [[str(k + 1), str(s["parameter"].values[j]),
                          str(s["parameter_group"].values[j]),
-                         cell_text(f"{tot[j]:.3f} ± {float(s['sobol_total_ci'].values[j]):.3f}"),
-                         cell_text(f"{float(s['sobol_first'].values[j]):.3f} ± "
-                                   f"{float(s['sobol_first_ci'].values[j]):.3f}")]
+                         cell_text(f"{tot[j]:.3f} ± {tci[j]:.3f}"),
+                         cell_text(f"{first[j]:.3f} ± {fci[j]:.3f}"),
+                         _index_status(((tot[j], tci[j]), (first[j], fci[j])), threshold)]
                         for k, j in enumerate(order)]
-                tables.append(Table(["rank", "input", "layer", "total index", "first-order"],
+                tables.append(Table(["rank", "input", "layer", "total index", "first-order",
+                                     "status"],
                                     rows, f"Inputs ranked for {o}"
                                     + (f" — {label}" if label else "")))
             elif "morris_mu_star" in one:
@@ -262,6 +273,13 @@ def _ranking_tables(ds: xr.Dataset) -> list[Table]:
     return tables
 
 
+def _index_status(pairs, threshold: float) -> str:
+    """``ok``, or ``not resolved: more samples`` when an estimate lies outside [0, 1] by more
+    than its interval or its interval is wider than ``threshold``."""
+    bad = any(not_resolved(v, c) or not c <= threshold for v, c in pairs if np.isfinite(v))
+    return NOT_RESOLVED if bad else "ok"
+
+
 def _rules_table(ds: xr.Dataset) -> Table:
     rows = []
     for o in [str(v) for v in ds["output"].values] if "output" in ds.coords else []:
@@ -269,6 +287,65 @@ def _rules_table(ds: xr.Dataset) -> Table:
         rows.append([o, str(ds[o].attrs.get("units", "")) if o in ds else "", rule])
     return Table(["derived output", "units", "rule"], rows,
                  "Outputs the indices refer to, and how each is derived")
+
+
+def studied_tables(ds: xr.Dataset) -> tuple[list[Table], str]:
+    """What was studied: the exposure, the layers (exposed side first) and the wearer as
+    written in the config, each uncertain value with its nominal, distribution and truncation;
+    re-read from the stored config text. Returns the tables and, when the config cannot be
+    re-read, the reason (no tables)."""
+    import tomllib
+
+    from plyrisk.report.html import _study
+
+    study, why = _study(ds)
+    if study is None:
+        return [], why
+    raw = tomllib.loads(study.text)
+    by_target = {p.target: p for p in study.parameters}
+    header = ["element", "kind", "quantity", "nominal or value", "uncertainty", "truncation"]
+
+    def rows_of(name: str, kind: str, given: dict, where: tuple) -> list[list[str]]:
+        rows: list[list[str]] = []
+        for key, value in given.items():
+            if key in ("name", "kind"):
+                continue
+            p = by_target.get((*where, key))
+            if p is not None:
+                found = [[key, p.format(p.distribution.nominal), p.describe(), p.truncation()]]
+            elif isinstance(value, dict) and all(isinstance(v, dict | str | int | float)
+                                                 for v in value.values()) and any(
+                    (*where, key, k) in by_target or not isinstance(v, dict)
+                    for k, v in value.items()) and not _is_distribution(value):
+                found = [[f"{key}.{r[2]}", *r[3:]] for r in rows_of("", "", value,
+                                                                    (*where, key))]
+            else:
+                found = [[key, value if isinstance(value, str) else cell_text(value), "fixed",
+                          ""]]
+            for row in found:
+                rows.append([name if not rows else "", kind if not rows else "", *row])
+        return rows
+
+    layers = []
+    for i, given in enumerate(raw.get("layer", [])):
+        layers += rows_of(str(given.get("name", f"layer {i + 1}")), str(given.get("kind", "")),
+                          given, ("layer", i))
+    wearer = raw.get("wearer", {})
+    tables = [
+        Table(header, rows_of("exposure", "", raw.get("exposure", {}), ("exposure",)),
+              "The exposure and the cool-down"),
+        Table(header, layers, "The assembly, exposed side first"),
+        Table(header, rows_of("wearer", str(wearer.get("kind", "")), wearer, ("wearer",)),
+              "The wearer"),
+    ]
+    return tables, ""
+
+
+def _is_distribution(value: dict) -> bool:
+    """Whether a TOML table is an uncertain value (one distribution key, or nominal/tolerance)."""
+    from plyrisk.study.distributions import KINDS
+
+    return bool(set(value) & (set(KINDS) | {"nominal", "tolerance"}))
 
 
 def _nonconverged(ds: xr.Dataset) -> Table:
@@ -344,6 +421,7 @@ def write_transient_report(ds: xr.Dataset, out_dir: str | Path, *,
     events = _event_tables(ds)
     ranking = _ranking_tables(ds)
     rules = _rules_table(ds)
+    studied, why = studied_tables(ds)
     tables = _csv(ds, out)
     if tol is not None:
         tables.append(tol.write_csv(out))
@@ -368,6 +446,13 @@ def write_transient_report(ds: xr.Dataset, out_dir: str | Path, *,
              "burn criteria; the intervals cover the sampling of the inputs only. See the "
              "cautions below.</p>")
     h.append(box)
+    h.append("<h2>What was studied</h2>")
+    if studied:
+        h += [_html_table(t) for t in studied]
+    else:
+        h.append(f"<p>The stored config could not be re-read by this version of plyrisk "
+                 f"({_esc(why)}); the tables are left out. The config text is under "
+                 "Provenance.</p>")
     h.append("<h2>Figures</h2>")
     for f in figs:
         h.append(f"<figure><h3>{_esc(f.title)}</h3>"
@@ -401,7 +486,10 @@ def write_transient_report(ds: xr.Dataset, out_dir: str | Path, *,
         m += [f"- {t}" for t in lines] + [""]
     if sweep:
         m += [f"**{sweep}**", ""]
-    m += [cautions_md, "", "## Times to burn", ""]
+    m += [cautions_md, "", "## What was studied", ""]
+    for t in studied:
+        m += [_md_table(t), ""]
+    m += ["## Times to burn", ""]
     for t in events:
         m += [_md_table(t), ""]
     m += ["## Ranking", ""]

@@ -147,6 +147,8 @@ def _sample_variables(study, propagation, analysis, sd, per) -> dict[str, xr.Var
         dims = ("sample", *(d for d in spec.dims if d != "sample"))
         if getattr(spec, "dtype", "") == "i4":
             values = values.astype(np.int32)
+        if "time" in spec.dims:  # histories: float32 (about 1e-5 K), half the file and write
+            values = np.asarray(values, dtype=np.float32)
         extra = {"censoring": "+inf where not reached by the horizon"} if spec.name.startswith(
             ("time_to_", "sensor_criterion_time")) else {}
         data[spec.name] = _var((*sd, *dims), values, spec.units, spec.long_name, **extra)
@@ -322,6 +324,7 @@ def _attributes(study, propagation, analysis: TransientAnalysis, method) -> dict
         "parameters": len(study.parameters),
         "confidence": float(a.confidence),
         "percentiles": np.asarray(a.percentiles, dtype=float),
+        "index_ci_threshold": float(a.index_ci_threshold),
         "horizon": f.horizon,
         "horizon_units": "s",
         "wearer_kind": f.wearer_kind,

@@ -12,6 +12,7 @@ from typing import Any
 import numpy as np
 
 from plyrisk.analysis.outputs import DERIVED_OUTPUTS
+from plyrisk.analysis.sobol import not_resolved
 from plyrisk.analysis.transient import (
     CONDITION_GROUPS,
     EVENTS,
@@ -20,6 +21,7 @@ from plyrisk.analysis.transient import (
     TransientAnalysis,
     TransientScenarioAnalysis,
 )
+from plyrisk.text.indices import NOT_RESOLVED
 
 EVENT_TEXT = {"first_degree_burn": "first-degree burn", "second_degree_burn":
               "second-degree burn", "third_degree_burn": "third-degree burn",
@@ -54,6 +56,21 @@ def time_text(q: CensoredQuantiles, p: float) -> str:
             f"{seconds(q.upper[i], h)}]")
 
 
+def index_resolved(value: float, half_width: float, converged: bool) -> bool:
+    """Whether an index can be read as a value: inside [0, 1] within its interval
+    (:func:`plyrisk.analysis.sobol.not_resolved`) and its interval no wider than the study's
+    ``index_ci_threshold`` (``converged``)."""
+    return bool(converged) and not not_resolved(value, half_width)
+
+
+def _status(item: Any) -> str:
+    """``ok`` or ``not resolved: more samples`` for a ranked index (total and first)."""
+    ok = index_resolved(item.total, item.total_ci, item.total_converged) and (
+        not math.isfinite(item.first) or index_resolved(item.first, item.first_ci,
+                                                         item.first_converged))
+    return "ok" if ok else NOT_RESOLVED
+
+
 def dominant(study: Any, sc: TransientScenarioAnalysis, output: str) -> tuple[str, str]:
     """The layer group (or input) that moves ``output`` most, and how it was measured.
 
@@ -65,6 +82,8 @@ def dominant(study: Any, sc: TransientScenarioAnalysis, output: str) -> tuple[st
     if layers:
         first = layers[0]
         how = f"total index {first.total:.2f} ± {first.total_ci:.2f}"
+        if not index_resolved(first.total, first.total_ci, first.total_converged):
+            how += f"; {NOT_RESOLVED}"
         if groups[0].name in CONDITION_GROUPS:
             how += (f"; the {groups[0].name} itself moves it more: total index "
                     f"{groups[0].total:.2f} ± {groups[0].total_ci:.2f}")
@@ -207,14 +226,14 @@ def _rankings(study, analysis: TransientAnalysis, sc, top: int) -> list[str]:
             lines.append(f"inputs ranked by total index of {o}" + (f" ({fit})" if fit else "")
                          + ":")
             for r, item in enumerate(params[:top], start=1):
-                flag = "ok" if item.converged else "WIDE"
                 lines.append(f"  {r}. {item.name:<32} total {item.total:6.3f} ± "
-                             f"{item.total_ci:.3f}  first {item.first:6.3f}  {flag}")
+                             f"{item.total_ci:.3f}  first {item.first:6.3f}  "
+                             f"{_status(item)}")
         if groups:
             lines.append(f"layers ranked by total index of {o}:")
             for r, item in enumerate(groups[:top], start=1):
                 lines.append(f"  {r}. {item.name:<32} total {item.total:6.3f} ± "
-                             f"{item.total_ci:.3f}")
+                             f"{item.total_ci:.3f}  {_status(item)}")
         m = sc.screening.get(o)
         if m is not None:
             lines.append(f"inputs ranked by Morris mu* of {o}:")

@@ -195,16 +195,12 @@ def problem_from_study(study: Study, target: Target | None = None, *,
     names = tuple(p.name for p in study.parameters)
     dists = tuple(p.distribution for p in study.parameters)
     if is_transient(study):
-        if target is None or not target.transient:
-            raise ValueError(f"target {getattr(target, 'text', None)!r} is about the "
-                             "inner-surface temperature of a steady study; a transient study "
-                             "takes e.g. 'P(second_degree_burn) <= 5 %' or "
+        if target is None:
+            raise ValueError("target None: a transient study takes e.g. "
+                             "'P(second_degree_burn) <= 5 %' or "
                              "'P5(time_to_second_degree_burn) >= 12 s'")
+        check_target_fits(study, target)
         horizon = transient_facts(study).horizon
-        if target.kind == "quantile" and not target.threshold < horizon:
-            raise ValueError(f"target {target.text!r}: the bound {target.threshold:g} s is not "
-                             f"below the horizon {horizon:g} s; beyond it the time to the event "
-                             "is only known to exceed the horizon")
         name = target.output
 
         run = evaluate
@@ -216,9 +212,8 @@ def problem_from_study(study: Study, target: Target | None = None, *,
                             np.nan)
 
         return ToleranceProblem(names, dists, timed, -horizon, labels)
-    if target is not None and target.transient:
-        raise ValueError(f"target {target.text!r} is about a transient study's time to burn; "
-                         "this study is steady")
+    if target is not None:
+        check_target_fits(study, target)
 
     run_steady = evaluate
     solved: dict[bytes, np.ndarray] = {}  # the searches ask for some designs more than once
@@ -236,6 +231,36 @@ def problem_from_study(study: Study, target: Target | None = None, *,
     labels = tuple(study.scenarios.labels) if study.scenarios is not None else ()
     corr = None if study.correlations is None else study.correlations.full_linear(names)
     return ToleranceProblem(names, dists, model, float(study.analysis.limit), labels, corr)
+
+
+def check_target_fits(study: Study, target: Target) -> None:
+    """Raise ``ValueError`` (one line) when a target does not fit the study's kind: a
+    temperature target on a transient study, a time-to-burn target on a steady one, or a time
+    bound not below the horizon.
+
+    Parameters
+    ----------
+    study
+        The parsed study.
+    target
+        The parsed target.
+    """
+    from plyrisk.analysis.transient import is_transient, transient_facts
+
+    if is_transient(study):
+        if not target.transient:
+            raise ValueError(f"target {target.text!r} is about the inner-surface temperature of "
+                             "a steady study; a transient study takes e.g. "
+                             "'P(second_degree_burn) <= 5 %' or "
+                             "'P5(time_to_second_degree_burn) >= 12 s'")
+        horizon = transient_facts(study).horizon
+        if target.kind == "quantile" and not target.threshold < horizon:
+            raise ValueError(f"target {target.text!r}: the bound {target.threshold:g} s is not "
+                             f"below the horizon {horizon:g} s; beyond it the time to the event "
+                             "is only known to exceed the horizon")
+    elif target.transient:
+        raise ValueError(f"target {target.text!r} is about a transient study's time to burn; "
+                         "this study is steady")
 
 
 def settings_for_study(study: Study, *, target: str | None = None, samples: int | None = None,
@@ -281,6 +306,8 @@ def settings_for_study(study: Study, *, target: str | None = None, samples: int 
     if base.confidence is None:
         changes["confidence"] = float(study.analysis.confidence)
     settings = replace(base, **changes)
+    assert isinstance(settings.target, Target), "resolved settings hold the parsed target"
+    check_target_fits(study, settings.target)
     check_sample_size(settings)
     return settings
 
