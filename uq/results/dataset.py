@@ -232,10 +232,23 @@ def _statistics_variables(frame: _Frame) -> dict[str, xr.Variable]:
             "K", f"{long} of each face temperature", confidence=a.confidence,
             **({} if part == "estimate" else face_iv),
         )
+    lim_spec = limit_output_spec(frame.study)
+    if sa[0].limit_quantiles is not None and lim_spec.name != "interface_temperature":
+        for part, long in (("estimate", "quantile"), ("lower", "lower confidence bound of the "
+                           "quantile"), ("upper", "upper confidence bound of the quantile")):
+            suffix = "" if part == "estimate" else f"_{part}"
+            data[f"{a.limit_output}_quantile{suffix}"] = _var(
+                (*sd, "quantile"), per([getattr(s.limit_quantiles, part) for s in sa]),
+                lim_spec.units, f"{long} of the {lim_spec.long_name}",
+                **({} if part == "estimate" else {
+                    "confidence": a.confidence,
+                    **_quantile_intervals([s.limit_quantiles for s in sa])}),
+            )
     data["exceedance_probability"] = _var(
         sd, per([s.exceedance.probability for s in sa]), "1",
-        "probability that the inner-surface temperature exceeds the limit",
-        limit=a.limit, method=sa[0].exceedance.method,
+        f"probability that the {limit_output_text(frame.study)} exceeds the limit",
+        limit=a.limit, limit_units=lim_spec.units, output=a.limit_output,
+        method=sa[0].exceedance.method,
     )
     data["exceedance_probability_lower"] = _var(
         sd, per([s.exceedance.lower for s in sa]), "1",
@@ -280,8 +293,11 @@ def _attributes(frame: _Frame) -> dict[str, Any]:
         "index_ci_threshold": float(a.index_ci_threshold),
         "pce_max_loo_error": float(a.pce_max_loo_error),
         "limit": float(a.limit),
-        "limit_units": "K",
+        "limit_units": limit_output_spec(study).units,
         "limit_display_unit": study.limit_unit,
+        "limit_output": a.limit_output,
+        "limit_output_long_name": limit_output_text(study),
+        "limit_output_display_unit": study.limit_output_unit or study.limit_unit,
         "radiation": study.model.radiation,
         "convection": int(bool(study.model.convection)),
         "inner_surface_index": int(out.inner_surface_index),
@@ -294,6 +310,27 @@ def _attributes(frame: _Frame) -> dict[str, Any]:
         attrs["scenario_display_unit"] = study.scenarios.unit
     attrs.update({f"version_{k}": v for k, v in library_versions().items()})
     return attrs
+
+
+def limit_output_spec(study: Study):
+    """The :class:`~plyrisk.models.outputs.OutputSpec` of a steady study's limit output (the
+    ``interface_temperature`` record for a face)."""
+    from plyrisk.models.network import NETWORK_OUTPUTS
+    from plyrisk.models.outputs import output_spec
+
+    name = study.analysis.limit_output
+    if name in ("inner_surface_temperature", "heat_flux"):
+        return output_spec(NETWORK_OUTPUTS, name)
+    return output_spec(NETWORK_OUTPUTS, "interface_temperature")
+
+
+def limit_output_text(study: Study) -> str:
+    """Plain words for a steady study's limit output, e.g. ``"inner-surface temperature"``,
+    ``"heat flux through the assembly"`` or ``"temperature of face 'gap | liner'"``."""
+    name = study.analysis.limit_output
+    if name in ("inner_surface_temperature", "heat_flux"):
+        return limit_output_spec(study).long_name
+    return f"temperature of face {name!r}"
 
 
 def _nominal_thickness(study: Study, out) -> np.ndarray:
