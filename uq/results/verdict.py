@@ -148,7 +148,7 @@ class Verdict:
 
     def show(self, value: float) -> str:
         """A value of the metric in its display unit."""
-        return _show(value, self.units, self.display_unit)
+        return show_value(value, self.units, self.display_unit)
 
     @property
     def criterion_text(self) -> str:
@@ -333,7 +333,7 @@ def _steady(ds: xr.Dataset, target: Target, default: bool, confidence: float,
         scen.append(ScenarioVerdict(lb, v, float(value[k]), float(lower[k]), float(upper[k]),
                                     reason))
     return Verdict(target.text, default, limit_output, words, target.label, bound, metric_units,
-                   metric_shown, "<=", confidence, tuple(scen), _show(limit, units, shown))
+                   metric_shown, "<=", confidence, tuple(scen), show_value(limit, units, shown))
 
 
 def _transient(ds: xr.Dataset, target: Target, default: bool, confidence: float,
@@ -372,7 +372,8 @@ def _transient(ds: xr.Dataset, target: Target, default: bool, confidence: float,
                    comparison, confidence, tuple(scen))
 
 
-def _show(value: float, units: str, display: str) -> str:
+def show_value(value: float, units: str, display: str) -> str:
+    """A value of a criterion's metric (SI ``units``) shown in the ``display`` unit."""
     if math.isnan(value):
         return "n/a"
     if units == "1":
@@ -430,7 +431,7 @@ def add_verdict(ds: xr.Dataset, criterion: str | None = None, *,
         return arr if sd else arr[0]
 
     common = {"criterion": v.criterion, "output": v.output}
-    out["verdict"] = (sd, per([s.verdict for s in v.scenarios]).astype(str), {
+    out["verdict"] = (sd, per([s.verdict for s in v.scenarios]).astype(str), {"units": "1",
         "long_name": "verdict of the study's criterion: MET, NOT MET or UNDECIDED (the "
                      "confidence interval straddles the bound)", **common})
     for name, attr, long in (("criterion_value", "value", "estimate"),

@@ -13,6 +13,7 @@ the independent converged samples or one parameter's samples out of a results da
 
 from __future__ import annotations
 
+import math
 from collections.abc import Iterator
 from contextlib import contextmanager
 from typing import Any
@@ -114,6 +115,36 @@ def pretty_unit(unit: str) -> str:
     for a, b in (("**2", "²"), ("**3", "³"), ("^2", "²"), ("^3", "³"), ("*", "·")):
         out = out.replace(a, b)
     return out
+
+
+def limit_quantile_variables(ds: xr.Dataset) -> list[xr.DataArray]:
+    """The quantile variables (estimate, lower, upper) of the output the limit applies to
+    (``attrs["limit_output"]``: the inner-surface temperature, the heat flux or a face)."""
+    output = str(ds.attrs.get("limit_output", "inner_surface_temperature"))
+    parts = ("", "_lower", "_upper")
+    if f"{output}_quantile" in ds:
+        return [ds[f"{output}_quantile{s}"] for s in parts]
+    if "interface" in ds.coords and output in [str(v) for v in ds["interface"].values]:
+        return [ds[f"interface_temperature_quantile{s}"].sel(interface=output) for s in parts]
+    return [ds[f"inner_surface_temperature_quantile{s}"] for s in parts]
+
+
+def format_limit_value(ds: xr.Dataset, value: float) -> str:
+    """A value of the limit output (SI) in the unit the limit was given in."""
+    if ds.attrs.get("limit_output") == "heat_flux":
+        from plyrisk.results.verdict import show_value
+
+        return show_value(float(value), "W m-2",
+                          str(ds.attrs.get("limit_output_display_unit") or "W/m^2"))
+    return format_temperature(ds, float(value))
+
+
+def inner_limit(ds: xr.Dataset) -> float:
+    """The limit [K] where it applies to the inner-surface temperature (the figures of that
+    temperature draw it), else NaN (a limit on another output is not drawn there)."""
+    if ds.attrs.get("limit_output", "inner_surface_temperature") != "inner_surface_temperature":
+        return math.nan
+    return float(ds.attrs["limit"])
 
 
 def temperature_unit(ds: xr.Dataset) -> str:
