@@ -177,9 +177,9 @@ class Verdict:
 
     def to_dict(self) -> dict[str, Any]:
         """The verdict as JSON-ready data (``summary.json``)."""
-        def num(x: float) -> float | None:
-            return float(x) if math.isfinite(x) else (None if math.isnan(x) else
-                                                       (1e308 if x > 0 else -1e308))
+        def num(x: float) -> float | str | None:  # +inf: a time beyond the horizon
+            return float(x) if math.isfinite(x) else (
+                "beyond_horizon" if x > 0 and self.units == "s" else None)
 
         return {"overall": self.overall, "criterion": self.criterion,
                 "default_criterion": self.default, "criterion_text": self.criterion_text,
