@@ -23,6 +23,7 @@ from plyrisk.pipeline.screening import Screening, add_screening, screen_study, s
 from plyrisk.pipeline.sequential import Growth, add_growth, grow_until_converged, growth_lines
 from plyrisk.propagate.evaluate import Propagation, propagate
 from plyrisk.results.dataset import (
+    history_line,
     limit_output_text,
     subset_warning,
     subset_warnings,
@@ -160,6 +161,7 @@ def run_study(
             ds.attrs["notes"] = "\n".join(n for n in (ds.attrs.get("notes", ""), scope) if n)
     ds.attrs["warnings"] = "\n".join((*messages, *subset_warnings(ds)))
     ds = add_verdict(ds, study_criterion(study), default=not study.analysis.criterion)
+    ds.attrs["history"] = history_line(ds)  # CF: when and by what the results were made
     path = None
     if out_dir is not None:
         path = write_results(ds, Path(out_dir) / "results.nc")

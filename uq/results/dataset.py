@@ -37,6 +37,22 @@ def _var(dims, data, units: str, long_name: str, **attrs) -> xr.Variable:
     return xr.Variable(dims, data, attrs={"units": units, "long_name": long_name, **attrs})
 
 
+PER_PARAMETER_UNITS = ("units differ per parameter: each column is in the SI unit the "
+                       "coordinate parameter_si_unit names")
+"""The ``comment`` of a variable whose units differ along ``parameter`` (CF allows one
+``units`` per variable, so it carries none)."""
+
+MORRIS_UNITS = ("units differ per output: those of the output (see the output_units attribute "
+                "or the output's own variable) per grid step")
+"""The ``comment`` of a Morris measure, whose units are those of each output."""
+
+
+def per_parameter_variable(dims, data, long_name: str) -> xr.Variable:
+    """A variable in per-parameter SI units: no ``units`` attribute, a ``comment`` instead."""
+    return xr.Variable(dims, data, attrs={"long_name": long_name,
+                                          "comment": PER_PARAMETER_UNITS})
+
+
 INTERVAL_TEXT = {
     "order-statistics": "distribution-free order statistics of the pooled samples (binomial)",
     "replicates-woodruff": "Woodruff interval from the spread of the independently scrambled "
@@ -154,9 +170,9 @@ def _coordinates(frame: _Frame) -> dict[str, xr.Variable]:
         "parameter_distribution": _var(("parameter",),
                                        np.array([_describe(p) for p in params], dtype=str), "1",
                                        "input distribution (SI parameters)"),
-        "parameter_nominal": _var(("parameter",),
-                                  np.array([p.distribution.nominal for p in params], dtype=float),
-                                  "SI", "nominal value of each parameter"),
+        "parameter_nominal": per_parameter_variable(("parameter",), np.array(
+            [p.distribution.nominal for p in params], dtype=float),
+            "nominal value of each parameter"),
         "interface": _var(("interface",), np.array(out.interface_names, dtype=str), "1",
                           "face of the assembly, hot (exposed) side first"),
         "layer": _var(("layer",), np.array(out.element_names, dtype=str), "1",
@@ -187,8 +203,8 @@ def _sample_variables(frame: _Frame) -> dict[str, xr.Variable]:
     sd, per = frame.sd, frame.per
     f = out.fields
     data = {
-        "input": _var(("sample", "parameter"), propagation.inputs, "SI",
-                      "input value of each parameter (units: parameter_si_unit)"),
+        "input": per_parameter_variable(("sample", "parameter"), propagation.inputs,
+                                "input value of each parameter"),
     }
     for spec in output_table(study):
         values = per(f[spec.name])
@@ -387,13 +403,37 @@ def write_results(ds: xr.Dataset, path: str | Path) -> Path:
     """
     path = Path(path)
     path.parent.mkdir(parents=True, exist_ok=True)
-    encoding = {
+    encoding: dict[str, dict[str, Any]] = {
         name: {"zlib": True, "complevel": 1, "shuffle": True}
         for name, v in ds.data_vars.items()
         if v.dtype.kind in "fiub"
     }
+    for name in ds.coords:  # CF: coordinates hold no missing values, so no _FillValue
+        encoding.setdefault(str(name), {})["_FillValue"] = None
+    ds = ds.copy()
+    ds.attrs = {**ds.attrs, "Conventions": ds.attrs.get("Conventions") or CONVENTIONS,
+                "history": ds.attrs.get("history") or history_line(ds)}
     ds.to_netcdf(path, engine="netcdf4", encoding=encoding)
     return path
+
+
+CONVENTIONS = "CF-1.10"
+"""The CF version the results follow (``Conventions`` global attribute)."""
+
+
+def history_line(ds: xr.Dataset) -> str:
+    """The CF ``history`` attribute: earlier lines, then ``<UTC time> plyrisk <version>: wrote
+    the results of <config>`` [-]."""
+    from datetime import UTC, datetime
+
+    from plyrisk.provenance import package_version
+
+    stamp = datetime.now(UTC).strftime("%Y-%m-%dT%H:%M:%SZ")
+    line = (f"{stamp} plyrisk {package_version()}: wrote the results of "
+            f"{ds.attrs.get('config_source', 'a study')} (method {ds.attrs.get('method', '?')},"
+            f" seed {ds.attrs.get('seed', '?')})")
+    earlier = str(ds.attrs.get("history", "") or "")
+    return f"{earlier}\n{line}" if earlier else line
 
 
 def read_results(path: str | Path) -> xr.Dataset:

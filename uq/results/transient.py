@@ -21,6 +21,7 @@ from plyrisk.cautions import cautions_text
 from plyrisk.models.transient_outputs import TRANSIENT_OUTPUTS
 from plyrisk.propagate.evaluate import Propagation
 from plyrisk.provenance import library_versions
+from plyrisk.results.dataset import MORRIS_UNITS, per_parameter_variable
 
 if TYPE_CHECKING:  # pragma: no cover
     from plyrisk.methods.base import Method
@@ -103,8 +104,8 @@ def _coordinates(study, propagation, analysis: TransientAnalysis) -> dict[str, x
         "parameter_distribution": _var(("parameter",), np.array([_describe(p) for p in params],
                                                                 dtype=str), "1",
                                        "input distribution (SI parameters)"),
-        "parameter_nominal": _var(("parameter",), np.array(
-            [p.distribution.nominal for p in params], dtype=float), "SI",
+        "parameter_nominal": per_parameter_variable(("parameter",), np.array(
+            [p.distribution.nominal for p in params], dtype=float),
             "nominal value of each parameter"),
         "group": _var(("group",), np.array(analysis.group_names, dtype=str), "1",
                       "layer (or exposure, wearer) group of parameters"),
@@ -138,8 +139,8 @@ def _si_unit_of(quantity: str) -> str:
 
 def _sample_variables(study, propagation, analysis, sd, per) -> dict[str, xr.Variable]:
     f = propagation.outputs.fields
-    data = {"input": _var(("sample", "parameter"), propagation.inputs, "SI",
-                          "input value of each parameter (units: parameter_si_unit)")}
+    data = {"input": per_parameter_variable(("sample", "parameter"), propagation.inputs,
+                                    "input value of each parameter")}
     for spec in TRANSIENT_OUTPUTS:
         if spec.name not in f:
             continue
@@ -301,8 +302,9 @@ def _index_variables(study, analysis: TransientAnalysis, sd, per) -> dict[str, x
                     m = sc.screening.get(o)
                     if m is not None:
                         arr[s, k] = getattr(m, attr)
-            data[f"morris_{attr}"] = _var((*sd, "output", "parameter"), per(arr),
-                                          "output units", long, rules=rules)
+            data[f"morris_{attr}"] = xr.Variable(
+                (*sd, "output", "parameter"), per(arr),
+                {"long_name": long, "rules": rules, "comment": MORRIS_UNITS})
     return data
 
 

@@ -82,10 +82,10 @@ def target_text(report: ToleranceReport, study: Study) -> str:
         text += f" (within the horizon {-report_limit(report):g} s)"
     elif t.kind == "quantile":
         text += (f" ({study.format_limit_value(report.bound)})" if t.uses_limit else "")
-        text += f" on the {_limit_words(study)}"
+        text += _on_output(study)
     elif t.kind == "exceedance":
-        text += (f" (limit {study.format_limit_value(study.analysis.limit)} on the "
-                 f"{_limit_words(study)})")
+        text += (f" (limit {study.format_limit_value(study.analysis.limit)}"
+                 f"{_on_output(study)})")
     if study.scenarios is not None:
         text += ", at every exposure"
     return text
@@ -96,6 +96,13 @@ def _limit_words(study: Study) -> str:
     from plyrisk.results.dataset import limit_output_text
 
     return limit_output_text(study)
+
+
+def _on_output(study: Study) -> str:
+    """`` on the <output>`` where the limit protects another output than the inner surface."""
+    if study.analysis.limit_output == "inner_surface_temperature":
+        return ""
+    return f" on the {_limit_words(study)}"
 
 
 def report_limit(report: ToleranceReport) -> float:
