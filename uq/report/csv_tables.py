@@ -45,6 +45,7 @@ def write_csv(path: Path, header: list[str], rows: list[list[Any]]) -> Path:
 def write_csv_tables(ds: xr.Dataset, out: Path) -> list[Path]:
     """Write ``quantiles.csv``, ``indices.csv``, ``group_indices.csv`` and ``ranking.csv``
     into the folder ``out``; returns their paths."""
+    ds = fg.surrogate_view(ds)
     unit = fg.temperature_unit(ds)
     quant, ind, grp, rank = [], [], [], []
 

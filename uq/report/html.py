@@ -107,6 +107,7 @@ def report_figures(ds: xr.Dataset) -> list[ReportFigure]:
     -------
     list of ReportFigure
     """
+    ds = fg.surrogate_view(ds)
     sobol = "sobol_total" in ds
     out: list[ReportFigure] = []
     for i, label, _ in scenario_values(ds):
@@ -345,6 +346,7 @@ def write_report(
         from plyrisk.report.transient import write_transient_report
 
         return write_transient_report(ds, out_dir, tolerance_table=tolerance_table)
+    ds = fg.surrogate_view(ds)  # a pce study's indices as the report draws them
     missing = [v for v in _REQUIRED if v not in ds.variables]
     if missing or "limit" not in ds.attrs:
         raise ValueError("not a plyrisk results dataset: missing "

@@ -73,6 +73,7 @@ def cell_text(v: Any) -> str:
 def scenario_values(ds: xr.Dataset) -> list[tuple[int | None, str, xr.Dataset]]:
     """``(index, label, dataset)`` of each exposure; index ``None`` when unswept."""
     out = []
+    ds = fg.surrogate_view(ds)
     for i, (label, one) in enumerate(scenario_slices(ds)):
         out.append((i if "scenario" in ds.dims else None, label, one))
     return out

@@ -147,8 +147,9 @@ def _ranked(ds: xr.Dataset, k: int, dim: str) -> dict[str, Any] | None:
         values = np.asarray(var.values, dtype=float)
         names = [str(n) for n in var[dim].values]
         order = np.argsort(-np.nan_to_num(values, nan=-np.inf), kind="stable")[:TOP]
-        estimator = ("pce" if name.startswith("pce") else "morris" if
-                     name.startswith("morris") else str(var.attrs.get("estimator", "saltelli")))
+        said = str(var.attrs.get("estimator", "saltelli"))
+        estimator = ("pce" if name.startswith("pce") or said == "pce" or "polynomial" in said
+                     else "morris" if name.startswith("morris") else "saltelli")
         return {"measure": measure, "estimator": estimator, "output": output,
                 "items": [{"rank": r, "name": names[j], "value": _num(values[j]),
                            "ci_half_width": None if half is None else

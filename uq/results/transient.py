@@ -264,7 +264,9 @@ def _index_variables(study, analysis: TransientAnalysis, sd, per) -> dict[str, x
                       DERIVED_OUTPUTS)
     have_sobol = any(sc.indices for sc in sa)
     if have_sobol:
-        estimator = ("polynomial-chaos surrogate" if any(sc.surrogate_quality for sc in sa)
+        pce = any(sc.surrogate_quality for sc in sa)
+        estimator = "pce" if pce else "saltelli"
+        described = ("polynomial-chaos surrogate" if pce
                      else "Saltelli design (SALib estimators)")
         for which, dim, size, prefix, who in ((0, "parameter", n_p, "sobol", "parameter"),
                                               (1, "group", n_g, "sobol_group", "layer group")):
@@ -283,7 +285,8 @@ def _index_variables(study, analysis: TransientAnalysis, sd, per) -> dict[str, x
                             f"{who}")
                     data[f"{prefix}_{kind}{sfx}"] = _var(
                         (*sd, "output", dim), per(arr), "1", long, estimator=estimator,
-                        rules=rules, **({"confidence": float(a.confidence)} if sfx else {}))
+                        estimator_description=described, rules=rules,
+                        **({"confidence": float(a.confidence)} if sfx else {}))
         if any(sc.surrogate_quality for sc in sa):
             data["surrogate_fit"] = _var(
                 (*sd, "output"), per([[sc.surrogate_quality.get(o, "") for o in outputs]

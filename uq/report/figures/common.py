@@ -193,6 +193,28 @@ def format_percent(p: float) -> str:
     return "n/a" if not np.isfinite(p) else f"{100 * p:.3g} %"
 
 
+SURROGATE_KEYS = ("first", "first_ci", "total", "total_ci", "first_converged",
+                  "total_converged")
+
+
+def surrogate_view(ds: xr.Dataset) -> xr.Dataset:
+    """The report's view of a steady ``method = "pce"`` dataset: its indices (``sobol_*`` with
+    ``estimator = "pce"``, the one schema of every method) as the surrogate indices of the
+    inner-surface temperature the report draws (``pce_*`` over ``parameter`` / ``group``).
+    Any other dataset is returned as it is."""
+    v = ds.get("sobol_total")
+    if (v is None or v.attrs.get("estimator") != "pce"
+            or ds.attrs.get("study_kind") == "transient"):
+        return ds
+    out = ds.copy()
+    for base, new in (("sobol", "pce"), ("sobol_group", "pce_group")):
+        for key in SURROGATE_KEYS:
+            name = f"{base}_{key}"
+            if name in out:
+                out[f"{new}_{key}"] = out[name].sel(output=PRIMARY, drop=True)
+    return out.drop_vars([n for n in out.data_vars if str(n).startswith("sobol_")])
+
+
 def one_exposure(ds: xr.Dataset, scenario: int | None) -> tuple[str, xr.Dataset]:
     """Label and dataset of one exposure; validates ``scenario`` against the dataset.
 
@@ -209,6 +231,7 @@ def one_exposure(ds: xr.Dataset, scenario: int | None) -> tuple[str, xr.Dataset]
         ``"<quantity> = <level>"`` (``""`` for an unswept dataset) and the dataset of that
         exposure (no ``scenario`` dimension).
     """
+    ds = surrogate_view(ds)
     if "scenario" in ds.dims:
         k = ds.sizes["scenario"]
         if scenario is None or isinstance(scenario, bool) or not 0 <= int(scenario) < k:

@@ -50,6 +50,7 @@ from plyrisk.report.figures.common import (
     pretty_unit,
     select_quantile,
     styled,
+    surrogate_view,
     temperature_label,
     temperature_unit,
     to_display_temperature,
@@ -63,6 +64,7 @@ from plyrisk.report.figures.sweep import LimitCrossing, limit_crossing, sweep_fi
 
 __all__ = [
     "BLUE",
+    "surrogate_view",
     "GREY",
     "ORANGE",
     "STYLE",
