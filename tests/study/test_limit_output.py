@@ -62,3 +62,19 @@ def test_the_garment_demo_keeps_its_reviewed_choice():
     study = load_study(CONFIGS / "reflective_garment.toml")
     assert study.analysis.limit_output == "inner_surface_temperature"
     assert "What this limit protects (reviewed)" in study.text
+
+
+def test_check_names_the_output_and_its_margin(capsys):
+    import tempfile
+    from pathlib import Path
+
+    from plyrisk.cli import main
+
+    with tempfile.TemporaryDirectory() as folder:
+        path = Path(folder) / "flux.toml"
+        path.write_text(_with('limit = "2.5 kW/m^2"\nlimit_output = "heat_flux"'),
+                        encoding="utf-8")
+        assert main(["check", str(path)]) == 0
+    out = capsys.readouterr().out
+    assert "limit: heat flux through the assembly 2.5 kW/m^2" in out
+    assert "Margin to the limit (2.5 kW/m^2 on the heat flux through the assembly): " in out

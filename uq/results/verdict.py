@@ -341,7 +341,9 @@ def _transient(ds: xr.Dataset, target: Target, default: bool, confidence: float,
     n = len(labels)
     event = target.event
     events = list(np.asarray(ds["event"].values)) if "event" in ds.coords else []
-    missing = (f"the study computes no {event!r} event (events: "
+    missing = ("no probabilities or times: a Morris screening gives no distribution of the "
+               "output" if ds.attrs.get("method") == "morris" and "event_probability" not in ds
+               else f"the study computes no {event!r} event (events: "
                f"{', '.join(map(str, events)) or 'none'})")
     if target.kind == "exceedance":
         parts: list[xr.DataArray | None] = [None, None, None]
