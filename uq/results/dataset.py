@@ -422,17 +422,20 @@ CONVENTIONS = "CF-1.10"
 
 
 def history_line(ds: xr.Dataset) -> str:
-    """The CF ``history`` attribute: earlier lines, then ``<UTC time> plyrisk <version>: wrote
-    the results of <config>`` [-]."""
-    from datetime import UTC, datetime
+    """The CF ``history`` attribute: earlier lines, then ``plyrisk <version>: results of
+    <config> (method <m>, seed <s>)``.
 
+    No time stamp: the same config and seed give identical datasets (the time a folder's
+    result was written is in its ``plyrisk-manifest.json``, ``created``) [-].
+    """
     from plyrisk.provenance import package_version
 
-    stamp = datetime.now(UTC).strftime("%Y-%m-%dT%H:%M:%SZ")
-    line = (f"{stamp} plyrisk {package_version()}: wrote the results of "
+    line = (f"plyrisk {package_version()}: results of "
             f"{ds.attrs.get('config_source', 'a study')} (method {ds.attrs.get('method', '?')},"
             f" seed {ds.attrs.get('seed', '?')})")
     earlier = str(ds.attrs.get("history", "") or "")
+    if earlier.endswith(line):
+        return earlier
     return f"{earlier}\n{line}" if earlier else line
 
 
