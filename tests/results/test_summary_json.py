@@ -42,7 +42,7 @@ def test_real_summaries_validate_and_agree_with_the_run(fixture, request, valida
         assert first["top_layers"]["items"]
     else:
         assert data["study_kind"] == "transient"
-        assert first["statistics"]["events"][0]["event"] == "second_degree_burn"
+        assert "second_degree_burn" in {e["event"] for e in first["statistics"]["events"]}
 
 
 def test_the_schema_refuses_a_summary_without_a_verdict(validator):

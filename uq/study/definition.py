@@ -452,6 +452,18 @@ class Study:
         """A temperature [K] (or difference) shown in the limit's unit."""
         return format_value(value, self.limit_unit, TEMPERATURE, difference=difference)
 
+    @property
+    def limit_output_text(self) -> str:
+        """Plain words for the limit output, e.g. ``"inner-surface temperature"``, ``"heat flux
+        through the assembly"`` or ``"temperature of face 'gap | liner'"``."""
+        from plyrisk.models.network import NETWORK_OUTPUTS
+        from plyrisk.models.outputs import output_spec
+
+        name = self.analysis.limit_output
+        if name in ("inner_surface_temperature", "heat_flux"):
+            return output_spec(NETWORK_OUTPUTS, name).long_name
+        return f"temperature of face {name!r}"
+
     def format_limit_value(self, value: float) -> str:
         """A value of the limit's output (SI) shown in the unit the limit was given in."""
         if self.analysis.limit_output == "heat_flux":

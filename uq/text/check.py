@@ -173,9 +173,7 @@ def _solution_lines(study: Study, sol: NetworkSolution) -> list[str]:
 
 
 def _limit_words(study: Study) -> str:
-    from plyrisk.results.dataset import limit_output_text
-
-    return limit_output_text(study)
+    return study.limit_output_text
 
 
 def _limit_value(study: Study, sol: Any, k: int) -> float:
