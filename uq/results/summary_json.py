@@ -68,14 +68,16 @@ def _at(var: xr.DataArray, k: int) -> xr.DataArray:
 
 
 def _quantiles(ds: xr.Dataset, name: str, k: int, **sel: Any) -> list[dict[str, Any]]:
-    out = []
-    parts = [ds.get(f"{name}{s}") for s in ("", "_lower", "_upper")]
-    if parts[0] is None:
+    out: list[dict[str, Any]] = []
+    found = [ds.get(f"{name}{s}") for s in ("", "_lower", "_upper")]
+    estimate = found[0]
+    if estimate is None:
         return out
-    parts = [None if p is None else _at(p, k).sel(**sel) for p in parts]
+    estimate = _at(estimate, k).sel(**sel)
+    parts = [None if p is None else _at(p, k).sel(**sel) for p in found]
     for i, p in enumerate(np.asarray(ds["quantile"].values, dtype=float)):
         out.append({"probability": float(p),
-                    "value": _num(parts[0].values[i]),
+                    "value": _num(estimate.values[i]),
                     "lower": None if parts[1] is None else _num(parts[1].values[i]),
                     "upper": None if parts[2] is None else _num(parts[2].values[i])})
     return out
@@ -104,7 +106,8 @@ def _statistics(ds: xr.Dataset, k: int) -> dict[str, Any]:
                 "time_units": "s"} for e in np.asarray(ds["event"].values)]
         return stats
     lim = str(ds.attrs.get("limit_output", "inner_surface_temperature"))
-    outputs = [("inner_surface_temperature", "inner_surface_temperature_quantile", {}, "K")]
+    outputs: list[tuple[str, str, dict[str, Any], str]] = [
+        ("inner_surface_temperature", "inner_surface_temperature_quantile", {}, "K")]
     if lim != "inner_surface_temperature":
         if f"{lim}_quantile" in ds:
             outputs.append((lim, f"{lim}_quantile", {},
