@@ -11,7 +11,7 @@ numbers are never check values.
 from __future__ import annotations
 
 from collections.abc import Callable
-from dataclasses import replace
+from dataclasses import dataclass, replace
 from pathlib import Path
 
 import pytest
@@ -128,3 +128,48 @@ def invented_dataset() -> InventedDataset:
         return built[key]
 
     return build
+
+
+# ----------------------------------------------------------------------------------------------
+# Output folders of `plyrisk run`, steady and transient (summary.txt, summary.json, report)
+# ----------------------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class RunFolder:
+    """A finished ``plyrisk run``: its folder, exit code and printed summary."""
+
+    out: Path
+    code: int
+    stdout: str
+    stderr: str
+
+
+def _cli_run(config: Path, out: Path, *extra: str) -> RunFolder:
+    import contextlib
+    import io
+
+    from plyrisk.cli import main
+
+    stdout, stderr = io.StringIO(), io.StringIO()
+    with contextlib.redirect_stdout(stdout), contextlib.redirect_stderr(stderr):
+        code = main(["run", str(config), "--out", str(out), "--quiet", *extra])
+    return RunFolder(out, code, stdout.getvalue(), stderr.getvalue())
+
+
+@pytest.fixture(scope="session")
+def steady_run(tmp_path_factory) -> RunFolder:
+    """``plyrisk run configs/small_demo.toml --samples 64`` with its report."""
+    out = tmp_path_factory.mktemp("steady_run")
+    return _cli_run(CONFIGS / "small_demo.toml", out / "out", "--samples", "64")
+
+
+@pytest.fixture(scope="session")
+def transient_run(tmp_path_factory) -> RunFolder:
+    """``plyrisk run`` of the small invented transient test study (16 base samples)."""
+    from tests.study_texts import FLASH
+
+    folder = tmp_path_factory.mktemp("transient_run")
+    config = folder / "flash.toml"
+    config.write_text(FLASH.format(samples=16), encoding="utf-8")
+    return _cli_run(config, folder / "out")

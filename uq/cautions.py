@@ -59,3 +59,39 @@ def cautions_text(*, heading: str = "CAUTIONS", width: int = 92,
             textwrap.wrap(item, width=width, initial_indent="  - ", subsequent_indent="    ")
         )
     return "\n".join(lines)
+
+
+COMPACT_CAUTION = ("Engineering estimate only, under the model's limits; not a substitute for "
+                   "certification testing by accredited laboratories; defer to the applicable "
+                   "standards, local codes and qualified practice.")
+"""The cautions in one sentence, shown right below a verdict (the full block follows)."""
+
+COMPACT_TRANSIENT = (" Times to burn rest on published burn criteria that scatter widely; the "
+                     "intervals cover the sampling of the inputs only.")
+"""What a transient study adds to :data:`COMPACT_CAUTION`."""
+
+
+def compact_cautions(*, transient: bool = False, width: int = 92) -> str:
+    """The cautions in a short boxed paragraph, for right below a verdict.
+
+    Parameters
+    ----------
+    transient
+        Add the scatter of the burn criteria (a transient study).
+    width
+        Line length of the box.
+
+    Returns
+    -------
+    str
+
+    Examples
+    --------
+    >>> print(compact_cautions(width=60).splitlines()[0])
+    +----------------------------------------------------------+
+    """
+    text = COMPACT_CAUTION + (COMPACT_TRANSIENT if transient else "")
+    inner = width - 4
+    body = textwrap.wrap("CAUTION: " + text, width=inner)
+    rule = "+" + "-" * (width - 2) + "+"
+    return "\n".join([rule, *[f"| {line:<{inner}} |" for line in body], rule])

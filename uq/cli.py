@@ -167,9 +167,26 @@ def _add_run(subparsers) -> None:
                    "--out (only the files its plyrisk-manifest.json lists) and, without "
                    "--resume, a plyrisk store at --store; files plyrisk did not write are never "
                    "touched")
-    p.add_argument("--no-report", action="store_true", help="write results.nc only")
+    p.add_argument("--no-report", action="store_true", help="write results.nc, summary.txt "
+                   "and summary.json only")
     _verbosity(p, "no progress bar or progress lines")
+    p.add_argument("--fail-if-not-met", action="store_true", help="exit with code 3 when the "
+                   "study's criterion ([study] criterion, default 'P95 <= limit') is NOT MET "
+                   "or UNDECIDED (for scripts and CI; the results are written all the same)")
+    p.epilog = f"{p.epilog}\n\n{EXIT_CODES}"
     p.set_defaults(func=cmd_run)
+
+
+EXIT_CODES = ("exit codes:\n"
+              "  0 success (or up to date)\n"
+              "  1 internal error, or no sample converged\n"
+              "  2 bad input (config, files, arguments)\n"
+              "  3 the criterion is NOT MET or UNDECIDED (run --fail-if-not-met only)\n"
+              "  130 interrupted (Ctrl-C)")
+"""The exit codes, as ``--help`` states them (README and docs/results.md say the same)."""
+
+EXIT_NOT_MET = 3
+"""Exit code of ``run --fail-if-not-met`` when the verdict is NOT MET or UNDECIDED."""
 
 
 def run_options(args: argparse.Namespace) -> RunOptions:
@@ -194,7 +211,8 @@ def _run_fingerprint(study: Any, options: RunOptions) -> str:
         "version": plyrisk_version()})
 
 
-RUN_NAMES = ("results.nc", "summary.txt", "report.html", "summary.md", "tolerances.csv")
+RUN_NAMES = ("results.nc", "summary.txt", "summary.json", "report.html", "summary.md",
+             "tolerances.csv")
 """Files of a run checked for clashes with files plyrisk did not write before any computing
 (figures and CSV tables are checked again when the set is committed) [-]."""
 
@@ -236,7 +254,8 @@ def cmd_run(args: argparse.Namespace) -> int:
     Returns
     -------
     int
-        0 on success or when up to date; 1 when no sample converged [-].
+        0 on success or when up to date; 1 when no sample converged; 3 with
+        ``--fail-if-not-met`` when the criterion is NOT MET or UNDECIDED [-].
     """
     global _interrupt_note
     import dataclasses
@@ -245,6 +264,7 @@ def cmd_run(args: argparse.Namespace) -> int:
     from plyrisk.pipeline.run import phase, run_study, summary_text
     from plyrisk.results.dataset import write_results
     from plyrisk.results.files import OutputSet, decide, folder_lock
+    from plyrisk.results.summary_json import write_summary_json
     from plyrisk.study.config import load_study, require_runnable
     from plyrisk.tolerances.study import settings_for_study
 
@@ -273,7 +293,7 @@ def cmd_run(args: argparse.Namespace) -> int:
             summary = out_dir / "summary.txt"
             if summary.is_file():
                 print(summary.read_text(encoding="utf-8"), end="")
-            return 0
+            return _verdict_exit(args, _stored_verdict(out_dir))
         _interrupt_note = _kept(out_dir, decision.manifest is not None, store, args)
         with OutputSet(out_dir, decision.manifest,
                        keep_earlier=decision.keep_earlier) as out:
@@ -302,6 +322,8 @@ def cmd_run(args: argparse.Namespace) -> int:
                                            quiet=args.quiet))
             text = fit_width("\n".join(lines)) + "\n"
             (out.staging / "summary.txt").write_text(text, encoding="utf-8")
+            write_summary_json(result.dataset, out.staging / "summary.json",
+                               fingerprint=fingerprint)
             _interrupt_note = (f"{out_dir} was being replaced and may hold a mix of files: "
                                "run again with --overwrite")
             out.commit(fingerprint=fingerprint, seed=int(final.analysis.seed),
@@ -309,6 +331,27 @@ def cmd_run(args: argparse.Namespace) -> int:
                        details={"report": report})
             _interrupt_note = None
     print(text, end="")
+    return _verdict_exit(args, str(result.dataset.attrs.get("verdict", "")))
+
+
+def _stored_verdict(out_dir: Path) -> str:
+    """The overall verdict of the summary.json of an up-to-date folder (``""`` if none)."""
+    import json
+
+    try:
+        data = json.loads((out_dir / "summary.json").read_text(encoding="utf-8"))
+        return str(data["verdict"]["overall"])
+    except (OSError, ValueError, KeyError, TypeError):
+        return ""
+
+
+def _verdict_exit(args: argparse.Namespace, verdict: str) -> int:
+    """0, or :data:`EXIT_NOT_MET` when ``--fail-if-not-met`` is given and the verdict is not
+    MET (an unknown verdict counts as not met)."""
+    if getattr(args, "fail_if_not_met", False) and verdict != "MET":
+        print(f"{PROG}: criterion {verdict or 'not judged'}: exit code {EXIT_NOT_MET} "
+              "(--fail-if-not-met)", file=sys.stderr)
+        return EXIT_NOT_MET
     return 0
 
 
@@ -477,7 +520,10 @@ def cmd_report(args: argparse.Namespace) -> int:
     rows, advice = _stored_tolerances(path.parent / "tolerances.csv")
 
     def write(staging: Path) -> str:
+        from plyrisk.results.summary_json import write_summary_json
+
         try:
+            write_summary_json(ds, staging / "summary.json")
             return _write_report(ds, staging, rows, shown=out_dir, advice=advice, quiet=quiet)
         except (KeyError, TypeError, ValueError) as err:
             raise UsageError(f"{path}: not a complete plyrisk results file ({err})") from None
@@ -701,7 +747,8 @@ def build_parser() -> argparse.ArgumentParser:
             "plyrisk check study.toml       # validate it; nominal solution",
             "plyrisk run study.toml         # the study; results and report in ./study/",
             "plyrisk tolerances study.toml  # tolerance feedback",
-            "plyrisk VERB --help            # options and examples of one verb"),
+            "plyrisk VERB --help            # options and examples of one verb")
+        + "\n\n" + EXIT_CODES,
         formatter_class=_Formatter,
     )
     from plyrisk.provenance import package_version
@@ -724,8 +771,9 @@ def main(argv: Sequence[str] | None = None) -> int:
     Returns
     -------
     int
-        The exit code: 0 success, 1 a failed solve or an internal error, 2 a user mistake,
-        3 the criterion not met (``run --fail-if-not-met``), 130 interrupted (Ctrl-C).
+        The exit code (:data:`EXIT_CODES`): 0 success, 1 an internal error or a failed
+        solve, 2 a user mistake, 3 criterion not met (``run --fail-if-not-met``), 130
+        interrupted (Ctrl-C).
     """
     parser = build_parser()
     try:

@@ -86,8 +86,9 @@ def test_morris_study_end_to_end(tmp_path):
     assert ds["morris_mu_star"].dims == ("output", "parameter")
     assert "inner_surface_temperature_quantile" not in ds
     assert list(ds["morris_rank"].sel(output="inner_surface_temperature").values) == [1, 2]
-    for name, var in {**ds.coords, **ds.data_vars}.items():
-        assert "units" in var.attrs and "long_name" in var.attrs, name
+    from tests.results.cf_rules import cf_problems
+
+    assert cf_problems(ds) == []
     text = summary_text(result)
     assert "ranked by Morris mu*" in text and "no percentiles" in text
     assert "CAUTIONS" in text

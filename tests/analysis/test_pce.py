@@ -250,8 +250,12 @@ def test_pce_and_saltelli_agree_on_a_demo_stack_within_their_intervals(tmp_path)
             assert np.all(gap <= allowed), (k, gap, allowed)
     ds = pce_run.dataset
     assert ds.attrs["method"] == "pce" and ds.attrs["design"] == "lhs"
-    for name in ("pce_first", "pce_total_ci", "pce_first_converged", "pce_loo_error",
-                 "pce_quantile", "pce_quantile_status", "pce_group_total"):
+    for name in ("sobol_first", "sobol_total_ci", "sobol_first_converged", "pce_loo_error",
+                 "pce_quantile", "pce_quantile_status", "sobol_group_total"):
         assert ds[name].attrs["method"] == "pce", name
+    for name in ("sobol_first", "sobol_total", "sobol_group_total_ci"):  # the one schema
+        assert ds[name].attrs["estimator"] == "pce" and ds[name].dims[0] == "output", name
+    np.testing.assert_array_equal(
+        ds["sobol_total"].sel(output="inner_surface_temperature").values, pce.surrogate.total)
     assert ds["pce_loo_error"].item() == pytest.approx(pce.surrogate.loo_error)
     xr.testing.assert_identical(read_results(pce_run.path), ds)

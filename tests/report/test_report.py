@@ -144,10 +144,11 @@ def test_html_embeds_every_figure(report):
 def test_html_carries_the_cautions_at_the_top_and_the_end(report):
     ds, files = report
     text = files.html.read_text(encoding="utf-8")
-    for item in CAUTIONS:
-        assert text.count(html.escape(item)) == 2
-    first = text.index(html.escape(CAUTIONS[0]))
-    assert first < text.index('<h2 id="headline">Headline</h2>')
+    for item in CAUTIONS:  # in full at the end; in short right below the verdict at the top
+        assert text.count(html.escape(item)) == 1
+    assert text.index("Verdict:") < text.index("not a substitute for certification testing by "
+                                               "accredited laboratories") < text.index(
+        '<h2 id="headline">Headline</h2>')
     assert text.rindex(html.escape(CAUTIONS[0])) > text.index('<h2 id="assumptions')
 
 
@@ -208,8 +209,9 @@ def test_markdown_summary(report):
     ds, files = report
     text = files.markdown.read_text(encoding="utf-8")
     assert text.startswith(f"# {ds.attrs['title']}")
-    for item in CAUTIONS:
-        assert text.count(item) == 2
+    for item in CAUTIONS:  # in full at the end; in short right below the verdict at the top
+        assert text.count(item) == 1
+    assert text.index("## Verdict") < text.index("**Caution:**") < text.index("## Headline")
     assert "## Headline" in text and "## Ranking" in text and "## Convergence" in text
     if "scenario" in ds.dims:
         assert fg.limit_crossing(ds).text in text
@@ -224,7 +226,7 @@ def test_quantiles_csv(report):
     ds, files = report
     cols, rows = read_csv(files.html.parent / "quantiles.csv")
     assert cols == ["scenario", "quantity", "interface", "probability", "estimate", "lower",
-                    "upper", "unit", "warning"]
+                    "upper", "unit", "warning", "limit_applies"]
     n_q, n_f = ds.sizes["quantile"], ds.sizes["interface"]
     assert len(rows) == n_scenarios(ds) * (1 + n_f) * n_q
     inner = [r for r in rows if r["quantity"] == "inner_surface_temperature"]
@@ -257,8 +259,7 @@ def test_indices_group_and_ranking_csv(report):
     rho = np.array([float(r["rank_correlation"]) for r in primary])
     assert np.allclose(rho, np.ravel(ds["rank_correlation"].values), rtol=1e-9)
     total = np.array([float(r["total"]) for r in primary])
-    expect = (ds["sobol_total"].sel(output="inner_surface_temperature") if sobol
-              else ds["pce_total"]).values
+    expect = (ds["sobol_total"].sel(output="inner_surface_temperature")).values
     assert np.allclose(total, np.ravel(expect), rtol=1e-9)
     assert {r["estimator"] for r in rows} == {"saltelli" if sobol else "pce_surrogate"}
     for kind in ("parameter", "layer"):  # one rank 1 per exposure, output, kind and measure
@@ -272,7 +273,7 @@ def test_indices_group_and_ranking_csv(report):
 
 def test_lhs_results_without_surrogate_indices(tmp_path, dataset):
     ds = dataset("pce", False)
-    old = ds.drop_vars([v for v in ds.data_vars if str(v).startswith("pce_")])
+    old = ds.drop_vars([v for v in ds.data_vars if str(v).startswith(("pce_", "sobol_"))])
     files = write_report(old, tmp_path)
     assert len([p for p in files.figures if p.suffix == ".png"]) == 4
     cols, rows = read_csv(tmp_path / "indices.csv")

@@ -29,10 +29,9 @@ def test_round_trip_is_identical(swept):
 
 
 def test_every_variable_has_units_and_long_name(swept):
-    ds = swept.dataset
-    for name, var in {**ds.coords, **ds.data_vars}.items():
-        assert "units" in var.attrs, name
-        assert "long_name" in var.attrs, name
+    from tests.results.cf_rules import cf_problems
+
+    assert cf_problems(swept.dataset, swept.path) == []
 
 
 def test_expected_dimensions_and_variables(swept):

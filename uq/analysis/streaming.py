@@ -390,16 +390,24 @@ def stream_analyse(study: Study, reader: StoreReader, *,
     result = []
     for s in range(n_s):
         faces = reader.group["interface_temperature"].shape[-1]
-        q = _Quantiles(1 + faces)
+        # the limit output's column: 0 (inner surface), a face's, or one more (heat flux)
+        face_names = list(reader.interface_names)
+        extra = a.limit_output not in ("inner_surface_temperature", *face_names)
+        lim = (0 if a.limit_output == "inner_surface_temperature" else
+               1 + faces if extra else 1 + face_names.index(a.limit_output))
+        q = _Quantiles(1 + faces + int(extra))
         counts = np.zeros(5, dtype=np.int64)  # above limit, nonconverged, onset, air range, n
 
         reps_above = np.zeros(reps, dtype=np.int64)   # per replicate: above the limit, finite
         reps_n = np.zeros(reps, dtype=np.int64)
 
-        def columns(start, stop, s=s):
+        def columns(start, stop, s=s, extra=extra):
             rows = np.tile(independent, (stop - start) // independent.size)
             inner = output_column(reader, "inner_surface_temperature", s, start, stop)[rows]
             face = reader.read("interface_temperature", start, stop)[s][rows]
+            if extra:
+                flux = output_column(reader, a.limit_output, s, start, stop)[rows]
+                return np.column_stack([inner, face, flux])
             return np.column_stack([inner, face])
 
         def replicate(start, stop):
@@ -410,11 +418,11 @@ def stream_analyse(study: Study, reader: StoreReader, *,
         for start, stop in blocks:
             x = columns(start, stop)
             q.range_pass(x)
-            ok = np.isfinite(x[:, 0])
-            counts += [int(np.sum(x[ok, 0] > a.limit)), 0, 0, 0, int(ok.sum())]
+            ok = np.isfinite(x[:, lim])
+            counts += [int(np.sum(x[ok, lim] > a.limit)), 0, 0, 0, int(ok.sum())]
             if reps > 1:
                 lab = replicate(start, stop)[ok]
-                reps_above += np.bincount(lab, weights=x[ok, 0] > a.limit,
+                reps_above += np.bincount(lab, weights=x[ok, lim] > a.limit,
                                           minlength=reps).astype(np.int64)
                 reps_n += np.bincount(lab, minlength=reps)
             counts[1] += int(np.sum(~reader.read("converged", start, stop)[s]))
@@ -427,7 +435,7 @@ def stream_analyse(study: Study, reader: StoreReader, *,
         q.wanted(probabilities, a.confidence)
         for start, stop in blocks:
             q.collect_pass(columns(start, stop))
-        quant = [q.result(j, probabilities, a.confidence) for j in range(1 + faces)]
+        quant = [q.result(j, probabilities, a.confidence) for j in range(1 + faces + extra)]
         if reps > 1:
             quant = _woodruff(q, quant, blocks, columns, replicate, reps, a.confidence)
         sub = min(plan.n_rows, SUBSAMPLE_ROWS // max(int(independent.sum()), 1) * step)
@@ -438,7 +446,8 @@ def stream_analyse(study: Study, reader: StoreReader, *,
         ix = method.scenario_indices(study, s, source=reader, design=plan, unit=unit, y=y_sub,
                                      probabilities=probabilities, streamed=True)
         result.append(ScenarioAnalysis(
-            inner_quantiles=quant[0], interface_quantiles=quant[1:],
+            inner_quantiles=quant[0], interface_quantiles=quant[1:1 + faces],
+            limit_quantiles=None if lim == 0 else quant[lim],
             exceedance=(exceedance_from_counts(int(counts[0]), int(counts[4]), a.limit,
                                                confidence=a.confidence) if reps == 1 else
                         replicate_exceedance_from_counts(reps_above, reps_n, a.limit,

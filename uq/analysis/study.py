@@ -60,7 +60,8 @@ class ScenarioAnalysis:
     interface_quantiles
         Quantiles of every face temperature, one :class:`QuantileEstimate` per face [K].
     exceedance
-        Probability that the inner-surface temperature exceeds the limit, with its interval.
+        Probability that the limit output (``[study] limit_output``, by default the
+        inner-surface temperature) exceeds the limit, with its interval.
     indices
         Output name → (per-parameter, per-group) Sobol indices; empty unless ``method = saltelli``.
     ranking
@@ -88,6 +89,9 @@ class ScenarioAnalysis:
     shapley
         Output name → (per-parameter, per-layer)
         :class:`plyrisk.analysis.shapley.ShapleyEffects` (``method = "shapley"``), else empty.
+    limit_quantiles
+        Quantiles of the limit output with confidence intervals (SI), when it is not the
+        inner-surface temperature (else ``None``: ``inner_quantiles`` are its quantiles).
     """
 
     inner_quantiles: QuantileEstimate
@@ -105,6 +109,12 @@ class ScenarioAnalysis:
     surrogate_quantiles: np.ndarray | None = None
     surrogate_quantile_status: str = ""
     shapley: dict[str, tuple] = field(default_factory=dict)
+    limit_quantiles: QuantileEstimate | None = None
+
+    @property
+    def criterion_quantiles(self) -> QuantileEstimate:
+        """Quantiles of the limit output (SI)."""
+        return self.inner_quantiles if self.limit_quantiles is None else self.limit_quantiles
 
 
 @dataclass(frozen=True)
@@ -171,12 +181,23 @@ def analysed_outputs(study: Study) -> tuple[str, ...]:
     if is_transient(study):
         return transient_outputs(study)
     extra = [o for o in study.analysis.outputs if o != "inner_surface_temperature"]
+    limit_output = getattr(study.analysis, "limit_output", "inner_surface_temperature")
+    if limit_output not in ("inner_surface_temperature", *extra):
+        extra.append(limit_output)
     return ("inner_surface_temperature", *extra)
 
 
 def analysis_probabilities(study: Study) -> np.ndarray:
-    """Quantile levels: the study's percentiles and the figure bands [-]."""
-    return np.array(sorted(set(study.analysis.percentiles) | set(BAND_PROBABILITIES)))
+    """Quantile levels: the study's percentiles, the figure bands and the level of a
+    percentile criterion (``[study] criterion``) [-]."""
+    from plyrisk.study.targets import parse_target
+
+    levels = set(study.analysis.percentiles) | set(BAND_PROBABILITIES)
+    if study.analysis.criterion:
+        target = parse_target(study.analysis.criterion, output=study.analysis.limit_output)
+        if target.kind == "quantile":
+            levels.add(round(float(target.probability), 12))
+    return np.array(sorted(levels))
 
 
 def analyse(study: Study, propagation: Propagation, *,
@@ -225,8 +246,13 @@ def analyse(study: Study, propagation: Propagation, *,
         inner_q = quantile(y[rows])
         faces = propagation.outputs["interface_temperature"][s][rows]
         face_q = [quantile(faces[:, i]) for i in range(faces.shape[1])]
-        exc = (exceedance(y[rows], a.limit, confidence=a.confidence) if label is None else
-               replicate_exceedance(y[rows], label, a.limit, confidence=a.confidence))
+        if a.limit_output == "inner_surface_temperature":
+            y_lim, lim_q = y, None
+        else:
+            y_lim = output_column(source, a.limit_output, s)
+            lim_q = quantile(y_lim[rows])
+        exc = (exceedance(y_lim[rows], a.limit, confidence=a.confidence) if label is None else
+               replicate_exceedance(y_lim[rows], label, a.limit, confidence=a.confidence))
         ix = method.scenario_indices(study, s, source=source, design=design,
                                      unit=design.unit[rows], y=y[rows],
                                      probabilities=probabilities, streamed=False)
@@ -248,6 +274,7 @@ def analyse(study: Study, propagation: Propagation, *,
                 onset_samples=int(np.sum(np.any(
                     propagation.outputs["convection_onset"][s], axis=1))),
                 air_range_samples=int(np.sum(propagation.outputs["air_range_exceeded"][s])),
+                limit_quantiles=lim_q,
             )
         )
     return StudyAnalysis(result, probabilities, outputs, tuple(group_names), notes)

@@ -193,6 +193,13 @@ def morris_dataset(study: Study, propagation: Propagation, analysis: MorrisAnaly
 
     from plyrisk.cautions import cautions_text
     from plyrisk.provenance import library_versions
+    from plyrisk.results.dataset import (
+        MORRIS_UNITS,
+        _si_of_hot,
+        limit_output_spec,
+        limit_output_text,
+        per_parameter_variable,
+    )
 
     swept = study.scenarios is not None
     sd = ("scenario",) if swept else ()
@@ -205,6 +212,9 @@ def morris_dataset(study: Study, propagation: Propagation, analysis: MorrisAnaly
         return x if swept else x[0]
 
     def var(dims, data, units, long_name, **attrs):
+        if units == "output units":  # CF: one unit per variable; these differ per output
+            return xr.Variable(dims, data, {"long_name": long_name, "comment": MORRIS_UNITS,
+                                            **attrs})
         return xr.Variable(dims, data, {"units": units, "long_name": long_name, **attrs})
 
     def measure(attr):
@@ -217,13 +227,14 @@ def morris_dataset(study: Study, propagation: Propagation, analysis: MorrisAnaly
         "parameter_group": var(("parameter",), np.array([p.group for p in study.parameters],
                                                         dtype=str), "1", "layer of each "
                                "parameter"),
-        "parameter_nominal": var(("parameter",), np.array(
-            [p.distribution.nominal for p in study.parameters]), "SI", "nominal value"),
+        "parameter_nominal": per_parameter_variable(("parameter",), np.array(
+            [p.distribution.nominal for p in study.parameters]), "nominal value"),
         "output": var(("output",), np.array(analysis.outputs, dtype=str), "1",
                       "model output the measures refer to"),
     }
     if swept:
-        coords["scenario"] = var(("scenario",), np.asarray(study.scenarios.values), "SI",
+        coords["scenario"] = var(("scenario",), np.asarray(study.scenarios.values),
+                                 _si_of_hot(study.scenarios.quantity),
                                  f"swept hot-side {study.scenarios.quantity}")
         coords["scenario_label"] = var(("scenario",), np.array(study.scenarios.labels,
                                                                dtype=str), "1",
@@ -239,8 +250,8 @@ def morris_dataset(study: Study, propagation: Propagation, analysis: MorrisAnaly
         rank[idx][h.order()] = np.arange(1, len(names) + 1)
     dims = (*sd, "output", "parameter")
     data = {
-        "input": var(("sample", "parameter"), propagation.inputs, "SI",
-                     "input value of each parameter"),
+        "input": per_parameter_variable(("sample", "parameter"), propagation.inputs,
+                                        "input value of each parameter"),
         "inner_surface_temperature": var((*sd, "sample"), per(out[PRIMARY]), "K",
                                          "inner-surface temperature"),
         "heat_flux": var((*sd, "sample"), per(out["heat_flux"]), "W m-2",
@@ -278,7 +289,11 @@ def morris_dataset(study: Study, propagation: Propagation, analysis: MorrisAnaly
              "screening_threshold": float(analysis.threshold),
              "notes": "method = morris: screening only; no percentiles or exceedance (a Morris "
                       "design samples a grid, not the input distributions)",
-             "cautions": cautions_text(), "Conventions": "CF-1.10"}
+             "cautions": cautions_text(), "Conventions": "CF-1.10",
+             "limit": float(a.limit), "limit_units": limit_output_spec(study).units,
+             "limit_display_unit": study.limit_unit, "limit_output": a.limit_output,
+             "limit_output_long_name": limit_output_text(study),
+             "limit_output_display_unit": study.limit_output_unit or study.limit_unit}
     attrs.update({f"version_{k}": v for k, v in library_versions().items()})
     return xr.Dataset(data, coords, attrs)
 

@@ -96,7 +96,7 @@ class PolynomialChaos(Method):
         """Surrogate indices, their intervals and the fit's quality (see docs/results.md)."""
         if not any(sc.surrogate is not None for sc in analysis.scenarios):
             return {}
-        return _surrogate_variables(study, analysis)
+        return _surrogate_variables(study, analysis, tuple(outputs))
 
 
 @dataclass(frozen=True)
@@ -185,7 +185,12 @@ def _surrogate_percentiles(surrogate: SurrogateIndices, probabilities: np.ndarra
 
 
 
-def _surrogate_variables(study: Study, analysis: StudyAnalysis) -> dict[str, VariableRecord]:
+def _surrogate_variables(study: Study, analysis: StudyAnalysis,
+                         outputs: tuple[str, ...] = ("inner_surface_temperature",),
+                         ) -> dict[str, VariableRecord]:
+    """The surrogate's indices under the names every method shares (``sobol_*`` over
+    ``output`` with ``estimator = "pce"``; only the inner-surface temperature has a surrogate,
+    the other outputs are NaN), and the fit's own ``pce_*`` diagnostics."""
     import numpy as np
 
     a = study.analysis
@@ -201,34 +206,40 @@ def _surrogate_variables(study: Study, analysis: StudyAnalysis) -> dict[str, Var
              **attrs: Any) -> VariableRecord:
         return (dims, values, units, long_name, attrs)
 
+    k_inner = list(outputs).index("inner_surface_temperature")
+
     def table(which: str, attr: str, size: int):
-        arr = np.full((len(sa), size), np.nan)
+        arr = np.full((len(sa), len(outputs), size), np.nan)
         for s, sc in enumerate(sa):
             ind = getattr(sc, which)
             if ind is not None:
-                arr[s] = getattr(ind, attr)
+                arr[s, k_inner] = getattr(ind, attr)
         return per(arr)
 
-    for which, dim, size, prefix, who in (("surrogate", "parameter", n_p, "pce", "parameter"),
-                                          ("surrogate_groups", "group", n_g, "pce_group",
+    est = {"method": "pce", "estimator": "pce"}
+    for which, dim, size, prefix, who in (("surrogate", "parameter", n_p, "sobol", "parameter"),
+                                          ("surrogate_groups", "group", n_g, "sobol_group",
                                            "layer group")):
+        dims = (*sd, "output", dim)
         for attr, long in (("first", "first-order Sobol index"), ("total", "total Sobol index")):
             data[f"{prefix}_{attr}"] = _var(
-                (*sd, dim), table(which, attr, size), "1",
-                f"{long} per {who} of the inner-surface temperature, from a polynomial-chaos "
-                "surrogate", method="pce",
+                dims, table(which, attr, size), "1",
+                f"{long} per {who}, from a polynomial-chaos surrogate (of the inner-surface "
+                "temperature only; NaN for the other outputs)", **est,
             )
             data[f"{prefix}_{attr}_ci"] = _var(
-                (*sd, dim), table(which, f"{attr}_ci", size), "1",
+                dims, table(which, f"{attr}_ci", size), "1",
                 f"half-width of the bootstrap interval of the surrogate {long}",
-                confidence=a.confidence, method="pce",
+                confidence=a.confidence, interval_method="bootstrap",
+                interval=f"bootstrap over the samples ({a.bootstrap} resamples)", **est,
             )
         for attr in ("first", "total"):
+            half = table(which, f"{attr}_ci", size)
             data[f"{prefix}_{attr}_converged"] = _var(
-                (*sd, dim), np.asarray(table(which, f"{attr}_ci", size) <= a.index_ci_threshold),
+                dims, np.asarray(half <= a.index_ci_threshold),
                 "1", f"surrogate {attr}-order index interval half-width at most the threshold"
                 if attr == "first" else "surrogate total index interval half-width at most "
-                "the threshold", threshold=a.index_ci_threshold, method="pce")
+                "the threshold", threshold=a.index_ci_threshold, **est)
 
     def scalar(attr: str, missing):
         return per(np.array([getattr(sc.surrogate, attr) if sc.surrogate else missing

@@ -213,6 +213,12 @@ def _index_variables(study: Study, analysis: StudyAnalysis,
                                   "evaluation in them did not converge", {})
     for name in INDEX_VARIABLES:
         data[name][4]["method"] = "saltelli"
+        if name.startswith("sobol_"):
+            data[name][4]["estimator"] = "saltelli"
+    for name in ("sobol_first_converged", "sobol_total_converged",
+                 "sobol_group_first_converged", "sobol_group_total_converged",
+                 "sobol_first_negative", "sobol_group_first_negative"):
+        data[name][4]["estimator"] = "saltelli"
     return data
 
 

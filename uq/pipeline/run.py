@@ -15,7 +15,7 @@ import xarray as xr
 from plyrisk.analysis.direction import gap_directions, limit_scope_note
 from plyrisk.analysis.ratings import rating_check
 from plyrisk.analysis.study import StudyAnalysis
-from plyrisk.cautions import cautions_text
+from plyrisk.cautions import cautions_text, compact_cautions
 from plyrisk.errors import PlyriskError
 from plyrisk.methods import get_method
 from plyrisk.pipeline.options import RunOptions
@@ -23,11 +23,14 @@ from plyrisk.pipeline.screening import Screening, add_screening, screen_study, s
 from plyrisk.pipeline.sequential import Growth, add_growth, grow_until_converged, growth_lines
 from plyrisk.propagate.evaluate import Propagation, propagate
 from plyrisk.results.dataset import (
+    history_line,
+    limit_output_text,
     subset_warning,
     subset_warnings,
     write_results,
     write_store_analysis,
 )
+from plyrisk.results.verdict import add_verdict, study_criterion, verdict_of
 from plyrisk.study.units import TEMPERATURE, from_si
 from plyrisk.study.values import truncation_warnings
 from plyrisk.text.indices import index_lines
@@ -153,10 +156,12 @@ def run_study(
             write_store_analysis(ds, store)
     if "exceedance_probability" in ds:
         ds = _add_ratings(ds, study, prop)
-        scope = limit_scope_note(study)
+        scope = _scope(study)
         if scope:
             ds.attrs["notes"] = "\n".join(n for n in (ds.attrs.get("notes", ""), scope) if n)
     ds.attrs["warnings"] = "\n".join((*messages, *subset_warnings(ds)))
+    ds = add_verdict(ds, study_criterion(study), default=not study.analysis.criterion)
+    ds.attrs["history"] = history_line(ds)  # CF: when and by what the results were made
     path = None
     if out_dir is not None:
         path = write_results(ds, Path(out_dir) / "results.nc")
@@ -251,6 +256,30 @@ def _t(study: Study, kelvin: float) -> str:
     return f"{float(from_si(kelvin, unit, TEMPERATURE)):.1f} {unit}"
 
 
+def _limit_ranking_lines(sc, output: str, words: str) -> list[str]:
+    """The top parameters and layers of the limit output (when it is not the inner surface)."""
+    lines = []
+    for what, ranked in (("parameters", sc.ranking.get(output)),
+                         ("layers", sc.group_ranking.get(output))):
+        if ranked:
+            lines.append(f"most influential {what} for the {words}, which the limit applies "
+                         "to (total Sobol index ± CI half-width):")
+            lines += [f"  {r}. {item.name:<32} {item.total:.3f} ± {item.total_ci:.3f}"
+                      for r, item in enumerate(ranked[:TOP_COUNT], start=1)]
+    return lines
+
+
+def _fv(fmt, value: float) -> str:
+    return fmt(value) if np.isfinite(value) else "n/a"
+
+
+def _scope(study: Study) -> str:
+    """The note on what the limit protects (the inner-surface temperature only)."""
+    if study.analysis.limit_output != "inner_surface_temperature":
+        return ""
+    return limit_scope_note(study)
+
+
 def _pct(p: float) -> str:
     if not np.isfinite(p):
         return "n/a"
@@ -320,7 +349,9 @@ def summary_text(result: StudyResult) -> str:
     """
     study, prop, an = result.study, result.propagation, result.analysis
     a = study.analysis
-    lines = [f"plyrisk study: {study.title}", f"config: {study.source}"]
+    lines = [f"plyrisk study: {study.title}", f"config: {study.source}", "",
+             *verdict_of(result.dataset).lines(), "",
+             compact_cautions(transient=study.transient is not None)]
     if result.screening is not None:
         lines += screening_lines(result.screening)
     if result.growth is not None:
@@ -349,10 +380,12 @@ def summary_text(result: StudyResult) -> str:
         + (f" per exposure × {len(an.scenarios)} exposures" if len(an.scenarios) > 1 else "")
         + f"; seed {a.seed}"
     )
-    lim = _t(study, a.limit)
+    lim = study.format_limit_value(a.limit)
+    on_inner = a.limit_output == "inner_surface_temperature"
+    words = limit_output_text(study)
     conf = f"{100 * a.confidence:g} %"
     directions = gap_directions(study)  # which way an underestimated gap flow moves the limit
-    scope = limit_scope_note(study)
+    scope = _scope(study)
     cut = truncation_warnings(study.parameters)
     if cut:
         lines += ["", *cut]
@@ -362,16 +395,27 @@ def summary_text(result: StudyResult) -> str:
             lines.append(f"exposure {s + 1}: {study.scenarios.quantity} = "
                          f"{study.scenarios.labels[s]}")
         q = sc.inner_quantiles
-        lines.append(f"inner-surface temperature (limit {lim}; {conf} confidence intervals):")
+        lines.append("inner-surface temperature ("
+                     + (f"limit {lim}; " if on_inner else "") + f"{conf} confidence intervals):")
         for p in a.percentiles:
             i = int(np.argmin(np.abs(q.probabilities - p)))
             lines.append(
                 f"  P{100 * p:<4g} {_t(study, q.estimate[i]):>10}   "
                 f"[{_t(study, q.lower[i])}, {_t(study, q.upper[i])}]"
             )
+        if not on_inner:
+            lq = sc.criterion_quantiles
+            lines.append(f"{words}, which the limit applies to (limit {lim}; {conf} "
+                         "confidence intervals):")
+            f = study.format_limit_value
+            for p in a.percentiles:
+                i = int(np.argmin(np.abs(lq.probabilities - p)))
+                lines.append(f"  P{100 * p:<4g} {_fv(f, lq.estimate[i]):>12}   "
+                             f"[{_fv(f, lq.lower[i])}, {_fv(f, lq.upper[i])}]")
+        short = "inner surface" if on_inner else words
         e = sc.exceedance
         lines.append(
-            f"  P(inner surface > {lim}) = {_pct(e.probability)}   [{_pct(e.lower)}, "
+            f"  P({short} > {lim}) = {_pct(e.probability)}   [{_pct(e.lower)}, "
             f"{_pct(e.upper)}]  ({e.method}; {e.count} of {e.n} samples above)"
         )
         left_out = n_independent - e.n
@@ -379,7 +423,7 @@ def summary_text(result: StudyResult) -> str:
             worst = (e.count + left_out) / (e.n + left_out)
             lines.append(
                 f"  {left_out} non-converged samples are left out above; counting them as "
-                f"exceeding, P(inner surface > {lim}) = {_pct(worst)}"
+                f"exceeding, P({short} > {lim}) = {_pct(worst)}"
             )
             lost = subset_warning(e.n, n_independent)
             if lost:
@@ -387,6 +431,8 @@ def summary_text(result: StudyResult) -> str:
         lines += _rating_lines(study, prop, s)
         ranking = sc.ranking.get("inner_surface_temperature")
         lines += index_lines(study, sc, top=TOP_COUNT, temperature=lambda k: _t(study, k))
+        if not on_inner:
+            lines += _limit_ranking_lines(sc, a.limit_output, words)
         if not ranking or sc.surrogate is not None:
             names = [p.name for p in study.parameters]
             order = np.argsort(-np.abs(np.nan_to_num(sc.rank_correlation)))

@@ -182,8 +182,9 @@ def add_screening(ds: xr.Dataset, screening: Screening) -> xr.Dataset:
             "units": "1", "long_name": "why the screening kept or fixed the input", **attrs}),
         "screening_nominal": xr.Variable(dims, np.array(
             [p.distribution.nominal for p in screening.study.parameters]), {
-            "units": "SI", "long_name": "nominal value of each screened input (the value a "
-            "fixed input takes)", **attrs}),
+            "long_name": "nominal value of each screened input (the value a fixed input "
+            "takes)", "comment": "units differ per input: each is in the SI unit of its "
+            "quantity (see parameter_si_unit for the inputs kept)", **attrs}),
     }
     out = ds.assign(new).assign_coords(screened_parameter=xr.Variable(
         dims, names, {"units": "1", "long_name": "uncertain input of the config, screened"}))

@@ -2,6 +2,8 @@
 
 Values are written at full precision (10 significant digits, booleans as ``true``/``false``,
 empty cells for NaN or None); temperatures in the limit's unit, which each row names.
+``quantiles.csv`` says in ``limit_applies`` which rows are the output the study's limit protects
+(``[study] limit_output``; a heat flux is written in W m-2).
 """
 
 from __future__ import annotations
@@ -57,6 +59,7 @@ def write_csv(path: Path, header: list[str], rows: list[list[Any]]) -> Path:
 def write_csv_tables(ds: xr.Dataset, out: Path) -> list[Path]:
     """Write ``quantiles.csv``, ``indices.csv``, ``group_indices.csv`` and ``ranking.csv``
     into the folder ``out``; returns their paths."""
+    ds = fg.surrogate_view(ds)
     unit = fg.temperature_unit(ds)
     quant, ind, grp, rank = [], [], [], []
 
@@ -64,6 +67,11 @@ def write_csv_tables(ds: xr.Dataset, out: Path) -> list[Path]:
         return float(fg.to_display_temperature(ds, v))
 
     independent = independent_samples(ds)
+    lim = str(ds.attrs.get("limit_output", PRIMARY))
+
+    def applies(quantity: str, face: str = "") -> bool:  # the row is the limit's output
+        return lim == (face or quantity)
+
     for _, label, one in scenario_values(ds):
         probs = np.asarray(one["quantile"].values, dtype=float)
         lost = (subset_warning(int(one["samples_used"].item()), independent)
@@ -71,12 +79,18 @@ def write_csv_tables(ds: xr.Dataset, out: Path) -> list[Path]:
         for k, p in enumerate(probs):
             quant.append([label, PRIMARY, "", p,
                           *(shown(one[f"inner_surface_temperature_quantile{s}"].values[k])
-                            for s in ("", "_lower", "_upper")), unit, lost])
+                            for s in ("", "_lower", "_upper")), unit, lost, applies(PRIMARY)])
         for f, face in enumerate(str(v) for v in one["interface"].values):
             for k, p in enumerate(probs):
                 quant.append([label, "interface_temperature", face, p,
                               *(shown(one[f"interface_temperature_quantile{s}"].values[f, k])
-                                for s in ("", "_lower", "_upper")), unit, lost])
+                                for s in ("", "_lower", "_upper")), unit, lost,
+                              applies("interface_temperature", face)])
+        if lim != PRIMARY and f"{lim}_quantile" in one:  # the heat flux, in SI
+            for k, p in enumerate(probs):
+                quant.append([label, lim, "", p, *(float(one[f"{lim}_quantile{s}"].values[k])
+                                                   for s in ("", "_lower", "_upper")),
+                              str(one[f"{lim}_quantile"].attrs.get("units", "")), lost, True])
         names = [str(n) for n in one["parameter"].values]
         groups = [str(g) for g in one["group"].values]
         rho = np.asarray(one["rank_correlation"].values, dtype=float)
@@ -116,7 +130,8 @@ def write_csv_tables(ds: xr.Dataset, out: Path) -> list[Path]:
     rank.sort(key=lambda r: (first_seen[(r[0], r[1], r[2], r[5])], r[3]))
     return [
         write_csv(out / "quantiles.csv", ["scenario", "quantity", "interface", "probability",
-                                          "estimate", "lower", "upper", "unit", "warning"],
+                                          "estimate", "lower", "upper", "unit", "warning",
+                                          "limit_applies"],
                   quant),
         write_csv(out / "indices.csv", ["scenario", "output", "parameter", "group", "unit",
                                         "first", "first_ci", "total", "total_ci", "rank",

@@ -56,6 +56,7 @@ from plyrisk.report.tables import (
     stack_tables,
     tolerance_tables,
 )
+from plyrisk.report.verdict import limit_sentence, verdict_html, verdict_markdown
 from plyrisk.study.config import loads_study
 from plyrisk.study.settings import DEFAULT_REPORT_FORMATS, REPORT_FORMATS, report_formats_error
 
@@ -118,6 +119,7 @@ def report_figures(ds: xr.Dataset) -> list[ReportFigure]:
     -------
     list of ReportFigure
     """
+    ds = fg.surrogate_view(ds)
     sobol = "sobol_total" in ds
     out: list[ReportFigure] = []
     for i, label, _ in scenario_values(ds):
@@ -562,6 +564,7 @@ def write_report(
         return write_transient_report(ds, out_dir, tolerance_table=tolerance_table,
                                       tolerance_advice=tolerance_advice,
                                       formats=formats, progress=progress)
+    ds = fg.surrogate_view(ds)  # a pce study's indices as the report draws them
     missing = [v for v in _REQUIRED if v not in ds.variables]
     if missing or "limit" not in ds.attrs:
         raise ValueError("not a plyrisk results dataset: missing "
@@ -645,7 +648,7 @@ def _html_lines(ds: xr.Dataset, c: _Content) -> list[str]:
                     '<p class="sub">plyrisk study report · config '
                     f"{_esc(ds.attrs.get('config_source', ''))}"
                     f" · method {_esc(ds.attrs.get('method', ''))} · seed "
-                    f"{_esc(ds.attrs.get('seed', ''))}</p>", _cautions_html(),
+                    f"{_esc(ds.attrs.get('seed', ''))}</p>", verdict_html(ds),
                     "<h2>Headline</h2>", _html_table(headline)]
     h += [f'<p class="headline">{_esc(v)}</p>' for v in verdicts]
     if crossing is not None:
@@ -658,8 +661,7 @@ def _html_lines(ds: xr.Dataset, c: _Content) -> list[str]:
         h.append(f"<p>The stored config could not be re-read by this version of plyrisk "
                  f"({_esc(why)}); the stack table is left out. The config text is under "
                  "Provenance.</p>")
-    h.append("<p>Limit of the inner-surface temperature: "
-             f"{_esc(fg.format_temperature(ds, float(ds.attrs['limit'])))}.</p>")
+    h.append(f"<p>{_esc(limit_sentence(ds))}</p>")
     h.append("<h2>Percentiles of the inner-surface temperature</h2>")
     h += [_html_table(t) for t in quantile_tables(ds)]
     h.append(f"<p>{_esc(quantile_note(ds))}</p>")
@@ -701,7 +703,7 @@ def _markdown_lines(ds: xr.Dataset, c: _Content, out: Path, files: list[Path]) -
     conv_text, conv_table, ranking, title, notes = (c.conv_text, c.conv_table, c.ranking,
                                                     c.title, c.notes)
     m = [f"# {title}", "", "plyrisk study summary; the full report is `report.html`.", "",
-         _cautions_md(), "", "## Headline", "", _md_table(headline), ""]
+         *verdict_markdown(ds), "## Headline", "", _md_table(headline), ""]
     m += [f"- {v}" for v in verdicts]
     if crossing is not None:
         m += ["", f"**{crossing.text}** (linear interpolation between swept levels)"]

@@ -20,7 +20,7 @@ import xarray as xr
 
 from plyrisk.analysis.sobol import not_resolved
 from plyrisk.report.figures import outputs as fg
-from plyrisk.report.figures.common import PRIMARY
+from plyrisk.report.figures.common import PRIMARY, format_limit_value, limit_quantile_variables
 from plyrisk.results.dataset import scenario_slices, subset_warnings
 from plyrisk.study.units import QUANTITIES, TEMPERATURE, format_value
 
@@ -73,6 +73,7 @@ def cell_text(v: Any) -> str:
 def scenario_values(ds: xr.Dataset) -> list[tuple[int | None, str, xr.Dataset]]:
     """``(index, label, dataset)`` of each exposure; index ``None`` when unswept."""
     out = []
+    ds = fg.surrogate_view(ds)
     for i, (label, one) in enumerate(scenario_slices(ds)):
         out.append((i if "scenario" in ds.dims else None, label, one))
     return out
@@ -164,10 +165,14 @@ def headline_table(ds: xr.Dataset) -> tuple[Table, list[str]]:
     """P95 and the exceedance probability per exposure, and one verdict sentence each."""
     rows, verdicts = [], []
     limit = float(ds.attrs["limit"])
+    lim_out = str(ds.attrs.get("limit_output", "inner_surface_temperature"))
+    words = str(ds.attrs.get("limit_output_long_name", "inner-surface temperature"))
+    def _t(_ds: xr.Dataset, v: float) -> str:
+        return format_limit_value(ds, v)
+
     for _, label, one in scenario_values(ds):
-        q = fg.select_quantile(one["inner_surface_temperature_quantile"], 0.95).item()
-        lo = fg.select_quantile(one["inner_surface_temperature_quantile_lower"], 0.95).item()
-        hi = fg.select_quantile(one["inner_surface_temperature_quantile_upper"], 0.95).item()
+        qv = limit_quantile_variables(one)
+        q, lo, hi = (fg.select_quantile(v, 0.95).item() for v in qv)
         e = [float(one[v].item()) for v in ("exceedance_probability",
                                             "exceedance_probability_lower",
                                             "exceedance_probability_upper")]
@@ -196,11 +201,13 @@ def headline_table(ds: xr.Dataset) -> tuple[Table, list[str]]:
                             "P95 is above or below it; more samples narrow the interval.")
     verdicts += subset_warnings(ds)
     conf = f"{100 * float(ds.attrs.get('confidence', math.nan)):g} %"
-    header = ["exposure", "P95", f"P95 {conf} interval", f"P(T > {_t(ds, limit)})",
+    symbol = "T" if lim_out != "heat_flux" else "q"
+    header = ["exposure", "P95", f"P95 {conf} interval", f"P({symbol} > {_t(ds, limit)})",
               f"{conf} interval", "independent samples used", "evaluations not converged"]
     method = ds["exceedance_probability"].attrs.get("method")
-    return Table(header, rows, "Inner-surface temperature: P95 and the probability of "
-                 "exceeding the limit" + (f" ({method} interval)" if method else "")), verdicts
+    return Table(header, rows, f"{words[:1].upper()}{words[1:]} (the output the limit "
+                 "applies to): P95 and the probability of exceeding the limit"
+                 + (f" ({method} interval)" if method else "")), verdicts
 
 
 def quantile_tables(ds: xr.Dataset) -> list[Table]:

@@ -25,6 +25,7 @@ from plyrisk.report.csv_tables import write_csv
 from plyrisk.report.figures import transient as tf
 from plyrisk.report.figures.common import format_percent, format_temperature
 from plyrisk.report.tables import Table, cell_text, provenance_table
+from plyrisk.report.verdict import verdict_html, verdict_markdown
 from plyrisk.results.dataset import scenario_slices
 from plyrisk.text.indices import NOT_RESOLVED
 
@@ -435,7 +436,7 @@ def write_transient_report(ds: xr.Dataset, out_dir: str | Path, *,
          f'<p class="sub">plyrisk transient study report · config '
          f"{_esc(ds.attrs.get('config_source', ''))} · method {_esc(ds.attrs.get('method'))}"
          f" · seed {_esc(ds.attrs.get('seed'))} · {_esc(ds.attrs.get('wearer_kind'))} · "
-         f"horizon {float(ds.attrs['horizon']):g} s</p>", "<h2>Answer</h2>"]
+         f"horizon {float(ds.attrs['horizon']):g} s</p>", verdict_html(ds), "<h2>Answer</h2>"]
     for label, lines in head:
         if label:
             h.append(f"<h3>{_esc(label)}</h3>")
@@ -479,7 +480,7 @@ def write_transient_report(ds: xr.Dataset, out_dir: str | Path, *,
     html_path.write_text("\n".join(with_contents(h)) + "\n", encoding="utf-8")
     cautions_md = "## Cautions\n\n" + "\n".join(f"- **{c}**" for c in TRANSIENT_CAUTIONS)
     m = [f"# {title}", "", "plyrisk transient study summary; the full report is "
-         "`report.html`.", "", "## Answer", ""]
+         "`report.html`.", "", *verdict_markdown(ds), "## Answer", ""]
     for label, lines in head:
         if label:
             m += [f"### {label}", ""]

@@ -39,6 +39,22 @@ def _var(dims, data, units: str, long_name: str, **attrs) -> xr.Variable:
     return xr.Variable(dims, data, attrs={"units": units, "long_name": long_name, **attrs})
 
 
+PER_PARAMETER_UNITS = ("units differ per parameter: each column is in the SI unit the "
+                       "coordinate parameter_si_unit names")
+"""The ``comment`` of a variable whose units differ along ``parameter`` (CF allows one
+``units`` per variable, so it carries none)."""
+
+MORRIS_UNITS = ("units differ per output: those of the output (see the output_units attribute "
+                "or the output's own variable) per grid step")
+"""The ``comment`` of a Morris measure, whose units are those of each output."""
+
+
+def per_parameter_variable(dims, data, long_name: str) -> xr.Variable:
+    """A variable in per-parameter SI units: no ``units`` attribute, a ``comment`` instead."""
+    return xr.Variable(dims, data, attrs={"long_name": long_name,
+                                          "comment": PER_PARAMETER_UNITS})
+
+
 INTERVAL_TEXT = {
     "order-statistics": "distribution-free order statistics of the pooled samples (binomial)",
     "replicates-woodruff": "Woodruff interval from the spread of the independently scrambled "
@@ -156,9 +172,9 @@ def _coordinates(frame: _Frame) -> dict[str, xr.Variable]:
         "parameter_distribution": _var(("parameter",),
                                        np.array([_describe(p) for p in params], dtype=str), "1",
                                        "input distribution (SI parameters)"),
-        "parameter_nominal": _var(("parameter",),
-                                  np.array([p.distribution.nominal for p in params], dtype=float),
-                                  "SI", "nominal value of each parameter"),
+        "parameter_nominal": per_parameter_variable(("parameter",), np.array(
+            [p.distribution.nominal for p in params], dtype=float),
+            "nominal value of each parameter"),
         "interface": _var(("interface",), np.array(out.interface_names, dtype=str), "1",
                           "face of the assembly, hot (exposed) side first"),
         "layer": _var(("layer",), np.array(out.element_names, dtype=str), "1",
@@ -189,8 +205,8 @@ def _sample_variables(frame: _Frame) -> dict[str, xr.Variable]:
     sd, per = frame.sd, frame.per
     f = out.fields
     data = {
-        "input": _var(("sample", "parameter"), propagation.inputs, "SI",
-                      "input value of each parameter (units: parameter_si_unit)"),
+        "input": per_parameter_variable(("sample", "parameter"), propagation.inputs,
+                                "input value of each parameter"),
     }
     for spec in output_table(study):
         values = per(f[spec.name])
@@ -234,10 +250,23 @@ def _statistics_variables(frame: _Frame) -> dict[str, xr.Variable]:
             "K", f"{long} of each face temperature", confidence=a.confidence,
             **({} if part == "estimate" else face_iv),
         )
+    lim_spec = limit_output_spec(frame.study)
+    if sa[0].limit_quantiles is not None and lim_spec.name != "interface_temperature":
+        for part, long in (("estimate", "quantile"), ("lower", "lower confidence bound of the "
+                           "quantile"), ("upper", "upper confidence bound of the quantile")):
+            suffix = "" if part == "estimate" else f"_{part}"
+            data[f"{a.limit_output}_quantile{suffix}"] = _var(
+                (*sd, "quantile"), per([getattr(s.limit_quantiles, part) for s in sa]),
+                lim_spec.units, f"{long} of the {lim_spec.long_name}",
+                **({} if part == "estimate" else {
+                    "confidence": a.confidence,
+                    **_quantile_intervals([s.limit_quantiles for s in sa])}),
+            )
     data["exceedance_probability"] = _var(
         sd, per([s.exceedance.probability for s in sa]), "1",
-        "probability that the inner-surface temperature exceeds the limit",
-        limit=a.limit, method=sa[0].exceedance.method,
+        f"probability that the {limit_output_text(frame.study)} exceeds the limit",
+        limit=a.limit, limit_units=lim_spec.units, output=a.limit_output,
+        method=sa[0].exceedance.method,
     )
     data["exceedance_probability_lower"] = _var(
         sd, per([s.exceedance.lower for s in sa]), "1",
@@ -282,8 +311,11 @@ def _attributes(frame: _Frame) -> dict[str, Any]:
         "index_ci_threshold": float(a.index_ci_threshold),
         "pce_max_loo_error": float(a.pce_max_loo_error),
         "limit": float(a.limit),
-        "limit_units": "K",
+        "limit_units": limit_output_spec(study).units,
         "limit_display_unit": study.limit_unit,
+        "limit_output": a.limit_output,
+        "limit_output_long_name": limit_output_text(study),
+        "limit_output_display_unit": study.limit_output_unit or study.limit_unit,
         "radiation": study.model.radiation,
         "convection": int(bool(study.model.convection)),
         "inner_surface_index": int(out.inner_surface_index),
@@ -296,6 +328,27 @@ def _attributes(frame: _Frame) -> dict[str, Any]:
         attrs["scenario_display_unit"] = study.scenarios.unit
     attrs.update({f"version_{k}": v for k, v in library_versions().items()})
     return attrs
+
+
+def limit_output_spec(study: Study):
+    """The :class:`~plyrisk.models.outputs.OutputSpec` of a steady study's limit output (the
+    ``interface_temperature`` record for a face)."""
+    from plyrisk.models.network import NETWORK_OUTPUTS
+    from plyrisk.models.outputs import output_spec
+
+    name = study.analysis.limit_output
+    if name in ("inner_surface_temperature", "heat_flux"):
+        return output_spec(NETWORK_OUTPUTS, name)
+    return output_spec(NETWORK_OUTPUTS, "interface_temperature")
+
+
+def limit_output_text(study: Study) -> str:
+    """Plain words for a steady study's limit output, e.g. ``"inner-surface temperature"``,
+    ``"heat flux through the assembly"`` or ``"temperature of face 'gap | liner'"``."""
+    name = study.analysis.limit_output
+    if name in ("inner_surface_temperature", "heat_flux"):
+        return limit_output_spec(study).long_name
+    return f"temperature of face {name!r}"
 
 
 def _nominal_thickness(study: Study, out) -> np.ndarray:
@@ -352,14 +405,41 @@ def write_results(ds: xr.Dataset, path: str | Path) -> Path:
     """
     path = Path(path)
     path.parent.mkdir(parents=True, exist_ok=True)
-    encoding = {
+    encoding: dict[str, dict[str, Any]] = {
         name: {"zlib": True, "complevel": 1, "shuffle": True}
         for name, v in ds.data_vars.items()
         if v.dtype.kind in "fiub"
     }
+    for name in ds.coords:  # CF: coordinates hold no missing values, so no _FillValue
+        encoding.setdefault(str(name), {})["_FillValue"] = None
+    ds = ds.copy()
+    ds.attrs = {**ds.attrs, "Conventions": ds.attrs.get("Conventions") or CONVENTIONS,
+                "history": ds.attrs.get("history") or history_line(ds)}
     with _without_distributed(ds):
         ds.to_netcdf(path, engine="netcdf4", encoding=encoding)
     return path
+
+
+CONVENTIONS = "CF-1.10"
+"""The CF version the results follow (``Conventions`` global attribute)."""
+
+
+def history_line(ds: xr.Dataset) -> str:
+    """The CF ``history`` attribute: earlier lines, then ``plyrisk <version>: results of
+    <config> (method <m>, seed <s>)``.
+
+    No time stamp: the same config and seed give identical datasets (the time a folder's
+    result was written is in its ``plyrisk-manifest.json``, ``created``) [-].
+    """
+    from plyrisk.provenance import package_version
+
+    line = (f"plyrisk {package_version()}: results of "
+            f"{ds.attrs.get('config_source', 'a study')} (method {ds.attrs.get('method', '?')},"
+            f" seed {ds.attrs.get('seed', '?')})")
+    earlier = str(ds.attrs.get("history", "") or "")
+    if earlier.endswith(line):
+        return earlier
+    return f"{earlier}\n{line}" if earlier else line
 
 
 @contextmanager

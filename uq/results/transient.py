@@ -21,6 +21,7 @@ from plyrisk.cautions import cautions_text
 from plyrisk.models.transient_outputs import TRANSIENT_OUTPUTS
 from plyrisk.propagate.evaluate import Propagation
 from plyrisk.provenance import library_versions
+from plyrisk.results.dataset import MORRIS_UNITS, per_parameter_variable
 
 if TYPE_CHECKING:  # pragma: no cover
     from plyrisk.methods.base import Method
@@ -103,8 +104,8 @@ def _coordinates(study, propagation, analysis: TransientAnalysis) -> dict[str, x
         "parameter_distribution": _var(("parameter",), np.array([_describe(p) for p in params],
                                                                 dtype=str), "1",
                                        "input distribution (SI parameters)"),
-        "parameter_nominal": _var(("parameter",), np.array(
-            [p.distribution.nominal for p in params], dtype=float), "SI",
+        "parameter_nominal": per_parameter_variable(("parameter",), np.array(
+            [p.distribution.nominal for p in params], dtype=float),
             "nominal value of each parameter"),
         "group": _var(("group",), np.array(analysis.group_names, dtype=str), "1",
                       "layer (or exposure, wearer) group of parameters"),
@@ -138,8 +139,8 @@ def _si_unit_of(quantity: str) -> str:
 
 def _sample_variables(study, propagation, analysis, sd, per) -> dict[str, xr.Variable]:
     f = propagation.outputs.fields
-    data = {"input": _var(("sample", "parameter"), propagation.inputs, "SI",
-                          "input value of each parameter (units: parameter_si_unit)")}
+    data = {"input": per_parameter_variable(("sample", "parameter"), propagation.inputs,
+                                    "input value of each parameter")}
     for spec in TRANSIENT_OUTPUTS:
         if spec.name not in f:
             continue
@@ -265,7 +266,9 @@ def _index_variables(study, analysis: TransientAnalysis, sd, per) -> dict[str, x
                       DERIVED_OUTPUTS)
     have_sobol = any(sc.indices for sc in sa)
     if have_sobol:
-        estimator = ("polynomial-chaos surrogate" if any(sc.surrogate_quality for sc in sa)
+        pce = any(sc.surrogate_quality for sc in sa)
+        estimator = "pce" if pce else "saltelli"
+        described = ("polynomial-chaos surrogate" if pce
                      else "Saltelli design (SALib estimators)")
         for which, dim, size, prefix, who in ((0, "parameter", n_p, "sobol", "parameter"),
                                               (1, "group", n_g, "sobol_group", "layer group")):
@@ -284,7 +287,8 @@ def _index_variables(study, analysis: TransientAnalysis, sd, per) -> dict[str, x
                             f"{who}")
                     data[f"{prefix}_{kind}{sfx}"] = _var(
                         (*sd, "output", dim), per(arr), "1", long, estimator=estimator,
-                        rules=rules, **({"confidence": float(a.confidence)} if sfx else {}))
+                        estimator_description=described, rules=rules,
+                        **({"confidence": float(a.confidence)} if sfx else {}))
         if any(sc.surrogate_quality for sc in sa):
             data["surrogate_fit"] = _var(
                 (*sd, "output"), per([[sc.surrogate_quality.get(o, "") for o in outputs]
@@ -303,8 +307,9 @@ def _index_variables(study, analysis: TransientAnalysis, sd, per) -> dict[str, x
                     m = sc.screening.get(o)
                     if m is not None:
                         arr[s, k] = getattr(m, attr)
-            data[f"morris_{attr}"] = _var((*sd, "output", "parameter"), per(arr),
-                                          "output units", long, rules=rules)
+            data[f"morris_{attr}"] = xr.Variable(
+                (*sd, "output", "parameter"), per(arr),
+                {"long_name": long, "rules": rules, "comment": MORRIS_UNITS})
     return data
 
 

@@ -275,6 +275,14 @@ def _check_study(ctx: Context, study: Study) -> None:
     except StackError as err:
         raise ctx.error(stack_key_path(err), str(err)) from None
     _check_support(ctx, study)
+    limit_output = study.analysis.limit_output
+    if limit_output not in ("inner_surface_temperature", "heat_flux"):
+        faces = _interface_names(study)
+        if limit_output not in faces:
+            valid = ("inner_surface_temperature", "heat_flux", *faces)
+            raise ctx.error("study.limit_output", f"unknown output {limit_output!r}; "
+                            f"{suggest(limit_output, valid)}valid: "
+                            f"{', '.join(repr(v) for v in valid)}")
     if study.analysis.outputs:
         valid = ("heat_flux", *_interface_names(study))
         for i, name in enumerate(study.analysis.outputs):

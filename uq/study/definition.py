@@ -25,7 +25,14 @@ from plyrisk.models.sensor import CopperDisc
 from plyrisk.models.stack import Gap, Solid
 from plyrisk.models.wearer import PrescribedWearer, SensorWearer, SkinWearer
 from plyrisk.study.distributions import Distribution
-from plyrisk.study.units import QUANTITIES, TEMPERATURE, QuantitySpec, format_value, from_si
+from plyrisk.study.units import (
+    HEAT_FLUX,
+    QUANTITIES,
+    TEMPERATURE,
+    QuantitySpec,
+    format_value,
+    from_si,
+)
 
 if TYPE_CHECKING:  # pragma: no cover
     from plyrisk.study.correlations import Correlations
@@ -210,7 +217,8 @@ class Analysis:
     seed
         Seed of every random draw.
     limit
-        Inner-surface temperature limit [K].
+        Limit of the per-sample output ``limit_output`` (SI: [K] for a temperature, [W m-2]
+        for the heat flux).
     percentiles
         Percentiles to report, as fractions in (0, 1).
     confidence
@@ -242,6 +250,14 @@ class Analysis:
         R times a power of 2, and every interval comes from the spread of the replicates.
     permutations
         Random permutations of the Shapley estimator (shapley); 0 = as many as ``samples``.
+    limit_output
+        The per-sample output the limit applies to: ``"inner_surface_temperature"``
+        (default), ``"heat_flux"`` (the heat flux through the assembly, in steady state also
+        the net flux the cold surface absorbs) or a face name (its temperature).
+    criterion
+        The study's criterion in the target grammar (:mod:`plyrisk.study.targets`), e.g.
+        ``"P95 <= limit"``; ``""`` for the default
+        (:func:`plyrisk.study.targets.default_criterion`).
     """
 
     method: str
@@ -261,6 +277,8 @@ class Analysis:
     pce_max_loo_error: float = 1e-3
     replicates: int = 8
     permutations: int = 0
+    limit_output: str = "inner_surface_temperature"
+    criterion: str = ""
 
 
 @dataclass(frozen=True)
@@ -417,6 +435,7 @@ class Study:
     transient: TransientSetup | None = None
     correlations: Correlations | None = None
     report_formats: tuple[str, ...] = ("png",)
+    limit_output_unit: str = ""
 
     def steady_sides(self) -> tuple[HotSide, ColdSide]:
         """The hot and cold sides of a steady study (a transient study has none) [-]."""
@@ -442,6 +461,24 @@ class Study:
     def format_temperature(self, value: float, *, difference: bool = False) -> str:
         """A temperature [K] (or difference) shown in the limit's unit."""
         return format_value(value, self.limit_unit, TEMPERATURE, difference=difference)
+
+    @property
+    def limit_output_text(self) -> str:
+        """Plain words for the limit output, e.g. ``"inner-surface temperature"``, ``"heat flux
+        through the assembly"`` or ``"temperature of face 'gap | liner'"``."""
+        from plyrisk.models.network import NETWORK_OUTPUTS
+        from plyrisk.models.outputs import output_spec
+
+        name = self.analysis.limit_output
+        if name in ("inner_surface_temperature", "heat_flux"):
+            return output_spec(NETWORK_OUTPUTS, name).long_name
+        return f"temperature of face {name!r}"
+
+    def format_limit_value(self, value: float) -> str:
+        """A value of the limit's output (SI) shown in the unit the limit was given in."""
+        if self.analysis.limit_output == "heat_flux":
+            return format_value(value, self.limit_output_unit or "W/m^2", HEAT_FLUX)
+        return self.format_temperature(value)
 
 
 def assemble(

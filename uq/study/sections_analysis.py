@@ -22,7 +22,7 @@ from plyrisk.study.settings import (
     report_formats_error,
 )
 from plyrisk.study.settings import DESIGNS as TOLERANCE_DESIGNS
-from plyrisk.study.targets import parse_target
+from plyrisk.study.targets import limit_quantity, parse_target
 from plyrisk.study.units import TEMPERATURE, TEMPERATURE_DIFFERENCE, Parsed
 from plyrisk.study.values import Context, join, show, suggest
 
@@ -42,7 +42,7 @@ _STUDY_REQUIRED = ("title", "method", "samples", "seed", "limit")
 _STUDY_OPTIONAL = (
     "percentiles", "confidence", "bootstrap", "index_ci_threshold", "chunk_size",
     "lhs_optimization", "outputs", "design", "levels", "screening_threshold",
-    "pce_max_loo_error", "replicates", "permutations",
+    "pce_max_loo_error", "replicates", "permutations", "limit_output", "criterion",
 )  # fmt: skip
 _TRANSIENT_OPTIONAL = ("acceptable_burn_probability",)
 TRANSIENT_CHUNK_SIZE = 1024
@@ -110,8 +110,17 @@ def parse_study_section(ctx: Context, raw: Any, parsed: dict) -> dict:
                             f"{method.name!r}; remove it")
     design = (cv.choice(ctx, t["design"], "study.design", method.designs, "design")
               if "design" in t else method.default_design)
-    limit = (cv.fixed(ctx, t["limit"], "study.limit", TEMPERATURE) if not transient
-             else Parsed(float("nan"), TRANSIENT_TEMPERATURE_UNIT, "none"))
+    limit_output = PRIMARY_OUTPUT
+    if "limit_output" in t:
+        if transient:
+            raise ctx.error("study.limit_output", "applies only to steady studies (a transient "
+                            "study's criterion is study.criterion); remove it")
+        limit_output = cv.string(ctx, t["limit_output"], "study.limit_output")
+    limit = (cv.fixed(ctx, t["limit"], "study.limit", limit_quantity(limit_output))
+             if not transient else Parsed(float("nan"), TRANSIENT_TEMPERATURE_UNIT, "none"))
+    criterion = ""
+    if "criterion" in t:
+        criterion = _criterion(ctx, t["criterion"], limit_output, transient)
     replicates = (cv.integer(ctx, t["replicates"], "study.replicates", minimum=2)
                   if "replicates" in t else Analysis.replicates)
     kw: dict[str, Any] = {
@@ -159,7 +168,31 @@ def parse_study_section(ctx: Context, raw: Any, parsed: dict) -> dict:
         kw["lhs_optimization"] = None if opt == "none" else opt
     if "outputs" in t:
         kw["outputs"] = _outputs(ctx, t["outputs"], "study.outputs")
-    return {"title": title, "analysis": Analysis(**kw), "limit_unit": limit.unit, **extra}
+    kw["limit_output"] = limit_output
+    kw["criterion"] = criterion
+    temperature_unit = (limit.unit if limit_quantity(limit_output) is TEMPERATURE
+                        else TRANSIENT_TEMPERATURE_UNIT)
+    return {"title": title, "analysis": Analysis(**kw), "limit_unit": temperature_unit,
+            "limit_output_unit": limit.unit, **extra}
+
+
+def _criterion(ctx: Context, raw: Any, limit_output: str, transient: bool) -> str:
+    """``[study] criterion``: a target (:mod:`plyrisk.study.targets`) of the study's kind."""
+    text = cv.string(ctx, raw, "study.criterion")
+    try:
+        target = parse_target(text, output=limit_output)
+    except ValueError as err:
+        raise ctx.error("study.criterion", str(err)) from None
+    if target.transient and not transient:
+        raise ctx.error("study.criterion", f"{target.text!r} is about a transient study's "
+                        "event; a steady study's criterion is about its limit output, e.g. "
+                        "'P95 <= limit' or 'P(exceed) <= 1 %'")
+    if transient and not target.transient:
+        raise ctx.error("study.criterion", f"{target.text!r} is about a steady study's limit; "
+                        "a transient study's criterion is about an event, e.g. "
+                        "'P(second_degree_burn) <= 5 %' or "
+                        "'P5(time_to_second_degree_burn) >= 12 s'")
+    return target.text
 
 
 MIN_SAMPLES = 8

@@ -4,12 +4,18 @@ A target is one line of text, parsed by :func:`parse_target` into a :class:`Targ
 
 =============================  ==============================================================
 ``P95 <= limit``               the 95th percentile must not exceed the study limit
+                               (the default criterion of a steady study)
 ``P99 <= 44 degC``             the 99th percentile must not exceed 44 degC (any temperature
                                unit pint knows: ``K``, ``degC``, ``degF``)
 ``P97.5 <= 317 K``             any percentile level strictly between 0 and 100
 ``P(exceed) <= 1 %``           the probability of exceeding the study limit must not exceed 1 %
 ``P(exceed) <= 0.01``          the same as a fraction (a bare number must lie in (0, 1))
 =============================  ==============================================================
+
+The percentile and exceedance forms are about the study's *limit output* (``[study]
+limit_output``: the inner-surface temperature by default, or the heat flux, or a face
+temperature); a bound given as a number carries that output's unit (``P95 <= 2.5 kW/m^2`` for
+the heat flux).
 
 Transient studies (time to burn, :mod:`plyrisk.analysis.transient`) take two more forms:
 
@@ -42,9 +48,10 @@ import math
 import re
 from dataclasses import dataclass
 
-from plyrisk.study.units import TEMPERATURE, QuantitySpec, UnitError, parse_value
+from plyrisk.study.units import HEAT_FLUX, TEMPERATURE, QuantitySpec, UnitError, parse_value
 
-__all__ = ["EVENT_TIMES", "TARGET_FORMS", "Target", "parse_target"]
+__all__ = ["EVENT_TIMES", "TARGET_FORMS", "Target", "default_criterion", "limit_quantity",
+           "parse_target"]
 
 TARGET_FORMS = ("P95 <= limit", "P99 <= 44 degC", "P(exceed) <= 1 %", "P(exceed) <= 0.01",
                 "P(second_degree_burn) <= 5 %", "P5(time_to_second_degree_burn) >= 12 s")
@@ -104,7 +111,7 @@ class Target:
     @property
     def transient(self) -> bool:
         """Whether the target is about a transient study's event time."""
-        return self.output != "inner_surface_temperature"
+        return self.output in EVENT_TIMES.values()
 
     @property
     def engine_probability(self) -> float:
@@ -155,13 +162,50 @@ def _bad(text: str, why: str) -> ValueError:
     return ValueError(f"bad target {text!r}: {why}; valid forms: {forms}")
 
 
-def parse_target(text: str) -> Target:
+def limit_quantity(output: str) -> QuantitySpec:
+    """The quantity of a limit output: a heat flux for ``"heat_flux"``, else a temperature."""
+    return HEAT_FLUX if output == "heat_flux" else TEMPERATURE
+
+
+def default_criterion(*, transient_event: str | None = None,
+                      acceptable: float | None = None) -> str:
+    """The criterion of a study whose config gives none.
+
+    Parameters
+    ----------
+    transient_event
+        For a transient study, the event judged (``"second_degree_burn"`` for skin,
+        ``"sensor_criterion"`` for a sensor); ``None`` for a steady study.
+    acceptable
+        The acceptable probability of that event (transient) [-].
+
+    Returns
+    -------
+    str
+        ``"P95 <= limit"`` (steady) or ``"P(<event>) <= <acceptable> %"``.
+
+    Examples
+    --------
+    >>> default_criterion()
+    'P95 <= limit'
+    >>> default_criterion(transient_event="second_degree_burn", acceptable=0.05)
+    'P(second_degree_burn) <= 5 %'
+    """
+    if transient_event is None:
+        return "P95 <= limit"
+    return f"P({transient_event}) <= {100.0 * float(acceptable or 0.05):.6g} %"
+
+
+def parse_target(text: str, *, output: str = "inner_surface_temperature") -> Target:
     """Parse a target string (grammar in the module docstring).
 
     Parameters
     ----------
     text
         E.g. ``"P95 <= limit"`` or ``"P(exceed) <= 1 %"``.
+    output
+        The study's limit output, which the percentile and exceedance forms are about; it fixes
+        the unit of a numeric bound (:func:`limit_quantity`).
 
     Returns
     -------
@@ -197,7 +241,7 @@ def parse_target(text: str) -> Target:
         raise _bad(text, "empty")
     m = _EXCEED.match(clean)
     if m:
-        return Target("exceedance", math.nan, _probability(clean, m.group(1)), clean)
+        return Target("exceedance", math.nan, _probability(clean, m.group(1)), clean, output)
     m = _EVENT.match(clean)
     if m:
         event = m.group(1).lower()
@@ -227,17 +271,18 @@ def parse_target(text: str) -> Target:
         if not 0.0 < level < 100.0:
             raise _bad(text, f"percentile level {m.group(1)} must lie strictly between 0 and 100")
         bound = m.group(2).strip()
+        spec = limit_quantity(output)
         if bound.lower() == "limit":
             threshold = math.nan
         else:
             try:
-                threshold = parse_value(bound, TEMPERATURE).si
+                threshold = parse_value(bound, spec).si
             except UnitError as err:
-                raise _bad(text, f"bound {bound!r} is not 'limit' or a temperature ({err})"
+                raise _bad(text, f"bound {bound!r} is not 'limit' or {spec.what} ({err})"
                            ) from None
-            if not threshold > 0.0:
+            if spec is TEMPERATURE and not threshold > 0.0:
                 raise _bad(text, f"temperature {bound!r} is not above absolute zero")
-        return Target("quantile", level / 100.0, threshold, clean)
+        return Target("quantile", level / 100.0, threshold, clean, output)
     if "<=" not in clean:
         raise _bad(text, "expected '<=' between the metric and its bound ('>=' only for the "
                    "time to an event, e.g. P5(time_to_second_degree_burn) >= 12 s)")

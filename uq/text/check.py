@@ -92,7 +92,8 @@ def _analysis_lines(study: Study) -> list[str]:
     method = get_method(a.method).describe(study)
     lines = [
         f"Analysis: {method}; seed {a.seed}",
-        f"  limit: inner-surface temperature {study.format_temperature(a.limit)}",
+        f"  limit: {_limit_words(study)} {study.format_limit_value(a.limit)}; criterion "
+        f"{a.criterion or 'P95 <= limit (the default)'}",
         "  percentiles: " + ", ".join(f"{100 * q:g}" for q in a.percentiles)
         + f"; confidence {100 * a.confidence:g} %",
         f"Model: radiation {m.radiation}; natural convection in gaps "
@@ -175,15 +176,35 @@ def _solution_lines(study: Study, sol: NetworkSolution) -> list[str]:
         f"Heat flux: {float(sol.heat_flux[0]):.4g} W/m^2",
         f"Total thermal resistance of the elements: {total:.4g} m^2 K/W",
         f"Inner-surface temperature: {fmt_t(t_in)}",
-        _margin_text(study, t_in),
+        _margin_text(study, _limit_value(study, sol, 0)),
     ]
     return lines
 
 
-def _margin_text(study: Study, t_inner: float) -> str:
-    margin = study.analysis.limit - t_inner
-    shown = study.format_temperature(abs(margin), difference=True)
-    limit = study.format_temperature(study.analysis.limit)
+def _limit_words(study: Study) -> str:
+    return study.limit_output_text
+
+
+def _limit_value(study: Study, sol: Any, k: int) -> float:
+    """The nominal value of the limit output (``[study] limit_output``) of sample ``k``."""
+    name = study.analysis.limit_output
+    if name in ("inner_surface_temperature", "heat_flux"):
+        return float(getattr(sol, name)[k])
+    return float(sol.interface_temperature[k, list(sol.interface_names).index(name)])
+
+
+def _margin_shown(study: Study, margin: float) -> str:
+    if study.analysis.limit_output == "heat_flux":
+        return study.format_limit_value(abs(margin))
+    return study.format_temperature(abs(margin), difference=True)
+
+
+def _margin_text(study: Study, value: float) -> str:
+    margin = study.analysis.limit - value
+    shown = _margin_shown(study, margin)
+    limit = study.format_limit_value(study.analysis.limit)
+    if study.analysis.limit_output != "inner_surface_temperature":
+        limit += f" on the {_limit_words(study)}"
     if margin >= 0:
         return f"Margin to the limit ({limit}): {shown} below the limit"
     return f"Margin to the limit ({limit}): EXCEEDS the limit by {shown}"
@@ -202,10 +223,9 @@ def _scenario_lines(study: Study, notes: list[str]) -> tuple[list[str], bool]:
             rows.append([label, "did not converge", "-", "-"])
             continue
         t_in = float(sol.inner_surface_temperature[k])
-        margin = study.analysis.limit - t_in
+        margin = study.analysis.limit - _limit_value(study, sol, k)
         rows.append([label, study.format_temperature(t_in), f"{float(sol.heat_flux[k]):.4g}",
-                     ("" if margin >= 0 else "-")
-                     + study.format_temperature(abs(margin), difference=True)])
+                     ("" if margin >= 0 else "-") + _margin_shown(study, margin)])
     header = [f"hot_side.{sc.quantity}", "inner surface", "heat flux [W/m^2]",
               "margin to limit"]
     title = f"Scenarios: hot_side.{sc.quantity} swept, nominal inputs (negative margin = over)"

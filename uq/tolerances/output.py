@@ -18,8 +18,8 @@ from typing import Any
 
 from plyrisk.cautions import cautions_text
 from plyrisk.study.definition import Parameter, Study
-from plyrisk.study.targets import Target
-from plyrisk.study.units import TEMPERATURE, difference_unit, from_si
+from plyrisk.study.targets import Target, limit_quantity
+from plyrisk.study.units import difference_unit, from_si
 from plyrisk.text.tables import text_table
 from plyrisk.tolerances.study import Outcome, ToleranceReport
 
@@ -116,13 +116,29 @@ def target_text(report: ToleranceReport, study: Study) -> str:
     text = t.text
     if t.transient:
         text += f" (within the horizon {-report_limit(report):g} s)"
-    elif t.kind == "quantile" and t.uses_limit:
-        text += f" ({study.format_temperature(report.bound)})"
+    elif t.kind == "quantile":
+        text += (f" ({study.format_limit_value(report.bound)})" if t.uses_limit else "")
+        text += _on_output(study)
     elif t.kind == "exceedance":
-        text += f" (limit {study.format_temperature(study.analysis.limit)})"
+        text += (f" (limit {study.format_limit_value(study.analysis.limit)}"
+                 f"{_on_output(study)})")
     if study.scenarios is not None:
         text += ", at every exposure"
     return text
+
+
+def _limit_words(study: Study) -> str:
+    """The output the limit applies to, in words (``"inner-surface temperature"``, ...)."""
+    from plyrisk.results.dataset import limit_output_text
+
+    return limit_output_text(study)
+
+
+def _on_output(study: Study) -> str:
+    """`` on the <output>`` where the limit protects another output than the inner surface."""
+    if study.analysis.limit_output == "inner_surface_temperature":
+        return ""
+    return f" on the {_limit_words(study)}"
 
 
 def report_limit(report: ToleranceReport) -> float:
@@ -173,7 +189,9 @@ def manufacturing_table(report: ToleranceReport, study: Study, *,
     -------
     list of ManufacturingRow
     """
-    unit = "s" if _flip(report) else (study.limit_unit or "K")
+    unit = "s" if _flip(report) else (
+        (study.limit_output_unit or "W/m^2") if study.analysis.limit_output == "heat_flux"
+        else (study.limit_unit or "K"))
     alloc = report.allocation
     label = _label(report, report.whatif.baseline.probability)
     rows = []
@@ -188,7 +206,8 @@ def manufacturing_table(report: ToleranceReport, study: Study, *,
             parameter=p.name, layer=p.group, current_spec=p.describe(), variance_share=share,
             share_source=source, quantile_label=label,
             quantile_if_halved=(-float(w.halved.worst_quantile) if _flip(report) else
-                                float(from_si(w.halved.worst_quantile, unit, TEMPERATURE))),
+                                float(from_si(w.halved.worst_quantile, unit,
+                                              limit_quantity(study.analysis.limit_output)))),
             temperature_unit=unit, recommended_spec=_recommended(p, factor, alloc.status,
                                                                p.name in alloc.kept),
             recommended_factor=factor, target=target_text(report, study)))
@@ -321,15 +340,15 @@ def _metric(report: ToleranceReport, study: Study, value: float, *,
         return (f"{100 * value:+.3g} %" if difference else _pct(value))
     if _flip(report):
         return f"{-value:+.3g} s" if difference else f"{-value:.3g} s"
-    if difference:
-        sign = "-" if value < 0 else "+"
-        return sign + study.format_temperature(abs(value), difference=True)
-    return study.format_temperature(value)
+    return _temperature(study, value, difference=difference)
 
 
 def _temperature(study: Study, value: float, *, difference: bool = False) -> str:
     if not math.isfinite(value):
         return "n/a"
+    if study.analysis.limit_output == "heat_flux":  # the metric is a heat flux [W m-2]
+        shown = study.format_limit_value(abs(value) if difference else value)
+        return (("-" if value < 0 else "+") + shown) if difference else shown
     if difference:
         return ("-" if value < 0 else "+") + study.format_temperature(abs(value), difference=True)
     return study.format_temperature(value)
@@ -379,7 +398,8 @@ def tolerance_text(report: ToleranceReport, study: Study, *,
         exceed = f"P({_target(report).event or 'event'} within {-report_limit(report):g} s)"
     else:
         lo_name, hi_name = "quantile_lower", "quantile_upper"
-        exceed = f"P(inner surface > {study.format_temperature(study.analysis.limit)})"
+        exceed = (f"P({_limit_words(study)} > "
+                  f"{study.format_limit_value(study.analysis.limit)})")
     out = [f"Tolerance study: {study.title}", f"Config: {study.source}",
            f"Target: {target_text(report, study)}; judged on {basis} ({level})",
            f"Design: {st.design}, {st.samples} samples, seed {st.seed}, common random numbers; "

@@ -12,7 +12,8 @@ Conventions
   (:meth:`plyrisk.study.distributions.Distribution.with_spread`): f = 1 is the current
   specification,
   f = 0.5 halves the tolerance, f = 0 holds the parameter at its nominal value.
-* The *metric* is the target's statistic of the inner-surface temperature (a quantile [K] or
+* The *metric* is the target's statistic of the study's limit output (``[study] limit_output``:
+  the inner-surface temperature by default, the heat flux or a face temperature; a quantile or
   the exceedance probability of the limit) at the worst exposure: with a scenario sweep the
   target must hold at every exposure, so the maximum over exposures is compared with the bound.
 * The *basis* decides which number of the metric is compared: ``"bound"`` (default) the upper
@@ -216,6 +217,7 @@ def problem_from_study(study: Study, target: Target | None = None, *,
         check_target_fits(study, target)
 
     run_steady = evaluate
+    output = study.analysis.limit_output  # the output the limit (and the target) is about
     solved: dict[bytes, np.ndarray] = {}  # the searches ask for some designs more than once
 
     def model(values: np.ndarray) -> np.ndarray:
@@ -225,7 +227,12 @@ def problem_from_study(study: Study, target: Target | None = None, *,
             if len(solved) >= MODEL_MEMORY:
                 solved.pop(next(iter(solved)))
             out = run_steady(study, values)
-            solved[key] = np.where(out["converged"], out["inner_surface_temperature"], np.nan)
+            if output in ("inner_surface_temperature", "heat_flux"):
+                y = out[output]
+            else:
+                y = np.asarray(out["interface_temperature"])[
+                    ..., list(out.interface_names).index(output)]
+            solved[key] = np.where(out["converged"], y, np.nan)
         return solved[key].copy()
 
     labels = tuple(study.scenarios.labels) if study.scenarios is not None else ()
@@ -287,8 +294,12 @@ def settings_for_study(study: Study, *, target: str | None = None, samples: int 
 
     base = getattr(study, "tolerances", None) or ToleranceSettings()
     changes: dict = {}
+    limit_output = getattr(study.analysis, "limit_output", "inner_surface_temperature")
     if target is not None:
-        changes["target"] = parse_target(target)
+        changes["target"] = parse_target(target, output=limit_output)
+    elif (isinstance(base.target, Target) and not base.target.transient
+          and base.target.output != limit_output and not is_transient(study)):
+        changes["target"] = parse_target(base.target.text, output=limit_output)
     elif is_transient(study) and isinstance(base.target, Target) and \
             not base.target.transient and base.target.text == parse_target(DEFAULT_TARGET).text:
         facts = transient_facts(study)

@@ -13,6 +13,7 @@ the independent converged samples or one parameter's samples out of a results da
 
 from __future__ import annotations
 
+import math
 import os
 import sys
 import warnings
@@ -228,6 +229,36 @@ def pretty_unit(unit: str) -> str:
     return out
 
 
+def limit_quantile_variables(ds: xr.Dataset) -> list[xr.DataArray]:
+    """The quantile variables (estimate, lower, upper) of the output the limit applies to
+    (``attrs["limit_output"]``: the inner-surface temperature, the heat flux or a face)."""
+    output = str(ds.attrs.get("limit_output", "inner_surface_temperature"))
+    parts = ("", "_lower", "_upper")
+    if f"{output}_quantile" in ds:
+        return [ds[f"{output}_quantile{s}"] for s in parts]
+    if "interface" in ds.coords and output in [str(v) for v in ds["interface"].values]:
+        return [ds[f"interface_temperature_quantile{s}"].sel(interface=output) for s in parts]
+    return [ds[f"inner_surface_temperature_quantile{s}"] for s in parts]
+
+
+def format_limit_value(ds: xr.Dataset, value: float) -> str:
+    """A value of the limit output (SI) in the unit the limit was given in."""
+    if ds.attrs.get("limit_output") == "heat_flux":
+        from plyrisk.results.verdict import show_value
+
+        return show_value(float(value), "W m-2",
+                          str(ds.attrs.get("limit_output_display_unit") or "W/m^2"))
+    return format_temperature(ds, float(value))
+
+
+def inner_limit(ds: xr.Dataset) -> float:
+    """The limit [K] where it applies to the inner-surface temperature (the figures of that
+    temperature draw it), else NaN (a limit on another output is not drawn there)."""
+    if ds.attrs.get("limit_output", "inner_surface_temperature") != "inner_surface_temperature":
+        return math.nan
+    return float(ds.attrs["limit"])
+
+
 def temperature_unit(ds: xr.Dataset) -> str:
     """The unit temperatures are shown in: the limit's unit, ``"K"`` if none was stored."""
     return str(ds.attrs.get("limit_display_unit") or "K")
@@ -274,6 +305,28 @@ def format_percent(p: float) -> str:
     return "n/a" if not np.isfinite(p) else f"{100 * p:.3g} %"
 
 
+SURROGATE_KEYS = ("first", "first_ci", "total", "total_ci", "first_converged",
+                  "total_converged")
+
+
+def surrogate_view(ds: xr.Dataset) -> xr.Dataset:
+    """The report's view of a steady ``method = "pce"`` dataset: its indices (``sobol_*`` with
+    ``estimator = "pce"``, the one schema of every method) as the surrogate indices of the
+    inner-surface temperature the report draws (``pce_*`` over ``parameter`` / ``group``).
+    Any other dataset is returned as it is."""
+    v = ds.get("sobol_total")
+    if (v is None or v.attrs.get("estimator") != "pce"
+            or ds.attrs.get("study_kind") == "transient"):
+        return ds
+    out = ds.copy()
+    for base, new in (("sobol", "pce"), ("sobol_group", "pce_group")):
+        for key in SURROGATE_KEYS:
+            name = f"{base}_{key}"
+            if name in out:
+                out[f"{new}_{key}"] = out[name].sel(output=PRIMARY, drop=True)
+    return out.drop_vars([n for n in out.data_vars if str(n).startswith("sobol_")])
+
+
 def one_exposure(ds: xr.Dataset, scenario: int | None) -> tuple[str, xr.Dataset]:
     """Label and dataset of one exposure; validates ``scenario`` against the dataset.
 
@@ -290,6 +343,7 @@ def one_exposure(ds: xr.Dataset, scenario: int | None) -> tuple[str, xr.Dataset]
         ``"<quantity> = <level>"`` (``""`` for an unswept dataset) and the dataset of that
         exposure (no ``scenario`` dimension).
     """
+    ds = surrogate_view(ds)
     if "scenario" in ds.dims:
         k = ds.sizes["scenario"]
         if scenario is None or isinstance(scenario, bool) or not 0 <= int(scenario) < k:

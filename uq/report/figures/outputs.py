@@ -44,11 +44,13 @@ from plyrisk.report.figures.common import (
     format_percent,
     format_temperature,
     independent_mask,
+    inner_limit,
     one_exposure,
     parameter_values,
     pretty_unit,
     select_quantile,
     styled,
+    surrogate_view,
     temperature_label,
     temperature_unit,
     to_display_temperature,
@@ -68,6 +70,7 @@ from plyrisk.report.figures.sweep import (
 
 __all__ = [
     "BLUE",
+    "surrogate_view",
     "GREY",
     "ORANGE",
     "STYLE",
@@ -157,7 +160,9 @@ def profile_figure(ds: xr.Dataset, *, scenario: int | None = None) -> Figure:
     q = one["interface_temperature_quantile"]
     band = {p: to_display_temperature(one, select_quantile(q, p).values) for p in
             (0.01, 0.05, 0.5, 0.95, 0.99)}
-    limit = float(to_display_temperature(one, one.attrs["limit"]))
+    lim_k = (float(one.attrs["limit"]) if str(one.attrs.get("limit_output", "")) in
+             [str(f) for f in faces] else inner_limit(one))  # a limit on a face temperature
+    limit = float(to_display_temperature(one, lim_k))
     span = float(x[-1])
     mids = 0.5 * (x[:-1] + x[1:])
     with styled():
@@ -186,8 +191,9 @@ def profile_figure(ds: xr.Dataset, *, scenario: int | None = None) -> Figure:
                         gid="band_5_95", label="5–95 % band")
         ax.plot(x, band[0.5], color=BLUE, lw=2.0, marker="o", ms=3.5, zorder=4, gid="median",
                 label="median", clip_on=False)
-        ax.axhline(limit, color=INK, ls="--", lw=1.2, zorder=5, gid="limit",
-                   label=f"limit {limit:.4g} {pretty_unit(temperature_unit(one))}")
+        if np.isfinite(limit):
+            ax.axhline(limit, color=INK, ls="--", lw=1.2, zorder=5, gid="limit",
+                       label=f"limit {limit:.4g} {pretty_unit(temperature_unit(one))}")
         inner = int(one.attrs.get("inner_surface_index", len(faces) - 1))
         right = span > 0 and x[inner] > 0.7 * span
         ax.annotate("inner surface", (x[inner], band[0.5][inner]),
@@ -261,7 +267,7 @@ def distribution_figure(ds: xr.Dataset, *, scenario: int | None = None) -> Figur
     mask = independent_mask(one)
     t = to_display_temperature(one, one["inner_surface_temperature"].values[mask])
     unit = pretty_unit(temperature_unit(one))
-    limit = float(to_display_temperature(one, one.attrs["limit"]))
+    limit = float(to_display_temperature(one, inner_limit(one)))
     qv = one["inner_surface_temperature_quantile"]
     p95 = float(to_display_temperature(one, select_quantile(qv, 0.95).item()))
     p95_lo = float(to_display_temperature(
@@ -287,7 +293,8 @@ def distribution_figure(ds: xr.Dataset, *, scenario: int | None = None) -> Figur
             if np.isfinite(p95_lo) and np.isfinite(p95_hi):
                 ax.axvspan(p95_lo, p95_hi, color=ORANGE, alpha=0.18, lw=0)
             ax.axvline(p95, color=ORANGE, ls=":", lw=2.0, gid="p95")
-            ax.axvline(limit, color=INK, ls="--", lw=1.2, gid="limit")
+            if np.isfinite(limit):
+                ax.axvline(limit, color=INK, ls="--", lw=1.2, gid="limit")
         bottom.axhline(0.95, color=GREY, lw=0.7, ls="-.")
         bottom.set_ylim(0.0, 1.02)
         top.set_ylabel(f"probability density [1/{unit}]")
@@ -355,7 +362,7 @@ def scatter_figure(ds: xr.Dataset, *, scenario: int | None = None, count: int = 
     chosen = top_parameters(ds, scenario=scenario, count=count)
     mask = independent_mask(one)
     t = to_display_temperature(one, one["inner_surface_temperature"].values[mask])
-    limit = float(to_display_temperature(one, one.attrs["limit"]))
+    limit = float(to_display_temperature(one, inner_limit(one)))
     names = [str(n) for n in one["parameter"].values]
     with styled():
         fig = Figure(figsize=(8.0, 4.2), layout="constrained")
@@ -369,7 +376,8 @@ def scatter_figure(ds: xr.Dataset, *, scenario: int | None = None, count: int = 
             if np.any(over):
                 ax.scatter(values[mask][over], t[over], s=14, marker="^", color=ORANGE,
                            edgecolor=INK, lw=0.3, rasterized=True, gid=f"over:{name}")
-            ax.axhline(limit, color=INK, ls="--", lw=1.1)
+            if np.isfinite(limit):
+                ax.axhline(limit, color=INK, ls="--", lw=1.1)
             group, quantity = _split(name)
             xlabel = f"{quantity} [{pretty_unit(unit)}]"
             ax.set_xlabel(xlabel if len(xlabel) <= 24 else xlabel.replace(" [", "\n["))

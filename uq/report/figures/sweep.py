@@ -21,8 +21,11 @@ from plyrisk.report.figures.common import (
     INK,
     ORANGE,
     add_title,
+    format_limit_value,
     format_percent,
     format_temperature,
+    inner_limit,
+    limit_quantile_variables,
     pretty_unit,
     select_quantile,
     styled,
@@ -109,9 +112,9 @@ def limit_crossing(ds: xr.Dataset) -> LimitCrossing:
     """
     x, quantity, unit = _sweep(ds)
     limit = float(ds.attrs["limit"])
-    est = np.asarray(select_quantile(ds["inner_surface_temperature_quantile"], 0.95), float)
-    upper = np.asarray(select_quantile(ds["inner_surface_temperature_quantile_upper"], 0.95),
-                       float)
+    q_est, _, q_upper = limit_quantile_variables(ds)  # of the output the limit applies to
+    est = np.asarray(select_quantile(q_est, 0.95), float)
+    upper = np.asarray(select_quantile(q_upper, 0.95), float)
     order = np.argsort(x, kind="stable")
     x, est, upper = x[order], est[order], upper[order]
     ok = np.isfinite(est)
@@ -119,7 +122,7 @@ def limit_crossing(ds: xr.Dataset) -> LimitCrossing:
     ok_u = np.isfinite(upper)
     status_u, at_u = _first_crossing(x[ok_u], upper[ok_u], limit)
     u = pretty_unit(unit)
-    t_lim = format_temperature(ds, limit)
+    t_lim = format_limit_value(ds, limit)
     if status == "crosses":
         text = f"P95 reaches the limit at ≈ {at:.3g} {u}"
         later = est[ok][x[ok] > at] < limit
@@ -166,7 +169,7 @@ def sweep_figure(ds: xr.Dataset) -> Figure:
          for p in (0.05, 0.5, 0.95)}
     y95_hi = to_display_temperature(
         ds, select_quantile(ds["inner_surface_temperature_quantile_upper"], 0.95).values)[order]
-    limit = float(to_display_temperature(ds, ds.attrs["limit"]))
+    limit = float(to_display_temperature(ds, inner_limit(ds)))
     tu = pretty_unit(temperature_unit(ds))
     with styled():
         fig = Figure(figsize=(8.0, 4.6), layout="constrained")
@@ -181,8 +184,10 @@ def sweep_figure(ds: xr.Dataset) -> Figure:
         ax.plot(x, y95_hi, color=GREY, lw=1.0, ls=(0, (1, 1.5)), gid="p95_upper",
                 label=f"upper {100 * conf:g} % bound of P95" if np.isfinite(conf)
                 else "upper bound of P95")
-        ax.axhline(limit, color=INK, ls="--", lw=1.2, gid="limit", label=f"limit {limit:.4g} {tu}")
-        if crossing.status == "crosses":
+        if np.isfinite(limit):
+            ax.axhline(limit, color=INK, ls="--", lw=1.2, gid="limit",
+                       label=f"limit {limit:.4g} {tu}")
+        if crossing.status == "crosses" and np.isfinite(limit):
             ax.plot([crossing.exposure], [limit], marker="D", ms=7, color=ORANGE,
                     markeredgecolor=INK, ls="none", gid="crossing", zorder=6,
                     label="P95 reaches the limit")
