@@ -286,8 +286,8 @@ def shapley_rows(joint_unit: np.ndarray, linear: np.ndarray, *, permutations: in
     z = np.repeat(outer[:, :, None, :], inner, axis=2)  # (m, steps, inner, d)
     # the set J of step j of permutation k, as a bit mask; every (k, j) with the same set
     # shares the conditional mean gain and covariance factor, drawn in one batch
-    bits = np.cumsum(1 << perms[:, :steps].astype(np.int64), axis=1) if steps else None
     if steps:
+        bits = np.cumsum(1 << perms[:, :steps].astype(np.int64), axis=1)
         flat_z = z.reshape(m * steps, inner, d)
         flat_outer = outer.reshape(m * steps, d)
         flat_eps = eps.reshape(m * steps, inner, d)
