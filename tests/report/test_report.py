@@ -150,6 +150,9 @@ def test_html_carries_the_cautions_at_the_top_and_the_end(report):
                                                "accredited laboratories") < text.index(
         '<h2 id="headline">Headline</h2>')
     assert text.rindex(html.escape(CAUTIONS[0])) > text.index('<h2 id="assumptions')
+    # the contents follow the verdict and its short caution, before the first section
+    assert text.index("Verdict:") < text.index('<nav class="toc"') < text.index(
+        '<h2 id="headline">Headline</h2>')
 
 
 def test_html_contents(report):

@@ -380,7 +380,8 @@ _HEADING = re.compile(r"<h2(?P<attrs>[^>]*)>(?P<text>.*?)</h2>")
 
 def with_contents(lines: list[str]) -> list[str]:
     """The HTML lines with an id on every ``<h2>`` and a table of contents of them, placed
-    after the first cautions box (before the first section heading when there is none).
+    after the first cautions box (the compact one below the verdict; before the first section
+    heading when there is none).
 
     Parameters
     ----------
@@ -413,8 +414,7 @@ def with_contents(lines: list[str]) -> list[str]:
         return out
     nav = ('<nav class="toc" aria-label="Contents"><h2 class="toc-title">Contents</h2><ol>'
            + "".join(f'<li><a href="#{a}">{t}</a></li>' for a, t in entries) + "</ol></nav>")
-    box = next((i for i, line in enumerate(out) if line.startswith('<div class="cautions">')),
-               None)
+    box = next((i for i, line in enumerate(out) if '<div class="cautions' in line), None)
     if box is None:
         box = next(i for i, line in enumerate(out) if _HEADING.search(line)) - 1
     return out[:box + 1] + [nav] + out[box + 1:]
