@@ -37,12 +37,16 @@ class UsageError(Exception):
 
 
 class _Formatter(argparse.HelpFormatter):
-    """Wraps the description; keeps the examples of the epilog line by line."""
+    """Wraps the description; keeps the exit codes and examples of the epilog line by line."""
 
     def _fill_text(self, text: str, width: int, indent: str) -> str:
-        if text.startswith("examples:"):
-            return "\n".join(indent + line for line in text.splitlines())
-        return super()._fill_text(text, width, indent)
+        out = []
+        for block in text.split("\n\n"):
+            if block.startswith(("examples:", "exit codes:")):
+                out.append("\n".join(indent + line for line in block.splitlines()))
+            else:
+                out.append(super()._fill_text(block, width, indent))
+        return "\n\n".join(out)
 
 
 def _examples(*lines: str) -> str:
@@ -173,7 +177,7 @@ def _add_run(subparsers) -> None:
     p.add_argument("--fail-if-not-met", action="store_true", help="exit with code 3 when the "
                    "study's criterion ([study] criterion, default 'P95 <= limit') is NOT MET "
                    "or UNDECIDED (for scripts and CI; the results are written all the same)")
-    p.epilog = f"{p.epilog}\n\n{EXIT_CODES}"
+    p.epilog = f"{EXIT_CODES}\n\n{p.epilog}"  # the examples stay last
     p.set_defaults(func=cmd_run)
 
 
@@ -742,13 +746,12 @@ def build_parser() -> argparse.ArgumentParser:
         description="Uncertainty and sensitivity studies of heat transfer through "
         "multilayer heat-protective assemblies: steady temperatures and transient exposures "
         "with skin burn injury. Engineering estimates only.",
-        epilog=_examples(
+        epilog=EXIT_CODES + "\n\n" + _examples(
             "plyrisk init study.toml        # a commented starting config (invented values)",
             "plyrisk check study.toml       # validate it; nominal solution",
             "plyrisk run study.toml         # the study; results and report in ./study/",
             "plyrisk tolerances study.toml  # tolerance feedback",
-            "plyrisk VERB --help            # options and examples of one verb")
-        + "\n\n" + EXIT_CODES,
+            "plyrisk VERB --help            # options and examples of one verb"),
         formatter_class=_Formatter,
     )
     from plyrisk.provenance import package_version
