@@ -117,7 +117,7 @@ def test_the_verdict_comes_first_with_the_cautions_below(fixture, request):
         "**Caution:**"))
     html = (run.out / "report.html").read_text(encoding="utf-8")
     body = html[html.index("<body>"):]
-    assert body.index('class="verdict"') < body.index("cautions compact") < body.index("<h2>",
+    assert body.index('class="verdict"') < body.index("cautions compact") < body.index("<h2 ",
                                                                                      body.index(
         "cautions compact"))
     word = next(w for w in (NOT_MET, UNDECIDED, MET) if f"VERDICT: {w}" in out)
