@@ -488,8 +488,7 @@ def _add_report(subparsers) -> None:
     p.add_argument("results", help="a results.nc written by plyrisk run")
     p.add_argument("--out", metavar="DIR", help="output folder (default: the folder of the "
                    "results file)")
-    p.add_argument("--quiet", action="store_true", help="no progress lines (they are shown on "
-                   "a terminal only)")
+    _verbosity(p, "no progress lines (they are shown on a terminal only)")
     p.set_defaults(func=cmd_report)
 
 
@@ -509,6 +508,7 @@ def cmd_report(args: argparse.Namespace) -> int:
     from plyrisk.pipeline.run import phase
     from plyrisk.results.dataset import read_results
 
+    _progress_clock(args)
     path = Path(args.results)
     if not path.is_file():
         raise UsageError(f"{path}: no such results file")

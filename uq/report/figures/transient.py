@@ -102,7 +102,7 @@ def bands_figure(ds: xr.Dataset, *, scenario: int | None = None) -> Figure:
     duration, flux = _exposure(one)
     horizon = float(ds.attrs.get("horizon", t[-1] if t.size else math.nan))
     with styled():
-        fig = Figure(figsize=(8.0, 5.6), layout="constrained")
+        fig = Figure(figsize=(8.0, 6.0), layout="constrained")
         top, bottom = fig.subplots(2, 1, sharex=True, height_ratios=(3.2, 1.0))
         top.set_label("bands")
         bottom.set_label("exposure")
@@ -125,7 +125,9 @@ def bands_figure(ds: xr.Dataset, *, scenario: int | None = None) -> Figure:
                 ax.axvspan(0.0, duration, color=ORANGE, alpha=0.10, lw=0)
         what = "basal-layer temperature (80 µm)" if skin else "sensor temperature"
         top.set_ylabel(temperature_label(ds, what))
-        top.legend(loc="upper right", fontsize="small")
+        # below both panels, so that it never hides a band
+        fig.legend(*top.get_legend_handles_labels(), loc="outside lower center", ncols=3,
+                   fontsize="small")
         add_title(top, f"{what.capitalize()} against time: percentile bands", label,
                   "each time's percentiles taken separately (not the history of one sample); "
                   f"{int(one['samples_used'].item()) if 'samples_used' in one else '?'} "
@@ -139,8 +141,11 @@ def bands_figure(ds: xr.Dataset, *, scenario: int | None = None) -> Figure:
         else:
             bottom.set_yticks([])
             bottom.set_ylabel("exposure")
-        bottom.text(0.01, 0.9, "exposure (shaded) then cool-down to the horizon",
-                    transform=bottom.transAxes, fontsize="small", va="top", color=INK)
+        # right of the exposure's end (where the step is back at zero), never over the step
+        right = duration / horizon if math.isfinite(duration) and horizon > 0 else 0.0
+        bottom.text(min(right + 0.02, 0.6), 0.9, "exposure (shaded) then cool-down to the "
+                    "horizon", transform=bottom.transAxes, fontsize="small", va="top",
+                    color=INK)
         bottom.set_xlabel("time from the start of the exposure [s]")
         bottom.set_xlim(0.0, horizon)
     return fig
@@ -288,6 +293,11 @@ def burn_sweep_figure(ds: xr.Dataset) -> Figure:
     return fig
 
 
+def _wrap(names: list[str]) -> int:
+    """Characters per subtitle line that fit right of the longest bar label (8 in figure)."""
+    return max(40, 88 - max((len(n) for n in names), default=0))
+
+
 def layer_indices_figure(ds: xr.Dataset, *, scenario: int | None = None,
                          output: str | None = None, groups: bool = True) -> Figure:
     """Sobol indices per layer (or per input) of a derived output; Morris mu* without them.
@@ -328,7 +338,7 @@ def layer_indices_figure(ds: xr.Dataset, *, scenario: int | None = None,
                 fit = str(s["surrogate_fit"].item())
             add_title(ax, ("Which layer buys the most time" if groups else
                            "Which input matters"), f"indices of {output}", label,
-                      textwrap.fill(f"rule: {rule}", 110), *([fit] if fit else []))
+                      textwrap.fill(f"rule: {rule}", _wrap(names)), *([fit] if fit else []))
         elif "morris_mu_star" in s:
             names = [str(n) for n in s["parameter"].values]
             fig = Figure(figsize=(8.0, 2.2 + 0.42 * len(names)), layout="constrained")
@@ -341,7 +351,7 @@ def layer_indices_figure(ds: xr.Dataset, *, scenario: int | None = None,
             ax.set_xlabel(f"Morris mu* of {output} [{s[output].attrs.get('units', '')}"
                           " per grid step]" if output in s else "Morris mu*")
             add_title(ax, f"Screening: Morris mu* of {output}", label,
-                      textwrap.fill(f"rule: {rule}", 110))
+                      textwrap.fill(f"rule: {rule}", _wrap(names)))
         else:
             raise ValueError("the dataset has no indices (sobol_* or morris_*)")
     return fig
