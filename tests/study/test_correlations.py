@@ -132,6 +132,26 @@ def test_nearest_correlation_of_a_known_case():
     assert x[0, 2] == pytest.approx(0.1573, abs=2e-4)
 
 
+def test_nearest_correlation_against_an_independent_minimisation():
+    # Source: the definition (Higham 2002, eq. 1.1): the correlation matrix nearest in the
+    # Frobenius norm. Independent check: minimise ||V V^T - A||_F over factors V with unit rows
+    # (every such V V^T is a correlation matrix) with scipy's BFGS from several starts.
+    from scipy.optimize import minimize
+
+    a = np.array([[1.0, 1.0, 0.0], [1.0, 1.0, 1.0], [0.0, 1.0, 1.0]])
+
+    def corr(v):
+        f = v.reshape(3, 3)
+        f = f / np.linalg.norm(f, axis=1, keepdims=True)
+        return f @ f.T
+
+    best = min((minimize(lambda v: np.sum((corr(v) - a) ** 2),
+                         np.random.default_rng(seed).normal(size=9), method="BFGS",
+                         options={"gtol": 1e-10}) for seed in range(6)), key=lambda r: r.fun)
+    x = nearest_correlation(a, floor=0.0, iterations=2000)
+    assert np.allclose(x, corr(best.x), atol=2e-4)
+
+
 def test_other_methods_are_refused_on_the_command_line_too():
     study = load('pairs = [["gap.width", "skin gap.width", 0.5]]\n')
     with pytest.raises(ValueError, match=r"--method saltelli: the config has a \[correlations\]"):
