@@ -114,7 +114,11 @@ def cmd_check(args: argparse.Namespace) -> int:
     from plyrisk.study.config import load_study
     from plyrisk.text.check import check_text
 
-    text, converged = check_text(load_study(args.config))
+    study = load_study(args.config)
+    if study.transient is not None and sys.stderr.isatty():
+        print(f"{PROG}: solving the nominal history (the first run after installation compiles "
+              "the time loop once: up to a minute)", file=sys.stderr, flush=True)
+    text, converged = check_text(study)
     print(fit_width(text))
     return 0 if converged else 1
 

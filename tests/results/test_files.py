@@ -104,6 +104,8 @@ def test_manifest_lists_the_set_with_sizes_and_hashes(tmp_path):
 def test_same_fingerprint_is_up_to_date(tmp_path):
     _write_set(tmp_path, {"results.nc": "r"})
     assert decide(tmp_path, fingerprint="a", overwrite=False).up_to_date
+    # --overwrite recomputes even an up-to-date result (the message of 'run' says so)
+    assert not decide(tmp_path, fingerprint="a", overwrite=True).up_to_date
     assert not decide(tmp_path, fingerprint="a", overwrite=False,
                       needs={"report": False}).up_to_date
     (tmp_path / "results.nc").write_text("edited by hand")

@@ -129,6 +129,8 @@ def test_absorbed_flux_mode_needs_no_gas():
 
 def test_uncertain_exposure_wearer_and_layer_values_become_named_parameters():
     text = BASE.replace('duration = "6 s"', 'duration = { uniform = ["4 s", "8 s"] }')
+    # the shell touches the skin (a wearer contact resistance behind a gap is refused)
+    text = text.replace('[[layer]]\nname = "skin gap"\nkind = "gap"\nwidth = "3 mm"\n\n', "")
     text = text.replace('density = "300 kg/m^3"',
                         'density = { normal = { mean = "300 kg/m^3", sd = "20 kg/m^3" } }')
     text += '''contact_resistance = { uniform = ["0.001 m^2*K/W", "0.003 m^2*K/W"] }
@@ -141,6 +143,7 @@ thickness = { uniform = ["60 um", "100 um"] }
                                      "wearer.core_temperature", "wearer.contact_resistance",
                                      "wearer.epidermis.thickness")
     assert study.groups == ("exposure", "shell", "wearer")
+    assert len(study.layers) == 1
     p = study.parameters[-1]
     assert p.target == ("wearer", "epidermis", "thickness") and p.unit == "um"
     assert p.key_path == "wearer.epidermis.thickness"
@@ -193,6 +196,10 @@ def test_sensor_defaults_are_the_copper_disc_module():
     assert float(w.heat_capacity) == pytest.approx(float(copper_disc().heat_capacity_per_area))
 
 
+NO_GAP = BASE.replace('[[layer]]\nname = "skin gap"\nkind = "gap"\nwidth = "3 mm"\n\n', "")
+"""The shell touching the wearer (a wearer contact resistance behind a gap is refused)."""
+
+
 def test_sensor_keys():
     study = study_with('kind = "skin"\n', '''kind = "sensor"
 diameter = "40 mm"
@@ -201,7 +208,7 @@ specific_heat = "385 J/kg/K"
 emissivity = 0.9
 initial_temperature = "25 degC"
 contact_resistance = "0.004 m^2*K/W"
-''')
+''', base=NO_GAP)
     w = study.transient.wearer
     disc = copper_disc(thickness=1.6e-3, mass=None, initial_temperature=298.15)
     assert float(w.heat_capacity) == pytest.approx(float(disc.heat_capacity_per_area))

@@ -28,6 +28,7 @@ from plyrisk.report.tables import Table, cell_text, provenance_table
 from plyrisk.report.verdict import verdict_html, verdict_markdown
 from plyrisk.results.dataset import scenario_slices
 from plyrisk.text.indices import NOT_RESOLVED
+from plyrisk.text.transient import criterion_note
 
 __all__ = ["headline_lines", "transient_figures", "write_transient_report"]
 
@@ -98,14 +99,19 @@ def headline_lines(ds: xr.Dataset) -> list[tuple[str, list[str]]]:
         if "event_time_quantile" in one:
             what = EVENT_TEXT[event]
             lines.append(f"Time to {what}: P5 {_time(one, event, 0.05)}, median "
-                         f"{_time(one, event, 0.5)} ({conf} confidence; '> {horizon:g} s' = "
-                         "beyond the horizon).")
+                         f"{_time(one, event, 0.5)} ({conf} confidence; counted from the start "
+                         f"of the exposure; '> {horizon:g} s' = beyond the horizon).")
             b = {k: float(one[f"event_probability{k}"].sel(event=event)) for k in
                  ("", "_lower", "_upper")}
             lines.append(f"P({what} within {horizon:g} s) = {format_percent(b[''])} "
                          f"[{format_percent(b['_lower'])}, {format_percent(b['_upper'])}] "
                          f"({int(one['event_count'].sel(event=event))} of "
                          f"{int(one['samples_used'])} samples).")
+            note = criterion_note(str(ds.attrs.get("criterion", "")) if not int(
+                ds.attrs.get("criterion_is_default", 1)) else "", event, b[""],
+                float(ds.attrs.get("acceptable_burn_probability", 0.05)))
+            if note:
+                lines.append(note[0].upper() + note[1:] + ".")
         else:
             lines.append("Screening only (method = morris): no percentiles or probabilities.")
         if "exposure_energy_at_criterion_quantile" in one:
@@ -256,6 +262,9 @@ def _ranking_tables(ds: xr.Dataset) -> list[Table]:
                          cell_text(f"{first[j]:.3f} ± {fci[j]:.3f}"),
                          _index_status(((tot[j], tci[j]), (first[j], fci[j])), threshold)]
                         for k, j in enumerate(order)]
+                if not np.isfinite(tot).any():  # e.g. every sample burns, or none does
+                    rows = [["-", "(none)", "", "", "", "the output is the same in every "
+                             "converged sample: no input moves it"]]
                 tables.append(Table(["rank", "input", "layer", "total index", "first-order",
                                      "status"],
                                     rows, f"Inputs ranked for {o}"
@@ -275,9 +284,12 @@ def _ranking_tables(ds: xr.Dataset) -> list[Table]:
 
 
 def _index_status(pairs, threshold: float) -> str:
-    """``ok``, or ``not resolved: more samples`` when an estimate lies outside [0, 1] by more
-    than its interval or its interval is wider than ``threshold``."""
-    bad = any(not_resolved(v, c) or not c <= threshold for v, c in pairs if np.isfinite(v))
+    """``ok``; ``not resolved: more samples`` when an estimate lies outside [0, 1] by more
+    than its interval or its interval is wider than ``threshold``; ``undefined`` when an
+    estimate is not a number (an output that does not vary)."""
+    if not all(np.isfinite(v) for v, _ in pairs):
+        return "undefined (the output does not vary enough)"
+    bad = any(not_resolved(v, c) or not c <= threshold for v, c in pairs)
     return NOT_RESOLVED if bad else "ok"
 
 
@@ -514,7 +526,9 @@ def _provenance(ds: xr.Dataset) -> Table:
     rows = [r for r in t.rows if r[0] not in ("gap radiation", "gap convection")]
     rows[4:4] = [["wearer", str(ds.attrs.get("wearer_kind", ""))],
                  ["horizon", f"{float(ds.attrs.get('horizon', math.nan)):g} s"],
-                 ["damage constants", str(ds.attrs.get("damage_model", ""))]]
+                 (["burn criterion", "the sensor's second-degree criterion (Stoll & Chianta)"]
+                  if ds.attrs.get("wearer_kind") == "sensor" else
+                  ["damage constants", str(ds.attrs.get("damage_model", ""))])]
     return Table(t.header, rows)
 
 

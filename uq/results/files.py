@@ -436,8 +436,9 @@ def decide(folder: str | Path, *, fingerprint: str, overwrite: bool,
         complete = m.state == "complete"
         same = complete and m.fingerprint == fingerprint
         intact = complete and _unchanged(folder, m.files)
-        if same and intact and all(m.details.get(k) == v for k, v in (needs or {}).items()):
-            return Decision(True, m)
+        if (same and intact and not overwrite
+                and all(m.details.get(k) == v for k, v in (needs or {}).items())):
+            return Decision(True, m)  # --overwrite recomputes even an up-to-date result
         if complete and not m.fingerprint:  # files of ours but no result: add to them
             _refuse_changed(folder, m)
             _refuse_foreign(folder, names, m)

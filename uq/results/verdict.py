@@ -158,7 +158,8 @@ class Verdict:
         elif self.metric.startswith("P("):
             words = f"P({self.output_text})"
         else:
-            words = f"{self.metric} of the {self.output_text}"
+            # "P5(time_to_second_degree_burn)" -> "P5 of the time to second-degree burn"
+            words = f"{self.metric.split('(')[0]} of the {self.output_text}"
         return (f"{self.criterion}  ({words} {self.comparison} {self.show(self.bound)}"
                 + ("; the default criterion" if self.default else "") + ")")
 
@@ -364,7 +365,8 @@ def _transient(ds: xr.Dataset, target: Target, default: bool, confidence: float,
                 missing = f"the percentile {target.label} was not computed"
         value, lower, upper = (_per(p, n) for p in parts)
         bound, units, shown, comparison = target.threshold, "s", "s", ">="
-        what = EVENT_TIMES.get(event, target.output).replace("_", " ")
+        what = (f"time to {event.replace('_', '-', 1).replace('_', ' ')}"
+                if event in EVENT_TIMES else target.output.replace("_", " "))
     scen = []
     for k, lb in enumerate(labels):
         v, reason = _judge(value[k], lower[k], upper[k], bound, comparison, missing)

@@ -215,6 +215,13 @@ def loads_study(text: str, *, source: str = "<string>") -> Study:
         where = re.search(r"\(at line (\d+), column (\d+)\)", msg)
         path = f"line {where.group(1)}, column {where.group(2)}" if where else "end of file"
         msg = re.sub(r"\s*\(at (line \d+, column \d+|end of document)\)", "", msg)
+        if where and msg.lower().startswith("invalid value"):
+            # the usual cause: a word or a quantity without quotes (kind = gap)
+            lines = text.splitlines()
+            row = lines[int(where.group(1)) - 1] if int(where.group(1)) <= len(lines) else ""
+            key = row.split("=", 1)[0].strip() if "=" in row else ""
+            msg += (f" for {key!r}" if key else "") + ("; words and quantities need quotes, "
+                                                       'e.g. kind = "gap", thickness = "0.7 mm"')
         raise ConfigError(source, path, f"invalid TOML: {msg}") from None
     cv.check_keys(ctx, data, cv.TOP, SECTIONS, what="section")
     parsed: dict[str, Any] = {"source": source, "text": text, "parameters": [],
@@ -360,6 +367,12 @@ def check_transient_models(ctx: Context, layers: Sequence[Solid | Gap], wearer: 
         validate_transient_stack(list(layers), wearer)
     except StackError as err:
         raise ctx.error(stack_key_path(err), f"{prefix}{err}") from None
+    if (not prefix and layers and isinstance(layers[-1], Gap)
+            and getattr(wearer, "contact_resistance", None) is not None):
+        # nothing given is silently ignored: behind a gap the wearer touches no layer
+        raise ctx.error("wearer.contact_resistance", f"applies only when the last layer (a "
+                        f"solid) touches the wearer, but the last layer {layers[-1].name!r} is "
+                        "a gap; remove it (the gap's conduction and radiation reach the wearer)")
 
 
 def _check_support(ctx: Context, study: Study) -> None:

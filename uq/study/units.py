@@ -428,9 +428,23 @@ def _units(unit: str, *, difference: bool) -> pint.Unit:
     return units
 
 
+_KINDS = (("W/m^2", "heat flux"), ("W", "power"), ("J/m^2", "energy per area"),
+          ("J", "energy"), ("m", "length"), ("s", "time"), ("K", "temperature"),
+          ("W/m/K", "thermal conductivity"), ("W/m/K^2", "conductivity per kelvin"),
+          ("W/m^2/K", "heat transfer coefficient"), ("m^2*K/W", "thermal resistance per area"),
+          ("kg/m^3", "density"), ("J/kg/K", "specific heat"), ("J/m^2/K", "heat capacity per "
+          "area"), ("kg", "mass"), ("Pa", "pressure"), ("m^2", "area"), ("1/s", "rate"))
+"""Dimensions named in words in error messages (the unit in brackets is an example)."""
+
+
 def _dim(units: pint.Unit) -> str:
-    dim = str(units.dimensionality)
-    return "dimensionless" if dim in ("", "dimensionless") else dim
+    dim = units.dimensionality
+    if str(dim) in ("", "dimensionless"):
+        return "dimensionless"
+    for example, words in _KINDS:
+        if ureg.parse_units(example).dimensionality == dim:
+            return f"{words} (like {example})"
+    return str(dim)
 
 
 def _g(value: float, digits: int = 4) -> str:

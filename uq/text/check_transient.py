@@ -146,8 +146,11 @@ def _setup_lines(study: Study) -> list[str]:
     t = setup.output_times
     lines = [
         f"Analysis: {method}; seed {a.seed}",
-        f"  target: {target} within the horizon at most "
-        f"{100 * setup.acceptable_burn_probability:g} %",
+        (f"  verdict criterion: {a.criterion}; also reported: {target} within the horizon "
+         f"(acceptable: at most {100 * setup.acceptable_burn_probability:g} %)"
+         if a.criterion else
+         f"  target: {target} within the horizon at most "
+         f"{100 * setup.acceptable_burn_probability:g} %"),
         "  percentiles: " + ", ".join(f"{100 * q:g}" for q in a.percentiles)
         + f"; confidence {100 * a.confidence:g} %",
         f"Model: transient; gap radiation {study.model.radiation}; natural convection in gaps "

@@ -96,6 +96,48 @@ def dominant(study: Any, sc: TransientScenarioAnalysis, output: str) -> tuple[st
     return "", ""
 
 
+def criterion_note(criterion: str, event: str, probability: float,
+                   acceptable: float | None) -> str:
+    """A warning when the verdict judges another criterion while P(event) is too high.
+
+    A criterion on a time quantile (``P5(time_to_second_degree_burn) >= 18 s``) can be MET
+    while many samples burn; the probability is then flagged beside the answer so that the
+    verdict is not read as "no burn".
+
+    Parameters
+    ----------
+    criterion
+        The study's ``[study] criterion`` ("" for the default) [-].
+    event
+        The headline event, e.g. ``"second_degree_burn"`` [-].
+    probability
+        Its probability within the horizon [-].
+    acceptable
+        ``[study] acceptable_burn_probability`` (``None``: the default, 5 %) [-].
+
+    Returns
+    -------
+    str
+        The note, or "" when the criterion is the default or the probability acceptable.
+
+    Examples
+    --------
+    >>> criterion_note("P5(time_to_second_degree_burn) >= 18 s", "second_degree_burn",
+    ...                0.63, 0.05)[:60]
+    'note: this probability is above the acceptable 5 % of [study'
+    >>> criterion_note("", "second_degree_burn", 0.63, 0.05)
+    ''
+    """
+    if not criterion or criterion.replace(" ", "").startswith(f"P({event})"):
+        return ""
+    acceptable = 0.05 if acceptable is None else acceptable
+    if not (math.isfinite(probability) and probability > acceptable):
+        return ""
+    return (f"note: this probability is above the acceptable {100 * acceptable:g} % of [study] "
+            f"acceptable_burn_probability; the verdict judges only the criterion "
+            f"{criterion!r}, not the chance of a burn")
+
+
 def headline_sentences(study: Any, analysis: TransientAnalysis, s: int) -> list[str]:
     """The answer of one exposure in three sentences: time, probability, dominant layer."""
     f = analysis.facts
@@ -107,10 +149,15 @@ def headline_sentences(study: Any, analysis: TransientAnalysis, s: int) -> list[
         q, b = sc.times[event], sc.burn[event]
         what = EVENT_TEXT[event]
         out.append(f"time to {what}: P5 {time_text(q, 0.05)}, median {time_text(q, 0.5)} "
-                   f"({conf} confidence; '> {f.horizon:g} s' = beyond the horizon)")
+                   f"({conf} confidence; counted from the start of the exposure; "
+                   f"'> {f.horizon:g} s' = beyond the horizon)")
         out.append(f"P({what} within {f.horizon:g} s) = {percent(b.probability)} "
                    f"[{percent(b.lower)}, {percent(b.upper)}] ({b.method}; {b.count} of "
                    f"{b.n} samples)")
+        note = criterion_note(study.analysis.criterion, event, b.probability,
+                              f.acceptable_burn_probability)
+        if note:
+            out.append(note)
         if f.wearer_kind == "sensor" and sc.exposure_energy is not None:
             e = sc.exposure_energy
             out.append("rating (exposure energy when the sensor reaches the criterion): P5 "
@@ -166,7 +213,8 @@ def transient_summary_lines(study: Any, analysis: TransientAnalysis, *, evaluati
     """
     f = analysis.facts
     lines = [f"transient model: {f.wearer_kind} behind the assembly, horizon {f.horizon:g} s, "
-             f"damage constants {f.damage_model or 'n/a'}"]
+             + ("burn criterion: the sensor's second-degree criterion (Stoll & Chianta)"
+                if f.wearer_kind == "sensor" else f"damage constants {f.damage_model or 'n/a'}")]
     for s, sc in enumerate(analysis.scenarios):
         lines.append("")
         if study.scenarios is not None:
@@ -219,6 +267,10 @@ def _details(study, analysis: TransientAnalysis, sc, temperature) -> list[str]:
 def _rankings(study, analysis: TransientAnalysis, sc, top: int) -> list[str]:
     lines = []
     for o in analysis.outputs[:2]:
+        if o in sc.constant_outputs:  # no variance to share: no ranking, whatever the samples
+            lines.append(f"inputs ranked by {o}: none (the output is the same in every "
+                         "converged sample, so no input moves it)")
+            continue
         groups = sc.group_ranking.get(o) or []
         params = sc.ranking.get(o) or []
         if params:
@@ -232,7 +284,9 @@ def _rankings(study, analysis: TransientAnalysis, sc, top: int) -> list[str]:
         if groups:
             lines.append(f"layers ranked by total index of {o}:")
             for r, item in enumerate(groups[:top], start=1):
-                lines.append(f"  {r}. {item.name:<32} total {item.total:6.3f} ± "
+                name = (f"{item.name} (not a layer)" if item.name in CONDITION_GROUPS
+                        else item.name)
+                lines.append(f"  {r}. {name:<32} total {item.total:6.3f} ± "
                              f"{item.total_ci:.3f}  {_status(item)}")
         m = sc.screening.get(o)
         if m is not None:

@@ -325,6 +325,11 @@ def layer_indices_figure(ds: xr.Dataset, *, scenario: int | None = None,
         if "sobol_total" in s:
             prefix, dim = ("sobol_group", "group") if groups else ("sobol", "parameter")
             names = [str(n).replace("_", " ") for n in s[dim].values]
+            if groups:  # the exposure and the wearer are ranked too, but are not layers
+                from plyrisk.analysis.transient import CONDITION_GROUPS
+
+                names = [f"{n} (not a layer)" if str(g) in CONDITION_GROUPS else n
+                         for n, g in zip(names, s[dim].values, strict=True)]
             fig = Figure(figsize=(8.0, 2.2 + 0.42 * len(names)), layout="constrained")
             ax = fig.add_subplot()
             ax.set_label("layer indices" if groups else "indices")
