@@ -86,7 +86,31 @@ def shapley_tables(ds: xr.Dataset) -> list[Table]:
             out.append(Table(header + ["Shapley effect ± CI", "status"], rows,
                              f"{what} by Shapley effect of the inner-surface temperature"
                              f"{suffix}"))
+        table = _dependent_index_table(one, k, suffix)
+        if table is not None:
+            out.append(table)
     return out
+
+
+def _dependent_index_table(one: xr.Dataset, k: int, suffix: str) -> Table | None:
+    """The four indices of dependent inputs per parameter, in the order of the effects."""
+    from plyrisk.text.shapley import INDEX_COLUMNS
+
+    cols = [(attr, label) for attr, label in INDEX_COLUMNS if f"{attr}_index" in one]
+    if not cols:
+        return None
+    eff = np.asarray(one["shapley_effect"].values[k], dtype=float)
+    order = np.argsort(-np.nan_to_num(eff, nan=-np.inf), kind="stable")
+    names = [str(n).replace("_", " ") for n in one["parameter"].values]
+    rows = []
+    for j in order:
+        rows.append([names[j]] + [
+            _cell(float(one[f"{attr}_index"].values[k, j]),
+                  float(one[f"{attr}_index_ci"].values[k, j])) for attr, _ in cols])
+    return Table(["parameter"] + [f"{label} ± CI" for _, label in cols], rows,
+                 "Indices of dependent inputs of the inner-surface temperature (full: with "
+                 "what the correlated partners carry; indep.: the parameter's own part)"
+                 f"{suffix}")
 
 
 def write_shapley_csv(ds: xr.Dataset, out) -> list:
