@@ -84,6 +84,8 @@ def test_run_writes_shapley_effects(tmp_path):
     csv_text = (tmp_path / "out" / "shapley.csv").read_text()
     assert csv_text.startswith("scenario,output,kind,name,shapley_effect")
     assert ",layer,skin gap," in csv_text
+    assert csv_text.splitlines()[0].endswith("independent_total_index,"
+                                             "independent_total_index_ci_half_width")
     assert np.isfinite(eff).all()
 
 

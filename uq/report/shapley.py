@@ -115,24 +115,31 @@ def _dependent_index_table(one: xr.Dataset, k: int, suffix: str) -> Table | None
 
 def write_shapley_csv(ds: xr.Dataset, out) -> list:
     """Write ``shapley.csv`` (every output, parameter and layer effect with its half-width,
-    rank and status) into the folder ``out``; ``[]`` without Shapley effects."""
+    rank and status, and per parameter the four indices of dependent inputs with their
+    half-widths) into the folder ``out``; ``[]`` without Shapley effects."""
     from pathlib import Path
 
     from plyrisk.report.csv_tables import write_csv
+    from plyrisk.text.shapley import INDEX_COLUMNS
 
     if not has_shapley(ds):
         return []
+    indices = [f"{attr}_index" for attr, _ in INDEX_COLUMNS if f"{attr}_index" in ds]
     rows = []
     for _, label, one in scenario_values(ds):
         for k, o in enumerate(str(v) for v in one["output"].values):
             for dim, prefix, kind in (("parameter", "shapley", "parameter"),
                                       ("group", "shapley_group", "layer")):
                 for j, name in enumerate(str(v) for v in one[dim].values):
+                    extra: list = []
+                    for v in indices:  # per parameter only; empty for a layer
+                        extra += ([float(one[v].values[k, j]), float(one[f"{v}_ci"].values[k, j])]
+                                  if dim == "parameter" else ["", ""])
                     rows.append([label, o, kind, name,
                                  float(one[f"{prefix}_effect"].values[k, j]),
                                  float(one[f"{prefix}_effect_ci"].values[k, j]),
                                  int(one[f"{prefix}_rank"].values[k, j]),
-                                 bool(one[f"{prefix}_converged"].values[k, j])])
-    return [write_csv(Path(out) / "shapley.csv", ["scenario", "output", "kind", "name",
-                                                  "shapley_effect", "ci_half_width", "rank",
-                                                  "converged"], rows)]
+                                 bool(one[f"{prefix}_converged"].values[k, j]), *extra])
+    header = ["scenario", "output", "kind", "name", "shapley_effect", "ci_half_width", "rank",
+              "converged"] + [c for v in indices for c in (v, f"{v}_ci_half_width")]
+    return [write_csv(Path(out) / "shapley.csv", header, rows)]
