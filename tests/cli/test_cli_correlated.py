@@ -22,8 +22,9 @@ pytestmark = pytest.mark.slow
 
 
 def small(tmp: Path) -> Path:
-    text = DEMO.read_text().replace("samples = 1024 ", "samples = 128 ").replace(
+    text = DEMO.read_text().replace("samples = 2048 ", "samples = 128 ").replace(
         "permutations = 2048 ", "permutations = 128 ")
+    assert "samples = 128 " in text and "permutations = 128 " in text
     path = tmp / "correlated_fit.toml"
     path.write_text(text + '\n[tolerances]\nsamples = 256\ntarget = "P95 <= 75 degC"\n')
     return path
