@@ -314,3 +314,26 @@ def test_results_do_not_depend_on_the_chunk_size():
                  "full_total", "full_total_ci", "independent_total", "independent_total_ci"):
         assert np.array_equal(getattr(effects[0], attr), getattr(effects[1], attr)), attr
     assert effects[0].rosenblatt_used == 64
+
+
+def test_rerun_counts_follow_the_source_of_the_width():
+    # closed form derivation: the squared half-width is the sum of a permutation part
+    # (1 - s) h^2 and a joint-draw part s h^2, each shrinking as 1 / count
+    from plyrisk.analysis.shapley import ShapleyEffects, rerun_counts
+
+    def eff(h, share):
+        return ShapleyEffects(("x",), np.array([0.5]), np.array([h]), 0.9, 1000, 0, 2000, 1.0,
+                              joint_share=np.array([share]))
+
+    assert rerun_counts(eff(0.04, 0.5), ci_threshold=0.05) is None
+    assert rerun_counts(eff(0.1, 0.0), ci_threshold=0.05) == (4000, 2000)
+    assert rerun_counts(eff(0.1, 0.2), ci_threshold=0.05) == (16000, 2000)
+    assert rerun_counts(eff(0.1, 0.5), ci_threshold=0.05) == (4000, 8000)
+
+
+@pytest.mark.slow
+def test_joint_share_tells_which_draws_set_the_width():
+    b, r = np.array([1.0, 2.0, 0.5]), np.eye(3)
+    few_joint, _ = estimate(lambda z: z @ b, r, n=200, m=20_000, seed=1, blocks=False)
+    few_perms, _ = estimate(lambda z: z @ b, r, n=50_000, m=200, seed=1, blocks=False)
+    assert few_joint.joint_share[1] > 0.8 and few_perms.joint_share[1] < 0.2

@@ -75,7 +75,8 @@ import numpy as np
 from plyrisk.design.copula import SPAWN
 
 __all__ = ["DependentIndices", "ShapleyEffects", "linear_gaussian_indices",
-           "linear_gaussian_shapley", "rank_effects", "rosenblatt_indices", "shapley_effects"]
+           "linear_gaussian_shapley", "rank_effects", "rerun_counts", "rosenblatt_indices",
+           "shapley_effects"]
 
 
 @dataclass(frozen=True)
@@ -117,6 +118,10 @@ class ShapleyEffects:
     rosenblatt_used
         Rows j of the Rosenblatt blocks behind eqs. S.2 to S.5 (a row with any non-finite
         output in A, B, C_i or D_i is dropped whole); 0 without the blocks [-].
+    joint_share
+        Per effect, the share of its bootstrap variance that comes from the joint draws (behind
+        Var(Y)) rather than the permutations, from the same resamples with one source held
+        fixed [-]; it says which count narrows the interval (:func:`rerun_counts`).
     """
 
     names: tuple[str, ...]
@@ -137,6 +142,7 @@ class ShapleyEffects:
     full_total: np.ndarray | None = None
     full_total_ci: np.ndarray | None = None
     rosenblatt_used: int = 0
+    joint_share: np.ndarray | None = None
 
 
 class DependentIndices(NamedTuple):
@@ -389,6 +395,10 @@ def shapley_effects(y_joint: np.ndarray, y_cond: np.ndarray, permutations: np.nd
     boot = np.empty((int(n_bootstrap), d))
     boot_full = np.empty((int(n_bootstrap), d))
     boot_indep = np.empty((int(n_bootstrap), d))
+    # the same resamples with one source held fixed: which source sets the widths
+    only_perms = np.empty((int(n_bootstrap), d))
+    only_joint = np.empty((int(n_bootstrap), d))
+    d0_mean, e_mean = d0.mean(axis=0), e.mean(axis=0)
     for b in range(int(n_bootstrap)):
         ip = rng.integers(0, used, used)
         ij = rng.integers(0, yj.size, yj.size)
@@ -396,7 +406,15 @@ def shapley_effects(y_joint: np.ndarray, y_cond: np.ndarray, permutations: np.nd
         boot[b] = d0[ip].mean(axis=0) / v + e[ip].mean(axis=0)
         boot_full[b] = 1.0 - _by_input(c_last[ip], last_in[ip], d) / v
         boot_indep[b] = _by_input(c_first[ip], first_in[ip], d) / v
+        only_perms[b] = d0[ip].mean(axis=0) / var + e[ip].mean(axis=0)
+        only_joint[b] = d0_mean / v + e_mean
     alpha = 0.5 * (1.0 - confidence)
+
+    def joint_share(m: np.ndarray) -> np.ndarray:
+        """Share of the bootstrap variance that comes from the joint draws [-]."""
+        vp, vj = np.var(only_perms @ m, axis=0), np.var(only_joint @ m, axis=0)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            return np.where(vp + vj > 0.0, vj / (vp + vj), 0.0)
 
     def half(samples: np.ndarray) -> np.ndarray:
         lo, hi = np.nanquantile(samples, [alpha, 1.0 - alpha], axis=0)
@@ -404,7 +422,7 @@ def shapley_effects(y_joint: np.ndarray, y_cond: np.ndarray, permutations: np.nd
 
     ind = replace(result(names, effect, half(boot), used, var, False), full_first=full,
                   full_first_ci=half(boot_full), independent_total=indep,
-                  independent_total_ci=half(boot_indep))
+                  independent_total_ci=half(boot_indep), joint_share=joint_share(np.eye(d)))
     if y_rosenblatt is not None:
         est, hw, rows = rosenblatt_indices(y_a, y_rosenblatt, d, confidence=confidence,
                                            n_bootstrap=n_bootstrap, seed=seed)
@@ -415,17 +433,57 @@ def shapley_effects(y_joint: np.ndarray, y_cond: np.ndarray, permutations: np.nd
                       independent_total_ci=hw.independent_total, rosenblatt_used=rows)
     grp = None
     if g_members is not None:
-        grp = result(group_names, effect @ membership, half(boot @ membership), used, var,
-                     False)
+        grp = replace(result(group_names, effect @ membership, half(boot @ membership), used,
+                             var, False), joint_share=joint_share(membership))
     return ind, grp
+
+
+def _up(count: float) -> int:
+    """A count rounded up, ignoring floating-point dust."""
+    return math.ceil(round(count, 6))
+
+
+def _needed(effects: ShapleyEffects, k: int, ci_threshold: float) -> tuple[float, float]:
+    """Factors on (permutations, joint draws) that bring effect k's half-width to the
+    threshold: the permutations alone (``inf`` when the joint draws' part already exceeds
+    it), else both by the same factor (half-widths squared add over the two sources, each
+    shrinking as 1 / count)."""
+    h = float(effects.effect_ci[k])
+    share = (float(effects.joint_share[k]) if effects.joint_share is not None else 0.0)
+    thr2, h2 = ci_threshold**2, h * h
+    if thr2 > share * h2:
+        return (1.0 - share) * h2 / (thr2 - share * h2), 1.0
+    return h2 / thr2, h2 / thr2
+
+
+def rerun_counts(effects: ShapleyEffects, *, ci_threshold: float
+                 ) -> tuple[int, int] | None:
+    """``(permutations, joint draws)`` that would bring every interval within the threshold,
+    or ``None`` when all are; the joint draws stay as they are unless the permutations alone
+    cannot do it (:attr:`ShapleyEffects.joint_share`; half-widths shrink as 1 / sqrt(count)).
+    """
+    wide = [k for k in range(len(effects.names))
+            if math.isfinite(float(effects.effect_ci[k]))
+            and float(effects.effect_ci[k]) > ci_threshold]
+    if not wide:
+        return None
+    m = effects.permutations_used + effects.permutations_dropped
+    factors = [_needed(effects, k, ci_threshold) for k in wide]
+    if any(f[1] > 1.0 for f in factors):
+        # both counts by one factor F: every half-width squared shrinks by F, so F is the
+        # largest (h / threshold)^2, which also covers the effects the permutations could settle
+        both = max(float(effects.effect_ci[k]) ** 2 / ci_threshold**2 for k in wide)
+        return _up(m * both), _up(effects.joint_used * both)
+    return _up(m * max(f[0] for f in factors)), effects.joint_used
 
 
 def rank_effects(effects: ShapleyEffects, *, ci_threshold: float) -> list:
     """Parameters (or layers) ranked by Shapley effect, largest first, as
     :class:`plyrisk.analysis.sobol.RankedIndex` records (first = total = the effect).
 
-    ``suggested_base_samples`` is the permutation count that would bring the widest interval
-    to ``ci_threshold`` (intervals shrink as 1 / sqrt(m)).
+    ``suggested_base_samples`` is the permutation count that would bring the interval to
+    ``ci_threshold`` (the permutations' part of the half-width shrinks as 1 / sqrt(m)); ``None``
+    when the joint draws' part alone exceeds it (more ``samples`` needed: :func:`rerun_counts`).
     """
     from plyrisk.analysis.sobol import RankedIndex
 
@@ -434,8 +492,10 @@ def rank_effects(effects: ShapleyEffects, *, ci_threshold: float) -> list:
     for k, name in enumerate(effects.names):
         s, ci = float(effects.effect[k]), float(effects.effect_ci[k])
         converged = bool(ci <= ci_threshold)
-        suggested = (math.ceil(n_design * (ci / ci_threshold) ** 2)
-                     if not converged and math.isfinite(ci) else None)
+        suggested = None
+        if not converged and math.isfinite(ci):
+            perm, joint = _needed(effects, k, ci_threshold)
+            suggested = _up(n_design * perm) if joint == 1.0 else None
         out.append(RankedIndex(name, s, ci, s, ci, converged, suggested,
                                first_converged=converged, total_converged=converged))
     return sorted(out, key=lambda r: math.inf if math.isnan(r.total) else -r.total)

@@ -55,6 +55,7 @@ def shapley_lines(study: Any, sc: Any, *, top: int,
     output
         The output.
     """
+    from plyrisk.analysis.shapley import rerun_counts
     from plyrisk.methods.shapley import HOW_TO_READ
 
     a = study.analysis
@@ -86,9 +87,17 @@ def shapley_lines(study: Any, sc: Any, *, top: int,
         lines.append(f"dominant layer: {first.name} (Shapley effect {first.total:.2f} ± "
                      f"{first.total_ci:.2f})")
     unconv = [i for i in (*ranking, *groups) if not i.converged]
-    if unconv:
-        need = max(i.suggested_base_samples or 0 for i in unconv)
-        lines.append(f"  {len(unconv)} effect interval(s) wider than {thr}: rerun with "
-                     f"[study] permutations = {need} or more to settle the ranking")
+    counts = [c for e in sc.shapley.get(output, (None, None)) if e is not None
+              for c in (rerun_counts(e, ci_threshold=a.index_ci_threshold),) if c is not None]
+    if unconv and counts:
+        perm, joint = max(c[0] for c in counts), max(c[1] for c in counts)
+        if joint > int(a.samples):
+            lines.append(f"  {len(unconv)} effect interval(s) wider than {thr} (for some, the "
+                         f"joint draws behind Var(Y) alone exceed it): rerun with [study] "
+                         f"samples = {joint} and permutations = {perm} or more to settle the "
+                         "ranking")
+        else:
+            lines.append(f"  {len(unconv)} effect interval(s) wider than {thr}: rerun with "
+                         f"[study] permutations = {perm} or more to settle the ranking")
     lines += ["  " + t for t in textwrap.wrap(HOW_TO_READ, 96)]
     return lines
