@@ -184,6 +184,17 @@ def rosenblatt_indices(y_a: np.ndarray, y_blocks: np.ndarray, n_params: int, *,
 
     Notes
     -----
+    Why the estimators hold (pick-and-freeze, Sobol' 1993 / Saltelli et al. 2010): B and D_i
+    share X_i (``z_i`` of B) and nothing else, since D_i's ``r_-i`` is A's and A is
+    independent of B; so ``E[y_B y_D_i] = E[E[Y | X_i]^2]`` and, A being independent of B,
+    ``E[y_B y_A] = E[Y]^2``: their difference is Var(E[Y | X_i]) (eq. S.2). B and C_i share
+    ``e_i`` only, giving Var(E[Y | e_i]) (eq. S.4). A and D_i share ``r_-i``; given it, their
+    ``z_i`` are independent draws of its marginal (``z_i`` is independent of ``r_-i``) and
+    ``(z_i, r_-i)`` fixes every score, so ``E[(y_A - y_D_i)^2] / 2 = E[Var(Y | r_-i)]``
+    (eq. S.5); A and C_i share ``z_-i`` and their ``e_i`` are independent, giving
+    E[Var(Y | X_-i)] (eq. S.3). Conditioning on X_i is conditioning on its normal score, since
+    ``Distribution.ppf`` is monotone.
+
     First-order indices by the estimator Saltelli et al. (2010) recommend,
     doi:10.1016/j.cpc.2009.09.018 (B and the block sharing the conditioning variable with it,
     A sharing nothing with B); total indices by Jansen's estimator (Jansen 1999,
