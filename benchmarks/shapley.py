@@ -3,8 +3,9 @@
 1. An invented four-layer garment (shell, outer gap, batt, skin gap) with 10 uncertain inputs
    and three correlated pairs (both gap widths through the fit; the batt's thickness and
    conductivity; the shell's thickness and emissivity), ``method = "shapley"``: propagate the
-   design (N joint draws + m (d - 1) 3 conditional draws) and estimate the effects of the
-   inner-surface temperature with bootstrap intervals (90 %). Starting at ``--permutations``,
+   design (N joint draws + m (d - 1) 3 conditional draws + (1 + 2 d) N rows of the Rosenblatt
+   blocks) and estimate the effects of the inner-surface temperature and the four indices of
+   dependent inputs with bootstrap intervals (90 %). Starting at ``--permutations``,
    m is raised to the count the widest interval asks for (half-widths shrink as 1/sqrt(m))
    until every half-width, per parameter and per layer, is at most ``--precision`` (0.02).
 2. Baseline, measured in the same run, interleaved before and after: the same number of model
@@ -12,7 +13,9 @@
    ``shapley_over_plain_runs`` says what the estimator and its conditional design cost on top
    of the model runs themselves.
 
-Prints model runs, seconds, the effects, and last ``shapley_seconds: <float>`` (the final,
+Prints model runs, seconds, the effects, the four indices with the widest half-width among
+them (``dependent_index_widest``, not part of the stopping rule), and last
+``shapley_seconds: <float>`` (the final,
 converged study: design, model runs and estimator). Goal < 120 s on 2 cores; never asserted.
 
 Run from the repository root::
@@ -137,6 +140,14 @@ def main() -> None:
     for k in np.argsort(-grp.effect):
         print(f"  layer {grp.names[k]:<28} {grp.effect[k]:6.3f} ± {grp.effect_ci[k]:.3f}")
     print(f"sum of effects: {ind.effect.sum():.12f}")
+    cols = ("full_first", "independent_first", "full_total", "independent_total")
+    print(f"  {'indices of dependent inputs':<34}" + "".join(f"{c:>19}" for c in cols))
+    for k in np.argsort(-ind.effect):
+        print(f"  {ind.names[k]:<34}" + "".join(
+            f"{getattr(ind, c)[k]:>10.3f} ± {getattr(ind, c + '_ci')[k]:.3f}" for c in cols))
+    dep_widest = max(float(np.max(getattr(ind, c + "_ci"))) for c in cols)
+    print(f"dependent_index_rows: {ind.rosenblatt_used}")
+    print(f"dependent_index_widest: {dep_widest:.4f}")
     before = plain_runs(study, runs)
     after = plain_runs(study, runs)
     base = min(before, after)

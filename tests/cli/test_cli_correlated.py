@@ -22,8 +22,9 @@ pytestmark = pytest.mark.slow
 
 
 def small(tmp: Path) -> Path:
-    text = DEMO.read_text().replace("samples = 1024 ", "samples = 128 ").replace(
+    text = DEMO.read_text().replace("samples = 2048 ", "samples = 128 ").replace(
         "permutations = 2048 ", "permutations = 128 ")
+    assert "samples = 128 " in text and "permutations = 128 " in text
     path = tmp / "correlated_fit.toml"
     path.write_text(text + '\n[tolerances]\nsamples = 256\ntarget = "P95 <= 75 degC"\n')
     return path
@@ -50,7 +51,8 @@ def test_run_writes_shapley_effects(tmp_path):
     code, text = run(["run", str(small(tmp_path)), "--out", str(tmp_path / "out"), "--quiet"])
     assert code == 0, text
     for needle in ("Shapley effects (correlated inputs", "dominant layer:",
-                   "How to read Shapley effects", "method: shapley"):
+                   "How to read Shapley effects", "method: shapley",
+                   "indices of dependent inputs", "indep. first"):
         assert needle in text, needle
     flat = " ".join(text.split())
     assert all(" ".join(c.split()) in flat for c in CAUTIONS)
@@ -63,18 +65,28 @@ def test_run_writes_shapley_effects(tmp_path):
     names = list(ds["parameter"].values)
     assert r[names.index("outer gap.width"), names.index("skin gap.width")] == 0.6
     assert "sobol_total" not in ds
-    assert "full_first_index" in ds and "independent_total_index_ci" in ds
-    assert int(ds.attrs["evaluations"]) == 128 + 128 * 6 * 3
+    for name in ("full_first_index", "independent_first_index", "full_total_index",
+                 "independent_total_index"):
+        assert name in ds and f"{name}_ci" in ds, name
+        assert ds[name].attrs["units"] == "1" and ds[name].attrs["long_name"]
+        assert np.isfinite(ds[name].sel(output="inner_surface_temperature").values).all()
+    assert ds["full_total_index_ci"].attrs["interval_method"] == "bootstrap"
+    # joint draws, m (d - 1) 3 conditional draws, (1 + 2 d) N rows of the Rosenblatt blocks
+    assert int(ds.attrs["evaluations"]) == 128 + 128 * 6 * 3 + (1 + 2 * 7) * 128
+    assert np.all(ds["sample_block"].values[-(1 + 2 * 7) * 128:] == 3)
     ds.close()
     report = (tmp_path / "out" / "report.html").read_text()
     assert "How to read Shapley effects" in report
     assert "Layers by Shapley effect" in report
+    assert "Indices of dependent inputs of the inner-surface temperature" in report
     assert "dependent through a Gaussian copula" in report
     assert "sampled independently" not in report
     assert "Shapley effect" in (tmp_path / "out" / "tolerances.csv").read_text()
     csv_text = (tmp_path / "out" / "shapley.csv").read_text()
     assert csv_text.startswith("scenario,output,kind,name,shapley_effect")
     assert ",layer,skin gap," in csv_text
+    assert csv_text.splitlines()[0].endswith("independent_total_index,"
+                                             "independent_total_index_ci_half_width")
     assert np.isfinite(eff).all()
 
 

@@ -10,6 +10,7 @@ from scipy import special, stats
 from plyrisk.design.copula import (
     correlate,
     iman_conover,
+    rosenblatt_rows,
     shapley_permutations,
     shapley_rows,
 )
@@ -120,3 +121,34 @@ def test_conditional_draws_follow_the_conditional_normal():
     # every conditional row is also a draw from the joint distribution
     assert stats.spearmanr(rows[:, 0], rows[:, 1]).statistic == pytest.approx(
         6 / np.pi * np.arcsin(rho / 2), abs=0.01)
+
+
+def test_rosenblatt_blocks_share_exactly_what_the_indices_freeze():
+    # Source: Anderson 2003, An Introduction to Multivariate Statistical Analysis, thm 2.5.1
+    # (conditional normal); eq. K.3: C_i keeps A's other scores and B's innovation of z_i,
+    # D_i keeps A's part of the other scores independent of z_i and B's z_i.
+    r = np.array([[1.0, 0.6, 0.2], [0.6, 1.0, -0.3], [0.2, -0.3, 1.0]])
+    n, d = 20_000, 3
+    lower = np.linalg.cholesky(r)
+    a = special.ndtr(special.ndtri(random_design(n, d, seed=2).unit) @ lower.T)
+    rows = rosenblatt_rows(a, r, seed=6)
+    assert rows.shape == ((1 + 2 * d) * n, d)
+    blocks = rows.reshape(1 + 2 * d, n, d)
+    z_a, z = special.ndtri(a), special.ndtri(blocks)
+    for i in range(d):
+        rest = [k for k in range(d) if k != i]
+        g = np.linalg.solve(r[np.ix_(rest, rest)], r[rest, i])
+        c, t = z[1 + i], z[1 + d + i]
+        assert np.array_equal(blocks[1 + i][:, rest], a[:, rest])        # A's other inputs
+        assert np.allclose(c[:, i] - c[:, rest] @ g, z[0][:, i] - z[0][:, rest] @ g,
+                           atol=1e-8)                                    # B's innovation
+        assert np.array_equal(blocks[1 + d + i][:, i], blocks[0][:, i])  # B's X_i
+        assert np.allclose(t[:, rest] - np.outer(t[:, i], r[rest, i]),
+                           z_a[:, rest] - np.outer(z_a[:, i], r[rest, i]), atol=1e-8)
+        # every block is a draw of the joint distribution
+        assert np.allclose(np.corrcoef(z[1 + i], rowvar=False), r, atol=0.03)
+        assert np.allclose(np.corrcoef(t, rowvar=False), r, atol=0.03)
+    assert np.allclose(np.corrcoef(z[0], rowvar=False), r, atol=0.03)
+    # row j of every block depends on row j of A and the seed only (not on N)
+    head = rosenblatt_rows(a[:10], r, seed=6).reshape(1 + 2 * d, 10, d)
+    assert np.array_equal(head, blocks[:, :10])

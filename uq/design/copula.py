@@ -20,6 +20,16 @@ Conditional normal (eq. K.2)
     ``R_JC R_CC^-1 z_C`` and covariance ``R_JJ - R_JC R_CC^-1 R_CJ`` (e.g. Anderson 2003, An
     Introduction to Multivariate Statistical Analysis, thm 2.5.1): exact conditional sampling
     inside the copula, whatever the marginals.
+Rosenblatt blocks (eq. K.3)
+    Two decorrelations of the scores per input i, both exact inside the copula by eq. K.2:
+    ``z_i = g_i^T z_-i + s_i e_i`` with ``g_i = R_-i,-i^-1 R_-i,i``,
+    ``s_i^2 = 1 - R_i,-i g_i`` and ``e_i`` standard normal independent of ``z_-i`` (``e_i`` is
+    the normal score of the last variable of a Rosenblatt transform that ends with X_i); and
+    ``z_-i = R_-i,i z_i + r_-i`` with ``r_-i`` independent of ``z_i`` (``r_-i`` carries the
+    other variables of a Rosenblatt transform that starts with X_i: the conditional CDFs of
+    X_-i given X_i are a one-to-one map of ``r_-i``). Rosenblatt (1952), Ann. Math. Stat. 23,
+    470-472, doi:10.1214/aoms/1177729394; Mara, Tarantola & Annoni (2015),
+    doi:10.1016/j.envsoft.2015.07.010.
 """
 
 from __future__ import annotations
@@ -35,7 +45,8 @@ if TYPE_CHECKING:  # pragma: no cover
     from plyrisk.study.correlations import Correlations
 
 __all__ = ["INNER_SAMPLES", "SPAWN", "ShapleyLayout", "cholesky_factor", "correlate",
-           "iman_conover", "joint_design", "shapley_layout", "shapley_permutations", "shapley_rows"]
+           "iman_conover", "joint_design", "rosenblatt_rows", "shapley_layout",
+           "shapley_permutations", "shapley_rows"]
 
 INNER_SAMPLES = 3
 """Conditional draws per permutation step (N_I = 3, N_O = 1: the choice Song, Nelson & Staum
@@ -233,9 +244,20 @@ class ShapleyLayout:
         return max(self.n_params - 1, 0)
 
     @property
+    def conditional(self) -> int:
+        """Conditional rows, ``m (d - 1) inner`` [-]."""
+        return self.permutations * self.steps * self.inner
+
+    @property
+    def rosenblatt(self) -> int:
+        """Rows of the Rosenblatt blocks (:func:`rosenblatt_rows`), ``(1 + 2 d) joint`` for
+        d >= 2, else none [-]."""
+        return (1 + 2 * self.n_params) * self.joint if self.steps else 0
+
+    @property
     def n_rows(self) -> int:
-        """``joint + m (d - 1) inner`` rows [-]."""
-        return self.joint + self.permutations * self.steps * self.inner
+        """``joint + m (d - 1) inner + (1 + 2 d) joint`` rows (the last term for d >= 2) [-]."""
+        return self.joint + self.conditional + self.rosenblatt
 
 
 def shapley_layout(joint: int, permutations: int, n_params: int) -> ShapleyLayout:
@@ -307,3 +329,73 @@ def shapley_rows(joint_unit: np.ndarray, linear: np.ndarray, *, permutations: in
         z = flat_z.reshape(m, steps, inner, d)
     cond = _phi(z.reshape(-1, d)) if steps else np.empty((0, d))
     return np.vstack([joint_unit, cond])
+
+
+def rosenblatt_rows(joint_unit: np.ndarray, linear: np.ndarray, *, seed: int) -> np.ndarray:
+    """The Rosenblatt blocks of a Shapley design: a second joint block and 2 d mixed blocks.
+
+    With A the joint rows (scores ``z^A``) and B a second, independent joint block drawn here
+    (scores ``z^B``), for every input i (eq. K.3):
+
+    * ``C_i``: A's scores of the other inputs, ``z_i = g_i^T z^A_-i + s_i e^B_i`` with B's
+      innovation ``e^B_i = (z^B_i - g_i^T z^B_-i) / s_i``; C_i shares only ``e_i`` with B.
+    * ``D_i``: ``z_i = z^B_i`` and ``z_-i = z^A_-i + R_-i,i (z^B_i - z^A_i)``; D_i shares only
+      ``r_-i`` with A.
+
+    Columns a block takes unchanged from A (or B) keep A's (or B's) unit values exactly; the
+    others go through ``Phi`` like every copula row, so each row is a draw of the joint
+    distribution and :meth:`plyrisk.study.distributions.Distribution.ppf` applies every
+    marginal's truncation to it.
+
+    Parameters
+    ----------
+    joint_unit
+        The joint rows A, shape ``(N, d)``, strictly inside (0, 1).
+    linear
+        Linear correlation of the normal scores over all d columns [-].
+    seed
+        Seed; B from ``SeedSequence(seed, spawn_key=(SPAWN, 3))``.
+
+    Returns
+    -------
+    numpy.ndarray
+        Unit rows, shape ``((1 + 2 d) N, d)``: B, then C_1 .. C_d, then D_1 .. D_d (N rows
+        each, row j of every block paired with row j of A, and depending on row j of A and
+        the seed only).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from plyrisk.design.copula import rosenblatt_rows
+    >>> a = np.random.default_rng(0).random((5, 3))
+    >>> rosenblatt_rows(a, np.eye(3), seed=1).shape
+    (35, 3)
+    """
+    a_unit = np.asarray(joint_unit, dtype=float)
+    n, d = a_unit.shape
+    r = np.asarray(linear, dtype=float)
+    lower = cholesky_factor(r)
+    rng = np.random.default_rng(np.random.SeedSequence(int(seed), spawn_key=(SPAWN, 3)))
+    z_b = rng.standard_normal((n, d)) @ lower.T
+    b_unit = _phi(z_b)
+    z_a = _scores(a_unit)
+    first = np.empty((d, n, d))
+    total = np.empty((d, n, d))
+    for i in range(d):
+        rest = np.setdiff1d(np.arange(d), [i])
+        gain = np.linalg.solve(r[np.ix_(rest, rest)], r[rest, i])          # g_i
+        c = a_unit.copy()
+        if np.any(gain != 0.0):
+            innovation = z_b[:, i] - z_b[:, rest] @ gain                   # s_i e^B_i
+            # z_i of C_i: A's conditional mean plus B's innovation (eq. K.3)
+            c[:, i] = _phi(z_a[:, rest] @ gain + innovation)
+        else:
+            c[:, i] = b_unit[:, i]
+        first[i] = c
+        t = a_unit.copy()
+        t[:, i] = b_unit[:, i]
+        moved = rest[r[rest, i] != 0.0]
+        if moved.size:
+            t[:, moved] = _phi(z_a[:, moved] + np.outer(z_b[:, i] - z_a[:, i], r[moved, i]))
+        total[i] = t
+    return np.vstack([b_unit, first.reshape(-1, d), total.reshape(-1, d)])

@@ -5,9 +5,12 @@ The design (:meth:`Shapley.make_design`, built whole once, so results do not dep
 or workers) is ``samples`` joint draws (a Latin hypercube, scrambled Sobol' points or random
 points through the Gaussian copula of :mod:`plyrisk.design.copula`; Iman–Conover reordering
 for a Latin hypercube on request) followed by ``permutations x (d - 1) x 3`` conditional draws
-(:func:`plyrisk.design.copula.shapley_rows`). Percentiles and the exceedance probability come
-from the joint draws; the effects from all rows (:mod:`plyrisk.analysis.shapley`; Song, Nelson
-& Staum 2016, doi:10.1137/15M1048070), with bootstrap intervals.
+(:func:`plyrisk.design.copula.shapley_rows`) and, for d >= 2, the ``(1 + 2 d) samples`` rows of
+the Rosenblatt blocks (:func:`plyrisk.design.copula.rosenblatt_rows`). Percentiles and the
+exceedance probability come from the joint draws; the effects and the four indices of
+dependent inputs from all rows (:mod:`plyrisk.analysis.shapley`; Song, Nelson & Staum 2016,
+doi:10.1137/15M1048070; Mara, Tarantola & Annoni 2015, doi:10.1016/j.envsoft.2015.07.010),
+with bootstrap intervals.
 """
 
 from __future__ import annotations
@@ -28,7 +31,9 @@ INDEX_VARIABLES = ("shapley_effect", "shapley_effect_ci", "shapley_group_effect"
                    "shapley_group_effect_ci", "shapley_rank", "shapley_group_rank",
                    "shapley_converged", "shapley_group_converged", "shapley_permutations_used",
                    "shapley_output_variance", "full_first_index", "full_first_index_ci",
-                   "independent_total_index", "independent_total_index_ci")
+                   "independent_total_index", "independent_total_index_ci",
+                   "independent_first_index", "independent_first_index_ci",
+                   "full_total_index", "full_total_index_ci", "dependent_index_rows_used")
 """Dataset variables of the Shapley effects (each carries ``method = "shapley"``)."""
 
 HOW_TO_READ = (
@@ -40,11 +45,20 @@ HOW_TO_READ = (
     "share when it is correlated with an influential one, because knowing it tells you about "
     "the other. So a large effect says 'pinning this input down would narrow the output', "
     "not 'this input acts on the output'; to find what acts physically, look at the input's "
-    "partner in [correlations]. A layer's effect is the sum of its parameters' effects. The "
-    "intervals are bootstrap intervals over permutations and joint draws; an effect is "
-    "settled when its half-width is within the study's index_ci_threshold, and an estimate "
-    "slightly below zero is the estimator's noise around a small effect (read it as 0 within "
-    "its interval).")
+    "partner in [correlations]. A layer's effect is the sum of its parameters' effects. "
+    "Beside the effects stand four indices for dependent inputs (Mara, Tarantola & Annoni "
+    "2015), each a share of the variance on its own scale (they do not add up to one): the "
+    "'full' first-order and total indices count what the input explains together with what "
+    "its correlated partners carry, the 'independent' ones only the input's own part, with "
+    "what it shares with its partners removed. A full index well above the independent one "
+    "says the input matters largely through its correlations; a total index above the "
+    "first-order one says it acts through interactions; an independent total index near zero "
+    "says the input adds nothing once its partners are known. Without correlations full and "
+    "independent indices are the Sobol indices. The intervals are bootstrap intervals (over "
+    "permutations and joint draws, or over the rows of the pick-and-freeze blocks); an effect "
+    "is settled when its half-width is within the study's index_ci_threshold, and an estimate "
+    "slightly below zero is the estimator's noise around a small effect or index (read it as "
+    "0 within its interval).")
 """The paragraph the summary and the report show with Shapley effects."""
 
 
@@ -77,12 +91,12 @@ class Shapley(Method):
                 f"{self.permutations(study)} random permutations; {corr}")
 
     def runs(self, study: Study, samples: int | None = None) -> int:
-        """``N + m (d - 1) 3`` runs: the joint draws and the conditional draws."""
-        from plyrisk.design.copula import INNER_SAMPLES
+        """``N + m (d - 1) 3 + (1 + 2 d) N`` runs: the joint draws, the conditional draws and
+        the Rosenblatt blocks (the last for d >= 2)."""
+        from plyrisk.design.copula import shapley_layout
 
         n = int(samples if samples is not None else study.analysis.samples)
-        d = len(study.parameters)
-        return n + self.permutations(study) * max(d - 1, 0) * INNER_SAMPLES
+        return shapley_layout(n, self.permutations(study), len(study.parameters)).n_rows
 
     def independent_samples(self, study: Study, evaluations: int) -> int:
         """The joint draws."""
@@ -92,7 +106,11 @@ class Shapley(Method):
         c = study.correlations
         out = [f"method = shapley: percentiles and exceedance from {study.analysis.samples} "
                f"joint draws; Shapley effects from {self.permutations(study)} random "
-               "permutations with 3 conditional draws per step (Song, Nelson & Staum 2016)"]
+               "permutations with 3 conditional draws per step (Song, Nelson & Staum 2016); "
+               "the full and independent first-order and total indices from the joint draws and "
+               f"1 + 2 d = {1 + 2 * len(study.parameters)} more blocks of "
+               f"{study.analysis.samples} rows (Rosenblatt transforms in the Gaussian copula; "
+               "Mara, Tarantola & Annoni 2015)"]
         if c is not None:
             pairs = "; ".join(f"{a} with {b} {v:+.2f}" for a, b, v in c.pairs()) or "all zero"
             out.append("inputs correlated through a Gaussian copula of the rank correlations "
@@ -105,10 +123,11 @@ class Shapley(Method):
         return out
 
     def make_design(self, study: Study) -> Design:
-        """Joint draws (through the copula) then the conditional draws, built whole."""
+        """Joint draws (through the copula), the conditional draws (block 2) and the
+        Rosenblatt blocks (block 3), built whole."""
         import numpy as np
 
-        from plyrisk.design.copula import joint_design, shapley_rows
+        from plyrisk.design.copula import joint_design, rosenblatt_rows, shapley_rows
         from plyrisk.design.sampling import Design
 
         a = study.analysis
@@ -119,8 +138,12 @@ class Shapley(Method):
         linear = np.eye(len(names)) if c is None else c.full_linear(names)
         unit = shapley_rows(joint, linear, permutations=self.permutations(study),
                             seed=int(a.seed))
+        n_cond = unit.shape[0]
+        if len(names) >= 2:
+            unit = np.vstack([unit, rosenblatt_rows(joint, linear, seed=int(a.seed))])
         block = np.zeros(unit.shape[0], dtype=np.int64)
         block[joint.shape[0]:] = 2
+        block[n_cond:] = 3
         unit.setflags(write=False)
         block.setflags(write=False)
         return Design(unit, block, "shapley", int(a.samples), ())
@@ -131,7 +154,7 @@ class Shapley(Method):
         from plyrisk.analysis.outputs import output_column
         from plyrisk.analysis.shapley import rank_effects, shapley_effects
         from plyrisk.analysis.study import IndexResult, analysed_outputs
-        from plyrisk.design.copula import INNER_SAMPLES, shapley_permutations
+        from plyrisk.design.copula import INNER_SAMPLES, shapley_layout, shapley_permutations
         from plyrisk.propagate.evaluate import parameter_groups
 
         a = study.analysis
@@ -141,13 +164,17 @@ class Shapley(Method):
         perms = shapley_permutations(self.permutations(study), len(names), seed=int(a.seed))
         group_names, groups = parameter_groups(study)
         n = int(a.samples)
+        layout = shapley_layout(n, self.permutations(study), len(names))
+        stop = n + layout.conditional
         effects, ranking, group_ranking = {}, {}, {}
         for o in analysed_outputs(study):
             column = output_column(source, o, scenario)
-            ind, grp = shapley_effects(column[:n], column[n:], perms, names=names,
+            ind, grp = shapley_effects(column[:n], column[n:stop], perms, names=names,
                                        inner=INNER_SAMPLES, groups=groups,
                                        group_names=group_names, confidence=a.confidence,
-                                       n_bootstrap=a.bootstrap, seed=int(a.seed))
+                                       n_bootstrap=a.bootstrap, seed=int(a.seed),
+                                       y_rosenblatt=(column[stop:stop + layout.rosenblatt]
+                                                     if layout.rosenblatt else None))
             effects[o] = (ind, grp)
             ranking[o] = rank_effects(ind, ci_threshold=a.index_ci_threshold)
             if grp is not None:
@@ -209,16 +236,36 @@ class Shapley(Method):
                                       ranks(which, size, pnames if which == 0 else gnames),
                                       "1", f"rank of each {who} by Shapley effect (1 = most "
                                       "influential)", {})
-        for attr, name, what in (
+        rows_interval = {"confidence": a.confidence, "interval_method": "bootstrap",
+                         "interval": f"bootstrap percentile interval over the rows of the "
+                                     f"joint and Rosenblatt blocks ({a.bootstrap} resamples)"}
+        for attr, name, what, how in (
                 ("full_first", "full_first_index", "'full' first-order index Var(E[Y|X_i]) / "
-                 "Var(Y): what the parameter explains, through its correlated partners too"),
+                 "Var(Y): what the parameter explains, through its correlated partners too",
+                 rows_interval),
+                ("independent_first", "independent_first_index", "'independent' first-order "
+                 "index Var(E[Y|e_i]) / Var(Y), e_i the part of the parameter independent of "
+                 "the others: what it explains on its own", rows_interval),
+                ("full_total", "full_total_index", "'full' total index E[Var(Y|r_-i)] / Var(Y), "
+                 "r_-i the part of the others independent of the parameter: everything it is "
+                 "involved in, through its correlated partners and interactions", rows_interval),
                 ("independent_total", "independent_total_index", "'independent' total index "
                  "E[Var(Y|X_-i)] / Var(Y): what the parameter adds beyond everything "
-                 "correlated with it")):
+                 "correlated with it", rows_interval)):
             data[name] = (("output", "parameter"), table(0, attr, n_p), "1", what, {})
             data[f"{name}_ci"] = (("output", "parameter"), table(0, f"{attr}_ci", n_p), "1",
                                   f"half-width of the {name.replace('_', ' ')}'s interval",
-                                  dict(interval))
+                                  dict(how))
+        rows_used = np.zeros((n_s, n_o), dtype=np.int64)
+        for s, sc in enumerate(sa):
+            for k, o in enumerate(outputs):
+                eff = sc.shapley.get(o, (None, None))[0]
+                if eff is not None:
+                    rows_used[s, k] = eff.rosenblatt_used
+        data["dependent_index_rows_used"] = (
+            ("output",), rows_used, "1", "rows j of the joint and Rosenblatt blocks behind the "
+            "independent first-order and full total indices (a row with a non-converged run "
+            "in any block dropped whole)", {})
         used = np.zeros((n_s, n_o), dtype=np.int64)
         var = np.full((n_s, n_o), np.nan)
         for s, sc in enumerate(sa):

@@ -86,29 +86,60 @@ def shapley_tables(ds: xr.Dataset) -> list[Table]:
             out.append(Table(header + ["Shapley effect ± CI", "status"], rows,
                              f"{what} by Shapley effect of the inner-surface temperature"
                              f"{suffix}"))
+        table = _dependent_index_table(one, k, suffix)
+        if table is not None:
+            out.append(table)
     return out
+
+
+def _dependent_index_table(one: xr.Dataset, k: int, suffix: str) -> Table | None:
+    """The four indices of dependent inputs per parameter, in the order of the effects."""
+    from plyrisk.text.shapley import INDEX_COLUMNS
+
+    cols = [(attr, label) for attr, label in INDEX_COLUMNS if f"{attr}_index" in one]
+    if not cols:
+        return None
+    eff = np.asarray(one["shapley_effect"].values[k], dtype=float)
+    order = np.argsort(-np.nan_to_num(eff, nan=-np.inf), kind="stable")
+    names = [str(n).replace("_", " ") for n in one["parameter"].values]
+    rows = []
+    for j in order:
+        rows.append([names[j]] + [
+            _cell(float(one[f"{attr}_index"].values[k, j]),
+                  float(one[f"{attr}_index_ci"].values[k, j])) for attr, _ in cols])
+    return Table(["parameter"] + [f"{label} ± CI" for _, label in cols], rows,
+                 "Indices of dependent inputs of the inner-surface temperature (full: with "
+                 "what the correlated partners carry; indep.: the parameter's own part)"
+                 f"{suffix}")
 
 
 def write_shapley_csv(ds: xr.Dataset, out) -> list:
     """Write ``shapley.csv`` (every output, parameter and layer effect with its half-width,
-    rank and status) into the folder ``out``; ``[]`` without Shapley effects."""
+    rank and status, and per parameter the four indices of dependent inputs with their
+    half-widths) into the folder ``out``; ``[]`` without Shapley effects."""
     from pathlib import Path
 
     from plyrisk.report.csv_tables import write_csv
+    from plyrisk.text.shapley import INDEX_COLUMNS
 
     if not has_shapley(ds):
         return []
+    indices = [f"{attr}_index" for attr, _ in INDEX_COLUMNS if f"{attr}_index" in ds]
     rows = []
     for _, label, one in scenario_values(ds):
         for k, o in enumerate(str(v) for v in one["output"].values):
             for dim, prefix, kind in (("parameter", "shapley", "parameter"),
                                       ("group", "shapley_group", "layer")):
                 for j, name in enumerate(str(v) for v in one[dim].values):
+                    extra: list = []
+                    for v in indices:  # per parameter only; empty for a layer
+                        extra += ([float(one[v].values[k, j]), float(one[f"{v}_ci"].values[k, j])]
+                                  if dim == "parameter" else ["", ""])
                     rows.append([label, o, kind, name,
                                  float(one[f"{prefix}_effect"].values[k, j]),
                                  float(one[f"{prefix}_effect_ci"].values[k, j]),
                                  int(one[f"{prefix}_rank"].values[k, j]),
-                                 bool(one[f"{prefix}_converged"].values[k, j])])
-    return [write_csv(Path(out) / "shapley.csv", ["scenario", "output", "kind", "name",
-                                                  "shapley_effect", "ci_half_width", "rank",
-                                                  "converged"], rows)]
+                                 bool(one[f"{prefix}_converged"].values[k, j]), *extra])
+    header = ["scenario", "output", "kind", "name", "shapley_effect", "ci_half_width", "rank",
+              "converged"] + [c for v in indices for c in (v, f"{v}_ci_half_width")]
+    return [write_csv(Path(out) / "shapley.csv", header, rows)]

@@ -3,26 +3,41 @@ per layer, the dominant layer, the convergence and how to read the effects."""
 
 from __future__ import annotations
 
+import math
 import textwrap
 from typing import Any
 
-__all__ = ["shapley_lines"]
+__all__ = ["INDEX_COLUMNS", "dependent_index_lines", "shapley_lines"]
 
 
-def _line(rank: int, item: Any, extra: str = "") -> str:
+def _line(rank: int, item: Any) -> str:
     ok = "ok" if item.converged else "WIDE"
-    return (f"  {rank}. {item.name:<32} {item.total:6.3f} ± {item.total_ci:.3f}  {ok:<4}"
-            f"{extra}").rstrip()
+    return f"  {rank}. {item.name:<32} {item.total:6.3f} ± {item.total_ci:.3f}  {ok:<4}".rstrip()
 
 
-def _extra(effects: Any, name: str) -> str:
-    """The full first-order and independent total index of one parameter, as text."""
+INDEX_COLUMNS = (("full_first", "full first"), ("independent_first", "indep. first"),
+                 ("full_total", "full total"), ("independent_total", "indep. total"))
+"""The four indices of dependent inputs, in the order the summary and the report show them."""
+
+
+def _cell(value: float, half: float) -> str:
+    if not math.isfinite(value):
+        return "n/a"
+    return f"{value:.3f} ± {half:.3f}" if math.isfinite(half) else f"{value:.3f}"
+
+
+def dependent_index_lines(effects: Any, names: list[str]) -> list[str]:
+    """The table of the four indices of dependent inputs for ``names``, in that order."""
     if effects is None or effects.full_first is None:
-        return ""
-    k = list(effects.names).index(name)
-    return (f"   full first {effects.full_first[k]:6.3f} ± {effects.full_first_ci[k]:.3f}"
-            f"   independent total {effects.independent_total[k]:6.3f} ± "
-            f"{effects.independent_total_ci[k]:.3f}")
+        return []
+    cols = [(attr, label) for attr, label in INDEX_COLUMNS if getattr(effects, attr) is not None]
+    out = ["  " + f"{'':<32}" + "".join(f"{label:>15}" for _, label in cols)]
+    for name in names:
+        k = list(effects.names).index(name)
+        out.append(("  " + f"{name:<32}" + "".join(
+            f"{_cell(float(getattr(effects, a)[k]), float(getattr(effects, a + '_ci')[k])):>15}"
+            for a, _ in cols)).rstrip())
+    return out
 
 
 def shapley_lines(study: Any, sc: Any, *, top: int,
@@ -40,6 +55,7 @@ def shapley_lines(study: Any, sc: Any, *, top: int,
     output
         The output.
     """
+    from plyrisk.analysis.shapley import rerun_counts
     from plyrisk.methods.shapley import HOW_TO_READ
 
     a = study.analysis
@@ -56,11 +72,14 @@ def shapley_lines(study: Any, sc: Any, *, top: int,
         lines.append(f"Shapley effects ({'correlated' if study.correlations else 'independent'}"
                      f" inputs; {effects.permutations_used} permutations{dropped}; "
                      f"{100 * a.confidence:g} % bootstrap intervals; ok = half-width ≤ {thr}, "
-                     "WIDE = not converged; they sum to one; beside them the 'full' first-order "
-                     "and 'independent' total index, Var(E[Y|X_i]) / Var(Y) and "
-                     "E[Var(Y|X_-i)] / Var(Y)):")
-    lines += [_line(r, item, _extra(effects, item.name))
-              for r, item in enumerate(ranking[:top], start=1)]
+                     "WIDE = not converged; they sum to one):")
+    lines += [_line(r, item) for r, item in enumerate(ranking[:top], start=1)]
+    table = dependent_index_lines(effects, [item.name for item in ranking[:top]])
+    if table:
+        lines.append("indices of dependent inputs (full: with what the correlated partners "
+                     "carry; indep.: the input's own part; first-order and total; "
+                     f"{100 * a.confidence:g} % bootstrap intervals):")
+        lines += table
     if groups:
         lines.append("layers (sum of their parameters' Shapley effects):")
         lines += [_line(r, item) for r, item in enumerate(groups[:top], start=1)]
@@ -68,9 +87,17 @@ def shapley_lines(study: Any, sc: Any, *, top: int,
         lines.append(f"dominant layer: {first.name} (Shapley effect {first.total:.2f} ± "
                      f"{first.total_ci:.2f})")
     unconv = [i for i in (*ranking, *groups) if not i.converged]
-    if unconv:
-        need = max(i.suggested_base_samples or 0 for i in unconv)
-        lines.append(f"  {len(unconv)} effect interval(s) wider than {thr}: rerun with "
-                     f"[study] permutations = {need} or more to settle the ranking")
+    counts = [c for e in sc.shapley.get(output, (None, None)) if e is not None
+              for c in (rerun_counts(e, ci_threshold=a.index_ci_threshold),) if c is not None]
+    if unconv and counts:
+        perm, joint = max(c[0] for c in counts), max(c[1] for c in counts)
+        if joint > int(a.samples):
+            lines.append(f"  {len(unconv)} effect interval(s) wider than {thr} (for some, the "
+                         f"joint draws behind Var(Y) alone exceed it): rerun with [study] "
+                         f"samples = {joint} and permutations = {perm} or more to settle the "
+                         "ranking")
+        else:
+            lines.append(f"  {len(unconv)} effect interval(s) wider than {thr}: rerun with "
+                         f"[study] permutations = {perm} or more to settle the ranking")
     lines += ["  " + t for t in textwrap.wrap(HOW_TO_READ, 96)]
     return lines
