@@ -12,6 +12,7 @@ samples.
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import Literal
 
@@ -78,7 +79,7 @@ class Table:
 
     def __call__(self, time: ArrayLike) -> np.ndarray:
         """The value at ``time`` [s], held constant beyond the ends of the table."""
-        return np.interp(time, self._t, self._v)
+        return np.interp(np.asarray(time, dtype=float), self._t, self._v)
 
     @property
     def kinks(self) -> tuple[float, ...]:
@@ -262,7 +263,8 @@ class TransientExposure:
         return n
 
 
-def _check(values: np.ndarray, name: str, ok, expected: str, unit: str) -> None:
+def _check(values: np.ndarray, name: str, ok: Callable[[np.ndarray], np.ndarray],
+           expected: str, unit: str) -> None:
     values = np.atleast_1d(values)
     with np.errstate(invalid="ignore"):
         bad = ~(ok(values) & np.isfinite(values))

@@ -18,21 +18,29 @@ paths agree to rounding, not bit for bit.
 
 from __future__ import annotations
 
+from types import ModuleType
+
 import numpy as np
+from numpy.typing import ArrayLike, NDArray
 
 from plyrisk.models.elements import conduction_law
 from plyrisk.models.network import tridiagonal_solve
 
+numba: ModuleType | None
 try:  # pragma: no cover - exercised by whichever path is installed
     import numba
 except ImportError:  # pragma: no cover
     numba = None
 
+_F = NDArray[np.float64]
+_B = NDArray[np.bool_]
+
 COMPILED = numba is not None
 """Whether the compiled kernels are in use [-]."""
 
 
-def _assemble_py(T, L, k0, ks, tref, perf, art, share, absorbed, q, rhs, sub, diag, sup, psum):
+def _assemble_py(T: _F, L: _F, k0: _F, ks: _F, tref: _F, perf: _F, art: _F, share: _F,
+                 absorbed: _F, q: _F, rhs: _F, sub: _F, diag: _F, sup: _F, psum: _F) -> None:
     qq, qa, qb = conduction_law(T[:-1], T[1:], L, k0, ks, tref)
     q[...] = qq
     rhs[...] = 0.0
@@ -53,7 +61,8 @@ def _assemble_py(T, L, k0, ks, tref, perf, art, share, absorbed, q, rhs, sub, di
         psum += row
 
 
-def _solve_py(T, c0, c1, th, sub, diag, sup, fixed, rhs, base, mode, out):
+def _solve_py(T: _F, c0: _F, c1: _F, th: _F, sub: _F, diag: _F, sup: _F, fixed: _B, rhs: _F,
+              base: _F, mode: int, out: _F) -> None:
     if mode == 0:  # Newton: -(H(T) - base - th F)
         d = -(T * (c0 + 0.5 * c1 * T) - base - th * rhs)
     else:
@@ -70,8 +79,9 @@ if numba is not None:
     _law = numba.njit(conduction_law, cache=True)
 
     @numba.njit(cache=True)
-    def _assemble_nb(T, L, k0, ks, tref, perf, art, share, absorbed, q, rhs, sub, diag, sup,
-                     psum):  # pragma: no cover - compiled
+    def _assemble_nb(T: _F, L: _F, k0: _F, ks: _F, tref: _F, perf: _F, art: _F, share: _F,
+                     absorbed: _F, q: _F, rhs: _F, sub: _F, diag: _F, sup: _F,
+                     psum: _F) -> None:  # pragma: no cover - compiled
         N, k = T.shape
         for s in range(k):
             rhs[0, s] = share[0, s] * absorbed[s]
@@ -98,8 +108,8 @@ if numba is not None:
             psum[s] += source
 
     @numba.njit(cache=True)
-    def _solve_nb(T, c0, c1, th, sub, diag, sup, fixed, rhs, base, mode,
-                  out):  # pragma: no cover - compiled
+    def _solve_nb(T: _F, c0: _F, c1: _F, th: _F, sub: _F, diag: _F, sup: _F, fixed: _B,
+                  rhs: _F, base: _F, mode: int, out: _F) -> None:  # pragma: no cover - compiled
         N, k = T.shape
         cp = np.empty((N, k))
         for j in range(N):
@@ -130,7 +140,8 @@ if numba is not None:
                 out[j, s] -= cp[j, s] * out[j + 1, s]
 
 
-def assemble(T, L, k0, ks, tref, perf, art, share, absorbed, q, rhs, sub, diag, sup, psum):
+def assemble(T: _F, L: _F, k0: _F, ks: _F, tref: _F, perf: _F, art: _F, share: _F,
+             absorbed: _F, q: _F, rhs: _F, sub: _F, diag: _F, sup: _F, psum: _F) -> None:
     """Conduction, perfusion and absorption terms of (T.1) into preallocated arrays.
 
     ``T (N, k)`` [K]; per-link ``L, k0, ks, tref (N-1, k)`` as for
@@ -142,7 +153,8 @@ def assemble(T, L, k0, ks, tref, perf, art, share, absorbed, q, rhs, sub, diag, 
     f(T, L, k0, ks, tref, perf, art, share, absorbed, q, rhs, sub, diag, sup, psum)
 
 
-def implicit_solve(T, c0, c1, th, sub, diag, sup, fixed, rhs, base, mode: int) -> np.ndarray:
+def implicit_solve(T: _F, c0: _F, c1: _F, th: ArrayLike, sub: _F, diag: _F, sup: _F, fixed: _B,
+                   rhs: _F, base: _F | None, mode: int) -> _F:
     """One tridiagonal solve: Newton step (``mode`` 0), ``(C - th J)^-1 rhs`` (1), or the
     steady Newton step ``(-J)^-1 rhs`` (2). ``th (k,)``, ``fixed (N,)`` bool."""
     out = np.empty_like(T)

@@ -21,12 +21,14 @@ so one layout serves every chunk of a study and a sample's grid never depends on
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
+from numpy.typing import ArrayLike, NDArray
 
-from plyrisk.models.stack import Solid
-from plyrisk.models.wearer import SensorWearer, SkinWearer
+from plyrisk.models.stack import Gap, Solid
+from plyrisk.models.wearer import SensorWearer, SkinLayerProperties, SkinWearer, Wearer
 
 FIRST_CELL_FACTOR = 0.05
 """First slice at a face, as a fraction of ``sqrt(alpha * FIRST_CELL_TIME)`` [-]."""
@@ -43,6 +45,10 @@ THIN_GROWTH = 1.25
 """Growth of the slices in a thin solid, and in the subcutis (deep, mild gradients) [-]."""
 MAX_CELL_FACTOR = 0.25
 """Largest slice, as a fraction of the penetration depth ``sqrt(alpha * horizon)`` [-]."""
+
+PartSource = Solid | Gap | SkinLayerProperties | Wearer
+"""What a :class:`Part` stands for: a solid (its slices, or the contact after it), a gap, a
+skin layer, or the wearer (its contact, the sensor, the prescribed surface)."""
 
 
 @dataclass(frozen=True)
@@ -78,14 +84,18 @@ class Part:
     first, last
         First and last node (links ``first .. last - 1`` belong to the part) [-].
     source
-        The layer, skin-layer dictionary or wearer the part stands for [-].
+        The layer, skin-layer dictionary or wearer the part stands for (:data:`PartSource`):
+        a :class:`~plyrisk.models.stack.Solid` for ``"solid"``, a
+        :class:`~plyrisk.models.stack.Gap` for ``"gap"``, a
+        :class:`~plyrisk.models.wearer.SkinLayerProperties` for ``"skin"``, the solid before
+        it or the wearer for ``"contact"``, the wearer for ``"sensor"`` and ``"prescribed"`` [-].
     """
 
     kind: str
     name: str
     first: int
     last: int
-    source: object
+    source: PartSource
 
 
 @dataclass(frozen=True)
@@ -126,15 +136,17 @@ class Mesh:
         return self.node_depth.shape[0]
 
 
-def _diffusivity(conductivity, density, specific_heat) -> np.ndarray:
+def _diffusivity(conductivity: ArrayLike, density: ArrayLike | None,
+                 specific_heat: ArrayLike | None) -> NDArray[np.float64]:
     return np.asarray(conductivity, float) / (
         np.asarray(density, float) * np.asarray(specific_heat, float)
     )
 
 
-def _meshed_layers(layers, wearer, horizon) -> list[tuple[str, object, object, bool, bool]]:
+def _meshed_layers(layers: Sequence[Solid | Gap], wearer: Wearer, horizon: float
+                   ) -> list[tuple[str, ArrayLike, NDArray[np.float64], bool, bool]]:
     """(name, thickness, diffusivity, two_sided, thin) of every layer that gets slices."""
-    out = []
+    out: list[tuple[str, ArrayLike, NDArray[np.float64], bool, bool]] = []
     for layer in layers:
         if isinstance(layer, Solid):
             alpha = _diffusivity(layer.conductivity, layer.density, layer.specific_heat)
@@ -149,7 +161,8 @@ def _meshed_layers(layers, wearer, horizon) -> list[tuple[str, object, object, b
     return out
 
 
-def relative_slices(thickness, diffusivity, horizon: float, *, two_sided: bool = True,
+def relative_slices(thickness: ArrayLike, diffusivity: ArrayLike, horizon: float, *,
+                    two_sided: bool = True,
                     refinement: int = 1, first_cell_factor: float | None = None,
                     growth: float | None = None) -> tuple[float, ...]:
     """Slice boundaries of one layer as fractions of its thickness, fine enough for all samples.
@@ -180,19 +193,19 @@ def relative_slices(thickness, diffusivity, horizon: float, *, two_sided: bool =
     largest = np.min(MAX_CELL_FACTOR * np.sqrt(alpha * horizon) / L)
     largest = max(largest, first)
     span = 0.5 if two_sided else 1.0
-    sizes = []
+    grown: list[float] = []
     total = 0.0
     size = first
     deep = np.min(np.sqrt(alpha * horizon) / L)  # penetration depth over the horizon
     while total < span * (1.0 - 1e-9):
         if not two_sided and total > deep:  # nothing to resolve here: grow fast
             size = max(size, largest) * DEEP_GROWTH
-            sizes.append(size)
+            grown.append(size)
         else:
-            sizes.append(min(size, largest))
+            grown.append(min(size, largest))
             size *= ratio
-        total += sizes[-1]
-    sizes = np.asarray(sizes) * (span / total)  # fill the span exactly
+        total += grown[-1]
+    sizes = np.asarray(grown) * (span / total)  # fill the span exactly
     if two_sided:
         # join the two halves; merge the two middle slices when they are small
         sizes = np.concatenate([sizes, sizes[::-1]])
@@ -208,7 +221,8 @@ def relative_slices(thickness, diffusivity, horizon: float, *, two_sided: bool =
     return tuple(float(x) for x in edges)
 
 
-def mesh_layout(layers, wearer, horizon: float, *, refinement: int = 1) -> MeshLayout:
+def mesh_layout(layers: Sequence[Solid | Gap], wearer: Wearer, horizon: float, *,
+                refinement: int = 1) -> MeshLayout:
     """The slice layout of every meshed layer, from all samples' thicknesses and diffusivities.
 
     Parameters
@@ -226,7 +240,8 @@ def mesh_layout(layers, wearer, horizon: float, *, refinement: int = 1) -> MeshL
     -------
     MeshLayout
     """
-    names, fractions = [], []
+    names: list[str] = []
+    fractions: list[tuple[float, ...]] = []
     for name, L, alpha, two_sided, thin in _meshed_layers(layers, wearer, horizon):
         names.append(name)
         fractions.append(relative_slices(
@@ -236,7 +251,8 @@ def mesh_layout(layers, wearer, horizon: float, *, refinement: int = 1) -> MeshL
     return MeshLayout(tuple(names), tuple(fractions))
 
 
-def build_mesh(layers, wearer, layout: MeshLayout, n: int) -> Mesh:
+def build_mesh(layers: Sequence[Solid | Gap], wearer: Wearer, layout: MeshLayout,
+               n: int) -> Mesh:
     """The node chain of the assembly and wearer for ``n`` samples on a given layout.
 
     Parameters
@@ -260,7 +276,7 @@ def build_mesh(layers, wearer, layout: MeshLayout, n: int) -> Mesh:
     face_nodes, face_names = [0], ["exposed face"]
     node = 0
 
-    def add_slices(kind, name, L, source):
+    def add_slices(kind: str, name: str, L: ArrayLike, source: PartSource) -> None:
         nonlocal node
         fr = np.asarray(fractions[name])
         start = depth[-1]
@@ -270,7 +286,7 @@ def build_mesh(layers, wearer, layout: MeshLayout, n: int) -> Mesh:
         parts.append(Part(kind, name, node, node + fr.size - 1, source))
         node += fr.size - 1
 
-    def add_link(kind, name, width, source):
+    def add_link(kind: str, name: str, width: ArrayLike, source: PartSource) -> None:
         nonlocal node
         depth.append(depth[-1] + np.broadcast_to(np.asarray(width, float), (n,)))
         parts.append(Part(kind, name, node, node + 1, source))
@@ -278,9 +294,9 @@ def build_mesh(layers, wearer, layout: MeshLayout, n: int) -> Mesh:
 
     for i, layer in enumerate(layers):
         if isinstance(layer, Solid):
-            if i > 0 and isinstance(layers[i - 1], Solid) and layers[i - 1].contact_resistance \
-                    is not None:
-                add_link("contact", f"{layers[i - 1].name} contact", 0.0, layers[i - 1])
+            prev = layers[i - 1] if i > 0 else None
+            if isinstance(prev, Solid) and prev.contact_resistance is not None:
+                add_link("contact", f"{prev.name} contact", 0.0, prev)
                 face_nodes.append(node)
                 face_names.append(f"{layer.name} hot face")
             add_slices("solid", layer.name, layer.thickness, layer)

@@ -26,13 +26,21 @@ the exposure and the cool-down.
 from __future__ import annotations
 
 import math
+from typing import Any, cast
 
 import numpy as np
 
 from plyrisk.models.kernels import implicit_solve
 from plyrisk.models.mesh import Mesh
 from plyrisk.models.transient_drive import Drive
-from plyrisk.models.transient_problem import Problem, capacity, enthalpy, fluxes, node_sum
+from plyrisk.models.transient_problem import (
+    Fluxes,
+    Problem,
+    capacity,
+    enthalpy,
+    fluxes,
+    node_sum,
+)
 from plyrisk.models.transient_tracking import BurnTracker, SensorTracker, track_peak
 
 GAMMA = 2.0 - math.sqrt(2.0)
@@ -49,7 +57,10 @@ MAX_NEWTON_MOVE = 50.0
 """Largest change of any node temperature in one Newton iteration [K]."""
 
 
-def newton(p: Problem, drive_face, absorbed, T, base, theta, h, mask, tol, *, steady=False):
+def newton(p: Problem, drive_face: dict[str, np.ndarray], absorbed: np.ndarray, T: np.ndarray,
+           base: np.ndarray | float, theta: np.ndarray | float, h: np.ndarray | float,
+           mask: np.ndarray, tol: float, *, steady: bool = False
+           ) -> tuple[np.ndarray, np.ndarray, Fluxes]:
     """Solve ``H(T) - base - theta h F(T) = 0`` (or ``F(T) = 0`` when ``steady``) per sample.
 
     Returns the solution, a per-sample success flag (for the samples in ``mask``) and the
@@ -77,7 +88,7 @@ def newton(p: Problem, drive_face, absorbed, T, base, theta, h, mask, tol, *, st
                                   None, 2)
         else:
             step = implicit_solve(T, p.c0, p.c1, theta * h, F.sub, F.diag, F.sup, fixed, F.rhs,
-                                  base, 0)
+                                  cast(np.ndarray, base), 0)  # an array unless steady
         move = np.max(np.abs(step), axis=0)
         scale = np.where(move > MAX_NEWTON_MOVE, MAX_NEWTON_MOVE / move, 1.0)
         live = ~done
@@ -87,7 +98,8 @@ def newton(p: Problem, drive_face, absorbed, T, base, theta, h, mask, tol, *, st
     return T, ok & mask, F
 
 
-def steady_state(p: Problem, drive: Drive, guess: np.ndarray, tol: float):
+def steady_state(p: Problem, drive: Drive, guess: np.ndarray, tol: float
+                 ) -> tuple[np.ndarray, np.ndarray]:
     """Steady state of (T.1) at the pre-exposure conditions; returns ``(T, ok)``."""
     k = guess.shape[1]
     face, absorbed, _ = drive.conditions(np.zeros(k), np.zeros(k, dtype=int))
@@ -101,8 +113,9 @@ def steady_state(p: Problem, drive: Drive, guess: np.ndarray, tol: float):
     return T, ok_all
 
 
-def integrate(p: Problem, drive: Drive, mesh: Mesh, T0: np.ndarray, out: dict, opts: dict,
-              burn: BurnTracker | None, sensor: SensorTracker | None) -> None:
+def integrate(p: Problem, drive: Drive, mesh: Mesh, T0: np.ndarray, out: dict[str, np.ndarray],
+              opts: dict[str, Any], burn: BurnTracker | None,
+              sensor: SensorTracker | None) -> None:
     """Step every sample from 0 to the horizon; write the per-sample outputs into ``out``."""
     k = T0.shape[1]
     tol = opts["temperature_tolerance"]
@@ -133,7 +146,7 @@ def integrate(p: Problem, drive: Drive, mesh: Mesh, T0: np.ndarray, out: dict, o
     oidx = np.zeros(k, dtype=np.int64)
     all_idx = np.arange(k)
 
-    def record(sel, Tsel, times):
+    def record(sel: np.ndarray, Tsel: np.ndarray, times: np.ndarray) -> None:
         hist["face"][sel, oidx[sel]] = Tsel[faces].T
         hist["surface"][sel, oidx[sel]] = Tsel[surface]
         if basal is not None:
@@ -271,11 +284,10 @@ def integrate(p: Problem, drive: Drive, mesh: Mesh, T0: np.ndarray, out: dict, o
         out["absorbed_energy"] = sensor.capacity * (T[surface] - sensor.t0)
 
 
-def _merge(Fn, F2, Fr, keep, restart):
+def _merge(Fn: Fluxes, F2: Fluxes, Fr: Fluxes, keep: np.ndarray, restart: np.ndarray) -> Fluxes:
     """Fluxes at the start of the next step: ``F2`` where kept, ``Fr`` at restarts."""
-    from plyrisk.models.transient_problem import Fluxes
 
-    def pick(name):
+    def pick(name: str) -> np.ndarray:
         a, b, c = getattr(Fn, name), getattr(F2, name), getattr(Fr, name)
         return np.where(restart, c, np.where(keep, b, a))
 
@@ -283,7 +295,7 @@ def _merge(Fn, F2, Fr, keep, restart):
                                        "perfusion", "wearer")))
 
 
-def _accept(v: dict) -> None:
+def _accept(v: dict[str, Any]) -> None:
     """Book-keeping of an accepted step (energies, peaks, damage, sensor) for ``v['sel']``."""
     sel, be, hh, t = v["sel"], v["be"][v["sel"]], v["hh"][v["sel"]], v["t"][v["sel"]]
     Fn, F1, F2, acc = v["Fn"], v["F1"], v["F2"], v["acc"]

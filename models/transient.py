@@ -16,13 +16,14 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 from dataclasses import replace
+from typing import Any
 
 import numpy as np
 from numpy.typing import ArrayLike
 
 from plyrisk.models.burn import damage_parameters
 from plyrisk.models.exposure import TransientExposure
-from plyrisk.models.mesh import MeshLayout, build_mesh, mesh_layout
+from plyrisk.models.mesh import Mesh, MeshLayout, build_mesh, mesh_layout
 from plyrisk.models.stack import Gap, Solid, StackError
 from plyrisk.models.stepper import integrate, steady_state
 from plyrisk.models.transient_drive import Drive
@@ -32,9 +33,15 @@ from plyrisk.models.transient_outputs import (
     TransientSolution,
     empty_outputs,
 )
-from plyrisk.models.transient_problem import build_problem
+from plyrisk.models.transient_problem import Problem, build_problem
 from plyrisk.models.transient_tracking import BurnTracker, SensorTracker
-from plyrisk.models.wearer import PrescribedWearer, SensorWearer, SkinWearer, check_wearer
+from plyrisk.models.wearer import (
+    PrescribedWearer,
+    SensorWearer,
+    SkinWearer,
+    Wearer,
+    check_wearer,
+)
 
 THIRD_DEGREE_RULES = ("basal", "dermis_base")
 """Third-degree burn: damage 1e4 at the basal depth, or damage 1 at the dermis base with the
@@ -174,7 +181,7 @@ def solve_transient(
                 sensor = SensorTracker(idx.size, np.broadcast_to(wearer.heat_capacity,
                                        (n,))[idx].astype(float), T0[mesh.surface_node].copy(),
                                        criterion_energy)
-            chunk = {}
+            chunk: dict[str, np.ndarray] = {}
             if compiled and compiled_supported(p, d):
                 integrate_compiled(p, d, mesh, T0, chunk, opts, burn, sensor,
                                    threads=threads)
@@ -194,7 +201,7 @@ def solve_transient(
         third_degree=third_degree, wearer_kind=wearer.kind)
 
 
-def validate_transient_stack(layers: list, wearer) -> None:
+def validate_transient_stack(layers: Sequence[Solid | Gap], wearer: Wearer) -> None:
     """Check the layers and the wearer for the transient model.
 
     Parameters
@@ -243,8 +250,8 @@ def validate_transient_stack(layers: list, wearer) -> None:
                              quantity="radiant_transmissivity")
 
 
-def _check_options(tol, first_step, max_step, min_step, max_steps, refinement, chunk_size,
-                   third_degree) -> None:
+def _check_options(tol: float, first_step: float, max_step: float, min_step: float,
+                   max_steps: int, refinement: int, chunk_size: int, third_degree: str) -> None:
     for name, value in (("temperature_tolerance", tol), ("first_step", first_step),
                         ("max_step", max_step), ("min_step", min_step)):
         if not (np.isfinite(value) and value > 0):
@@ -259,7 +266,7 @@ def _check_options(tol, first_step, max_step, min_step, max_steps, refinement, c
                          f"{', '.join(THIRD_DEGREE_RULES)}")
 
 
-def _output_times(output_times, horizon) -> np.ndarray:
+def _output_times(output_times: ArrayLike | None, horizon: float) -> np.ndarray:
     if output_times is None:
         return np.zeros(0)
     t = np.asarray(output_times, dtype=float).ravel()
@@ -273,9 +280,10 @@ def _output_times(output_times, horizon) -> np.ndarray:
     return t
 
 
-def _sample_count(layers, wearer, exposure) -> int:
+def _sample_count(layers: Sequence[Solid | Gap], wearer: Wearer,
+                  exposure: TransientExposure) -> int:
     sizes = {exposure.sample_count()}
-    values = []
+    values: list[tuple[str, str, Any]] = []
     for layer in layers:
         values += [(layer.name, k, v) for k, v in vars(layer).items() if k != "name"]
     if isinstance(wearer, SkinWearer):
@@ -302,7 +310,7 @@ def _sample_count(layers, wearer, exposure) -> int:
     return sizes.pop() if sizes else 1
 
 
-def _held(p, wearer, mesh, idx):
+def _held(p: Problem, wearer: Wearer, mesh: Mesh, idx: np.ndarray) -> Problem:
     """The problem with the sensor held at its initial temperature (for the initial state)."""
     if not isinstance(wearer, SensorWearer) or wearer.sensor.initial_temperature is None:
         return p
@@ -317,7 +325,7 @@ def _held(p, wearer, mesh, idx):
     return replace(p, fixed=fixed, fixed_value=value)
 
 
-def _starting_guess(mesh, wearer, drive: Drive, n: int) -> np.ndarray:
+def _starting_guess(mesh: Mesh, wearer: Wearer, drive: Drive, n: int) -> np.ndarray:
     """A ramp from the ambient to the wearer's temperature, for the steady Newton solve."""
     amb = drive.rows["ambient"]
     if isinstance(wearer, SkinWearer):

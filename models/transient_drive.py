@@ -12,11 +12,17 @@ exposure by flux × time).
 from __future__ import annotations
 
 import numpy as np
+from numpy.typing import ArrayLike, NDArray
 
 from plyrisk.models.exposure import Table, TransientExposure
 
+FaceConditions = dict[str, np.ndarray]
+"""Keywords of :func:`plyrisk.models.boundary.hot_environment_flux` for the exposed face:
+``gas_temperature`` [K], ``convection_coefficient`` [W m-2 K-1], ``surroundings_temperature``
+[K], ``emissivity`` [-], each ``(k,)``."""
 
-def _row(value, n: int) -> np.ndarray:
+
+def _row(value: ArrayLike, n: int) -> NDArray[np.float64]:
     return np.broadcast_to(np.asarray(value, dtype=float), (n,)).copy()
 
 
@@ -36,7 +42,7 @@ class Drive:
     def __init__(self, exposure: TransientExposure, emissivity: np.ndarray, n: int) -> None:
         e = exposure
         self.mode = e.mode
-        self.values: dict[str, object] = {}
+        self.values: dict[str, Table | NDArray[np.float64] | None] = {}
         for name in ("incident_flux", "gas_temperature", "convection_coefficient"):
             v = getattr(e, name)
             self.values[name] = v if isinstance(v, Table) else _row(v, n)
@@ -71,7 +77,10 @@ class Drive:
 
     def _value(self, name: str, t: np.ndarray) -> np.ndarray:
         v = self.values[name]
-        return v(t) if isinstance(v, Table) else v
+        if isinstance(v, Table):
+            return v(t)
+        assert v is not None  # only surroundings_temperature may be None; not read then
+        return v
 
     def next_jump(self, t: np.ndarray) -> np.ndarray:
         """The next jump time after ``t`` (table kink, end of exposure, horizon) [s]."""
@@ -86,7 +95,8 @@ class Drive:
         """1 during the exposure (``t < duration``), else 2 [-]."""
         return np.where(t < self.rows["duration"], 1, 2)
 
-    def conditions(self, t: np.ndarray, phase: np.ndarray):
+    def conditions(self, t: np.ndarray, phase: np.ndarray
+                   ) -> tuple[FaceConditions, np.ndarray, np.ndarray]:
         """Face keywords, absorbed flux [W m-2] and exposure flux [W m-2] at ``t`` in ``phase``."""
         r = self.rows
         eps = r["emissivity"]

@@ -22,12 +22,20 @@ differs), not bit for bit. Gap convection is not compiled (the batched path is u
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
+from typing import TYPE_CHECKING, Any, TypeVar
 
 import numpy as np
+from numpy.typing import NDArray
 from scipy.constants import Stefan_Boltzmann as SIGMA
 
 from plyrisk.models import air
-from plyrisk.models.burn import BURN_THRESHOLDS, crossing_fraction, damage_increment
+from plyrisk.models.burn import (
+    BURN_THRESHOLDS,
+    DamageParameters,
+    crossing_fraction,
+    damage_increment,
+)
 from plyrisk.models.exposure import Table
 from plyrisk.models.kernels import COMPILED, numba
 from plyrisk.models.sensor import CRITERION_COEFFICIENT, CRITERION_EXPONENT
@@ -41,7 +49,17 @@ from plyrisk.models.stepper import (
     NEWTON_ITERATIONS,
     NEWTON_TOLERANCE,
 )
-from plyrisk.models.transient_tracking import ONSET
+from plyrisk.models.transient_tracking import ONSET, BurnTracker, SensorTracker
+
+if TYPE_CHECKING:  # pragma: no cover - for type checkers only
+    from plyrisk.models.mesh import Mesh
+    from plyrisk.models.transient_drive import Drive
+    from plyrisk.models.transient_problem import Problem
+
+_Floats = NDArray[np.float64]
+_Ints = NDArray[np.int64]
+_Bools = NDArray[np.bool_]
+_Fn = TypeVar("_Fn", bound=Callable[..., Any])
 
 AVAILABLE = COMPILED
 """Whether the compiled time loop can be used (numba installed) [-]."""
@@ -63,12 +81,13 @@ _AIR = (math.log(air._EPSILON_OVER_K), *air._OMEGA_B,
 _E0, _E1, _E2 = _E
 
 
-def _jit(f):
-    return numba.njit(cache=True)(f) if COMPILED else f
+def _jit(f: _Fn) -> _Fn:
+    """``f`` compiled (cached) when numba is installed (:data:`COMPILED`), else ``f``."""
+    return numba.njit(cache=True)(f) if numba is not None else f
 
 
 @_jit
-def _air_conductivity(tm):  # pragma: no cover - compiled
+def _air_conductivity(tm: float) -> tuple[float, float]:  # pragma: no cover - compiled
     """:func:`plyrisk.models.air.thermal_conductivity_with_slope` for one temperature."""
     ln_eps, b0, b1, b2, b3, b4, c, ln_tc, n1, n2, t2, n3, t3 = _AIR
     ln_t = math.log(tm)
@@ -85,8 +104,11 @@ def _air_conductivity(tm):  # pragma: no cover - compiled
 
 
 @_jit
-def _fluxes(T, s, kind, L, k0, ks, tref, la, lb, rad_mode, perf, art, share, absorbed,
-            gas, hc, sur, e, fixed, surface, F, q):  # pragma: no cover - compiled
+def _fluxes(T: _Floats, s: int, kind: _Ints, L: _Floats, k0: _Floats, ks: _Floats, tref: _Floats,
+            la: _Floats, lb: _Floats, rad_mode: int, perf: _Floats, art: float, share: _Floats,
+            absorbed: float, gas: float, hc: float, sur: float, e: float, fixed: _Bools,
+            surface: int, F: _Floats, q: _Floats
+            ) -> tuple[float, float, float, float]:  # pragma: no cover - compiled
     """(T.1) at ``T`` for sample ``s``: ``F[0..3]`` = rhs, sub, diag, sup; returns the boundary
     terms (hot, into fixed nodes, perfusion, to the wearer) [W m-2]."""
     N = T.size
@@ -160,7 +182,9 @@ def _fluxes(T, s, kind, L, k0, ks, tref, la, lb, rad_mode, perf, art, share, abs
 
 
 @_jit
-def _solve(T, s, c0, c1, th, F, fixed, rhs, base, mode, out, cp):  # pragma: no cover
+def _solve(T: _Floats, s: int, c0: _Floats, c1: _Floats, th: float, F: _Floats, fixed: _Bools,
+           rhs: _Floats, base: _Floats, mode: int, out: _Floats, cp: _Floats
+           ) -> None:  # pragma: no cover
     """Thomas sweep of ``(C(T) - th J) x = d``: ``d`` the Newton residual (``mode`` 0) or
     ``rhs`` (1); fixed rows identity with zero right-hand side."""
     N = T.size
@@ -190,7 +214,8 @@ def _solve(T, s, c0, c1, th, F, fixed, rhs, base, mode, out, cp):  # pragma: no 
 
 
 @_jit
-def _value(i, s, t, const, tab_flag, tab_t, tab_v, tab_n):  # pragma: no cover - compiled
+def _value(i: int, s: int, t: float, const: _Floats, tab_flag: _Ints, tab_t: _Floats,
+           tab_v: _Floats, tab_n: _Ints) -> float:  # pragma: no cover - compiled
     if tab_flag[i] == 1:
         n = tab_n[i]
         return np.interp(t, tab_t[i, :n], tab_v[i, :n])
@@ -198,8 +223,9 @@ def _value(i, s, t, const, tab_flag, tab_t, tab_v, tab_n):  # pragma: no cover -
 
 
 @_jit
-def _conditions(t, phase, s, mode, eps, rows, const, tab_flag, tab_t, tab_v,
-                tab_n):  # pragma: no cover - compiled
+def _conditions(t: float, phase: int, s: int, mode: int, eps: float, rows: _Floats, const: _Floats,
+                tab_flag: _Ints, tab_t: _Floats, tab_v: _Floats, tab_n: _Ints
+                ) -> tuple[float, float, float, float, float, float]:  # pragma: no cover - compiled
     """Face exchange, absorbed flux and exposure flux at ``t`` (as
     :meth:`plyrisk.models.transient_drive.Drive.conditions`)."""
     amb, h_amb, cool, cool_h, cool_s = rows[0, s], rows[1, s], rows[2, s], rows[3, s], rows[4, s]
@@ -227,7 +253,7 @@ def _conditions(t, phase, s, mode, eps, rows, const, tab_flag, tab_t, tab_v,
 
 
 @_jit
-def _criterion(t, C, b):  # pragma: no cover - compiled
+def _criterion(t: float, C: float, b: float) -> float:  # pragma: no cover - compiled
     """:func:`plyrisk.models.sensor.criterion_energy` (extrapolated) for one time."""
     if t < 0.0:
         return np.nan
@@ -235,7 +261,9 @@ def _criterion(t, C, b):  # pragma: no cover - compiled
 
 
 @_jit
-def _sensor_piece(res, s, cap, t0, C, b, ta, tb, Ta, Tb, ea, fa, fb):  # pragma: no cover
+def _sensor_piece(res: _Floats, s: int, cap: float, t0: float, C: float, b: float, ta: float,
+                  tb: float, Ta: float, Tb: float, ea: float, fa: float, fb: float
+                  ) -> None:  # pragma: no cover
     """:meth:`plyrisk.models.transient_tracking.SensorTracker.piece` for one sample."""
     if np.isfinite(res[s, _R_SENSOR_T]) or not tb > 0.0:
         return
@@ -262,9 +290,12 @@ def _sensor_piece(res, s, cap, t0, C, b, ta, tb, Ta, Tb, ea, fa, fb):  # pragma:
 
 
 @_jit
-def _newton(T, s, base, theta, h, tol, kind, L, k0, ks, tref, la, lb, rad_mode, perf, art,
-            share, absorbed, gas, hc, sur, e, fixed, surface, c0, c1, F, Fb, q, step,
-            cp):  # pragma: no cover - compiled
+def _newton(T: _Floats, s: int, base: _Floats, theta: float, h: float, tol: float, kind: _Ints,
+            L: _Floats, k0: _Floats, ks: _Floats, tref: _Floats, la: _Floats, lb: _Floats,
+            rad_mode: int, perf: _Floats, art: float, share: _Floats, absorbed: float, gas: float,
+            hc: float, sur: float, e: float, fixed: _Bools, surface: int, c0: _Floats, c1: _Floats,
+            F: _Floats, Fb: _Floats, q: _Floats, step: _Floats, cp: _Floats
+            ) -> bool:  # pragma: no cover - compiled
     """Solve ``H(T) - base - theta h F(T) = 0`` in place (S.3); ``F``/``Fb`` hold the fluxes
     at the returned ``T``. Returns whether it converged."""
     N = T.size
@@ -299,12 +330,17 @@ def _newton(T, s, base, theta, h, tol, kind, L, k0, ks, tref, la, lb, rad_mode, 
 
 
 @_jit
-def _one(s, T0, c0, c1, c0a, c1a, perf, art, share, fixed, kind, L, k0, ks, tref, la, lb,
-               rad_mode, surface, basal, dermis, faces, mode, eps, rows, duration, horizon,
-               kinks, const, tab_flag, tab_t, tab_v, tab_n, tout, tol, first_step, max_step,
-               min_step, max_steps, sensor, cap, sensor_t0, crit_c, crit_b, log_dermis,
-               res, steps_out, rejected_out, converged_out, hist_face, hist_basal,
-               hist_surface, pieces, counts):  # pragma: no cover - compiled
+def _one(s: int, T0: _Floats, c0: _Floats, c1: _Floats, c0a: _Floats, c1a: _Floats, perf: _Floats,
+         art: _Floats, share: _Floats, fixed: _Bools, kind: _Ints, L: _Floats, k0: _Floats,
+         ks: _Floats, tref: _Floats, la: _Floats, lb: _Floats, rad_mode: int, surface: int,
+         basal: int, dermis: int, faces: _Ints, mode: int, eps: _Floats, rows: _Floats,
+         duration: _Floats, horizon: float, kinks: _Floats, const: _Floats, tab_flag: _Ints,
+         tab_t: _Floats, tab_v: _Floats, tab_n: _Ints, tout: _Floats, tol: float, first_step: float,
+         max_step: float, min_step: float, max_steps: int, sensor: bool, cap: _Floats,
+         sensor_t0: _Floats, crit_c: float, crit_b: float, log_dermis: bool, res: _Floats,
+         steps_out: _Ints, rejected_out: _Ints, converged_out: _Bools, hist_face: _Floats,
+         hist_basal: _Floats, hist_surface: _Floats, pieces: _Floats, counts: _Ints
+         ) -> None:  # pragma: no cover - compiled
     N = T0.shape[1]
     K = tout.size
     newton_tol = NEWTON_TOLERANCE * tol
@@ -577,13 +613,19 @@ def _one(s, T0, c0, c1, c0a, c1a, perf, art, share, fixed, kind, L, k0, ks, tref
 
 
 
-@numba.njit(cache=True, nogil=True) if COMPILED else (lambda f: f)
-def _integrate(lo, hi, T0, c0, c1, c0a, c1a, perf, art, share, fixed, kind, L, k0, ks, tref, la, lb,
-               rad_mode, surface, basal, dermis, faces, mode, eps, rows, duration, horizon,
-               kinks, const, tab_flag, tab_t, tab_v, tab_n, tout, tol, first_step, max_step,
-               min_step, max_steps, sensor, cap, sensor_t0, crit_c, crit_b, log_dermis,
-               res, steps_out, rejected_out, converged_out, hist_face, hist_basal,
-               hist_surface, pieces, counts):  # pragma: no cover - compiled
+@numba.njit(cache=True, nogil=True) if numba is not None else (lambda f: f)  # as in _jit
+def _integrate(lo: int, hi: int, T0: _Floats, c0: _Floats, c1: _Floats, c0a: _Floats, c1a: _Floats,
+               perf: _Floats, art: _Floats, share: _Floats, fixed: _Bools, kind: _Ints, L: _Floats,
+               k0: _Floats, ks: _Floats, tref: _Floats, la: _Floats, lb: _Floats, rad_mode: int,
+               surface: int, basal: int, dermis: int, faces: _Ints, mode: int, eps: _Floats,
+               rows: _Floats, duration: _Floats, horizon: float, kinks: _Floats, const: _Floats,
+               tab_flag: _Ints, tab_t: _Floats, tab_v: _Floats, tab_n: _Ints, tout: _Floats,
+               tol: float, first_step: float, max_step: float, min_step: float, max_steps: int,
+               sensor: bool, cap: _Floats, sensor_t0: _Floats, crit_c: float, crit_b: float,
+               log_dermis: bool, res: _Floats, steps_out: _Ints, rejected_out: _Ints,
+               converged_out: _Bools, hist_face: _Floats, hist_basal: _Floats,
+               hist_surface: _Floats, pieces: _Floats, counts: _Ints
+               ) -> None:  # pragma: no cover - compiled
     """Integrate samples ``lo .. hi - 1`` (threads take disjoint ranges; no GIL held)."""
     for s in range(lo, hi):
         _one(s, T0, c0, c1, c0a, c1a, perf, art, share, fixed, kind, L, k0, ks, tref, la, lb,
@@ -598,13 +640,15 @@ def _sample_major(x: np.ndarray) -> np.ndarray:
     return np.ascontiguousarray(np.asarray(x, dtype=float).T)
 
 
-def compiled_supported(problem, drive) -> bool:
+def compiled_supported(problem: Problem, drive: Drive) -> bool:
     """Whether :func:`integrate_compiled` handles this problem (numba, no gap convection)."""
     return AVAILABLE and not problem.convection_enabled
 
 
-def integrate_compiled(p, drive, mesh, T0: np.ndarray, out: dict, opts: dict, burn, sensor,
-                       *, threads: int = 1) -> None:
+def integrate_compiled(p: Problem, drive: Drive, mesh: Mesh, T0: np.ndarray,
+                       out: dict[str, np.ndarray], opts: dict[str, Any],
+                       burn: BurnTracker | None, sensor: SensorTracker | None, *,
+                       threads: int = 1) -> None:
     """Step every sample from 0 to the horizon with the compiled loop; write the outputs.
 
     Arguments and outputs as for :func:`plyrisk.models.stepper.integrate`; ``burn`` is a fresh
@@ -633,7 +677,7 @@ def integrate_compiled(p, drive, mesh, T0: np.ndarray, out: dict, opts: dict, bu
              "surroundings_temperature")
     const = np.zeros((4, k))
     tab_flag = np.zeros(4, dtype=np.int64)
-    tables = {}
+    tables: dict[int, Table] = {}
     for i, name in enumerate(names):
         v = drive.values[name]
         if v is None:
@@ -661,11 +705,12 @@ def integrate_compiled(p, drive, mesh, T0: np.ndarray, out: dict, opts: dict, bu
     dermis = -1 if mesh.dermis_base_node is None else int(mesh.dermis_base_node)
     log_dermis = burn is not None and burn.third_degree == "dermis_base"
     is_sensor = sensor is not None
-    cap = sensor.capacity if is_sensor else np.zeros(k)
-    s_t0 = sensor.t0 if is_sensor else np.zeros(k)
+    cap = sensor.capacity if sensor is not None else np.zeros(k)
+    s_t0 = sensor.t0 if sensor is not None else np.zeros(k)
     fixed = np.ascontiguousarray(p.fixed, dtype=np.bool_)
     R, C = "row", "col"  # per-sample along the first or the last axis
-    tagged = [
+    # the compiled loop's arguments (arrays and scalars), each tagged with its sample axis
+    tagged: list[tuple[Any, str | None]] = [
         (_sample_major(T0), R), (_sample_major(p.c0), R), (_sample_major(p.c1), R),
         (_sample_major(p.c0_assembly), R), (_sample_major(p.c1_assembly), R),
         (_sample_major(p.perfusion), R), (np.ascontiguousarray(p.arterial, dtype=float), R),
@@ -742,13 +787,13 @@ def integrate_compiled(p, drive, mesh, T0: np.ndarray, out: dict, opts: dict, bu
         out["time_to_second_degree_burn"] = times["second"]
         out["time_to_third_degree_burn"] = times["third"]
         out["damage_at_end"] = damage
-    if is_sensor:
+    if sensor is not None:
         out["sensor_criterion_time"] = res[:, _R_SENSOR_T]
         out["exposure_energy_at_criterion"] = res[:, _R_SENSOR_E]
         out["absorbed_energy"] = sensor.capacity * (res[:, _R_SURFACE_END] - sensor.t0)
 
 
-def _run(args: list, outputs: tuple, threads: int) -> None:
+def _run(args: list[Any], outputs: tuple[np.ndarray, ...], threads: int) -> None:
     """Call the compiled loop on ``threads`` threads, each over its own block of samples."""
     k = args[0].shape[0]
     threads = max(1, min(int(threads), k))
@@ -765,8 +810,9 @@ def _run(args: list, outputs: tuple, threads: int) -> None:
             job.result()
 
 
-def burn_outputs(pieces: np.ndarray, counts: np.ndarray, parameters, third_degree: str,
-                 dermis_parameters=None) -> tuple[dict[str, np.ndarray], np.ndarray]:
+def burn_outputs(pieces: np.ndarray, counts: np.ndarray, parameters: DamageParameters,
+                 third_degree: str, dermis_parameters: DamageParameters | None = None
+                 ) -> tuple[dict[str, np.ndarray], np.ndarray]:
     """Damage over the logged pieces, in time order, and the times thresholds are crossed.
 
     Parameters
@@ -789,7 +835,8 @@ def burn_outputs(pieces: np.ndarray, counts: np.ndarray, parameters, third_degre
     valid = np.arange(P)[None, :] < counts[:, None]
     ta, dt = pieces[..., 0], pieces[..., 1]
 
-    def accumulate(a, b, params):
+    def accumulate(a: np.ndarray, b: np.ndarray, params: DamageParameters
+                   ) -> tuple[np.ndarray, np.ndarray]:
         hot = valid & (np.maximum(a, b) > ONSET)
         inc = np.zeros((k, P))
         if np.any(hot):
@@ -798,7 +845,8 @@ def burn_outputs(pieces: np.ndarray, counts: np.ndarray, parameters, third_degre
         before = np.concatenate([np.zeros((k, 1)), total[:, :-1]], axis=1)
         return total, before
 
-    def crossing(a, b, total, before, thr, params):
+    def crossing(a: np.ndarray, b: np.ndarray, total: np.ndarray, before: np.ndarray, thr: float,
+                 params: DamageParameters) -> np.ndarray:
         time = np.full(k, np.inf)
         cross = valid & (before < thr) & (total >= thr)
         rows = np.flatnonzero(cross.any(axis=1))
@@ -811,13 +859,14 @@ def burn_outputs(pieces: np.ndarray, counts: np.ndarray, parameters, third_degre
 
     a, b = pieces[..., 2], pieces[..., 3]
     total, before = accumulate(a, b, parameters)
-    times = {}
+    times: dict[str, np.ndarray] = {}
     for name, key in (("first", "first_degree"), ("second", "second_degree")):
         times[name] = crossing(a, b, total, before, BURN_THRESHOLDS[key], parameters)
     if third_degree == "basal":
         times["third"] = crossing(a, b, total, before, BURN_THRESHOLDS["third_degree"],
                                   parameters)
     else:
+        assert dermis_parameters is not None  # third_degree "dermis_base" needs them
         da, db = pieces[..., 4], pieces[..., 5]
         d_total, d_before = accumulate(da, db, dermis_parameters)
         times["third"] = crossing(da, db, d_total, d_before, 1.0, dermis_parameters)

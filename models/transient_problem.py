@@ -17,20 +17,23 @@ base of the subcutis, a prescribed wearer surface) keep their temperature.
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass, replace
+from typing import Any
 
 import numpy as np
+from numpy.typing import ArrayLike
 from scipy.constants import Stefan_Boltzmann as SIGMA
 
 from plyrisk.models.boundary import hot_environment_flux
 from plyrisk.models.elements import contact_heat_flux, effective_emissivity, gap_kernel
 from plyrisk.models.kernels import assemble
-from plyrisk.models.mesh import Mesh
-from plyrisk.models.stack import Solid
-from plyrisk.models.wearer import SensorWearer, SkinWearer
+from plyrisk.models.mesh import Mesh, Part
+from plyrisk.models.stack import Gap, Solid
+from plyrisk.models.wearer import PrescribedWearer, SensorWearer, SkinWearer, Wearer
 
 
-def _row(value, n: int) -> np.ndarray:
+def _row(value: ArrayLike | None, n: int) -> np.ndarray:
     return np.broadcast_to(np.asarray(value, dtype=float), (n,)).copy()
 
 
@@ -55,7 +58,10 @@ class Problem:
     fixed
         Boolean mask of fixed nodes (nodes,) [-]; ``fixed_value`` their temperatures [K].
     cond, contact, gaps
-        Link groups: index arrays and per-link parameters.
+        Link groups: index arrays and per-link parameters (``cond`` and ``contact`` by name;
+        ``gaps`` as ``(link, keywords of gap_kernel)`` pairs).
+    radiation, convection_enabled
+        Gap options [-].
     surface
         The wearer's surface node [-].
     """
@@ -70,9 +76,9 @@ class Problem:
     emissivity: np.ndarray
     fixed: np.ndarray
     fixed_value: np.ndarray
-    cond: dict
-    contact: dict
-    gaps: tuple
+    cond: dict[str, np.ndarray]
+    contact: dict[str, np.ndarray]
+    gaps: tuple[tuple[int, dict[str, Any]], ...]
     surface: int
     radiation: str
     convection_enabled: bool
@@ -85,12 +91,12 @@ class Problem:
     def take(self, idx: np.ndarray) -> Problem:
         """The problem restricted to the samples ``idx`` (last axis)."""
 
-        def t(x):  # C order kept: the kernels run over samples innermost
+        def t(x: np.ndarray) -> np.ndarray:  # C order kept: the kernels run over samples innermost
             if isinstance(x, np.ndarray) and x.ndim >= 1 and x.shape[-1] == self.c0.shape[1]:
                 return np.ascontiguousarray(x[..., idx])
             return x
 
-        def td(d):
+        def td(d: dict[str, Any]) -> dict[str, Any]:
             return {k: t(v) for k, v in d.items()}
 
         return replace(
@@ -104,8 +110,8 @@ class Problem:
         )
 
 
-def build_problem(mesh: Mesh, layers, wearer, n: int, *, radiation: str = "exact",
-                  convection_enabled: bool = False) -> Problem:
+def build_problem(mesh: Mesh, layers: Sequence[Solid | Gap], wearer: Wearer, n: int, *,
+                  radiation: str = "exact", convection_enabled: bool = False) -> Problem:
     """Assemble the coefficients of (T.1) from the mesh, the layers and the wearer.
 
     Parameters
@@ -134,20 +140,22 @@ def build_problem(mesh: Mesh, layers, wearer, n: int, *, radiation: str = "exact
     share[0] = 1.0
     fixed = np.zeros(N, dtype=bool)
     fixed_value = np.zeros((N, n))
-    cond = {"idx": [], "thickness": [], "conductivity": [], "conductivity_slope": [],
-            "reference_temperature": []}
-    contact = {"idx": [], "contact_resistance": []}
-    gaps = []
+    cond: dict[str, list[Any]] = {"idx": [], "thickness": [], "conductivity": [],
+                                  "conductivity_slope": [], "reference_temperature": []}
+    contact: dict[str, list[Any]] = {"idx": [], "contact_resistance": []}
+    gaps: list[tuple[int, dict[str, Any]]] = []
     arterial = np.full(n, 310.15)
     for part in mesh.parts:
         src = part.source
         if part.kind in ("solid", "skin"):
             if part.kind == "solid":
+                assert isinstance(src, Solid)
                 rho, c_ref = _row(src.density, n), _row(src.specific_heat, n)
                 slope, t_ref = _row(src.specific_heat_slope, n), _row(src.reference_temperature, n)
                 k, ks = _row(src.conductivity, n), _row(src.conductivity_slope, n)
                 w = np.zeros(n)
             else:
+                assert isinstance(src, dict)
                 rho, c_ref = _row(src["density"], n), _row(src["specific_heat"], n)
                 slope, t_ref = np.zeros(n), np.full(n, 293.15)
                 k, ks = _row(src["conductivity"], n), np.zeros(n)
@@ -165,9 +173,11 @@ def build_problem(mesh: Mesh, layers, wearer, n: int, *, radiation: str = "exact
                 cond["conductivity_slope"].append(ks)
                 cond["reference_temperature"].append(t_ref)
         elif part.kind == "contact":
+            assert isinstance(src, Solid | SkinWearer | SensorWearer | PrescribedWearer)
             contact["idx"].append(part.first)
             contact["contact_resistance"].append(_row(src.contact_resistance, n))
         elif part.kind == "gap":
+            assert isinstance(src, Gap)
             eps_a, eps_b = _gap_emissivities(part, mesh, layers, wearer)
             width = _row(src.width, n)
             gaps.append((part.first, {
@@ -177,8 +187,10 @@ def build_problem(mesh: Mesh, layers, wearer, n: int, *, radiation: str = "exact
                 "orientation": src.orientation,
             }))
         elif part.kind == "sensor":
+            assert isinstance(src, SensorWearer)
             c0[part.first] += _row(src.heat_capacity, n)
         elif part.kind == "prescribed":
+            assert isinstance(src, PrescribedWearer)
             fixed[part.first] = True
             fixed_value[part.first] = _row(src.temperature, n)
     c0_assembly = c0.copy()
@@ -197,10 +209,13 @@ def build_problem(mesh: Mesh, layers, wearer, n: int, *, radiation: str = "exact
     perf[fixed] = 0.0
     if layers and isinstance(layers[0], Solid) and layers[0].radiant_transmissivity is not None:
         share = _in_depth_shares(mesh, layers[0], n)
-    emissivity = _row(layers[0].emissivity_hot if layers else wearer.emissivity, n)
+    exposed = layers[0] if layers else wearer
+    assert not isinstance(exposed, Gap)  # the exposed layer is a solid (validated)
+    emissivity = _row(exposed.emissivity_hot if isinstance(exposed, Solid) else exposed.emissivity,
+                      n)
     # every link carries conduction parameters (zero conductance where it is a contact or a
     # gap, whose own laws overwrite it), so the conduction law runs on slices of T
-    cond_arrays = {}
+    cond_arrays: dict[str, np.ndarray] = {}
     links = N - 1
     defaults = {"thickness": 1.0, "conductivity": 0.0, "conductivity_slope": 0.0,
                 "reference_temperature": 0.0}
@@ -216,20 +231,26 @@ def build_problem(mesh: Mesh, layers, wearer, n: int, *, radiation: str = "exact
                    radiation, bool(convection_enabled))
 
 
-def _gap_emissivities(part, mesh, layers, wearer):
+def _gap_emissivities(part: Part, mesh: Mesh, layers: Sequence[Solid | Gap],
+                      wearer: Wearer) -> tuple[ArrayLike, ArrayLike]:
     i = next(j for j, layer in enumerate(layers) if layer is part.source)
-    eps_a = layers[i - 1].emissivity_cold
-    eps_b = layers[i + 1].emissivity_hot if i + 1 < len(layers) else wearer.emissivity
+    before = layers[i - 1]  # a gap lies between solids, or between a solid and the wearer
+    after = layers[i + 1] if i + 1 < len(layers) else wearer
+    assert isinstance(before, Solid) and not isinstance(after, Gap)
+    eps_a = before.emissivity_cold
+    eps_b = after.emissivity_hot if isinstance(after, Solid) else after.emissivity
     return eps_a, eps_b
 
 
-def _assembly_share(mesh, layers, n, c0a, c1a) -> None:
+def _assembly_share(mesh: Mesh, layers: Sequence[Solid | Gap], n: int, c0a: np.ndarray,
+                    c1a: np.ndarray) -> None:
     """Give back the assembly's half slice at a surface node shared with the last solid."""
     last = [p for p in mesh.parts if p.kind == "solid"]
     if not last or last[-1].last != mesh.surface_node:
         return
     part = last[-1]
     src = part.source
+    assert isinstance(src, Solid)
     j = part.last - 1
     dx = mesh.node_depth[j + 1] - mesh.node_depth[j]
     half = 0.5 * _row(src.density, n) * dx
@@ -277,7 +298,8 @@ class Fluxes:
     wearer: np.ndarray
 
 
-def fluxes(p: Problem, T: np.ndarray, face: dict, absorbed: np.ndarray) -> Fluxes:
+def fluxes(p: Problem, T: np.ndarray, face: dict[str, np.ndarray],
+           absorbed: np.ndarray) -> Fluxes:
     """Evaluate (T.1) at temperatures ``T`` (nodes, k).
 
     Parameters
@@ -308,11 +330,11 @@ def fluxes(p: Problem, T: np.ndarray, face: dict, absorbed: np.ndarray) -> Fluxe
              c["reference_temperature"], p.perfusion, p.arterial, p.radiant_share,
              np.broadcast_to(np.asarray(absorbed, dtype=float), (k,)), q, rhs, sub, diag, sup,
              psum)
-    others = []
+    others: list[tuple[Sequence[int] | np.ndarray, Sequence[np.ndarray]]] = []
     if p.contact:
-        i = p.contact["idx"]
-        others.append((i, contact_heat_flux(T[i], T[i + 1],
-                                            contact_resistance=p.contact["contact_resistance"])))
+        ic = p.contact["idx"]
+        others.append((ic, contact_heat_flux(T[ic], T[ic + 1],
+                                             contact_resistance=p.contact["contact_resistance"])))
     for i, g in p.gaps:
         others.append(([i], [x[None] for x in gap_kernel(
             T[i], T[i + 1], radiation=p.radiation, convection_enabled=p.convection_enabled,

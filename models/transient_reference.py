@@ -14,7 +14,11 @@ benchmark only.
 
 from __future__ import annotations
 
+from collections.abc import Callable, Sequence
+from typing import Any, overload
+
 import numpy as np
+from numpy.typing import ArrayLike
 from scipy.constants import Stefan_Boltzmann as SIGMA
 from scipy.integrate import solve_ivp
 from scipy.optimize import root
@@ -24,38 +28,52 @@ from plyrisk.models.burn import BURN_THRESHOLDS, damage_parameters, damage_rate
 from plyrisk.models.elements import contact_heat_flux, gap_heat_flux, solid_heat_flux
 from plyrisk.models.exposure import Table, TransientExposure
 from plyrisk.models.mesh import Mesh
-from plyrisk.models.wearer import SensorWearer, SkinWearer
+from plyrisk.models.stack import Gap, Solid
+from plyrisk.models.wearer import PrescribedWearer, SensorWearer, SkinWearer, Wearer
+
+_Law = Callable[..., tuple[np.ndarray, np.ndarray, np.ndarray]]
+"""An element law of :mod:`plyrisk.models.elements` (flux and its two derivatives)."""
 
 
-def _pick(value, i):
+@overload
+def _pick(value: Table, i: int) -> Table: ...
+@overload
+def _pick(value: ArrayLike, i: int) -> float: ...
+@overload
+def _pick(value: ArrayLike | None, i: int) -> float | None: ...
+def _pick(value: ArrayLike | Table | None, i: int) -> float | Table | str | None:
     if value is None or isinstance(value, Table | str):
         return value
     v = np.asarray(value, dtype=float)
     return float(v) if v.ndim == 0 else float(v[i])
 
 
-def _at(value, t):
+def _at(value: float | Table, t: float) -> float:
     return float(value(t)) if isinstance(value, Table) else value
 
 
 class _Sample:
     """The equations of one sample (index ``i``)."""
 
-    def __init__(self, mesh: Mesh, layers, wearer, exposure: TransientExposure, i: int):
+    def __init__(self, mesh: Mesh, layers: Sequence[Solid | Gap], wearer: Wearer,
+                 exposure: TransientExposure, i: int) -> None:
         x = mesh.node_depth[:, i]
         N = x.size
         self.N = N
         self.cap0 = np.zeros(N)  # c(T) = a + b T per node: C(T) = cap0 + cap1 T
         self.cap1 = np.zeros(N)
         self.perf = np.zeros(N)
-        self.links = []
-        self._cond = None
-        self.fixed = {}
+        self.links: list[tuple[int, _Law, dict[str, Any]]] = []
+        self._cond: tuple[np.ndarray, dict[str, np.ndarray],
+                          list[tuple[int, _Law, dict[str, Any]]]] | None = None
+        self.fixed: dict[int, float] = {}
         self.arterial = 310.15
         for part in mesh.parts:
             src = part.source
             if part.kind in ("solid", "skin"):
                 if part.kind == "solid":
+                    assert isinstance(src, Solid)
+                    assert src.density is not None and src.specific_heat is not None
                     rho, c = _pick(src.density, i), _pick(src.specific_heat, i)
                     s, tr = _pick(src.specific_heat_slope, i), _pick(src.reference_temperature, i)
                     law = {"conductivity": _pick(src.conductivity, i),
@@ -63,6 +81,7 @@ class _Sample:
                            "reference_temperature": tr}
                     w = 0.0
                 else:
+                    assert isinstance(src, dict)
                     rho, c, s, tr = _pick(src["density"], i), _pick(src["specific_heat"], i), \
                         0.0, 0.0
                     law = {"conductivity": _pick(src["conductivity"], i)}
@@ -75,19 +94,26 @@ class _Sample:
                         self.perf[node] += 0.5 * w * dx
                     self.links.append((j, solid_heat_flux, dict(law, thickness=dx)))
             elif part.kind == "contact":
+                assert isinstance(src, Solid | SkinWearer | SensorWearer | PrescribedWearer)
                 self.links.append((part.first, contact_heat_flux,
                                    {"contact_resistance": _pick(src.contact_resistance, i)}))
             elif part.kind == "gap":
+                assert isinstance(src, Gap)
                 k = next(m for m, layer in enumerate(layers) if layer is src)
-                eps_b = layers[k + 1].emissivity_hot if k + 1 < len(layers) else wearer.emissivity
+                before = layers[k - 1]  # a gap lies between solids, or a solid and the wearer
+                after = layers[k + 1] if k + 1 < len(layers) else wearer
+                assert isinstance(before, Solid) and not isinstance(after, Gap)
+                eps_b = after.emissivity_hot if isinstance(after, Solid) else after.emissivity
                 self.links.append((part.first, gap_heat_flux, {
                     "gap_width": _pick(src.width, i),
-                    "emissivity_hot_face": _pick(layers[k - 1].emissivity_cold, i),
+                    "emissivity_hot_face": _pick(before.emissivity_cold, i),
                     "emissivity_cold_face": _pick(eps_b, i),
                     "orientation": src.orientation, "gap_height": _pick(src.height, i)}))
             elif part.kind == "sensor":
+                assert isinstance(src, SensorWearer)
                 self.cap0[part.first] += _pick(src.heat_capacity, i)
             elif part.kind == "prescribed":
+                assert isinstance(src, PrescribedWearer)
                 self.fixed[part.first] = _pick(src.temperature, i)
         if isinstance(wearer, SkinWearer):
             self.fixed[mesh.fixed_nodes[0]] = _pick(wearer.core_temperature, i)
@@ -95,12 +121,15 @@ class _Sample:
         self.free = np.array([j for j in range(N) if j not in self.fixed], dtype=int)
         for j in self.fixed:
             self.perf[j] = 0.0
-        self.eps = _pick(layers[0].emissivity_hot if layers else wearer.emissivity, i)
+        exposed = layers[0] if layers else wearer
+        assert not isinstance(exposed, Gap)  # the exposed layer is a solid (validated)
+        self.eps = _pick(exposed.emissivity_hot if isinstance(exposed, Solid)
+                         else exposed.emissivity, i)
         self.share = np.zeros(N)
         self.share[0] = 1.0
-        if layers and getattr(layers[0], "radiant_transmissivity", None) is not None:
+        if isinstance(exposed, Solid) and exposed.radiant_transmissivity is not None:
             part = mesh.parts[0]
-            tau = _pick(layers[0].radiant_transmissivity, i)
+            tau = _pick(exposed.radiant_transmissivity, i)
             L = x[part.last] - x[part.first]
             self.share[:] = 0.0
             for j in range(part.first, part.last + 1):  # control volume [lo, hi]
@@ -120,7 +149,7 @@ class _Sample:
         self.s_cool = self.cool if e.cooldown_surroundings_temperature is None else _pick(
             e.cooldown_surroundings_temperature, i)
 
-    def face(self, t, phase, T0):
+    def face(self, t: float, phase: int, T0: float) -> tuple[float, float]:
         """Heat into the exposed side: face exchange at node 0 and absorbed flux [W m-2]."""
         e, i = self.e, self.i
         if phase == 0:
@@ -139,7 +168,7 @@ class _Sample:
             _pick(e.surroundings_temperature, i), t)
         return h * (Tg - T0) - self.eps * SIGMA * (T0**4 - Ts**4), self.eps * G
 
-    def net(self, t, T, phase):
+    def net(self, t: float, T: np.ndarray, phase: int) -> np.ndarray:
         """Net heat into every node [W m-2]."""
         out = np.zeros(self.N)
         if self._cond is None:  # conduction slices gathered once into arrays
@@ -165,7 +194,7 @@ class _Sample:
         out += self.share * absorbed
         return out
 
-    def full(self, y):
+    def full(self, y: np.ndarray) -> np.ndarray:
         T = np.empty(self.N)
         T[self.free] = y[: self.free.size]
         for j, v in self.fixed.items():
@@ -173,9 +202,10 @@ class _Sample:
         return T
 
 
-def reference_solution(mesh: Mesh, layers, exposure: TransientExposure, wearer, sample: int, *,
-                       output_times=(), damage_model: str = "henriques_1947",
-                       method: str = "Radau", rtol: float = 1e-8, atol: float = 1e-7) -> dict:
+def reference_solution(mesh: Mesh, layers: Sequence[Solid | Gap], exposure: TransientExposure,
+                       wearer: Wearer, sample: int, *, output_times: ArrayLike = (),
+                       damage_model: str = "henriques_1947", method: str = "Radau",
+                       rtol: float = 1e-8, atol: float = 1e-7) -> dict[str, Any]:
     """Solve one sample with :func:`scipy.integrate.solve_ivp`.
 
     Parameters
@@ -233,13 +263,13 @@ def reference_solution(mesh: Mesh, layers, exposure: TransientExposure, wearer, 
             continue
         phase = 1 if a < s.duration else 2
 
-        def rhs(t, y, phase=phase):
+        def rhs(t: float, y: np.ndarray, phase: int = phase) -> np.ndarray:
             T = s.full(y)
             dT = s.net(t, T, phase)[free] / (cap + cap1 * y[:nf])
             dO = float(damage_rate(T[basal], parameters=params)) if skin else 0.0
             return np.concatenate([dT, [dO]])
 
-        events = [_threshold_event(thr) for thr in thresholds]
+        events = [_ThresholdEvent(thr) for thr in thresholds]
         inside = tout[(tout > a) & (tout <= b)]
         r = solve_ivp(rhs, (a, b), y, method=method, rtol=rtol,
                       atol=np.concatenate([np.full(nf, atol), [1e-12]]),
@@ -256,6 +286,7 @@ def reference_solution(mesh: Mesh, layers, exposure: TransientExposure, wearer, 
             for m, te in enumerate(r.t_events):
                 if te.size and not np.isfinite(times[m]):
                     times[m] = float(te[0])
+            assert basal is not None  # skin has a basal node
             fine = np.linspace(a, b, 2001)
             peak = max(peak, float(np.max(r.sol(fine)[int(np.searchsorted(free, basal))])))
         y = r.y[:, -1]
@@ -270,11 +301,13 @@ def reference_solution(mesh: Mesh, layers, exposure: TransientExposure, wearer, 
     }
 
 
-def _threshold_event(threshold: float):
-    """A rising-crossing event of the damage state at ``threshold``."""
+class _ThresholdEvent:
+    """A rising-crossing event of the damage state at ``threshold`` (for ``solve_ivp``)."""
 
-    def event(t, y):
-        return y[-1] - threshold
+    direction = 1.0
 
-    event.direction = 1.0
-    return event
+    def __init__(self, threshold: float) -> None:
+        self.threshold = threshold
+
+    def __call__(self, t: float, y: np.ndarray) -> float:
+        return y[-1] - self.threshold

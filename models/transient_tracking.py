@@ -6,9 +6,20 @@ taken as linear in time on each piece (the TR-BDF2 step has two: start → inner
 
 from __future__ import annotations
 
-import numpy as np
+from collections.abc import Callable
 
-from plyrisk.models.burn import BURN_THRESHOLDS, crossing_fraction, damage_increment
+import numpy as np
+from numpy.typing import NDArray
+
+from plyrisk.models.burn import (
+    BURN_THRESHOLDS,
+    DamageParameters,
+    crossing_fraction,
+    damage_increment,
+)
+
+_Floats = NDArray[np.float64]
+_Indices = NDArray[np.intp]
 
 ONSET = 317.15
 """Below 44 degC no damage accrues (every published set) [K]."""
@@ -30,7 +41,8 @@ class BurnTracker:
         Parameter set at the dermis base, for ``third_degree="dermis_base"`` [-].
     """
 
-    def __init__(self, k: int, parameters, third_degree: str, dermis_parameters=None) -> None:
+    def __init__(self, k: int, parameters: DamageParameters, third_degree: str,
+                 dermis_parameters: DamageParameters | None = None) -> None:
         self.parameters = parameters
         self.third_degree = third_degree
         self.dermis_parameters = dermis_parameters
@@ -38,7 +50,7 @@ class BurnTracker:
         self.dermis_damage = np.zeros(k)
         self.times = {name: np.full(k, np.inf) for name in ("first", "second", "third")}
 
-    def take(self, idx):
+    def take(self, idx: _Indices) -> BurnTracker:
         """Restrict to samples ``idx`` (a copy)."""
         new = object.__new__(BurnTracker)
         new.parameters, new.third_degree = self.parameters, self.third_degree
@@ -47,7 +59,8 @@ class BurnTracker:
         new.times = {k: v[idx] for k, v in self.times.items()}
         return new
 
-    def piece(self, idx, t0, dt, basal0, basal1, dermis0=None, dermis1=None) -> None:
+    def piece(self, idx: _Indices, t0: _Floats, dt: _Floats, basal0: _Floats, basal1: _Floats,
+              dermis0: _Floats | None = None, dermis1: _Floats | None = None) -> None:
         """Add one piece of trajectory for samples ``idx``."""
         hot = np.maximum(basal0, basal1) > ONSET
         if np.any(hot):
@@ -67,6 +80,7 @@ class BurnTracker:
                     self.times[name][sel[cross]] = s[cross] + theta * h[cross]
             self.damage[sel] = d0 + inc
         if self.third_degree == "dermis_base" and dermis0 is not None:
+            assert dermis1 is not None and self.dermis_parameters is not None
             hot = np.maximum(dermis0, dermis1) > ONSET
             if np.any(hot):
                 sel = idx[hot]
@@ -96,14 +110,15 @@ class SensorTracker:
         Callable ``time [s] -> criterion energy [J m-2]`` (NaN outside its range) [-].
     """
 
-    def __init__(self, k: int, heat_capacity, initial_temperature, criterion) -> None:
+    def __init__(self, k: int, heat_capacity: _Floats, initial_temperature: _Floats,
+                 criterion: Callable[[_Floats], _Floats]) -> None:
         self.capacity = heat_capacity
         self.t0 = initial_temperature
         self.criterion = criterion
         self.time = np.full(k, np.inf)
         self.exposure_energy = np.full(k, np.nan)
 
-    def take(self, idx):
+    def take(self, idx: _Indices) -> SensorTracker:
         """Restrict to samples ``idx`` (a copy)."""
         new = object.__new__(SensorTracker)
         new.capacity, new.t0 = self.capacity[idx], self.t0[idx]
@@ -111,7 +126,9 @@ class SensorTracker:
         new.time, new.exposure_energy = self.time[idx], self.exposure_energy[idx]
         return new
 
-    def piece(self, idx, ta, tb, Ta, Tb, exposure_energy_a, exposure_flux_a, exposure_flux_b):
+    def piece(self, idx: _Indices, ta: _Floats, tb: _Floats, Ta: _Floats, Tb: _Floats,
+              exposure_energy_a: _Floats, exposure_flux_a: _Floats,
+              exposure_flux_b: _Floats) -> None:
         """Check one piece of trajectory for samples ``idx``; exposure energy at ``ta``."""
         open_ = ~np.isfinite(self.time[idx]) & (tb > 0.0)
         if not np.any(open_):
@@ -146,7 +163,7 @@ class SensorTracker:
         self.exposure_energy[sel] = ea + 0.5 * (fa + fc) * (tc - ta)
 
 
-def track_peak(peak, when, idx, value, t) -> None:
+def track_peak(peak: _Floats, when: _Floats, idx: _Indices, value: _Floats, t: _Floats) -> None:
     """Keep the highest ``value`` and its time for samples ``idx`` (in place)."""
     higher = value > peak[idx]
     peak[idx[higher]] = value[higher]

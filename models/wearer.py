@@ -12,12 +12,25 @@ directly (bare skin, bare sensor).
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Any
+from typing import Any, TypedDict
 
 import numpy as np
 from numpy.typing import ArrayLike
 
 from plyrisk.models.stack import StackError, check_emissivity, check_positive, check_temperature
+
+
+class SkinLayerProperties(TypedDict):
+    """One skin layer as the transient model reads it (:meth:`SkinWearer.layers`): name,
+    thickness [m], conductivity [W m-1 K-1], density [kg m-3], specific heat [J kg-1 K-1] and
+    the perfusion capacity rate ``w_b rho_b c_b`` [W m-3 K-1]."""
+
+    name: str
+    thickness: ArrayLike
+    conductivity: ArrayLike
+    density: ArrayLike
+    specific_heat: ArrayLike
+    perfusion: np.ndarray
 
 
 @dataclass(frozen=True)
@@ -61,7 +74,7 @@ class SkinWearer:
         """Emissivity of the skin surface [-]."""
         return self.skin.emissivity
 
-    def layers(self) -> list[dict]:
+    def layers(self) -> list[SkinLayerProperties]:
         """Per skin layer: name, thickness [m], conductivity [W m-1 K-1], density [kg m-3],
         specific heat [J kg-1 K-1] and the perfusion capacity rate ``w_b rho_b c_b``
         [W m-3 K-1]."""
@@ -69,7 +82,7 @@ class SkinWearer:
         blood = np.asarray(skin.blood_density, dtype=float) * np.asarray(
             skin.blood_specific_heat, dtype=float
         )
-        out = []
+        out: list[SkinLayerProperties] = []
         for layer in skin.layers:
             perfusion = np.asarray(layer.perfusion_rate, dtype=float) * blood
             out.append(
