@@ -167,11 +167,10 @@ def _screen_transient(study: Study, prop: Propagation) -> Screening:
         m = per_scenario[s][o]
         safe &= safe_to_fix(m, threshold=settings.threshold)
         top[int(np.argmax(m.mu_star))] = True
-    shares = []
+    shares: list[tuple[str, np.ndarray, np.ndarray, float]] = []
     for o in judged:
         pairs = [per_scenario[s][o] for s, oo in varying if oo == o]
         if not pairs:
-            shares.append(None)
             continue
         scale = max(float(np.max(m.mu_star)) for m in pairs)
         shares.append((o, np.max([m.mu_star + m.mu_star_ci for m in pairs], axis=0),
@@ -182,7 +181,7 @@ def _screen_transient(study: Study, prop: Propagation) -> Screening:
     for j, name in enumerate(names):
         share = "; ".join(f"{o}: mu* upper bound {_share(mu[j], sc)} and sigma "
                           f"{_share(sg[j], sc)} of the largest mu*"
-                          for o, mu, sg, sc in (x for x in shares if x is not None))
+                          for o, mu, sg, sc in shares)
         if name in settings.keep:
             fixed[j] = False
             reasons.append(f"kept: listed in screening.keep ({share or 'no spread'})")
