@@ -193,3 +193,27 @@ def test_screening_keep_naming_no_input_is_one_line(tmp_path, capsys):
     code = main(["check", str(config)])
     err = capsys.readouterr().err
     assert code == 2 and "screening.keep" in err and len(err.strip().splitlines()) == 1
+
+
+def test_growth_stops_before_a_step_that_does_not_fit_in_memory(monkeypatch):
+    import plyrisk.pipeline.options as options
+
+    def small_machine(study, samples=None):  # pretend only N <= 32 fits
+        if samples is not None and samples > 32:
+            raise options.OptionError(f"{samples} samples need more memory")
+
+    monkeypatch.setattr(sequential, "check_memory", small_machine)
+    growth = sequential.grow_until_converged(
+        loads_study(flash(16, study="index_ci_threshold = 0.01"), source="grow.toml"))
+    assert [s.base_samples for s in growth.steps] == [16, 32]
+    assert not growth.converged and growth.reason.startswith("memory reached: doubling to N = 64")
+
+
+def test_until_converged_checks_the_memory_of_the_first_transient_step(monkeypatch):
+    import plyrisk.pipeline.options as options
+
+    checked = []
+    monkeypatch.setattr(options, "check_memory",
+                        lambda study, samples=None: checked.append(samples))
+    options.RunOptions(until_converged=True).validate(loads_study(GROW, source="grow.toml"))
+    assert checked == [None]  # the config's samples, not the largest step the budget allows

@@ -33,7 +33,13 @@ import xarray as xr
 from plyrisk.analysis.study import StudyAnalysis
 from plyrisk.design.sampling import Design, sobol_design
 from plyrisk.methods import get_method
-from plyrisk.pipeline.options import DEFAULT_MAX_RUNS
+from plyrisk.pipeline.options import (
+    DEFAULT_MAX_RUNS,
+    MEMORY_SHARE,
+    OptionError,
+    check_memory,
+    memory_estimate,
+)
 from plyrisk.propagate.evaluate import (
     Outputs,
     Propagation,
@@ -229,8 +235,8 @@ def grow_until_converged(study: Study, *, max_runs: int | None = None,
         N and ``analysis.index_ci_threshold`` the target half-width (a transient study is
         judged on :func:`judged_outputs`).
     max_runs
-        Budget of model runs, every exposure counted; a doubling that would pass it is not
-        started.
+        Budget of model runs, every exposure counted; a doubling that would pass it, or that
+        would not fit in this machine's memory, is not started.
     chunk_size
         Samples per evaluation chunk.
     workers
@@ -275,6 +281,13 @@ def grow_until_converged(study: Study, *, max_runs: int | None = None,
                       f"than ±{a.index_ci_threshold:g}")
             return Growth(current, prop, analysis, tuple(steps), False, reason,
                           a.index_ci_threshold, budget, judged, path)
+        if not _fits(study, 2 * n):  # a transient study: checked step by step
+            reason = (f"memory reached: doubling to N = {2 * n} would need about "
+                      f"{memory_estimate(study, 2 * n) / 2**30:.1f} GiB, more than "
+                      f"{100 * MEMORY_SHARE:g} % of this machine's memory; {wide} index "
+                      f"interval(s) still wider than ±{a.index_ci_threshold:g}")
+            return Growth(current, prop, analysis, tuple(steps), False, reason,
+                          a.index_ci_threshold, budget, judged, path)
         extra = sobol_design(n, d, seed=a.seed, groups=groups, start=n,
                              replicates=a.replicates)
         extra_inputs = unit_to_inputs(study.parameters, extra.unit)
@@ -283,6 +296,16 @@ def grow_until_converged(study: Study, *, max_runs: int | None = None,
         inputs = np.vstack([inputs, extra_inputs])
         outputs = _join(outputs, extra_outputs)
         n *= 2
+
+
+def _fits(study: Study, samples: int) -> bool:
+    """Whether a step of ``samples`` base rows fits in this machine's memory
+    (:func:`plyrisk.pipeline.options.check_memory`)."""
+    try:
+        check_memory(study, samples)
+    except OptionError:
+        return False
+    return True
 
 
 def growth_lines(growth: Growth) -> list[str]:
