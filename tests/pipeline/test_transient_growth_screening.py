@@ -94,6 +94,9 @@ def test_an_index_without_an_estimate_is_too_wide_unless_the_output_is_constant(
     # outcome; a constant output has no indices at all)
     analysis = SimpleNamespace(scenarios=[_scenario([0.01, np.nan])])
     assert sequential.interval_widths(analysis, 0.05, outputs=("a",)) == (0.01, 2)
+    analysis = SimpleNamespace(scenarios=[_scenario([np.nan, np.nan])])
+    widest, wide = sequential.interval_widths(analysis, 0.05, outputs=("a",))
+    assert np.isnan(widest) and wide == 4  # nothing estimated yet: no widest to show
     analysis = SimpleNamespace(scenarios=[_scenario([np.nan, np.nan], constant=("a",))])
     assert sequential.interval_widths(analysis, 0.05, outputs=("a",)) == (0.0, 0)
     # a steady study (every output): NaN half-widths are left out, as before

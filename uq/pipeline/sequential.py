@@ -24,6 +24,7 @@ N) counts as wider than the target, so the growth goes on.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field, replace
 from typing import TYPE_CHECKING
 
@@ -161,7 +162,7 @@ def interval_widths(analysis, target: float, *,
         Every output: NaN half-widths (a constant output has no indices) are left out.
         Named outputs: an output constant at an exposure (``constant_outputs``) is left out
         there; any other NaN half-width (no estimate yet) counts as unconverged and the widest
-        is taken over the finite ones.
+        is taken over the finite ones (NaN when there is none yet).
     """
     halves, missing = [], 0
     for sc in analysis.scenarios:
@@ -179,7 +180,8 @@ def interval_widths(analysis, target: float, *,
                             missing += int(np.sum(~np.isfinite(h)))
     h = np.concatenate(halves) if halves else np.zeros(0)
     h = h[np.isfinite(h)]
-    return (float(h.max()) if h.size else 0.0), int(np.sum(h > target)) + missing
+    widest = float(h.max()) if h.size else (math.nan if missing else 0.0)
+    return widest, int(np.sum(h > target)) + missing
 
 
 PATH_OUTPUT = "inner_surface_temperature"
@@ -321,8 +323,10 @@ def growth_lines(growth: Growth) -> list[str]:
         lines += [f"  {o}: {DERIVED_OUTPUTS[o].rule}" for o in growth.outputs
                   if o in DERIVED_OUTPUTS]
     for step in growth.steps:
+        widest = (f"{step.widest:.4f}" if np.isfinite(step.widest)
+                  else "n/a (no index estimated yet)")
         lines.append(f"  N = {step.base_samples:>7}: {step.runs:>9} model runs, widest "
-                     f"half-width {step.widest:.4f}, {step.unconverged} wider than the target")
+                     f"half-width {widest}, {step.unconverged} wider than the target")
     lines.append(("  converged: " if growth.converged else "  NOT converged: ") + growth.reason)
     return lines
 
