@@ -90,3 +90,13 @@ width = "2 mm"
 kind = "skin"
 """
 """A small transient study (invented): 3 uncertain inputs, skin behind one fabric and a gap."""
+
+
+def flash(samples: int = 16, *, flux: str = '["40 kW/m^2", "80 kW/m^2"]', study: str = "",
+          tail: str = "", specific_heat: str = '"1300 J/kg/K"') -> str:
+    """:data:`FLASH` with a stronger exposure by default (about half the samples burn within
+    the horizon), extra ``[study]`` lines, a different fabric specific heat and sections
+    appended (``tail``)."""
+    text = FLASH.format(samples=samples).replace('["20 kW/m^2", "40 kW/m^2"]', flux)
+    text = text.replace('specific_heat = "1300 J/kg/K"', f"specific_heat = {specific_heat}")
+    return text.replace("seed = 5\n", f"seed = 5\n{study}\n" if study else "seed = 5\n") + tail

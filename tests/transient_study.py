@@ -60,6 +60,7 @@ class StandInStudy:
     limit_unit: str = "degC"
     tolerances: object = None
     screening: object = None
+    correlations: object = None
     compute: ComputeOptions = field(default_factory=ComputeOptions)
 
     @property

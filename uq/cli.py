@@ -154,7 +154,9 @@ def _add_run(subparsers) -> None:
                    + ", ".join(METHODS) + " (overrides [study] method)")
     p.add_argument("--until-converged", action="store_true", help="saltelli: double the base "
                    "samples, reusing every run, until every index interval is at most "
-                   "[study] index_ci_threshold, or --max-runs is reached; prints the path")
+                   "[study] index_ci_threshold, or --max-runs is reached; prints the path "
+                   "(a transient study: the intervals of the capped time to burn and the burn "
+                   "indicator)")
     p.add_argument("--max-runs", metavar="N", type=int, help="model-run budget of "
                    "--until-converged (default 1000000, every exposure counted)")
     p.add_argument("--chunk-size", metavar="N", type=int, help="samples per evaluation chunk "

@@ -168,6 +168,8 @@ class RunOptions:
             while planned_runs(study, 2 * largest) <= budget:
                 largest *= 2
             n = largest  # the memory check below covers the largest step the budget allows
+            if study.transient is not None:  # histories are large: check the first step; the
+                n = opts.samples             # growth stops before a step that does not fit
         try:
             check_memory(study, n)
         except OptionError as err:

@@ -102,8 +102,6 @@ def run_study(
     """
     opts = replace(options or RunOptions(), **overrides).with_defaults(study)
     study = opts.validate(study)
-    if study.transient is not None:
-        _check_transient_options(study, opts)
     chosen = get_method(study.analysis.method)
     chunk_size, workers, scheduler, store = (opts.chunk_size, int(opts.workers or 1),
                                              opts.scheduler, opts.store)
@@ -169,24 +167,8 @@ def run_study(
 
 
 class TransientOptionError(PlyriskError):
-    """A run option that transient studies do not support yet (one line)."""
-
-
-def _check_transient_options(study: Study, opts: RunOptions) -> None:
-    """Refuse, in one line, the run options a transient study cannot use yet.
-
-    Raises
-    ------
-    TransientOptionError
-        For ``--until-converged`` and a ``[screening]`` section.
-    """
-    if opts.until_converged:
-        raise TransientOptionError(f"{study.source}: --until-converged is not available for "
-                                   "transient studies yet; give [study] samples")
-    if study.screening is not None:
-        raise TransientOptionError(f"{study.source}: screening: a [screening] section is not "
-                                   "available for transient studies yet; run method = "
-                                   "\"morris\" as a study of its own")
+    """A run a transient study cannot make (one line): e.g. a store too large to analyse in
+    memory."""
 
 
 def _scheduling_noise(w: warnings.WarningMessage) -> bool:

@@ -59,7 +59,8 @@ STORE_MARK = "plyrisk_store"
 """Root attribute that marks a Zarr group as a plyrisk store (value: layout version) [-]."""
 
 STORE_OWN_ATTRS = (STORE_MARK, "plyrisk_study", "chunk_size", "evaluations", "interface_names",
-                   "element_names", "element_kinds", "element_layers", "inner_surface_index")
+                   "element_names", "element_kinds", "element_layers", "inner_surface_index",
+                   "output_names", "study_kind")
 """Root attributes of a store itself, kept for the store's life whatever the analysis adds:
 the fingerprint above all, so that a finished store can be resumed [-]."""
 if TYPE_CHECKING:  # pragma: no cover - for type checkers only

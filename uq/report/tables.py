@@ -449,12 +449,21 @@ def _number(v: Any) -> float:
         return math.nan
 
 
+def _flag(v: Any) -> bool:
+    """A flag of ``tolerances.csv``: ``True`` or the text ``true``."""
+    return v is True or (isinstance(v, str) and v.strip().lower() == "true") or (
+        isinstance(v, int | float | np.bool_) and not isinstance(v, bool) and bool(v))
+
+
 def share_text(v: Any) -> str:
     """A variance share (a fraction) as a percentage with 2 significant digits; ``"< 0.01 %"``
-    for the negligible ones, ``"n/a"`` when missing."""
+    for the negligible ones, ``"n/a"`` when missing, ``"not resolved (132 %)"`` outside
+    [0, 100 %] (estimation noise, not a share)."""
     x = _number(v)
     if not math.isfinite(x):
         return "n/a"
+    if not 0.0 <= x <= 1.0:
+        return f"not resolved ({100 * x:.3g} %)"
     if x < 1e-4:
         return "< 0.01 %"
     return f"{100 * x:.2g} %" if x < 0.1 else f"{100 * x:.0f} %"
@@ -494,14 +503,28 @@ def tolerance_tables(columns: list[str], records: list[dict]) -> list[Table]:
     unit = fg.pretty_unit(str(first.get("temperature_unit", "")))
     target = str(first.get("target", ""))
     sources = sorted({str(r.get("share_source", "")) for r in records} - {""})
+    beyond = [_flag(r.get("quantile_if_halved_beyond_horizon")) for r in records]
+    noise = any(share_text(r.get("variance_share")).startswith("not resolved")
+                for r in records)
+    notes = []
+    if noise:
+        notes.append("not resolved: a share estimated outside [0, 100 %] is estimation noise "
+                     "at this sample size, not a share (the estimate in brackets); raise "
+                     "[tolerances] samples")
+    if any(beyond):
+        at = next(r for r, out in zip(records, beyond, strict=True) if out)
+        notes.append(f"> {_level(_number(at.get('quantile_if_halved')), unit)} {unit}: "
+                     "only known to lie beyond the horizon (so many samples reach no event "
+                     "within it)")
     effect = Table(
         ["Parameter", "Layer", "Share of the variance",
          f"{label} with this spread halved [{unit}]"],
         [[str(r["parameter"]), str(r["layer"]).replace("_", " "),
           share_text(r.get("variance_share")),
-          _level(_number(r.get("quantile_if_halved")), unit)]
-         for r in records],
-        "What each spread does" + (f" (share: {', '.join(sources)})" if sources else ""))
+          ("> " if out else "") + _level(_number(r.get("quantile_if_halved")), unit)]
+         for r, out in zip(records, beyond, strict=True)],
+        "What each spread does" + (f" (share: {', '.join(sources)})" if sources else "")
+        + "".join(f"; {n}" for n in notes))
 
     def factor(v: Any) -> str:
         x = _number(v)

@@ -196,6 +196,18 @@ def transient_figures(ds: xr.Dataset) -> list[Any]:
                     tf.layer_indices_figure(ds, scenario=idx, groups=False)))
             except ValueError:
                 pass
+    if "growth_sobol_total" in ds:  # --until-converged
+        from plyrisk.report.figures.sensitivity import growth_figure
+
+        path = str(ds.attrs.get("growth_output", "the first derived output"))
+        judged = str(ds.attrs.get("growth_judged_outputs", path))
+        out.append(ReportFigure(
+            "index_convergence", "Convergence of the indices as the study grew",
+            f"The total Sobol indices of the most influential inputs for {path} (see its rule "
+            "in the table of derived outputs) at each doubling of the base samples "
+            f"(--until-converged, judged on the intervals of {judged}), with their "
+            "confidence half-widths. Rankings that still cross at the last step are not "
+            "settled.", growth_figure(ds)))
     if stats and "scenario" in ds.dims:
         out.append(ReportFigure(
             "burn_probability_sweep", "P(burn) against the exposure",

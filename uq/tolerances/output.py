@@ -5,6 +5,14 @@ Values are shown in the user's units: each parameter's distribution as the confi
 limit``.
 ``tolerances.csv`` starts with ``#`` comment lines carrying the cautions (read it with e.g.
 ``pandas.read_csv(path, comment="#")``).
+
+Two estimates are flagged rather than printed plainly. A time of a transient target at the
+horizon is only known to lie beyond it: it is printed ``> 60 s`` (:func:`beyond_horizon`); the
+CSV keeps the number (the horizon) and says so in ``quantile_if_halved_beyond_horizon``. A
+variance share estimated outside [0, 100 %] (the ratio of two sampled variances, noisy at small
+sample counts; a Sobol or Shapley index just below zero) is estimation noise, not a share: it
+is printed ``not resolved (132 %)`` (:func:`share_resolved`); the CSV keeps the number with
+``variance_share_resolved = false``.
 """
 
 from __future__ import annotations
@@ -23,9 +31,10 @@ from plyrisk.study.units import difference_unit, from_si
 from plyrisk.text.tables import text_table
 from plyrisk.tolerances.study import Outcome, ToleranceReport
 
-__all__ = ["ADVICE_PREFIX", "CORRELATED_SHARE", "ManufacturingRow", "manufacturing_rows",
-           "manufacturing_table", "read_tolerance_csv", "shapley_shares", "tolerance_advice",
-           "tolerance_text", "write_tolerance_csv"]
+__all__ = ["ADVICE_PREFIX", "CORRELATED_SHARE", "ManufacturingRow", "beyond_horizon",
+           "manufacturing_rows", "manufacturing_table", "read_tolerance_csv", "share_resolved",
+           "share_text", "shapley_shares", "tolerance_advice", "tolerance_text",
+           "write_tolerance_csv"]
 
 ADVICE_PREFIX = "# advice: "
 """Start of the ``tolerances.csv`` comment lines that carry the verification verdict and the
@@ -34,6 +43,60 @@ nominal-shift advice (:func:`tolerance_advice`)."""
 CORRELATED_SHARE = ("n/a with correlated inputs (holding one input at nominal also drops its "
                     "correlation); see the Shapley effects of plyrisk run")
 """``share_source`` of a correlated study without Shapley effects."""
+
+NOT_RESOLVED_SHARE = ("not resolved: a variance share estimated outside [0, 100 %] is "
+                      "estimation noise at this sample size (a ratio of sampled variances, or an "
+                      "index just below zero), not a share; the estimate is in brackets; raise "
+                      "[tolerances] samples to resolve it")
+"""The note under a table with a share that is not resolved."""
+
+
+def share_resolved(share: float) -> bool:
+    """Whether a variance share estimate is a share at all: finite and within [0, 1].
+
+    Parameters
+    ----------
+    share
+        The estimate (a fraction) [-].
+
+    Examples
+    --------
+    >>> share_resolved(0.4), share_resolved(1.32), share_resolved(-0.02)
+    (True, False, False)
+    """
+    return math.isfinite(share) and 0.0 <= share <= 1.0
+
+
+def share_text(share: float) -> str:
+    """A variance share as a percentage; ``not resolved (132 %)`` outside [0, 100 %].
+
+    Examples
+    --------
+    >>> share_text(0.25), share_text(1.32), share_text(float("nan"))
+    ('25 %', 'not resolved (132 %)', 'n/a')
+    """
+    if not math.isfinite(share):
+        return "n/a"
+    if not share_resolved(share):
+        return f"not resolved ({100 * share:.3g} %)"
+    return f"{100 * share:.3g} %"
+
+
+def beyond_horizon(report: ToleranceReport, value: float) -> bool:
+    """Whether an engine value of a time target (minus the time capped at the horizon) sits at
+    the horizon: the time is then only known to exceed it (``> 60 s``).
+
+    Parameters
+    ----------
+    report
+        The tolerance results (its target and limit, minus the horizon).
+    value
+        An engine value: a quantile of ``-min(t, horizon)`` [s].
+    """
+    if not _flip(report) or not math.isfinite(value):
+        return False
+    horizon = -report_limit(report)
+    return math.isfinite(horizon) and -value >= horizon * (1.0 - 1e-12)
 
 
 def shapley_shares(report: ToleranceReport, analysis: Any) -> dict[str, float] | None:
@@ -89,6 +152,12 @@ class ManufacturingRow:
         Recommended spread / current spread; NaN when the target is not reachable.
     target
         The target the recommendation serves.
+    quantile_if_halved_beyond_horizon
+        ``quantile_if_halved`` is a time at the horizon of a transient target: the time is
+        only known to exceed it (shown ``> 60 s``); False for every other target.
+    variance_share_resolved
+        ``variance_share`` lies within [0, 1]; False: estimation noise, not a share (shown
+        ``not resolved (132 %)``).
     """
 
     parameter: str
@@ -102,6 +171,8 @@ class ManufacturingRow:
     recommended_spec: str
     recommended_factor: float
     target: str
+    quantile_if_halved_beyond_horizon: bool = False
+    variance_share_resolved: bool = True
 
 
 def _target(report: ToleranceReport) -> Target:
@@ -210,7 +281,10 @@ def manufacturing_table(report: ToleranceReport, study: Study, *,
                                               limit_quantity(study.analysis.limit_output)))),
             temperature_unit=unit, recommended_spec=_recommended(p, factor, alloc.status,
                                                                p.name in alloc.kept),
-            recommended_factor=factor, target=target_text(report, study)))
+            recommended_factor=factor, target=target_text(report, study),
+            quantile_if_halved_beyond_horizon=beyond_horizon(report,
+                                                             float(w.halved.worst_quantile)),
+            variance_share_resolved=share_resolved(share) or not math.isfinite(share)))
     return rows
 
 
@@ -248,6 +322,8 @@ def write_tolerance_csv(rows: Sequence[ManufacturingRow], path: str | Path, *,
             d["variance_share"] = f"{row.variance_share:.6g}"
             d["quantile_if_halved"] = f"{row.quantile_if_halved:.6g}"
             d["recommended_factor"] = f"{row.recommended_factor:.6g}"
+            for flag in _FLAGS:
+                d[flag] = "true" if getattr(row, flag) else "false"
             writer.writerow(d)
     return path
 
@@ -278,15 +354,20 @@ def read_tolerance_csv(path: str | Path) -> tuple[list[dict[str, str]], list[str
     return [dict(r) for r in csv.DictReader(body)], advice
 
 
+_FLAGS = ("quantile_if_halved_beyond_horizon", "variance_share_resolved")
+"""The flag columns of ``tolerances.csv`` (``true``/``false``); optional when read back (a
+file from before they existed: the beyond-horizon flag is false, the share's is worked out)."""
+
+
 def manufacturing_rows(records: Sequence[Mapping[str, str]]) -> list[ManufacturingRow]:
     """The rows of :func:`read_tolerance_csv` as :class:`ManufacturingRow`.
 
     Raises
     ------
     ValueError
-        When a column of the table is missing.
+        When a column of the table is missing, or a flag is not ``true``/``false``.
     """
-    names = list(ManufacturingRow.__dataclass_fields__)
+    names = [n for n in ManufacturingRow.__dataclass_fields__ if n not in _FLAGS]
     out = []
     for i, r in enumerate(records):
         missing = [n for n in names if n not in r]
@@ -298,6 +379,15 @@ def manufacturing_rows(records: Sequence[Mapping[str, str]]) -> list[Manufacturi
                 d[n] = float(d[n]) if d[n] not in ("", None) else math.nan
             except ValueError:
                 raise ValueError(f"row {i + 1}: {n} = {d[n]!r} is not a number") from None
+        for n in _FLAGS:
+            text = str(r.get(n) or "").strip().lower()
+            if text not in ("", "true", "false"):
+                raise ValueError(f"row {i + 1}: {n} = {r.get(n)!r}; expected true or false")
+            if text:
+                d[n] = text == "true"
+            elif n == "variance_share_resolved":
+                share = d["variance_share"]
+                d[n] = share_resolved(share) or not math.isfinite(share)
         out.append(ManufacturingRow(**d))
     return out
 
@@ -339,8 +429,35 @@ def _metric(report: ToleranceReport, study: Study, value: float, *,
     if _target(report).kind == "exceedance":
         return (f"{100 * value:+.3g} %" if difference else _pct(value))
     if _flip(report):
-        return f"{-value:+.3g} s" if difference else f"{-value:.3g} s"
+        if difference:
+            return f"{-value:+.3g} s"
+        return _time(report, value)
     return _temperature(study, value, difference=difference)
+
+
+def _time(report: ToleranceReport, value: float, digits: str = ".3g") -> str:
+    """An engine value of a time target as a time: ``> 60 s`` at the horizon."""
+    if not math.isfinite(value):
+        return "n/a"
+    if beyond_horizon(report, value):
+        return f"> {-report_limit(report):{digits}} s"
+    return f"{-value:{digits}} s"
+
+
+def _time_change(report: ToleranceReport, new: float, base: float) -> str:
+    """The change of a time from ``base`` to ``new`` (engine values): a bound where one of them
+    is beyond the horizon, ``n/a`` where both are."""
+    if not (math.isfinite(new) and math.isfinite(base)):
+        return "n/a"
+    change = base - new  # the times are minus the engine values
+    new_out, base_out = beyond_horizon(report, new), beyond_horizon(report, base)
+    if new_out and base_out:
+        return "n/a"
+    if new_out:  # the new time is later than the horizon: the change is at least this
+        return f"> {change:+.3g} s"
+    if base_out:  # the old one was: the change is at most this
+        return f"< {change:+.3g} s"
+    return f"{change:+.3g} s"
 
 
 def _temperature(study: Study, value: float, *, difference: bool = False) -> str:
@@ -390,8 +507,13 @@ def tolerance_text(report: ToleranceReport, study: Study, *,
         if flip:  # engine values are minus the capped time
             if not math.isfinite(value):
                 return "n/a"
-            return f"{-value:+.3g} s" if difference else f"{-value:.3g} s"
+            return f"{-value:+.3g} s" if difference else _time(report, value)
         return _temperature(study, value, difference=difference)
+
+    def _change(new: float, old: float) -> str:
+        if flip:
+            return _time_change(report, new, old)
+        return _t(study, new - old, difference=True)
 
     if flip:
         lo_name, hi_name = "quantile_upper", "quantile_lower"
@@ -425,13 +547,11 @@ def tolerance_text(report: ToleranceReport, study: Study, *,
     rows = []
     for w in wi.rows:
         rows.append([w.name, bare(_t(study, w.halved.worst_quantile)),
-                     bare(_t(study, w.halved.worst_quantile - base.worst_quantile,
-                             difference=True)),
+                     bare(_change(w.halved.worst_quantile, base.worst_quantile)),
                      bare(_t(study, w.nominal.worst_quantile)),
-                     bare(_t(study, w.nominal.worst_quantile - base.worst_quantile,
-                             difference=True)),
+                     bare(_change(w.nominal.worst_quantile, base.worst_quantile)),
                      _pct(w.halved.worst_exceedance), _pct(w.nominal.worst_exceedance),
-                     "n/a" if study.correlations is not None else _pct(w.variance_share)])
+                     "n/a" if study.correlations is not None else share_text(w.variance_share)])
     level_unit = "s" if flip else (study.limit_unit or "K")
     change_unit = "s" if flip else difference_unit(level_unit)
     out += ["", "What-if: one parameter tightened, the others as specified (worst exposure; "
@@ -471,10 +591,23 @@ def tolerance_text(report: ToleranceReport, study: Study, *,
     out += ["", f"For manufacturing (target {target_text(report, study)})"]
     out += text_table(["parameter", "current spec", "variance share", f"{label} if halved",
                        "recommended"],
-                      [[r.parameter, r.current_spec, _pct(r.variance_share),
-                        f"{r.quantile_if_halved:.4g} {r.temperature_unit}", r.recommended_spec]
+                      [[r.parameter, r.current_spec, share_text(r.variance_share),
+                        ("> " if r.quantile_if_halved_beyond_horizon else "")
+                        + f"{r.quantile_if_halved:.4g} {r.temperature_unit}", r.recommended_spec]
                        for r in table])
     notes = _notes(report)
+    if any(not r.variance_share_resolved for r in table) or (
+            study.correlations is None and not all(
+                share_resolved(w.variance_share) or not math.isfinite(w.variance_share)
+                for w in wi.rows)):
+        notes.append(NOT_RESOLVED_SHARE)
+    if flip and any(r.quantile_if_halved_beyond_horizon for r in table) or (
+            flip and beyond_horizon(report, base.worst_quantile)):
+        notes.append(f"'> {-report_limit(report):g} s': so many samples reach no event "
+                     "within the horizon that this percentile of the time is only known to lie "
+                     "beyond it (tolerances.csv keeps the horizon with "
+                     "quantile_if_halved_beyond_horizon = true); a change next to it is a bound "
+                     "('> +x s', '< -x s'), n/a when both lie beyond")
     if study.correlations is not None:
         notes.append("inputs correlated ([correlations]): every run draws its design through "
                      "the Gaussian copula, so a changed spread keeps the dependence; the "

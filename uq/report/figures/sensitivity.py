@@ -307,6 +307,9 @@ def growth_figure(ds: xr.Dataset, *, count: int = 5) -> Figure:
                      ha="left", fontweight="bold")
         sub = ("bars: confidence half-width of each index; target half-width "
                f"±{target:g}" if np.isfinite(target) else "bars: confidence half-width")
+        path = str(ds.attrs.get("growth_output", "inner_surface_temperature"))
+        if path != "inner_surface_temperature":  # a transient study: name the derived output
+            sub = f"indices of {path}; {sub}"
         axes[0].annotate(sub, xy=(0.0, 1.0), xycoords="axes fraction", xytext=(0, 18),
                          textcoords="offset points", va="bottom", ha="left",
                          fontsize="small", color=GREY)
