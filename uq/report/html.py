@@ -57,6 +57,7 @@ from plyrisk.report.tables import (
     tolerance_tables,
 )
 from plyrisk.report.verdict import limit_sentence, verdict_html, verdict_markdown
+from plyrisk.results.dataset import is_swept
 from plyrisk.study.config import loads_study
 from plyrisk.study.settings import DEFAULT_REPORT_FORMATS, REPORT_FORMATS, report_formats_error
 
@@ -177,7 +178,7 @@ def report_figures(ds: xr.Dataset) -> list[ReportFigure]:
             "surrogate's total index, or by |rank correlation| without a surrogate), in the "
             "units they were given in. Samples over the limit are marked as orange triangles.",
             fg.scatter_figure(ds, scenario=i)))
-    if "scenario" in ds.dims:
+    if is_swept(ds):
         out.append(ReportFigure(
             "exposure_sweep", "Inner-surface temperature against the exposure",
             "Median and 5–95 % band of the inner-surface temperature at each swept level, the "
@@ -627,7 +628,7 @@ class _Content:
            tol: Any) -> _Content:
         study, why = _study(ds)
         headline, verdicts = headline_table(ds)
-        crossing = fg.limit_crossing(ds) if "scenario" in ds.dims else None
+        crossing = fg.limit_crossing(ds) if is_swept(ds) else None
         conv_text, conv_table = convergence_summary(ds)
         ranking = ranking_tables(ds)
         title = str(ds.attrs.get("title", "plyrisk study"))
