@@ -107,3 +107,30 @@ def test_same_config_and_seed_give_identical_datasets(tmp_path):
     a = run_study(loads_study(text), quiet=True, chunk_size=17).dataset
     b = run_study(loads_study(text), quiet=True, chunk_size=4096).dataset
     xr.testing.assert_identical(a, b)
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("method", ["saltelli", "pce", "morris", "shapley"])
+def test_every_method_has_the_scenario_dimension(method, invented_dataset):
+    unswept, swept = invented_dataset(method), invented_dataset(method, True, 2)
+    assert unswept.sizes["scenario"] == 1 and swept.sizes["scenario"] == 2
+    assert list(unswept["scenario_label"].values) == [NOMINAL_LABEL]
+    assert not is_swept(unswept) and is_swept(swept)
+    assert list(swept["scenario_label"].values) == ["0.5 kW/m^2", "1.5 kW/m^2"]
+    # the same variables along the same dimensions, whether swept or not
+    assert {n: v.dims for n, v in unswept.data_vars.items()} == {
+        n: v.dims for n, v in swept.data_vars.items()}
+    assert "scenario" in unswept["converged"].dims and "scenario" in unswept["verdict"].dims
+
+
+@pytest.mark.slow
+def test_transient_datasets_have_the_scenario_dimension():
+    from tests import transient_study as ts
+
+    unswept, swept = ts.dataset_of(ts.skin_saltelli), ts.dataset_of(ts.skin_sweep)
+    assert unswept.sizes["scenario"] == 1 and swept.sizes["scenario"] > 1
+    assert list(unswept["scenario_label"].values) == [NOMINAL_LABEL]
+    assert not is_swept(unswept) and is_swept(swept)
+    same = set(unswept.data_vars) & set(swept.data_vars)
+    assert {n: unswept[n].dims for n in same} == {n: swept[n].dims for n in same}
+    assert unswept["event_probability"].dims == ("scenario", "event")
