@@ -32,6 +32,7 @@ from typing import Any
 import xarray as xr
 
 from plyrisk.cautions import CAUTIONS
+from plyrisk.display import page_units
 from plyrisk.report.csv_tables import write_csv, write_csv_tables
 from plyrisk.report.figures import outputs as fg
 from plyrisk.report.figures.common import save_figures
@@ -424,18 +425,20 @@ def with_contents(lines: list[str]) -> list[str]:
 def _html_table(t: Table) -> str:
     out = ["<table>"]
     if t.caption:
-        out.append(f"<caption>{_esc(t.caption)}</caption>")
-    out.append("<thead><tr>" + "".join(f"<th>{_esc(h)}</th>" for h in t.header) + "</tr></thead>")
+        out.append(f"<caption>{_esc(page_units(t.caption))}</caption>")
+    out.append("<thead><tr>" + "".join(f"<th>{_esc(page_units(h))}</th>" for h in t.header)
+               + "</tr></thead>")
     out.append("<tbody>")
     for r in t.rows:
-        out.append("<tr>" + "".join(f"<td>{_esc(c)}</td>" for c in r) + "</tr>")
+        out.append("<tr>" + "".join(f"<td>{_esc(page_units(str(c)))}</td>" for c in r)
+                   + "</tr>")
     out.append("</tbody></table>")
     return "\n".join(out)
 
 
 def _md_table(t: Table) -> str:
     def cell(c: str) -> str:
-        return str(c).replace("|", "\\|").replace("\n", " ")
+        return page_units(str(c)).replace("|", "\\|").replace("\n", " ")
 
     out = [f"**{cell(t.caption)}**", ""] if t.caption else []
     out.append("| " + " | ".join(cell(h) for h in t.header) + " |")
