@@ -551,9 +551,10 @@ def subset_warnings(ds: xr.Dataset) -> list[str]:
         return []
     out = []
     n = independent_samples(ds)
-    for label, one in scenario_slices(ds):
+    used = np.atleast_1d(np.asarray(ds["samples_used"].values))  # one per scenario
+    for label, k in zip(scenario_labels(ds), used, strict=True):
         where = f"at {ds.attrs.get('scenario_quantity', 'scenario')} = {label}: " if label else ""
-        text = subset_warning(int(one["samples_used"].item()), n, where)
+        text = subset_warning(int(k), n, where)
         if text:
             out.append(text)
     return out
