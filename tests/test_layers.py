@@ -9,11 +9,11 @@ import ast
 from pathlib import Path
 
 ROOT = Path(__file__).resolve().parents[1]
-LAYERS = ("errors", "cautions", "provenance", "templates", "models", "methods", "study", "design",
-          "propagate", "analysis", "text", "results", "pipeline", "tolerances", "report", "cli",
-          "__main__", "")
+LAYERS = ("errors", "cautions", "display", "provenance", "templates", "models", "methods",
+          "study", "design", "propagate", "analysis", "text", "results", "pipeline", "tolerances",
+          "report", "cli", "__main__", "")
 """Low to high; ``""`` is the package's own ``__init__`` (the public API, loaded lazily)."""
-SAME = {"errors": 0, "cautions": 0, "provenance": 0}
+SAME = {"errors": 0, "cautions": 0, "display": 0, "provenance": 0}
 
 
 def _modules() -> dict[str, Path]:

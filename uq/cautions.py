@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import textwrap
 
+from plyrisk.display import text_units
+
 CAUTIONS = (
     "Engineering estimates only. These results are not a substitute for certification "
     "testing to the applicable standards by accredited laboratories.",
@@ -56,7 +58,8 @@ def cautions_text(*, heading: str = "CAUTIONS", width: int = 92,
     lines = [heading]
     for item in TRANSIENT_CAUTIONS if transient else CAUTIONS:
         lines.extend(
-            textwrap.wrap(item, width=width, initial_indent="  - ", subsequent_indent="    ")
+            textwrap.wrap(text_units(item), width=width, initial_indent="  - ",
+                          subsequent_indent="    ")
         )
     return "\n".join(lines)
 

@@ -738,10 +738,56 @@ def cmd_init(args: argparse.Namespace) -> int:
 
 
 # ----------------------------------------------------------------------------------------------
+# completion
+# ----------------------------------------------------------------------------------------------
+
+
+def _add_completion(subparsers) -> None:
+    from plyrisk.text.completion import SHELLS
+
+    p = subparsers.add_parser(
+        "completion",
+        help="print a shell completion script (verbs, options, config and results files)",
+        description="Print a completion script for bash or zsh, generated from plyrisk's own "
+        "arguments: TAB then offers the verbs, each verb's options, study configs (*.toml) "
+        "where a config is expected, results files (*.nc) for report, folders for DIR "
+        "options and the methods for --method. Load it in the shell's start-up file.",
+        epilog=_examples(
+            "plyrisk completion bash > ~/.plyrisk.bash  # ~/.bashrc: source ~/.plyrisk.bash",
+            "plyrisk completion bash > ~/.local/share/bash-completion/completions/plyrisk",
+            "plyrisk completion zsh > ~/.plyrisk.zsh    # ~/.zshrc: source ~/.plyrisk.zsh"),
+        formatter_class=_Formatter,
+    )
+    p.add_argument("shell", choices=SHELLS, help="the shell: " + ", ".join(SHELLS))
+    p.set_defaults(func=cmd_completion)
+
+
+def cmd_completion(args: argparse.Namespace) -> int:
+    """Run ``plyrisk completion SHELL``: print the completion script.
+
+    Parameters
+    ----------
+    args
+        Parsed arguments; ``args.shell`` is the shell [-].
+
+    Returns
+    -------
+    int
+        0 [-].
+    """
+    from plyrisk.text.completion import completion_script
+
+    print(completion_script(build_parser(), args.shell, values={"--method": tuple(METHODS)}),
+          end="")
+    return 0
+
+
+# ----------------------------------------------------------------------------------------------
 # Entry point
 # ----------------------------------------------------------------------------------------------
 
-VERBS: tuple[Callable, ...] = (_add_init, _add_check, _add_run, _add_report, _add_tolerances)
+VERBS: tuple[Callable, ...] = (_add_init, _add_check, _add_run, _add_report, _add_tolerances,
+                               _add_completion)
 """Adders of the subcommands, in help order."""
 
 
@@ -757,6 +803,7 @@ def build_parser() -> argparse.ArgumentParser:
             "plyrisk check study.toml       # validate it; nominal solution",
             "plyrisk run study.toml         # the study; results and report in ./study/",
             "plyrisk tolerances study.toml  # tolerance feedback",
+            "plyrisk completion bash       # TAB completion: source its output in ~/.bashrc",
             "plyrisk VERB --help            # options and examples of one verb"),
         formatter_class=_Formatter,
     )

@@ -83,9 +83,10 @@ def test_morris_study_end_to_end(tmp_path):
     result = run_study(loads_study(text), out_dir=tmp_path, quiet=True)
     ds = result.dataset
     assert ds.attrs["method"] == "morris"
-    assert ds["morris_mu_star"].dims == ("output", "parameter")
+    assert ds["morris_mu_star"].dims == ("scenario", "output", "parameter")
     assert "inner_surface_temperature_quantile" not in ds
-    assert list(ds["morris_rank"].sel(output="inner_surface_temperature").values) == [1, 2]
+    rank = ds["morris_rank"].isel(scenario=0).sel(output="inner_surface_temperature")
+    assert list(rank.values) == [1, 2]
     from tests.results.cf_rules import cf_problems
 
     assert cf_problems(ds) == []

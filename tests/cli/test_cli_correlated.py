@@ -57,6 +57,7 @@ def test_run_writes_shapley_effects(tmp_path):
     flat = " ".join(text.split())
     assert all(" ".join(c.split()) in flat for c in CAUTIONS)
     ds = xr.open_dataset(tmp_path / "out" / "results.nc")
+    ds = ds.isel(scenario=0)  # unswept: its one scenario
     eff = ds["shapley_effect"].sel(output="inner_surface_temperature").values
     assert eff.sum() == pytest.approx(1.0, abs=1e-9)
     assert ds["shapley_effect"].attrs["units"] == "1" and ds["shapley_effect"].attrs["long_name"]

@@ -174,3 +174,22 @@ def test_until_converged_prints_the_path(tmp_path, capsys):
     out = capsys.readouterr().out
     assert "sequential growth (--until-converged" in out
     assert "N =      16:" in out and "N =     256:" in out
+
+
+@pytest.mark.slow
+def test_report_verb_reads_a_file_written_before_scenario_was_always_a_dimension(
+        demo_run, tmp_path, capsys):
+    from plyrisk.results.dataset import read_results, write_results
+
+    _, _, out = demo_run
+    new = read_results(out / "results.nc")
+    old = tmp_path / "old" / "results.nc"
+    write_results(new.isel(scenario=0, drop=True), old)  # the layout of earlier files
+    with xr.open_dataset(old) as raw:
+        assert "scenario" not in raw.dims
+    assert main(["report", str(old), "--out", str(tmp_path / "again")]) == 0
+    assert main(["report", str(out / "results.nc"), "--out", str(tmp_path / "now")]) == 0
+    capsys.readouterr()
+    for name in ("summary.md", "quantiles.csv", "indices.csv", "ranking.csv"):
+        text = (tmp_path / "again" / name).read_text(encoding="utf-8")
+        assert text == (tmp_path / "now" / name).read_text(encoding="utf-8"), name

@@ -108,7 +108,7 @@ def test_resume_after_a_kill_equals_the_uninterrupted_run(tmp_path, monkeypatch,
     import zarr
 
     zarr.open_group(str(tmp_path / "cut.zarr"), mode="r+")[
-        "inner_surface_temperature"][300:350] = 1.0e9
+        "inner_surface_temperature"][:, 300:350] = 1.0e9  # (scenario, sample)
     seen = []
     monkeypatch.setattr(store, "store_chunk",
                         lambda *a, **k: seen.append(a[3]) or real(*a, **k))
@@ -116,6 +116,26 @@ def test_resume_after_a_kill_equals_the_uninterrupted_run(tmp_path, monkeypatch,
                          quiet=True)
     assert sorted(seen) == list(range(3, n_chunks))      # only the unfinished chunks again
     _assert_same(_stored(tmp_path / "whole.zarr"), _stored(tmp_path / "cut.zarr"))
+
+
+def test_resume_continues_a_store_without_the_scenario_axis(tmp_path, monkeypatch,
+                                                            small_demo_64):
+    """A store of an unswept study written before every store had a scenario axis is
+    continued in its own layout, and its results equal an uninterrupted run's."""
+    study = small_demo_64
+    real = store.StoreLayout
+    monkeypatch.setattr(store, "StoreLayout", lambda p, c, n, swept: real(p, c, n, False))
+    store.solve_to_store(study, tmp_path / "old.zarr", chunk_size=100, quiet=True)
+    monkeypatch.setattr(store, "StoreLayout", real)
+    import zarr
+
+    group = zarr.open_group(str(tmp_path / "old.zarr"), mode="r+")
+    assert group["converged"].metadata.dimension_names == ("sample",)  # the old layout
+    group["chunk_done"][1] = 0  # as if the run had been killed before chunk 1 was stored
+    group["inner_surface_temperature"][100:200] = np.nan
+    store.solve_to_store(study, tmp_path / "old.zarr", chunk_size=100, resume=True, quiet=True)
+    store.solve_to_store(study, tmp_path / "new.zarr", chunk_size=100, quiet=True)
+    _assert_same(_stored(tmp_path / "old.zarr"), _stored(tmp_path / "new.zarr"))
 
 
 def test_resume_refuses_a_store_of_another_study(tmp_path, small_demo_64):

@@ -118,7 +118,8 @@ def test_store_holds_the_in_memory_values_and_the_history_grid(whole_store, flas
     study, memory = flash_propagation
     reader = store.StoreReader(whole_store)
     np.testing.assert_array_equal(reader.time, study.transient.output_times)
-    assert reader.group["face_temperature"].metadata.dimension_names == ("sample", "time", "face")
+    dims = reader.group["face_temperature"].metadata.dimension_names
+    assert dims == ("scenario", "sample", "time", "face")
     assert reader.group["time"].attrs["units"] == "s"
     assert reader.group.attrs["study_kind"] == "transient"
     for name in reader.output_names:

@@ -18,6 +18,7 @@ from matplotlib.collections import PolyCollection
 from matplotlib.figure import Figure
 
 from plyrisk.report.figures import outputs as fg
+from plyrisk.results.dataset import is_swept
 
 UREG = pint.UnitRegistry()
 
@@ -30,12 +31,12 @@ def case(request, invented_dataset) -> xr.Dataset:
 
 
 def scenarios(ds: xr.Dataset) -> list[int | None]:
-    return list(range(ds.sizes["scenario"])) if "scenario" in ds.dims else [None]
+    return list(range(ds.sizes["scenario"])) if is_swept(ds) else [None]
 
 
 def one(ds: xr.Dataset, s: int | None) -> xr.Dataset:
     ds = fg.surrogate_view(ds)  # a pce study's sobol_* as the surrogate indices drawn
-    return ds if s is None else ds.isel(scenario=s)
+    return ds.isel(scenario=0 if s is None else s)  # an unswept study: its one scenario
 
 
 def to_unit(kelvin, unit: str) -> np.ndarray:
@@ -127,11 +128,11 @@ def test_sobol_bars_are_the_indices_sorted_by_total_and_unconverged_ones_are_mar
         invented_dataset):
     ds = invented_dataset("saltelli").copy(deep=True)
     conv = ds["index_converged"].values
-    conv[0, :] = True
-    conv[0, 0] = False  # one unconverged parameter, whatever the sampling gave
+    conv[0, 0, :] = True
+    conv[0, 0, 0] = False  # one unconverged parameter, whatever the sampling gave
     fig = fg.indices_figure(ds)
     ax = axes(fig, "indices")
-    s = ds.sel(output="inner_surface_temperature")
+    s = one(ds, None).sel(output="inner_surface_temperature")
     total, first = _bars(ax, "total"), _bars(ax, "first")
     for j, name in enumerate(s["parameter"].values):
         assert total[name] == pytest.approx(float(s["sobol_total"].values[j]))
@@ -155,6 +156,7 @@ def test_sobol_bars_are_the_indices_sorted_by_total_and_unconverged_ones_are_mar
 def test_screening_chart_for_lhs_shows_rank_correlation_titled_as_screening(invented_dataset):
     ds = invented_dataset("pce")
     fig = fg.indices_figure(ds)
+    ds = one(ds, None)
     ax = axes(fig, "indices")
     assert "screening" in ax.get_title(loc="left").lower()
     rho = _bars(ax, "rho")
@@ -209,7 +211,8 @@ def test_surrogate_figure_needs_surrogate_indices(invented_dataset):
 
 def test_scatter_without_surrogate_ranks_by_rank_correlation(invented_dataset):
     ds = without_surrogate(invented_dataset("pce"))
-    expect = list(ds["parameter"].values[np.argsort(-np.abs(ds["rank_correlation"].values),
+    rho = one(ds, None)["rank_correlation"].values
+    expect = list(ds["parameter"].values[np.argsort(-np.abs(rho),
                                                     kind="stable")][:3])
     assert fg.top_parameters(ds) == expect
 
@@ -238,8 +241,8 @@ def test_distribution_uses_independent_converged_samples_only(case):
 
 def test_distribution_leaves_out_nonconverged_samples(invented_dataset):
     ds = invented_dataset("pce").copy(deep=True)
-    ds["converged"].values[:10] = False
-    ds["inner_surface_temperature"].values[:10] = np.nan
+    ds["converged"].values[0, :10] = False
+    ds["inner_surface_temperature"].values[0, :10] = np.nan
     fig = fg.distribution_figure(ds)
     assert len(by_gid(axes(fig, "ecdf").lines, "ecdf").get_xdata()) == ds.sizes["sample"] - 10
 
@@ -363,7 +366,7 @@ def test_every_figure_is_a_matplotlib_figure(case):
     s = scenarios(ds)[-1]
     built = [fg.profile_figure(ds, scenario=s), fg.indices_figure(ds, scenario=s),
              fg.distribution_figure(ds, scenario=s), fg.scatter_figure(ds, scenario=s)]
-    if "scenario" in ds.dims:
+    if is_swept(ds):
         built.append(fg.sweep_figure(ds))
     assert all(isinstance(f, Figure) for f in built)
 

@@ -21,7 +21,7 @@ import xarray as xr
 from plyrisk.cautions import CAUTIONS
 from plyrisk.report.figures import outputs as fg
 from plyrisk.report.html import ReportFiles, write_report
-from plyrisk.results.dataset import read_results, write_results
+from plyrisk.results.dataset import is_swept, read_results, write_results
 
 pytestmark = pytest.mark.slow  # every report renders a dozen figures or more (~10 s each)
 
@@ -172,7 +172,7 @@ def test_html_contents(report):
         assert f"{v:.1f} °C" in text
     assert f"seed{ds.attrs['seed']}" in text.replace(" ", "")
     assert ds.attrs["version_numpy"] in text
-    if "scenario" in ds.dims:
+    if is_swept(ds):
         assert fg.limit_crossing(ds).text in text
     if ds.attrs["method"] != "saltelli":
         assert "Screening only" in text
@@ -188,8 +188,8 @@ def test_figure_files_exist_as_png_and_svg_on_request(report):
     stems = {p.stem for p in files.figures}
     n = n_scenarios(ds)
     per = 5 if ds.attrs["method"] == "saltelli" else 6  # lhs: screening + 2 surrogate figures
-    assert len(stems) == n * per + (2 if "scenario" in ds.dims else 0)  # the two sweep figures
-    with_svg = ds.attrs["method"] == "saltelli" and "scenario" in ds.dims
+    assert len(stems) == n * per + (2 if is_swept(ds) else 0)  # the two sweep figures
+    with_svg = ds.attrs["method"] == "saltelli" and is_swept(ds)
     assert len(files.figures) == len(stems) * (2 if with_svg else 1)
     for stem in stems:
         png = files.html.parent / "figures" / f"{stem}.png"
@@ -216,7 +216,7 @@ def test_markdown_summary(report):
         assert text.count(item) == 1
     assert text.index("## Verdict") < text.index("**Caution:**") < text.index("## Headline")
     assert "## Headline" in text and "## Ranking" in text and "## Convergence" in text
-    if "scenario" in ds.dims:
+    if is_swept(ds):
         assert fg.limit_crossing(ds).text in text
 
 
@@ -346,14 +346,14 @@ def test_report_of_a_results_file_read_back(tmp_path, dataset):
 def test_percentiles_from_a_reduced_subset_warn_in_every_output(tmp_path, dataset):
     ds = dataset("saltelli", False).copy()
     n = 2 * int(ds.attrs["base_samples"])
-    ds["samples_used"] = ds["samples_used"].copy(data=np.asarray(int(0.9 * n)))
+    ds["samples_used"] = ds["samples_used"].copy(data=np.asarray([int(0.9 * n)]))
     files = write_report(ds, tmp_path)
     needle = f"the percentiles and P(exceed) come from {int(0.9 * n)} of {n} samples"
     assert needle in " ".join(html.unescape(files.html.read_text()).split())
     assert needle in " ".join(files.markdown.read_text().split())
     _, rows = read_csv(tmp_path / "quantiles.csv")
     assert all(needle in r["warning"] for r in rows)
-    ds["samples_used"] = ds["samples_used"].copy(data=np.asarray(n))
+    ds["samples_used"] = ds["samples_used"].copy(data=np.asarray([n]))
     write_report(ds, tmp_path / "full")
     _, rows = read_csv(tmp_path / "full" / "quantiles.csv")
     assert {r["warning"] for r in rows} == {""}

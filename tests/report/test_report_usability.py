@@ -134,8 +134,8 @@ def test_index_status():
 
 def test_indices_csv_flags_an_index_outside_the_unit_interval(tmp_path, invented_dataset):
     ds = invented_dataset("saltelli").copy(deep=True)
-    ds["sobol_total"].values[0, 0] = 1.6  # far outside [0, 1] beyond its interval
-    ds["sobol_total_ci"].values[0, 0] = 0.05
+    ds["sobol_total"].values[0, 0, 0] = 1.6  # far outside [0, 1] beyond its interval
+    ds["sobol_total_ci"].values[0, 0, 0] = 0.05
     write_csv_tables(ds, tmp_path)
     with (tmp_path / "indices.csv").open(encoding="utf-8") as f:
         rows = list(csv.DictReader(f))

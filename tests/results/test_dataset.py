@@ -5,7 +5,14 @@ import pytest
 import xarray as xr
 
 from plyrisk.pipeline.run import run_study
-from plyrisk.results.dataset import read_results, scenario_slices
+from plyrisk.results.dataset import (
+    NOMINAL_LABEL,
+    is_swept,
+    read_results,
+    scenario_slices,
+    with_scenario_dim,
+    write_results,
+)
 from plyrisk.study.config import loads_study
 from tests.study_texts import panel
 
@@ -52,12 +59,47 @@ def test_expected_dimensions_and_variables(swept):
     assert len(list(scenario_slices(ds))) == 2
 
 
-def test_unswept_study_has_no_scenario_dimension(tmp_path):
-    result = run_study(loads_study(panel(**UNCERTAIN, samples=16)), out_dir=tmp_path, quiet=True)
-    ds = result.dataset
-    assert "scenario" not in ds.dims
+@pytest.fixture(scope="module")
+def unswept(tmp_path_factory):
+    out = tmp_path_factory.mktemp("unswept")
+    return run_study(loads_study(panel(**UNCERTAIN, samples=16)), out_dir=out, quiet=True)
+
+
+def test_unswept_study_has_a_scenario_dimension_of_one(unswept):
+    ds = unswept.dataset
+    assert ds.sizes["scenario"] == 1
+    assert list(ds["scenario_label"].values) == [NOMINAL_LABEL]
+    assert "scenario" not in ds.coords  # nothing swept: no level to index by
+    assert not is_swept(ds) and "scenario_quantity" not in ds.attrs
+    assert ds["inner_surface_temperature"].dims == ("scenario", "sample")
+    assert ds["sobol_total"].dims == ("scenario", "output", "parameter")
+    assert ds["input"].dims == ("sample", "parameter")
     assert [label for label, _ in scenario_slices(ds)] == [""]
-    xr.testing.assert_identical(read_results(result.path), ds)
+    xr.testing.assert_identical(read_results(unswept.path), ds)
+
+
+def test_unswept_file_follows_the_cf_rules(unswept):
+    from tests.results.cf_rules import cf_problems
+
+    assert cf_problems(unswept.dataset, unswept.path) == []
+
+
+def old_layout(ds: xr.Dataset) -> xr.Dataset:
+    """A dataset as files of unswept studies were written before ``scenario`` was always a
+    dimension: the dimension and its label dropped."""
+    return ds.isel(scenario=0, drop=True)
+
+
+def test_file_without_the_scenario_dimension_gets_it_on_load(unswept, tmp_path):
+    path = tmp_path / "old.nc"
+    write_results(old_layout(unswept.dataset), path)
+    back = read_results(path)
+    xr.testing.assert_identical(back, unswept.dataset)
+
+
+def test_a_current_dataset_is_left_as_it_is(unswept, swept):
+    assert with_scenario_dim(unswept.dataset) is unswept.dataset
+    assert with_scenario_dim(swept.dataset) is swept.dataset
 
 
 def test_same_config_and_seed_give_identical_datasets(tmp_path):
@@ -65,3 +107,30 @@ def test_same_config_and_seed_give_identical_datasets(tmp_path):
     a = run_study(loads_study(text), quiet=True, chunk_size=17).dataset
     b = run_study(loads_study(text), quiet=True, chunk_size=4096).dataset
     xr.testing.assert_identical(a, b)
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("method", ["saltelli", "pce", "morris", "shapley"])
+def test_every_method_has_the_scenario_dimension(method, invented_dataset):
+    unswept, swept = invented_dataset(method), invented_dataset(method, True, 2)
+    assert unswept.sizes["scenario"] == 1 and swept.sizes["scenario"] == 2
+    assert list(unswept["scenario_label"].values) == [NOMINAL_LABEL]
+    assert not is_swept(unswept) and is_swept(swept)
+    assert list(swept["scenario_label"].values) == ["0.5 kW/m^2", "1.5 kW/m^2"]
+    # the same variables along the same dimensions, whether swept or not
+    assert {n: v.dims for n, v in unswept.data_vars.items()} == {
+        n: v.dims for n, v in swept.data_vars.items()}
+    assert "scenario" in unswept["converged"].dims and "scenario" in unswept["verdict"].dims
+
+
+@pytest.mark.slow
+def test_transient_datasets_have_the_scenario_dimension():
+    from tests import transient_study as ts
+
+    unswept, swept = ts.dataset_of(ts.skin_saltelli), ts.dataset_of(ts.skin_sweep)
+    assert unswept.sizes["scenario"] == 1 and swept.sizes["scenario"] > 1
+    assert list(unswept["scenario_label"].values) == [NOMINAL_LABEL]
+    assert not is_swept(unswept) and is_swept(swept)
+    same = set(unswept.data_vars) & set(swept.data_vars)
+    assert {n: unswept[n].dims for n in same} == {n: swept[n].dims for n in same}
+    assert unswept["event_probability"].dims == ("scenario", "event")

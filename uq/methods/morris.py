@@ -199,17 +199,16 @@ def morris_dataset(study: Study, propagation: Propagation, analysis: MorrisAnaly
         limit_output_spec,
         limit_output_text,
         per_parameter_variable,
+        scenario_coordinates,
     )
 
-    swept = study.scenarios is not None
-    sd = ("scenario",) if swept else ()
+    sd = ("scenario",)  # always: length 1 for an unswept study
     out = propagation.outputs
     a = study.analysis
     names = [p.name for p in study.parameters]
 
     def per(x):
-        x = np.asarray(x)
-        return x if swept else x[0]
+        return np.asarray(x)
 
     def var(dims, data, units, long_name, **attrs):
         if units == "output units":  # CF: one unit per variable; these differ per output
@@ -232,13 +231,9 @@ def morris_dataset(study: Study, propagation: Propagation, analysis: MorrisAnaly
         "output": var(("output",), np.array(analysis.outputs, dtype=str), "1",
                       "model output the measures refer to"),
     }
-    if swept:
-        coords["scenario"] = var(("scenario",), np.asarray(study.scenarios.values),
-                                 _si_of_hot(study.scenarios.quantity),
-                                 f"swept hot-side {study.scenarios.quantity}")
-        coords["scenario_label"] = var(("scenario",), np.array(study.scenarios.labels,
-                                                               dtype=str), "1",
-                                       "swept exposure as given in the config")
+    sc = study.scenarios
+    coords.update(scenario_coordinates(sc, None if sc is None else _si_of_hot(sc.quantity),
+                                       "swept hot-side"))
     units = {PRIMARY: "K", "heat_flux": "W m-2"}
     unit = [units.get(o, "K") for o in analysis.outputs]
     m = {"method": "morris", "output_units": ", ".join(unit)}
@@ -246,7 +241,7 @@ def morris_dataset(study: Study, propagation: Propagation, analysis: MorrisAnaly
                 for h in analysis.indices])
     rank = np.zeros_like(conv, dtype=np.int32)
     for idx in np.ndindex(conv.shape[:-1]):
-        h = analysis.indices[idx[0] if swept else 0][analysis.outputs[idx[-1]]]
+        h = analysis.indices[idx[0]][analysis.outputs[idx[-1]]]
         rank[idx][h.order()] = np.arange(1, len(names) + 1)
     dims = (*sd, "output", "parameter")
     data = {
@@ -294,6 +289,9 @@ def morris_dataset(study: Study, propagation: Propagation, analysis: MorrisAnaly
              "limit_display_unit": study.limit_unit, "limit_output": a.limit_output,
              "limit_output_long_name": limit_output_text(study),
              "limit_output_display_unit": study.limit_output_unit or study.limit_unit}
+    if sc is not None:
+        attrs["scenario_quantity"] = sc.quantity
+        attrs["scenario_display_unit"] = sc.unit
     attrs.update({f"version_{k}": v for k, v in library_versions().items()})
     return xr.Dataset(data, coords, attrs)
 

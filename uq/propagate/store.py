@@ -31,7 +31,7 @@ import shutil
 import socket
 import time
 from contextlib import contextmanager
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from importlib import metadata
 from pathlib import Path
 from typing import TYPE_CHECKING
@@ -207,7 +207,8 @@ class StoreLayout:
     n_rows
         Rows of the design [-].
     swept
-        Whether the outputs carry a ``scenario`` axis [-].
+        Whether the outputs carry a ``scenario`` axis: always for a new store (length 1 for an
+        unswept study); a store written before that was so has none when unswept [-].
     """
 
     path: str
@@ -276,7 +277,7 @@ def open_store(study: Study, plan: DesignPlan, path: str | Path, *, chunk_size: 
     import zarr
 
     path = Path(path)
-    layout = StoreLayout(str(path), int(chunk_size), plan.n_rows, study.scenarios is not None)
+    layout = StoreLayout(str(path), int(chunk_size), plan.n_rows, True)
     digest = fingerprint(study, chunk_size)
     state = store_state(path)
     if resume:
@@ -289,6 +290,8 @@ def open_store(study: Study, plan: DesignPlan, path: str | Path, *, chunk_size: 
                 f"{path}: the store was written for another study, seed, sample count or "
                 f"chunk size (or another plyrisk version); it cannot be resumed — use "
                 "--overwrite instead of --resume to replace it, or give a new store path")
+        dims = group["converged"].metadata.dimension_names or ()
+        layout = replace(layout, swept="scenario" in dims)  # the store's own layout
         return layout, np.asarray(group["chunk_done"][:], dtype=bool)
     if state == "plyrisk":
         if not overwrite:

@@ -32,6 +32,7 @@ from typing import Any
 import xarray as xr
 
 from plyrisk.cautions import CAUTIONS
+from plyrisk.display import page_units
 from plyrisk.report.csv_tables import write_csv, write_csv_tables
 from plyrisk.report.figures import outputs as fg
 from plyrisk.report.figures.common import save_figures
@@ -57,6 +58,7 @@ from plyrisk.report.tables import (
     tolerance_tables,
 )
 from plyrisk.report.verdict import limit_sentence, verdict_html, verdict_markdown
+from plyrisk.results.dataset import is_swept
 from plyrisk.study.config import loads_study
 from plyrisk.study.settings import DEFAULT_REPORT_FORMATS, REPORT_FORMATS, report_formats_error
 
@@ -177,7 +179,7 @@ def report_figures(ds: xr.Dataset) -> list[ReportFigure]:
             "surrogate's total index, or by |rank correlation| without a surrogate), in the "
             "units they were given in. Samples over the limit are marked as orange triangles.",
             fg.scatter_figure(ds, scenario=i)))
-    if "scenario" in ds.dims:
+    if is_swept(ds):
         out.append(ReportFigure(
             "exposure_sweep", "Inner-surface temperature against the exposure",
             "Median and 5–95 % band of the inner-surface temperature at each swept level, the "
@@ -423,18 +425,20 @@ def with_contents(lines: list[str]) -> list[str]:
 def _html_table(t: Table) -> str:
     out = ["<table>"]
     if t.caption:
-        out.append(f"<caption>{_esc(t.caption)}</caption>")
-    out.append("<thead><tr>" + "".join(f"<th>{_esc(h)}</th>" for h in t.header) + "</tr></thead>")
+        out.append(f"<caption>{_esc(page_units(t.caption))}</caption>")
+    out.append("<thead><tr>" + "".join(f"<th>{_esc(page_units(h))}</th>" for h in t.header)
+               + "</tr></thead>")
     out.append("<tbody>")
     for r in t.rows:
-        out.append("<tr>" + "".join(f"<td>{_esc(c)}</td>" for c in r) + "</tr>")
+        out.append("<tr>" + "".join(f"<td>{_esc(page_units(str(c)))}</td>" for c in r)
+                   + "</tr>")
     out.append("</tbody></table>")
     return "\n".join(out)
 
 
 def _md_table(t: Table) -> str:
     def cell(c: str) -> str:
-        return str(c).replace("|", "\\|").replace("\n", " ")
+        return page_units(str(c)).replace("|", "\\|").replace("\n", " ")
 
     out = [f"**{cell(t.caption)}**", ""] if t.caption else []
     out.append("| " + " | ".join(cell(h) for h in t.header) + " |")
@@ -627,7 +631,7 @@ class _Content:
            tol: Any) -> _Content:
         study, why = _study(ds)
         headline, verdicts = headline_table(ds)
-        crossing = fg.limit_crossing(ds) if "scenario" in ds.dims else None
+        crossing = fg.limit_crossing(ds) if is_swept(ds) else None
         conv_text, conv_table = convergence_summary(ds)
         ranking = ranking_tables(ds)
         title = str(ds.attrs.get("title", "plyrisk study"))

@@ -21,7 +21,7 @@ import xarray as xr
 from plyrisk.analysis.sobol import not_resolved
 from plyrisk.report.figures import outputs as fg
 from plyrisk.report.figures.common import PRIMARY, format_limit_value, limit_quantile_variables
-from plyrisk.results.dataset import scenario_slices, subset_warnings
+from plyrisk.results.dataset import is_swept, scenario_slices, subset_warnings
 from plyrisk.study.units import QUANTITIES, TEMPERATURE, format_value
 
 if TYPE_CHECKING:  # pragma: no cover - for type checkers only
@@ -74,8 +74,9 @@ def scenario_values(ds: xr.Dataset) -> list[tuple[int | None, str, xr.Dataset]]:
     """``(index, label, dataset)`` of each exposure; index ``None`` when unswept."""
     out = []
     ds = fg.surrogate_view(ds)
+    swept = is_swept(ds)
     for i, (label, one) in enumerate(scenario_slices(ds)):
-        out.append((i if "scenario" in ds.dims else None, label, one))
+        out.append((i if swept else None, label, one))
     return out
 
 
@@ -422,7 +423,7 @@ def provenance_table(ds: xr.Dataset) -> Table:
             ["base samples", str(a.get("base_samples", ""))],
             ["model evaluations", f"{a.get('evaluations', '')}"
              + (f" per exposure × {ds.sizes['scenario']} exposures"
-                if "scenario" in ds.dims else "")],
+                if is_swept(ds) else "")],
             ["uncertain parameters", str(a.get("parameters", ""))],
             ["confidence level", f"{100 * float(a.get('confidence', math.nan)):g} %"],
             ["gap radiation", str(a.get("radiation", ""))],

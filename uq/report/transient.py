@@ -26,7 +26,7 @@ from plyrisk.report.figures import transient as tf
 from plyrisk.report.figures.common import format_percent, format_temperature
 from plyrisk.report.tables import Table, cell_text, provenance_table
 from plyrisk.report.verdict import verdict_html, verdict_markdown
-from plyrisk.results.dataset import scenario_slices
+from plyrisk.results.dataset import is_swept, scenario_slices
 from plyrisk.text.indices import NOT_RESOLVED
 from plyrisk.text.transient import criterion_note
 
@@ -161,8 +161,9 @@ def transient_figures(ds: xr.Dataset) -> list[Any]:
 
     out = []
     stats = "event_time_quantile" in ds
+    swept = is_swept(ds)
     for i, (label, one) in enumerate(scenario_slices(ds)):
-        idx = i if "scenario" in ds.dims else None
+        idx = i if swept else None
         sfx = "" if idx is None else f"_{i + 1}"
         at = f" — {label}" if label else ""
         if stats and any(v in one for v in ("basal_temperature_band",
@@ -208,7 +209,7 @@ def transient_figures(ds: xr.Dataset) -> list[Any]:
             f"(--until-converged, judged on the intervals of {judged}), with their "
             "confidence half-widths. Rankings that still cross at the last step are not "
             "settled.", growth_figure(ds)))
-    if stats and "scenario" in ds.dims:
+    if stats and swept:
         out.append(ReportFigure(
             "burn_probability_sweep", "P(burn) against the exposure",
             "Estimated probability of a second-degree burn (or of the sensor reaching the "

@@ -12,6 +12,7 @@ import html
 import xarray as xr
 
 from plyrisk.cautions import COMPACT_CAUTION, COMPACT_TRANSIENT
+from plyrisk.display import page_units
 from plyrisk.results.verdict import MET, NOT_MET, VERDICT_MEANING, Verdict, verdict_of
 
 COLOURS = {MET: ("#1a6b2a", "#e6f4e9"), NOT_MET: ("#a31515", "#fbe9e9"),
@@ -32,8 +33,9 @@ def _caution(ds: xr.Dataset) -> str:
 
 
 def _rows(v: Verdict) -> list[tuple[str, str, str, str]]:
-    return [(s.label or "all", s.verdict, f"{v.show(s.value)} [{v.show(s.lower)}, "
-             f"{v.show(s.upper)}]", s.reason) for s in v.scenarios]
+    return [(page_units(s.label) or "all", s.verdict, page_units(
+        f"{v.show(s.value)} [{v.show(s.lower)}, {v.show(s.upper)}]"), page_units(s.reason))
+        for s in v.scenarios]
 
 
 def verdict_html(ds: xr.Dataset) -> str:
@@ -64,7 +66,7 @@ def verdict_html(ds: xr.Dataset) -> str:
     return (f'<section class="verdict" id="verdict" style="border:3px solid {ink};'
             f'background:{bg};padding:.6em 1em;margin:1em 0">'
             f'<h2 style="margin-top:0">Verdict: {badge(v.overall)}</h2>'
-            f"<p>Criterion: {_esc(v.criterion_text)}. "
+            f"<p>Criterion: {_esc(page_units(v.criterion_text))}. "
             f"{_esc(v.overall)}: {_esc(VERDICT_MEANING[v.overall])} ({conf} confidence).</p>"
             f"<table><thead><tr><th>exposure</th><th>verdict</th><th>{_esc(v.metric)} "
             f"[{conf} interval]</th><th>note</th></tr></thead><tbody>{rows}</tbody></table>"
@@ -89,7 +91,7 @@ def verdict_markdown(ds: xr.Dataset) -> list[str]:
     v = verdict_of(ds)
     conf = f"{100 * v.confidence:g} %"
     m = [f"## Verdict: **{SYMBOLS[v.overall]} {v.overall}**", "",
-         f"Criterion: {v.criterion_text}. {v.overall}: "
+         f"Criterion: {page_units(v.criterion_text)}. {v.overall}: "
          f"{VERDICT_MEANING[v.overall]} ({conf} confidence).", "",
          f"| exposure | verdict | {v.metric} [{conf} interval] | note |", "|---|---|---|---|"]
     m += [f"| {a} | **{SYMBOLS[b]} {b}** | {c} | {d} |" for a, b, c, d in _rows(v)]
@@ -101,6 +103,6 @@ def limit_sentence(ds: xr.Dataset) -> str:
     """One sentence naming the limit and the output it protects (steady report)."""
     v = verdict_of(ds)
     words = str(ds.attrs.get("limit_output_long_name", "inner-surface temperature"))
-    return (f"The limit applies to the {words} (limit output "
-            f"{ds.attrs.get('limit_output', 'inner_surface_temperature')}): "
-            f"{v.limit_shown or ds.attrs.get('limit')}; criterion {v.criterion}.")
+    return page_units(f"The limit applies to the {words} (limit output "
+                      f"{ds.attrs.get('limit_output', 'inner_surface_temperature')}): "
+                      f"{v.limit_shown or ds.attrs.get('limit')}; criterion {v.criterion}.")

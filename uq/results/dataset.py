@@ -2,8 +2,11 @@
 
 Everything is SI inside the dataset; each variable carries ``units`` and ``long_name``. The
 attributes carry the config text, seed, design, sample counts and library versions, so that a
-result can be traced and re-run. The ``scenario`` dimension exists only where the study sweeps
-an exposure; :func:`scenario_slices` iterates over either kind of dataset.
+result can be traced and re-run. The ``scenario`` dimension is always there: one entry per
+swept exposure, or a single entry labelled :data:`NOMINAL_LABEL` for a study without
+``[scenarios]``; :func:`is_swept` tells the two apart, :func:`scenario_slices` iterates over
+either, and :func:`with_scenario_dim` upgrades a file written before the dimension was always
+present.
 """
 
 from __future__ import annotations
@@ -135,13 +138,12 @@ class _Frame:
 
     @property
     def sd(self) -> tuple[str, ...]:
-        """The scenario dimension, present only where the study sweeps an exposure."""
-        return ("scenario",) if self.swept else ()
+        """The scenario dimension (length 1 for an unswept study)."""
+        return ("scenario",)
 
     def per(self, x: Any) -> np.ndarray:
-        """Values with a leading scenario axis, that axis dropped for an unswept study."""
-        x = np.asarray(x)
-        return x if self.swept else x[0]
+        """Values with their leading scenario axis."""
+        return np.asarray(x)
 
 
 def _coordinates(frame: _Frame) -> dict[str, xr.Variable]:
@@ -190,13 +192,34 @@ def _coordinates(frame: _Frame) -> dict[str, xr.Variable]:
         "output": _var(("output",), np.array(outputs, dtype=str), "1",
                        "model output the indices refer to"),
     }
-    if frame.swept:
-        sc = study.scenarios
-        coords["scenario"] = _var(("scenario",), np.asarray(sc.values, dtype=float),
-                                  _si_of_hot(sc.quantity), f"swept hot-side {sc.quantity}")
-        coords["scenario_label"] = _var(("scenario",), np.array(sc.labels, dtype=str), "1",
-                                        "swept exposure as given in the config")
+    sc = study.scenarios
+    coords.update(scenario_coordinates(
+        sc, None if sc is None else _si_of_hot(sc.quantity), "swept hot-side"))
     return coords
+
+
+NOMINAL_LABEL = "nominal exposure"
+"""``scenario_label`` of the one entry of the ``scenario`` dimension of an unswept study."""
+
+
+def scenario_coordinates(scenarios: Any, si_unit: str | None,
+                         what: str = "swept") -> dict[str, xr.Variable]:
+    """The coordinates along ``scenario``.
+
+    A sweep: ``scenario`` (the swept levels in SI) and ``scenario_label`` (as written). No
+    sweep: ``scenario_label = ["nominal exposure"]`` only (nothing is swept, so there is no
+    value to index by; the exposure is the config's, in ``config_text``).
+    """
+    if scenarios is None:
+        return {"scenario_label": _var(("scenario",), np.array([NOMINAL_LABEL], dtype=str), "1",
+                                       "exposure of each scenario: the config's own (no "
+                                       "[scenarios] sweep)")}
+    return {
+        "scenario": _var(("scenario",), np.asarray(scenarios.values, dtype=float), si_unit,
+                         f"{what} {scenarios.quantity}"),
+        "scenario_label": _var(("scenario",), np.array(scenarios.labels, dtype=str), "1",
+                               "swept exposure as given in the config"),
+    }
 
 
 def _sample_variables(frame: _Frame) -> dict[str, xr.Variable]:
@@ -472,9 +495,11 @@ def read_results(path: str | Path) -> xr.Dataset:
     Returns
     -------
     xarray.Dataset
+        With its ``scenario`` dimension: a file of an unswept study written before the
+        dimension was always present gets it on load (:func:`with_scenario_dim`).
     """
     with xr.open_dataset(path, engine="netcdf4") as ds:
-        return ds.load()
+        return with_scenario_dim(ds.load())
 
 
 SUBSET_WARNING = 0.01
@@ -526,21 +551,83 @@ def subset_warnings(ds: xr.Dataset) -> list[str]:
         return []
     out = []
     n = independent_samples(ds)
-    for label, one in scenario_slices(ds):
+    used = np.atleast_1d(np.asarray(ds["samples_used"].values))  # one per scenario
+    for label, k in zip(scenario_labels(ds), used, strict=True):
         where = f"at {ds.attrs.get('scenario_quantity', 'scenario')} = {label}: " if label else ""
-        text = subset_warning(int(one["samples_used"].item()), n, where)
+        text = subset_warning(int(k), n, where)
         if text:
             out.append(text)
     return out
 
 
+def is_swept(ds: xr.Dataset) -> bool:
+    """Whether a results dataset sweeps an exposure (``[scenarios]``): its ``scenario``
+    dimension then lists the levels; otherwise it has the one entry ``"nominal exposure"``.
+
+    Examples
+    --------
+    >>> import xarray as xr
+    >>> is_swept(xr.Dataset(attrs={"scenario_quantity": "incident_flux"}))
+    True
+    >>> is_swept(xr.Dataset())
+    False
+    """
+    return bool(ds.attrs.get("scenario_quantity"))
+
+
+def scenario_labels(ds: xr.Dataset) -> list[str]:
+    """The label of each scenario as displayed: as written for a sweep, ``""`` for the one
+    scenario of an unswept study (where there is nothing to name)."""
+    if not is_swept(ds):
+        return [""] * ds.sizes.get("scenario", 1)
+    if "scenario_label" in ds.variables:
+        return [str(v) for v in np.atleast_1d(ds["scenario_label"].values)]
+    return [f"{v:g}" for v in np.atleast_1d(ds["scenario"].values)]
+
+
 def scenario_slices(ds: xr.Dataset) -> Iterator[tuple[str, xr.Dataset]]:
-    """Yield ``(label, dataset of one exposure)`` for swept and unswept results alike."""
+    """Yield ``(label, dataset of one exposure)``: the label as written for a sweep, ``""``
+    for the one scenario of an unswept study."""
+    ds = with_scenario_dim(ds)
+    for i, label in enumerate(scenario_labels(ds)):
+        yield label, ds.isel(scenario=i)
+
+
+def with_scenario_dim(ds: xr.Dataset) -> xr.Dataset:
+    """A results dataset with its ``scenario`` dimension: unchanged when it has one; a file
+    of an unswept study written before the dimension was always present gets it (length 1,
+    ``scenario_label = "nominal exposure"``) on every variable that was per exposure.
+
+    Examples
+    --------
+    >>> import xarray as xr
+    >>> old = xr.Dataset({"samples_used": ((), 10), "input": (("sample",), [1.0])})
+    >>> new = with_scenario_dim(old)
+    >>> new["samples_used"].dims, new["input"].dims, str(new["scenario_label"].values[0])
+    (('scenario',), ('sample',), 'nominal exposure')
+    """
     if "scenario" in ds.dims:
-        for i in range(ds.sizes["scenario"]):
-            yield str(ds["scenario_label"].values[i]), ds.isel(scenario=i)
-    else:
-        yield "", ds
+        return ds
+    out = ds.copy()
+    for name in list(out.data_vars):
+        if _per_exposure(str(name), out[name]):
+            out[name] = out[name].expand_dims("scenario")
+    return out.assign_coords(scenario_coordinates(None, None))
+
+
+_NOT_PER_EXPOSURE = frozenset({
+    "input", "criterion_bound", "longest_acceptable_exposure",
+    "longest_acceptable_exposure_cautious", "input_rank_correlation", "morris_safe_to_fix",
+    "screening_fixed", "screening_reason", "screening_nominal"})
+"""Variables of a results dataset that are not per exposure (no ``scenario`` dimension)."""
+
+
+def _per_exposure(name: str, var: xr.DataArray) -> bool:
+    """Whether a variable of an unswept file written before the dimension was always present
+    is one that carries the ``scenario`` dimension today."""
+    if name in _NOT_PER_EXPOSURE:
+        return False
+    return "growth_step" not in var.dims or "parameter" in var.dims
 
 
 PER_SAMPLE_DIMS = ("sample",)

@@ -56,11 +56,9 @@ def _num(x: Any) -> float | str | None:
 
 
 def _labels(ds: xr.Dataset) -> list[str]:
-    if "scenario" not in ds.dims:
-        return [""]
-    if "scenario_label" in ds.variables:
-        return [str(v) for v in np.atleast_1d(ds["scenario_label"].values)]
-    return [f"{v:g}" for v in np.atleast_1d(ds["scenario"].values)]
+    from plyrisk.results.dataset import scenario_labels
+
+    return scenario_labels(ds)
 
 
 def _at(var: xr.DataArray, k: int) -> xr.DataArray:

@@ -64,12 +64,10 @@ def transient_dataset(study: Study, propagation: Propagation, analysis: Transien
     -------
     xarray.Dataset
     """
-    swept = study.scenarios is not None
-    sd = ("scenario",) if swept else ()
+    sd = ("scenario",)  # always: length 1 for an unswept study
 
     def per(x: Any) -> np.ndarray:
-        x = np.asarray(x)
-        return x if swept else x[0]
+        return np.asarray(x)
 
     data: dict[str, xr.Variable] = {}
     data.update(_sample_variables(study, propagation, analysis, sd, per))
@@ -81,7 +79,7 @@ def transient_dataset(study: Study, propagation: Propagation, analysis: Transien
 
 
 def _coordinates(study, propagation, analysis: TransientAnalysis) -> dict[str, xr.Variable]:
-    from plyrisk.results.dataset import _describe, _si_unit
+    from plyrisk.results.dataset import _describe, _si_unit, scenario_coordinates
 
     params = study.parameters
     out = propagation.outputs
@@ -122,12 +120,8 @@ def _coordinates(study, propagation, analysis: TransientAnalysis) -> dict[str, x
         "event": _var(("event",), np.array([e for e, _ in EVENTS[kind]], dtype=str), "1",
                       "event whose time and probability are given"),
     }
-    if study.scenarios is not None:
-        sc = study.scenarios
-        coords["scenario"] = _var(("scenario",), np.asarray(sc.values, dtype=float),
-                                  _si_unit_of(sc.quantity), f"swept {sc.quantity}")
-        coords["scenario_label"] = _var(("scenario",), np.array(sc.labels, dtype=str), "1",
-                                        "swept exposure as given in the config")
+    sc = study.scenarios
+    coords.update(scenario_coordinates(sc, None if sc is None else _si_unit_of(sc.quantity)))
     return coords
 
 

@@ -264,12 +264,12 @@ def verdict_of(ds: xr.Dataset) -> Verdict:
 
 
 def _labels(ds: xr.Dataset) -> list[str]:
-    if "scenario" not in ds.dims:
-        return [""]
+    from plyrisk.results.dataset import is_swept, scenario_labels
+
+    if not is_swept(ds):
+        return [""] * ds.sizes.get("scenario", 1)
     quantity = str(ds.attrs.get("scenario_quantity", "exposure"))
-    if "scenario_label" in ds.variables:
-        return [f"{quantity} = {v}" for v in np.atleast_1d(ds["scenario_label"].values)]
-    return [f"{quantity} = {v:g}" for v in np.atleast_1d(ds["scenario"].values)]
+    return [f"{quantity} = {v}" for v in scenario_labels(ds)]
 
 
 def _per(x: xr.DataArray | None, n: int) -> np.ndarray:
@@ -428,7 +428,7 @@ def add_verdict(ds: xr.Dataset, criterion: str | None = None, *,
     out.attrs["criterion_is_default"] = int(v.default)
     out.attrs["criterion_output"] = v.output
     out.attrs["verdict"] = v.overall
-    sd = ("scenario",) if "scenario" in out.dims else ()
+    sd = ("scenario",) if "scenario" in out.dims else ()  # none only in files before 0.2
 
     def per(values: list[Any]) -> np.ndarray:
         arr = np.asarray(values)

@@ -27,6 +27,7 @@ import numpy as np
 import xarray as xr
 from matplotlib.rcsetup import cycler
 
+from plyrisk.results.dataset import is_swept, with_scenario_dim
 from plyrisk.study.units import QUANTITIES, TEMPERATURE, from_si
 
 __all__ = [
@@ -343,8 +344,8 @@ def one_exposure(ds: xr.Dataset, scenario: int | None) -> tuple[str, xr.Dataset]
         ``"<quantity> = <level>"`` (``""`` for an unswept dataset) and the dataset of that
         exposure (no ``scenario`` dimension).
     """
-    ds = surrogate_view(ds)
-    if "scenario" in ds.dims:
+    ds = surrogate_view(with_scenario_dim(ds))
+    if is_swept(ds):
         k = ds.sizes["scenario"]
         if scenario is None or isinstance(scenario, bool) or not 0 <= int(scenario) < k:
             raise ValueError(
@@ -354,9 +355,9 @@ def one_exposure(ds: xr.Dataset, scenario: int | None) -> tuple[str, xr.Dataset]
         one = ds.isel(scenario=int(scenario))
         quantity = str(ds.attrs.get("scenario_quantity", "exposure")).replace("_", " ")
         return f"{quantity} = {pretty_unit(str(one['scenario_label'].item()))}", one
-    if scenario not in (None, 0):
+    if scenario is not None and (isinstance(scenario, bool) or scenario != 0):
         raise ValueError(f"scenario must be None (or 0) for an unswept dataset, got {scenario!r}")
-    return "", ds
+    return "", ds.isel(scenario=0)
 
 
 def add_title(ax, text: str, *subs: str) -> None:

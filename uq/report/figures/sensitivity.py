@@ -24,6 +24,7 @@ from plyrisk.report.figures.common import (
     one_exposure,
     styled,
 )
+from plyrisk.results.dataset import scenario_labels
 
 __all__ = ["group_indices_figure", "growth_figure", "indices_figure",
            "surrogate_indices_figure"]
@@ -277,8 +278,8 @@ def growth_figure(ds: xr.Dataset, *, count: int = 5) -> Figure:
     if total.ndim == 2:
         total, half = total[:, None, :], half[:, None, :]
     names = [str(v) for v in ds["parameter"].values]
-    labels = ([str(v) for v in ds["scenario_label"].values] if "scenario_label" in ds
-              else [""] * total.shape[1])
+    labels = scenario_labels(ds) if total.shape[1] == ds.sizes.get("scenario", 1) else (
+        [""] * total.shape[1])
     target = float(ds.attrs.get("growth_target", np.nan))
     styles = ["-", "--", "-.", ":", (0, (5, 1, 1, 1))]
     colours = [BLUE, ORANGE, GREY, INK, BLUE]

@@ -33,6 +33,7 @@ from plyrisk.report.figures.common import (
     temperature_unit,
     to_display_temperature,
 )
+from plyrisk.results.dataset import is_swept
 from plyrisk.study.units import QUANTITIES, from_si
 
 __all__ = ["LimitCrossing", "exceedance_sweep_figure", "limit_crossing", "sweep_figure"]
@@ -70,8 +71,9 @@ class LimitCrossing:
 
 
 def _sweep(ds: xr.Dataset) -> tuple[np.ndarray, str, str]:
-    if "scenario" not in ds.dims:
-        raise ValueError("the dataset sweeps no exposure (no 'scenario' dimension)")
+    if not is_swept(ds):
+        raise ValueError("the dataset sweeps no exposure (its one scenario is the nominal "
+                         "exposure)")
     quantity = str(ds.attrs.get("scenario_quantity", ""))
     unit = str(ds.attrs.get("scenario_display_unit", ""))
     si = np.asarray(ds["scenario"].values, dtype=float)

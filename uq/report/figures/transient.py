@@ -33,6 +33,7 @@ from plyrisk.report.figures.common import (
     to_display_temperature,
 )
 from plyrisk.report.figures.sensitivity import _paired_bars
+from plyrisk.results.dataset import is_swept
 
 __all__ = ["bands_figure", "burn_sweep_figure", "burn_time_figure", "headline_event",
            "independent_rows", "layer_indices_figure"]
@@ -241,8 +242,9 @@ def burn_sweep_figure(ds: xr.Dataset) -> Figure:
     -------
     matplotlib.figure.Figure
     """
-    if "scenario" not in ds.dims:
-        raise ValueError("the dataset sweeps no exposure (no 'scenario' dimension)")
+    if not is_swept(ds):
+        raise ValueError("the dataset sweeps no exposure (its one scenario is the nominal "
+                         "exposure)")
     from plyrisk.study.units import QUANTITIES, from_si
 
     event = headline_event(ds)
