@@ -124,16 +124,36 @@ PARALLEL_MIN_FIGURES = 4
 
 
 def _render(stem: str, figure: Any, folder: Path, formats: Sequence[str]) -> list[Path]:
-    """Draw one figure once per format. The layout engine runs on the first draw only: the
-    positions it found are kept (``layout_engine = "none"``) for the other formats."""
+    """Draw one figure once per format. The layout engine runs once, before the first draw,
+    at that format's resolution; the positions it found are kept for every format (no layout
+    engine left on the figure, so ``savefig`` draws each file once instead of a layout draw
+    followed by the real one)."""
+    _lay_out(figure, formats[0])
     paths = []
-    for k, fmt in enumerate(formats):
+    for fmt in formats:
         path = folder / f"{stem}.{fmt}"
         figure.savefig(path, format=fmt, **SAVE_OPTIONS[fmt])
-        if k == 0 and len(formats) > 1 and figure.get_layout_engine() is not None:
-            figure.set_layout_engine("none")
         paths.append(path)
     return paths
+
+
+def _lay_out(figure: Any, fmt: str) -> None:
+    """Run the figure's layout engine once at the resolution ``fmt`` is saved at and fix the
+    positions found (the layout engine is removed). ``savefig`` with a layout engine draws the
+    whole figure twice (a draw without output that runs the layout, then the real one); the
+    layout engine alone measures only what it places, so this saves most of the first draw."""
+    engine = figure.get_layout_engine()
+    if engine is None:
+        return
+    from matplotlib import cbook
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    dpi = SAVE_OPTIONS[fmt].get("dpi", 72.0 if fmt == "svg" else figure.dpi)
+    if not isinstance(figure.canvas, FigureCanvasAgg):
+        FigureCanvasAgg(figure)
+    with cbook._setattr_cm(figure, dpi=dpi):
+        engine.execute(figure)
+    figure.set_layout_engine(None)
 
 
 def _processes(count: int, processes: int | None) -> int:
