@@ -305,6 +305,8 @@ def cmd_run(args: argparse.Namespace) -> int:
                 early = _meanwhile(_tolerance_report, final)
             from plyrisk.analysis.study import AnalysisError
             from plyrisk.pipeline.run import run_study
+
+            _xarray_without_dask_array()
             from plyrisk.results.dataset import write_results
             from plyrisk.results.summary_json import write_summary_json
 
@@ -386,6 +388,55 @@ def _verdict_exit(args: argparse.Namespace, verdict: str) -> int:
               "(--fail-if-not-met)", file=sys.stderr)
         return EXIT_NOT_MET
     return 0
+
+
+class _DaskWhenLoaded:
+    """dask as xarray's ``DuckArrayModule`` sees it, without importing ``dask.array``: its
+    array type is that of ``dask.array`` once something has imported it (no dask array can
+    exist before), anything else loads the real entry [-]."""
+
+    def __init__(self, real: Callable[[], Any]) -> None:
+        self._make, self._real = real, None
+
+    def _load(self) -> Any:
+        if self._real is None:
+            self._real = self._make()
+        return self._real
+
+    @property
+    def type(self) -> tuple[type, ...]:
+        module = sys.modules.get("dask.array")
+        array = getattr(module, "Array", None)
+        return () if array is None else (array,)
+
+    @property
+    def module(self) -> Any:
+        return self._load().module
+
+    @property
+    def version(self) -> Any:
+        return self._load().version
+
+    @property
+    def available(self) -> bool:
+        return bool(self._load().available)
+
+
+def _xarray_without_dask_array() -> None:
+    """Keep xarray from importing ``dask.array`` (a third of a second) just to tell that an
+    in-memory array is not a dask array: its entry for dask is made lazy
+    (:class:`_DaskWhenLoaded`). Nothing changes when xarray's internals differ or dask.array is
+    already loaded [-]."""
+    try:
+        from xarray.namedarray import pycompat
+    except ImportError:  # pragma: no cover - another xarray layout: leave it as it is
+        return
+    cache = getattr(pycompat, "_cached_duck_array_modules", None)
+    real = getattr(pycompat, "DuckArrayModule", None)
+    if not isinstance(cache, dict) or real is None or "dask" in cache \
+            or "dask.array" in sys.modules:
+        return
+    cache["dask"] = _DaskWhenLoaded(lambda: real("dask"))
 
 
 def _tolerance_report(study: Any) -> Any:
