@@ -889,7 +889,7 @@ def main(argv: Sequence[str] | None = None) -> int:
     global _interrupt_note
     _interrupt_note = None
     try:
-        return int(args.func(args))
+        code = int(args.func(args))
     except KeyboardInterrupt:
         kept = _interrupt_note or "nothing was written"
         print(f"{PROG}: interrupted: {kept}", file=sys.stderr)
@@ -908,6 +908,29 @@ def main(argv: Sequence[str] | None = None) -> int:
         print(f"{PROG}: internal error ({kind}); run again with --verbose for the traceback "
               "and report it", file=sys.stderr)
         return 1
+    return code if argv is not None else _leave(code)
+
+
+def _leave(code: int) -> int:
+    """End the ``plyrisk`` process with ``code`` at once, its output flushed and its exit
+    handlers run, without the interpreter's teardown of every loaded module (about 0.6 s once
+    matplotlib, xarray, pandas and scipy are loaded). Only for the command line itself (no
+    ``argv`` given), with those modules loaded and no other thread running; otherwise, or when
+    the output cannot be flushed, ``code`` is returned for the usual exit [-]."""
+    import threading
+
+    if "xarray" not in sys.modules or threading.active_count() > 1:
+        return code
+    try:
+        sys.stdout.flush()
+        sys.stderr.flush()
+    except (OSError, ValueError):  # a closed pipe or stream: the usual exit reports it
+        return code
+    import atexit
+    import os
+
+    atexit._run_exitfuncs()
+    os._exit(code)
 
 
 def _fail(message: str) -> int:
