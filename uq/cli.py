@@ -14,6 +14,7 @@ A verb is added by writing ``_add_<verb>(subparsers)`` (which sets ``func``) and
 from __future__ import annotations
 
 import argparse
+import functools
 import shlex
 import sys
 from collections.abc import Callable, Sequence
@@ -64,9 +65,9 @@ def _verbosity(p: argparse.ArgumentParser, quiet: str) -> None:
 
 def _progress_clock(args: argparse.Namespace) -> None:
     """Stamp the progress lines with the elapsed time under ``--verbose``."""
-    from plyrisk.pipeline import run as pipeline_run
+    from plyrisk.pipeline.progress import set_progress_clock
 
-    pipeline_run.set_progress_clock(bool(getattr(args, "verbose", False)))
+    set_progress_clock(bool(getattr(args, "verbose", False)))
 
 
 class _Parser(argparse.ArgumentParser):
@@ -268,13 +269,8 @@ def cmd_run(args: argparse.Namespace) -> int:
         ``--fail-if-not-met`` when the criterion is NOT MET or UNDECIDED [-].
     """
     global _interrupt_note
-    import dataclasses
 
-    from plyrisk.analysis.study import AnalysisError
-    from plyrisk.pipeline.run import phase, run_study, summary_text
-    from plyrisk.results.dataset import write_results
     from plyrisk.results.files import OutputSet, decide, folder_lock
-    from plyrisk.results.summary_json import write_summary_json
     from plyrisk.study.config import load_study, require_runnable
     from plyrisk.tolerances.study import settings_for_study
 
@@ -307,6 +303,19 @@ def cmd_run(args: argparse.Namespace) -> int:
         _interrupt_note = _kept(out_dir, decision.manifest is not None, store, args)
         with OutputSet(out_dir, decision.manifest,
                        keep_earlier=decision.keep_earlier) as out:
+            # the tolerance study needs only the config: started in a forked process before
+            # the modules of the run, the dataset and the figures are loaded
+            early = None
+            if report and study.tolerances is not None and study.screening is None \
+                    and not options.until_converged:
+                early = _meanwhile(_tolerance_report, final)
+            from plyrisk.analysis.study import AnalysisError
+            from plyrisk.pipeline.run import run_study
+
+            _xarray_without_dask_array()
+            from plyrisk.results.dataset import write_results
+            from plyrisk.results.summary_json import write_summary_json
+
             try:
                 result = run_study(study, options=options)
             except AnalysisError as err:
@@ -314,24 +323,14 @@ def cmd_run(args: argparse.Namespace) -> int:
                 print(cautions_text())
                 return 1
             result.dataset.attrs["study_fingerprint"] = fingerprint
-            write_results(result.dataset, out.staging / "results.nc")
-            result = dataclasses.replace(result, path=out_dir / "results.nc")
-            lines = [summary_text(result)]
-            if not method.writes_report and not args.no_report:
-                lines.append(f"report: not written for method = {method.name} (a screening: "
-                             f"the summary above and {result.path} hold its results)")
-            elif report:
-                rows: Any = None
-                if study.tolerances is not None:
-                    phase("tolerance feedback for the report ([tolerances] in the config; "
-                          "computed while the figures are drawn)", args.quiet)
-                    full = (result.screening.study if result.screening is not None
-                            else result.study)
-                    rows = _meanwhile(_tolerance_rows, full, result.analysis)
-                lines.append(_write_report(result.dataset, out.staging, rows, shown=out_dir,
-                                           quiet=args.quiet))
-            text = fit_width("\n".join(lines)) + "\n"
-            (out.staging / "summary.txt").write_text(text, encoding="utf-8")
+            # results.nc is compressed and written by a forked process while the report is drawn
+            written = _meanwhile(write_results, result.dataset, out.staging / "results.nc")
+            try:
+                text = _summary_and_report(args, method, report, study.tolerances is not None,
+                                           result, out_dir, out.staging, early)
+                written()
+            finally:
+                written.join()  # type: ignore[attr-defined]
             write_summary_json(result.dataset, out.staging / "summary.json",
                                fingerprint=fingerprint)
             _interrupt_note = (f"{out_dir} was being replaced and may hold a mix of files: "
@@ -342,6 +341,38 @@ def cmd_run(args: argparse.Namespace) -> int:
             _interrupt_note = None
     print(text, end="")
     return _verdict_exit(args, str(result.dataset.attrs.get("verdict", "")))
+
+
+def _summary_and_report(args: argparse.Namespace, method: Any, report: bool, tolerances: bool,
+                        result: Any, out_dir: Path, staging: Path,
+                        early: Callable[[], Any] | None) -> str:
+    """Write the report of ``plyrisk run`` (with the tolerance table when ``tolerances``;
+    ``early``: the tolerance study started before the run, or ``None``) and ``summary.txt``
+    into ``staging``; return the summary text [-]."""
+    import dataclasses
+
+    from plyrisk.pipeline.progress import phase
+    from plyrisk.pipeline.run import summary_text
+
+    result = dataclasses.replace(result, path=out_dir / "results.nc")
+    lines = [summary_text(result)]
+    if not method.writes_report and not args.no_report:
+        lines.append(f"report: not written for method = {method.name} (a screening: "
+                     f"the summary above and {result.path} hold its results)")
+    elif report:
+        rows: Any = None
+        if tolerances:
+            phase("tolerance feedback for the report ([tolerances] in the config; computed "
+                  "while the study runs and the figures are drawn)", args.quiet)
+            full = result.screening.study if result.screening is not None else result.study
+            if early is None:
+                early = _meanwhile(_tolerance_report, full)
+            rows = functools.partial(_tolerance_rows, full, result.analysis, early)
+        lines.append(_write_report(result.dataset, staging, rows, shown=out_dir,
+                                   quiet=args.quiet))
+    text = fit_width("\n".join(lines)) + "\n"
+    (staging / "summary.txt").write_text(text, encoding="utf-8")
+    return text
 
 
 def _stored_verdict(out_dir: Path) -> str:
@@ -365,14 +396,70 @@ def _verdict_exit(args: argparse.Namespace, verdict: str) -> int:
     return 0
 
 
-def _tolerance_rows(study: Any, analysis: Any) -> tuple[list, list[str]]:
-    """The tolerance table of the report and the advice lines to act on
-    (:func:`plyrisk.tolerances.study.run_tolerances`); with correlated inputs the table's
-    shares are the study's Shapley effects [-]."""
-    from plyrisk.tolerances.output import manufacturing_table, shapley_shares, tolerance_advice
+class _DaskWhenLoaded:
+    """dask as xarray's ``DuckArrayModule`` sees it, without importing ``dask.array``: its
+    array type is that of ``dask.array`` once something has imported it (no dask array can
+    exist before), anything else loads the real entry [-]."""
+
+    def __init__(self, real: Callable[[], Any]) -> None:
+        self._make, self._real = real, None
+
+    def _load(self) -> Any:
+        if self._real is None:
+            self._real = self._make()
+        return self._real
+
+    @property
+    def type(self) -> tuple[type, ...]:
+        module = sys.modules.get("dask.array")
+        array = getattr(module, "Array", None)
+        return () if array is None else (array,)
+
+    @property
+    def module(self) -> Any:
+        return self._load().module
+
+    @property
+    def version(self) -> Any:
+        return self._load().version
+
+    @property
+    def available(self) -> bool:
+        return bool(self._load().available)
+
+
+def _xarray_without_dask_array() -> None:
+    """Keep xarray from importing ``dask.array`` (a third of a second) just to tell that an
+    in-memory array is not a dask array: its entry for dask is made lazy
+    (:class:`_DaskWhenLoaded`). Nothing changes when xarray's internals differ or dask.array is
+    already loaded [-]."""
+    try:
+        from xarray.namedarray import pycompat
+    except ImportError:  # pragma: no cover - another xarray layout: leave it as it is
+        return
+    cache = getattr(pycompat, "_cached_duck_array_modules", None)
+    real = getattr(pycompat, "DuckArrayModule", None)
+    if not isinstance(cache, dict) or real is None or "dask" in cache \
+            or "dask.array" in sys.modules:
+        return
+    cache["dask"] = _DaskWhenLoaded(lambda: real("dask"))
+
+
+def _tolerance_report(study: Any) -> Any:
+    """The tolerance study of the report (:func:`plyrisk.tolerances.study.run_tolerances`) [-]."""
     from plyrisk.tolerances.study import run_tolerances
 
-    report = run_tolerances(study)
+    return run_tolerances(study)
+
+
+def _tolerance_rows(study: Any, analysis: Any, report: Callable[[], Any] | None = None
+                    ) -> tuple[list, list[str]]:
+    """The tolerance table of the report and the advice lines to act on
+    (:func:`plyrisk.tolerances.study.run_tolerances`, or ``report()``: its result computed
+    meanwhile); with correlated inputs the table's shares are the study's Shapley effects [-]."""
+    from plyrisk.tolerances.output import manufacturing_table, shapley_shares, tolerance_advice
+
+    report = _tolerance_report(study) if report is None else report()
     shares = shapley_shares(report, analysis)  # correlated inputs: Shapley effects
     rows = manufacturing_table(report, study, indices=shares, index_name="Shapley effect")
     return rows, tolerance_advice(report, study)
@@ -380,12 +467,16 @@ def _tolerance_rows(study: Any, analysis: Any) -> tuple[list, list[str]]:
 
 def _meanwhile(function: Callable[..., Any], *args: Any) -> Callable[[], Any]:
     """Start ``function(*args)`` in a forked process (Linux, two or more cores) and return a
-    function that waits for its result. Without a fork, or when the process fails, it is
-    computed here on the first call instead: same result, same errors [-]."""
+    function that waits for its result (its ``join()`` waits for the process only). Without a
+    fork, or when the process fails, it is computed here on the first call instead: same
+    result, same errors [-]."""
     import os
 
     if sys.platform != "linux" or len(os.sched_getaffinity(0)) < 2:
-        return lambda: function(*args)
+        def here() -> Any:
+            return function(*args)
+        here.join = lambda: None  # type: ignore[attr-defined]
+        return here
     import multiprocessing
     import pickle
     import warnings
@@ -404,17 +495,24 @@ def _meanwhile(function: Callable[..., Any], *args: Any) -> Callable[[], Any]:
         process = multiprocessing.get_context("fork").Process(target=child, daemon=True)
         process.start()
     send.close()
+    got: list = []
     done: list = []
+
+    def received() -> tuple[str, Any]:
+        if not got:
+            try:
+                got.append(pickle.loads(receive.recv_bytes()))
+            except (EOFError, OSError, pickle.UnpicklingError):
+                got.append(("failed", None))
+            process.join()
+        return got[0]
 
     def result() -> Any:
         if not done:
-            try:
-                status, value = pickle.loads(receive.recv_bytes())
-            except (EOFError, OSError, pickle.UnpicklingError):
-                status, value = "failed", None
-            process.join()
+            status, value = received()
             done.append(value if status == "ok" else function(*args))
         return done[0]
+    result.join = lambda: received() and None  # type: ignore[attr-defined]
     return result
 
 
@@ -430,7 +528,7 @@ def _write_report(ds: Any, out_dir: Path, rows: Any, *, shown: Path | None = Non
     """
     from dataclasses import asdict
 
-    from plyrisk.pipeline.run import phase
+    from plyrisk.pipeline.progress import phase
     from plyrisk.report.html import write_report
     from plyrisk.tolerances.output import write_tolerance_csv
 
@@ -511,7 +609,7 @@ def cmd_report(args: argparse.Namespace) -> int:
     int
         0 on success [-].
     """
-    from plyrisk.pipeline.run import phase
+    from plyrisk.pipeline.progress import phase
     from plyrisk.results.dataset import read_results
 
     _progress_clock(args)
@@ -608,7 +706,7 @@ def cmd_tolerances(args: argparse.Namespace) -> int:
     int
         0 on success [-].
     """
-    from plyrisk.pipeline.run import phase
+    from plyrisk.pipeline.progress import phase
     from plyrisk.results.dataset import read_results
     from plyrisk.study.config import load_study, require_runnable
     from plyrisk.study.targets import parse_target
@@ -844,7 +942,7 @@ def main(argv: Sequence[str] | None = None) -> int:
     global _interrupt_note
     _interrupt_note = None
     try:
-        return int(args.func(args))
+        code = int(args.func(args))
     except KeyboardInterrupt:
         kept = _interrupt_note or "nothing was written"
         print(f"{PROG}: interrupted: {kept}", file=sys.stderr)
@@ -863,6 +961,29 @@ def main(argv: Sequence[str] | None = None) -> int:
         print(f"{PROG}: internal error ({kind}); run again with --verbose for the traceback "
               "and report it", file=sys.stderr)
         return 1
+    return code if argv is not None else _leave(code)
+
+
+def _leave(code: int) -> int:
+    """End the ``plyrisk`` process with ``code`` at once, its output flushed and its exit
+    handlers run, without the interpreter's teardown of every loaded module (about 0.6 s once
+    matplotlib, xarray, pandas and scipy are loaded). Only for the command line itself (no
+    ``argv`` given), with those modules loaded and no other thread running; otherwise, or when
+    the output cannot be flushed, ``code`` is returned for the usual exit [-]."""
+    import threading
+
+    if "xarray" not in sys.modules or threading.active_count() > 1:
+        return code
+    try:
+        sys.stdout.flush()
+        sys.stderr.flush()
+    except (OSError, ValueError):  # a closed pipe or stream: the usual exit reports it
+        return code
+    import atexit
+    import os
+
+    atexit._run_exitfuncs()
+    os._exit(code)
 
 
 def _fail(message: str) -> int:

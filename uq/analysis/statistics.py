@@ -39,6 +39,7 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass
+from functools import lru_cache
 
 import numpy as np
 from scipy import stats
@@ -129,12 +130,14 @@ class QuantileEstimate:
         return self.interval or (INTERVAL_ORDER_STATISTICS,) * int(self.probabilities.size)
 
 
+@lru_cache(maxsize=1024)
 def _order_statistic_ranks(n: int, p: float, alpha: float) -> tuple[int, int]:
     """1-based ranks (l, u) of the interval; l = 0 or u = n + 1 where unavailable.
 
     l = #{k : F(k) <= alpha/2} and u = 1 + min{k : S(k) <= alpha/2} for K ~ Binomial(n, p),
     found from the binomial quantile and checked on a window around it (so the cost does not
-    grow with n).
+    grow with n). Remembered per (n, p, alpha): a study asks for the same few ranks many times
+    (every exposure, output and tolerance case with the same sample count).
     """
     a = 0.5 * alpha
     guess = int(stats.binom.ppf(a, n, p))

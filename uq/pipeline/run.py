@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import sys
 import warnings
 from contextlib import ExitStack
 from dataclasses import dataclass, replace
@@ -19,6 +18,7 @@ from plyrisk.cautions import cautions_text, compact_cautions
 from plyrisk.errors import PlyriskError
 from plyrisk.methods import get_method
 from plyrisk.pipeline.options import RunOptions
+from plyrisk.pipeline.progress import _CLOCK, phase, set_progress_clock  # noqa: F401
 from plyrisk.pipeline.screening import Screening, add_screening, screen_study, screening_lines
 from plyrisk.pipeline.sequential import Growth, add_growth, grow_until_converged, growth_lines
 from plyrisk.propagate.evaluate import Propagation, propagate
@@ -202,29 +202,6 @@ def _run_to_store(study: Study, store, *, chunk_size, resume, overwrite, workers
 
 
 ANALYSIS_PHASE = "analysis (percentiles, exceedance, sensitivity indices or surrogate fit)"
-
-
-_CLOCK: list[float] = []
-"""Start time of the progress clock (``plyrisk -v``); empty when off."""
-
-
-def set_progress_clock(on: bool) -> None:
-    """Stamp the lines of :func:`phase` with the seconds since this call (``on``), or not."""
-    import time
-
-    _CLOCK[:] = [time.perf_counter()] if on else []
-
-
-def phase(text: str, quiet: bool) -> None:
-    """One line on stderr as a phase of a run begins (unless ``quiet``): on a terminal and off
-    it, so that a long run shows where it is [-]."""
-    if not quiet:
-        stamp = ""
-        if _CLOCK:
-            import time
-
-            stamp = f"[{time.perf_counter() - _CLOCK[0]:7.1f} s] "
-        print(f"plyrisk: {stamp}{text} ...", file=sys.stderr, flush=True)
 
 
 FILE_SAMPLE_ROWS = 2**18

@@ -204,11 +204,13 @@ def _transient_threads(study: Study, workers: int, scheduler: str | None) -> int
     """Threads of the compiled transient loop standing in for local dask workers: a transient
     study on this machine runs its samples on ``workers`` threads in this process (no worker
     start-up, imports or result transfer per process); 1 otherwise."""
+    local = scheduler is None and int(workers) > 1
+    if study.transient is None or not local:
+        return 1  # a steady study never loads numba
     from plyrisk.models.transient_kernel import AVAILABLE
 
-    local = scheduler is None and int(workers) > 1
     compiled = AVAILABLE and not study.model.convection
-    return int(workers) if study.transient is not None and local and compiled else 1
+    return int(workers) if compiled else 1
 
 
 def evaluate(

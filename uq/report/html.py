@@ -26,6 +26,7 @@ import html
 import re
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
+from functools import partial
 from pathlib import Path
 from typing import Any
 
@@ -96,7 +97,8 @@ class ReportFiles:
 
 @dataclass(frozen=True)
 class ReportFigure:
-    """One figure of the report: file stem, heading, caption and the matplotlib Figure."""
+    """One figure of the report: file stem, heading, caption and the matplotlib Figure, or a
+    function of no arguments that builds it (built in the process that draws it)."""
 
     stem: str
     title: str
@@ -110,7 +112,8 @@ class ReportFigure:
 
 
 def report_figures(ds: xr.Dataset) -> list[ReportFigure]:
-    """Every figure of the report, in order (built, not saved).
+    """Every figure of the report, in order, each with the function that builds it (called
+    where the figure is drawn: :func:`plyrisk.report.figures.common.save_figures`).
 
     Parameters
     ----------
@@ -134,7 +137,7 @@ def report_figures(ds: xr.Dataset) -> list[ReportFigure]:
             "resistances (no width) as dotted lines. Straight lines join the faces: the profile "
             "inside a layer is not resolved, and the bands are percentiles of each face taken "
             "separately, not the profile of any one sample.",
-            fg.profile_figure(ds, scenario=i)))
+            partial(fg.profile_figure, ds, scenario=i)))
         if sobol:
             out.append(ReportFigure(
                 f"sobol_indices{sfx}", f"Sobol indices per parameter{at}",
@@ -142,19 +145,19 @@ def report_figures(ds: xr.Dataset) -> list[ReportFigure]:
                 "interactions) Sobol indices of the inner-surface temperature, with bootstrap "
                 "confidence intervals, sorted by the total index. Hatched bars: the interval is "
                 "wider than the convergence threshold; the ranking of those is not settled.",
-                fg.indices_figure(ds, scenario=i)))
+                partial(fg.indices_figure, ds, scenario=i)))
             out.append(ReportFigure(
                 f"layer_indices{sfx}", f"Sobol indices per layer{at}",
                 "Indices of each layer's (or boundary's) parameters varied together: which "
                 "layer dominates the spread of the inner-surface temperature. Layers without "
                 "an uncertain input are not shown.",
-                fg.group_indices_figure(ds, scenario=i)))
+                partial(fg.group_indices_figure, ds, scenario=i)))
         else:
             out.append(ReportFigure(
                 f"rank_correlation{sfx}", f"Screening: rank correlation per parameter{at}",
                 "Spearman rank correlation of each input with the inner-surface temperature. A "
                 "screening measure only: it does not apportion the variance and misses "
-                "interactions.", fg.indices_figure(ds, scenario=i)))
+                "interactions.", partial(fg.indices_figure, ds, scenario=i)))
             if "pce_total" in ds:
                 for groups, stem, what in ((False, "surrogate_indices", "parameter"),
                                            (True, "surrogate_layer_indices", "layer")):
@@ -164,28 +167,28 @@ def report_figures(ds: xr.Dataset) -> list[ReportFigure]:
                         "computed from a polynomial-chaos surrogate fitted to the samples, with "
                         "bootstrap intervals. They are only as good as the surrogate: check its "
                         "leave-one-out Q2 (in the title) is close to 1.",
-                        fg.surrogate_indices_figure(ds, scenario=i, groups=groups)))
+                        partial(fg.surrogate_indices_figure, ds, scenario=i, groups=groups)))
         out.append(ReportFigure(
             f"inner_temperature_distribution{sfx}",
             f"Distribution of the inner-surface temperature{at}",
             "Histogram and empirical cumulative distribution of the inner-surface temperature "
             "over the independent, converged samples, with the limit, P95 and its confidence "
             "interval (shaded) and the exceedance probability.",
-            fg.distribution_figure(ds, scenario=i)))
+            partial(fg.distribution_figure, ds, scenario=i)))
         out.append(ReportFigure(
             f"inner_temperature_scatter{sfx}", f"Response to the most influential inputs{at}",
             "The inner-surface temperature of each independent, converged sample against the "
             "three most influential inputs (by total Sobol index; for method = pce by the "
             "surrogate's total index, or by |rank correlation| without a surrogate), in the "
             "units they were given in. Samples over the limit are marked as orange triangles.",
-            fg.scatter_figure(ds, scenario=i)))
+            partial(fg.scatter_figure, ds, scenario=i)))
     if is_swept(ds):
         out.append(ReportFigure(
             "exposure_sweep", "Inner-surface temperature against the exposure",
             "Median and 5–95 % band of the inner-surface temperature at each swept level, the "
             "upper confidence bound of P95 and the limit. The read-off interpolates linearly "
             "between swept levels; run a finer sweep around it before relying on it.",
-            fg.sweep_figure(ds)))
+            partial(fg.sweep_figure, ds)))
         target = _exceedance_target(ds)
         out.append(ReportFigure(
             "exceedance_sweep", "Probability of exceeding the limit against the exposure",
@@ -193,14 +196,14 @@ def report_figures(ds: xr.Dataset) -> list[ReportFigure]:
             "swept level, with its confidence band"
             + (" and the target of [tolerances]" if target is not None else "")
             + ". Nothing is computed between the swept levels.",
-            fg.exceedance_sweep_figure(ds, target=target)))
+            partial(fg.exceedance_sweep_figure, ds, target=target)))
     if "growth_sobol_total" in ds:
         out.append(ReportFigure(
             "index_convergence", "Convergence of the indices as the study grew",
             "The total Sobol indices of the most influential inputs (inner-surface "
             "temperature) at each doubling of the base samples (--until-converged), with "
             "their confidence half-widths. Rankings that still cross at the last step are not "
-            "settled.", fg.growth_figure(ds)))
+            "settled.", partial(fg.growth_figure, ds)))
     return out
 
 

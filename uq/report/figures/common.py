@@ -125,16 +125,36 @@ PARALLEL_MIN_FIGURES = 4
 
 
 def _render(stem: str, figure: Any, folder: Path, formats: Sequence[str]) -> list[Path]:
-    """Draw one figure once per format. The layout engine runs on the first draw only: the
-    positions it found are kept (``layout_engine = "none"``) for the other formats."""
+    """Draw one figure once per format. The layout engine runs once, before the first draw,
+    at that format's resolution; the positions it found are kept for every format (no layout
+    engine left on the figure, so ``savefig`` draws each file once instead of a layout draw
+    followed by the real one)."""
+    _lay_out(figure, formats[0])
     paths = []
-    for k, fmt in enumerate(formats):
+    for fmt in formats:
         path = folder / f"{stem}.{fmt}"
         figure.savefig(path, format=fmt, **SAVE_OPTIONS[fmt])
-        if k == 0 and len(formats) > 1 and figure.get_layout_engine() is not None:
-            figure.set_layout_engine("none")
         paths.append(path)
     return paths
+
+
+def _lay_out(figure: Any, fmt: str) -> None:
+    """Run the figure's layout engine once at the resolution ``fmt`` is saved at and fix the
+    positions found (the layout engine is removed). ``savefig`` with a layout engine draws the
+    whole figure twice (a draw without output that runs the layout, then the real one); the
+    layout engine alone measures only what it places, so this saves most of the first draw."""
+    engine = figure.get_layout_engine()
+    if engine is None:
+        return
+    from matplotlib import cbook
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    dpi = SAVE_OPTIONS[fmt].get("dpi", 72.0 if fmt == "svg" else figure.dpi)
+    if not isinstance(figure.canvas, FigureCanvasAgg):
+        FigureCanvasAgg(figure)
+    with cbook._setattr_cm(figure, dpi=dpi):
+        engine.execute(figure)
+    figure.set_layout_engine(None)
 
 
 def _processes(count: int, processes: int | None) -> int:
@@ -150,20 +170,23 @@ def save_figures(figures: Sequence[tuple[str, Any]], folder: str | Path, *,
                  formats: Sequence[str] = ("png",), processes: int | None = None) -> list[Path]:
     """Write every figure as ``<folder>/<stem>.<format>``, each drawn once per format.
 
-    With two or more cores (and at least :data:`PARALLEL_MIN_FIGURES` figures) a forked
-    process draws every other figure while this one draws the rest; a figure the other process
-    did not write (it failed) is drawn here afterwards, so nothing is dropped. The files are
-    the same whichever process drew them. Call inside :func:`styled` (a forked process keeps
-    the style).
+    A figure may be given as a function of no arguments that builds it: it is then built in
+    the process that draws it. With two or more cores (and at least
+    :data:`PARALLEL_MIN_FIGURES` figures) a forked process takes figures from the same queue as
+    this one (each takes the next figure not yet taken, so a process held up by other work
+    takes fewer); a figure the other process did not write (it failed) is drawn here
+    afterwards, so nothing is dropped. The files are the same whichever process drew them.
+    Call inside :func:`styled` (a forked process keeps the style).
 
     Parameters
     ----------
     figures
-        ``(stem, matplotlib Figure)`` pairs.
+        ``(stem, figure)`` pairs: a matplotlib Figure, or a function of no arguments returning
+        one.
     folder
         Folder to write into (created if missing).
     formats
-        File formats, each one of ``"png"``, ``"svg"``; the first runs the layout engine.
+        File formats, each one of ``"png"``, ``"svg"``; the layout is found for the first.
     processes
         Processes to draw in (default: 2 on Linux with two or more cores, else 1).
 
@@ -183,34 +206,53 @@ def save_figures(figures: Sequence[tuple[str, Any]], folder: str | Path, *,
     shares = _processes(len(items), processes)
     if shares == 1:
         for stem, figure in items:
-            _render(stem, figure, folder, formats)
+            _render(stem, _built(figure), folder, formats)
         return paths
     import multiprocessing
 
-    others = [items[i] for i in range(1, len(items), shares)]
-    mine = [item for i, item in enumerate(items) if i % shares != 1]
-    for stale in (folder / f"{stem}.{fmt}" for stem, _ in others for fmt in formats):
+    context = multiprocessing.get_context("fork")
+    queue = context.Value("i", 0)  # the next figure to take, shared with the forked process
+    for stale in paths:
         stale.unlink(missing_ok=True)   # so a failed child is noticed, never an old file kept
     with warnings.catch_warnings():  # a fork while other threads run is fine for drawing
         warnings.simplefilter("ignore", DeprecationWarning)
-        child = multiprocessing.get_context("fork").Process(
-            target=_render_all, args=(others, folder, tuple(formats)), daemon=True)
+        child = context.Process(target=_render_all, args=(items, folder, tuple(formats), queue),
+                                daemon=True)
         child.start()
+    mine: set[int] = set()
     try:
-        for stem, figure in mine:
-            _render(stem, figure, folder, formats)
+        for i in _taken(queue, len(items)):
+            mine.add(i)
+            _render(items[i][0], _built(items[i][1]), folder, formats)
     finally:
         child.join()
-    for stem, figure in others:
-        if child.exitcode != 0 or not all((folder / f"{stem}.{fmt}").is_file()
-                                          for fmt in formats):
-            _render(stem, figure, folder, formats)
+    for i, (stem, figure) in enumerate(items):
+        if i not in mine and (child.exitcode != 0 or not all(
+                (folder / f"{stem}.{fmt}").is_file() for fmt in formats)):
+            _render(stem, _built(figure), folder, formats)
     return paths
 
 
-def _render_all(items: Sequence[tuple[str, Any]], folder: Path, formats: Sequence[str]) -> None:
-    for stem, figure in items:
-        _render(stem, figure, folder, formats)
+def _built(figure: Any) -> Any:
+    """The figure, built first when it is given as a function of no arguments."""
+    return figure() if callable(figure) else figure
+
+
+def _taken(queue: Any, count: int) -> Iterator[int]:
+    """The indices of the figures this process takes from the shared ``queue``, in turn."""
+    while True:
+        with queue.get_lock():
+            i = queue.value
+            queue.value = i + 1
+        if i >= count:
+            return
+        yield i
+
+
+def _render_all(items: Sequence[tuple[str, Any]], folder: Path, formats: Sequence[str],
+                queue: Any) -> None:
+    for i in _taken(queue, len(items)):
+        _render(items[i][0], _built(items[i][1]), folder, formats)
 
 
 # ----------------------------------------------------------------------------------------------

@@ -43,18 +43,25 @@ def _paired_bars(ax, names: list[str], first, first_ci, total, total_ci, converg
     order = np.argsort(-np.nan_to_num(total, nan=-np.inf), kind="stable")
     y = np.arange(len(order))[::-1].astype(float)
     h = 0.38
+    for values, cis, dy, colour, gid in ((total, total_ci, h / 2, BLUE, "total"),
+                                         (first, first_ci, -h / 2, ORANGE, "first")):
+        # one call per kind of bar (each bar keeps its gid and hatch): far fewer artists to
+        # build than one bar and one error bar per index
+        shown = np.isfinite(values[order])
+        rows, at = order[shown], y[shown] + dy
+        for pos in y[~shown] + dy:
+            ax.text(0.0, pos, " n/a", va="center", fontsize="small", color=GREY)
+        if rows.size:
+            bars = ax.barh(at, values[rows], height=h, color=colour, edgecolor="white", lw=0.0)
+            for bar, j in zip(bars.patches, rows, strict=True):
+                bar.set_gid(f"{gid}:{names[j]}")
+                if not converged[j]:
+                    bar.set_hatch("////")
+        ci = np.isfinite(cis[rows])
+        if ci.any():
+            ax.errorbar(values[rows][ci], at[ci], xerr=cis[rows][ci], fmt="none", ecolor=INK,
+                        elinewidth=0.9, capsize=2.5)
     for pos, j in zip(y, order, strict=True):
-        hatch = None if converged[j] else "////"
-        for value, ci, dy, colour, gid in ((total[j], total_ci[j], h / 2, BLUE, "total"),
-                                           (first[j], first_ci[j], -h / 2, ORANGE, "first")):
-            if not np.isfinite(value):
-                ax.text(0.0, pos + dy, " n/a", va="center", fontsize="small", color=GREY)
-                continue
-            ax.barh(pos + dy, value, height=h, color=colour, hatch=hatch, edgecolor="white",
-                    lw=0.0, gid=f"{gid}:{names[j]}")
-            if np.isfinite(ci):
-                ax.errorbar(value, pos + dy, xerr=ci, fmt="none", ecolor=INK, elinewidth=0.9,
-                            capsize=2.5)
         if not converged[j]:
             right = max(np.nan_to_num(total[j] + np.nan_to_num(total_ci[j])),
                         np.nan_to_num(first[j] + np.nan_to_num(first_ci[j])), 0.0)
