@@ -148,9 +148,10 @@ def test_screened_and_grown_run_writes_the_path_the_figure_and_the_decisions(tmp
     ds = read_results(out / "results.nc")
     assert ds.attrs["growth_output"] == JUDGED[0]
     assert ds.attrs["growth_judged_outputs"] == ", ".join(JUDGED)
-    assert ds["growth_sobol_total"].dims == ("growth_step", "parameter")
+    assert ds["growth_sobol_total"].dims == ("growth_step", "scenario", "parameter")
     assert list(ds["screening_output"].values) == list(JUDGED)
-    assert ds["screening_mu_star"].dims == ("screening_output", "screened_parameter")
+    assert ds["screening_mu_star"].dims == ("scenario", "screening_output",
+                                            "screened_parameter")
     assert ds.attrs["screening_fixed"] == "fabric.specific_heat"
     assert (out / "figures" / "index_convergence.png").exists()
     html = (out / "report.html").read_text(encoding="utf-8")
