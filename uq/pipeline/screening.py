@@ -263,16 +263,7 @@ def add_screening(ds: xr.Dataset, screening: Screening) -> xr.Dataset:
         "screening_sigma": xr.Variable((*sd, *dims), stack("sigma"), {
             "units": "K", "long_name": "Morris sigma of the inner-surface temperature "
             "(standard deviation of the elementary effects)", **attrs}),
-        "screening_fixed": xr.Variable(dims, screening.fixed, {
-            "units": "1", "long_name": "input fixed at its nominal by the screening",
-            "threshold": settings.threshold, **attrs}),
-        "screening_reason": xr.Variable(dims, np.array(screening.reasons, dtype=str), {
-            "units": "1", "long_name": "why the screening kept or fixed the input", **attrs}),
-        "screening_nominal": xr.Variable(dims, np.array(
-            [p.distribution.nominal for p in screening.study.parameters]), {
-            "long_name": "nominal value of each screened input (the value a fixed input "
-            "takes)", "comment": "units differ per input: each is in the SI unit of its "
-            "quantity (see parameter_si_unit for the inputs kept)", **attrs}),
+        **_decision_variables(screening, attrs, " (see parameter_si_unit for the inputs kept)"),
     }
     out = ds.assign(new).assign_coords(screened_parameter=xr.Variable(
         dims, names, {"units": "1", "long_name": "uncertain input of the config, screened"}))
@@ -283,6 +274,27 @@ def add_screening(ds: xr.Dataset, screening: Screening) -> xr.Dataset:
                       "screening_runs": int(screening.runs),
                       "screening_fixed": ", ".join(names[screening.fixed]) or "none"})
     return out
+
+
+def _decision_variables(screening: Screening, attrs: dict, units_note: str
+                        ) -> dict[str, xr.Variable]:
+    """The screening's decision per input (fixed, why, the nominal a fixed input takes), for
+    steady and transient studies alike."""
+    settings = screening.study.screening
+    assert settings is not None, "a screening is made from a study with [screening]"
+    dims = ("screened_parameter",)
+    return {
+        "screening_fixed": xr.Variable(dims, screening.fixed, {
+            "units": "1", "long_name": "input fixed at its nominal by the screening",
+            "threshold": settings.threshold, **attrs}),
+        "screening_reason": xr.Variable(dims, np.array(screening.reasons, dtype=str), {
+            "units": "1", "long_name": "why the screening kept or fixed the input", **attrs}),
+        "screening_nominal": xr.Variable(dims, np.array(
+            [p.distribution.nominal for p in screening.study.parameters]), {
+            "long_name": "nominal value of each screened input (the value a fixed input "
+            "takes)", "comment": "units differ per input: each is in the SI unit of its "
+            f"quantity{units_note}", **attrs}),
+    }
 
 
 def _add_transient_screening(ds: xr.Dataset, screening: Screening) -> xr.Dataset:
@@ -324,16 +336,7 @@ def _add_transient_screening(ds: xr.Dataset, screening: Screening) -> xr.Dataset
             [ind[0][o].constant_output for o in outputs]), {
             "units": "1", "long_name": "the output did not vary in the screening runs (left "
             "out of the decision at that exposure)", **attrs}),
-        "screening_fixed": xr.Variable(dims, screening.fixed, {
-            "units": "1", "long_name": "input fixed at its nominal by the screening",
-            "threshold": settings.threshold, **attrs}),
-        "screening_reason": xr.Variable(dims, np.array(screening.reasons, dtype=str), {
-            "units": "1", "long_name": "why the screening kept or fixed the input", **attrs}),
-        "screening_nominal": xr.Variable(dims, np.array(
-            [p.distribution.nominal for p in study.parameters]), {
-            "long_name": "nominal value of each screened input (the value a fixed input "
-            "takes)", "comment": "units differ per input: each is in the SI unit of its "
-            "quantity", **attrs}),
+        **_decision_variables(screening, attrs, ""),
     }
     out = ds.assign(new).assign_coords(
         screened_parameter=xr.Variable(dims, names, {
