@@ -5,11 +5,11 @@ import pytest
 import xarray as xr
 from scipy.stats import qmc
 
-import plyrisk.pipeline.sequential as sequential
 from plyrisk.design.sampling import sobol_design
 from plyrisk.pipeline.run import run_study, summary_text
 from plyrisk.results.dataset import read_results
 from plyrisk.study.config import loads_study
+from tests.pipeline.counting import grow_counted
 from tests.study_texts import panel
 
 
@@ -46,19 +46,7 @@ TEXT = panel(samples=16, gap_width='{ lognormal = { median = "3 mm", gsd = 1.3 }
 @pytest.fixture(scope="module")
 def counted():
     """A growth with every model evaluation counted (rows handed to evaluate)."""
-    calls = []
-    original = sequential.evaluate
-
-    def counting(study, values, **kw):
-        calls.append(len(values))
-        return original(study, values, **kw)
-
-    sequential.evaluate = counting
-    try:
-        growth = sequential.grow_until_converged(loads_study(TEXT))
-    finally:
-        sequential.evaluate = original
-    return growth, calls
+    return grow_counted(TEXT)
 
 
 def test_growth_stops_when_the_target_is_met(counted):

@@ -13,6 +13,7 @@ from plyrisk.pipeline.run import run_study
 from plyrisk.pipeline.screening import screen_study
 from plyrisk.results.dataset import read_results
 from plyrisk.study.config import loads_study
+from tests.pipeline.counting import grow_counted
 from tests.study_texts import flash
 
 # Invented inputs: the flux spread makes about half the samples burn within the 12 s horizon,
@@ -28,20 +29,7 @@ SCREEN = flash(16, specific_heat='{ uniform = ["1299 J/kg/K", "1301 J/kg/K"] }',
 @pytest.fixture(scope="module")
 def grown():
     """A transient growth with every model evaluation counted (rows handed to evaluate)."""
-    calls = []
-    original = sequential.evaluate
-
-    def counting(study, values, **kw):
-        calls.append(len(values))
-        return original(study, values, **kw)
-
-    sequential.evaluate = counting
-    try:
-        growth = sequential.grow_until_converged(loads_study(GROW, source="grow.toml"),
-                                                 max_runs=4000)
-    finally:
-        sequential.evaluate = original
-    return growth, calls
+    return grow_counted(GROW, max_runs=4000)
 
 
 def test_growth_is_judged_on_the_capped_time_and_the_burn_indicator(grown):
