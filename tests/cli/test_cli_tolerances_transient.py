@@ -74,6 +74,9 @@ def test_tolerances_verb_on_a_transient_study(tmp_path, capsys, target):
         assert heading in out
     assert f"Target: {target} (within the horizon 30 s)" in out
     assert "P(second_degree_burn within 30 s) = " in out
+    # the cautious side of the interval: lower for a time kept above a bound
+    side = "lower" if ">=" in target else "upper"
+    assert f", {side} confidence bound " in out.replace("\n    ", " ")
     assert out.rstrip().endswith(cautions_text(transient=True))
     rows = read_table(tmp_path / "out" / "tolerances.csv")
     study = loads_study(FLASH, source=str(config))

@@ -651,6 +651,9 @@ def _verification_line(report: ToleranceReport, study: Study) -> str:
     t = _target(report)
     lo, hi = ((v.upper, v.lower) if _flip(report) and t.kind == "quantile"
               else (v.lower, v.upper))
+    # the cautious side: the upper bound of a quantity kept below a bound, the lower bound of
+    # a time kept above one (P5(time_to_second_degree_burn) >= 12 s)
+    side = "lower" if _flip(report) and t.kind == "quantile" else "upper"
     if v.met:
         verdict = "MET"
     elif v.met_estimate:
@@ -661,8 +664,8 @@ def _verification_line(report: ToleranceReport, study: Study) -> str:
             f"{_metric(report, study, v.value)} [{_metric(report, study, lo)}, "
             f"{_metric(report, study, hi)}] ({100 * st.level:g} % CI); new seed {v.seed}, "
             f"{v.samples} samples{_exposure(study, v.outcome)}; point estimate "
-            f"{'meets' if v.met_estimate else 'misses'}, upper bound "
-            f"{'meets' if v.met_bound else 'misses'} the bound")
+            f"{'meets' if v.met_estimate else 'misses'}, {side} confidence bound "
+            f"{'meets' if v.met_bound else 'misses'} the target")
 
 
 def _shift_lines(report: ToleranceReport, study: Study) -> list[str]:
