@@ -88,3 +88,8 @@ def test_run_answers_with_the_time_to_burn(tmp_path, capsys):
     assert "time to second-degree burn: P5" in out
     assert (tmp_path / "out" / "results.nc").exists() and (tmp_path / "out" /
                                                            "report.html").exists()
+    # the wearer the model used, also where the config gives only its kind
+    md = (tmp_path / "out" / "summary.md").read_text(encoding="utf-8")
+    wearer = md[md.index("**The wearer**"):]
+    assert "| wearer | skin | properties | jiang_2002 | default |" in wearer
+    assert "| damage_model | " in wearer and "| default |" in wearer

@@ -357,12 +357,21 @@ def studied_tables(ds: xr.Dataset) -> tuple[list[Table], str]:
         layers += rows_of(str(given.get("name", f"layer {i + 1}")), str(given.get("kind", "")),
                           given, ("layer", i))
     wearer = raw.get("wearer", {})
+    wearer_rows = rows_of("wearer", str(wearer.get("kind", "")), wearer, ("wearer",))
+    setup = study.transient
+    if setup is not None and wearer.get("kind") == "skin":
+        # what the model used where the config left it out: never an empty table
+        for key, value in (("properties", setup.skin_properties),
+                           ("damage_model", setup.damage_model)):
+            if key not in wearer and value:
+                wearer_rows.append(["wearer" if not wearer_rows else "",
+                                    "skin" if not wearer_rows else "", key, str(value),
+                                    "default", ""])
     tables = [
         Table(header, rows_of("exposure", "", raw.get("exposure", {}), ("exposure",)),
               "The exposure and the cool-down"),
         Table(header, layers, "The assembly, exposed side first"),
-        Table(header, rows_of("wearer", str(wearer.get("kind", "")), wearer, ("wearer",)),
-              "The wearer"),
+        Table(header, wearer_rows, "The wearer"),
     ]
     return tables, ""
 
