@@ -52,7 +52,17 @@ if TYPE_CHECKING:  # pragma: no cover - type checkers see the module itself
 else:
     pint = _import_pint_without_dask()
 
-ureg: pint.UnitRegistry = pint.UnitRegistry()
+def _registry() -> pint.UnitRegistry:
+    """pint's registry, its parsed definitions cached in the user's cache folder (pint's own
+    cache, like matplotlib's font cache: 0.02 s instead of 0.17 s at every start), or without
+    the cache where that folder cannot be used."""
+    try:
+        return pint.UnitRegistry(cache_folder=":auto:")
+    except Exception:  # e.g. a read-only home: the same registry, parsed anew
+        return pint.UnitRegistry()
+
+
+ureg: pint.UnitRegistry = _registry()
 """The one unit registry of plyrisk."""
 
 _EXPONENT = re.compile(r"(?<=[A-Za-z])(-?\d+)(?![\w.])")
