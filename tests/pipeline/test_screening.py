@@ -51,3 +51,15 @@ def test_keep_overrides_the_screening():
     result = run_study(loads_study(text), quiet=True, samples=16)
     assert not result.screening.fixed.any()
     assert "kept: listed in screening.keep" in result.screening.reasons[0]
+
+
+def test_report_lists_the_screening_decisions(screened, tmp_path):
+    from plyrisk.report.html import write_report
+
+    files = write_report(read_results(screened.path), tmp_path)
+    html = files.html.read_text(encoding="utf-8")
+    assert ">Screening before the study</h2>" in html
+    assert "<td>shell.conductivity</td><td>fixed at its nominal</td>" in html
+    md = files.markdown.read_text(encoding="utf-8")
+    assert "| shell.conductivity | fixed at its nominal |" in md
+    assert "| gap.width | kept |" in md

@@ -144,6 +144,8 @@ def test_screened_and_grown_run_writes_the_path_the_figure_and_the_decisions(tmp
     assert (out / "figures" / "index_convergence.png").exists()
     html = (out / "report.html").read_text(encoding="utf-8")
     assert "Convergence of the indices as the study grew" in html
+    assert ">Screening before the study</h2>" in html
+    assert "<td>fabric.specific_heat</td><td>fixed at its nominal</td>" in html
 
 
 @pytest.mark.slow

@@ -55,6 +55,7 @@ from plyrisk.report.tables import (
     quantile_tables,
     ranking_tables,
     scenario_values,
+    screening_table,
     stack_tables,
     tolerance_tables,
 )
@@ -686,6 +687,12 @@ def _html_lines(ds: xr.Dataset, c: _Content) -> list[str]:
                  f"<figcaption>{_esc(f.caption)}</figcaption></figure>")
     if tol is not None:
         h += tol.html()
+    screen = screening_table(ds)
+    if screen is not None:
+        h += ["<h2>Screening before the study</h2>",
+              "<p>Inputs whose Morris measures stayed below the threshold were fixed at their "
+              "nominal values for the main study; the study's indices and percentiles cover "
+              "the kept inputs only.</p>", _html_table(screen)]
     h.append("<h2>Convergence of the indices</h2>")
     h += [f"<p>{_esc(t)}</p>" for t in conv_text]
     if conv_table is not None:
@@ -725,6 +732,9 @@ def _markdown_lines(ds: xr.Dataset, c: _Content, out: Path, files: list[Path]) -
                               + (f" (top {TOP_COUNT})" if len(t.rows) > TOP_COUNT else ""))), ""]
     if c.tol is not None:
         m += c.tol.markdown()
+    screen = screening_table(ds)
+    if screen is not None:
+        m += ["## Screening before the study", "", _md_table(screen), ""]
     m += ["## Convergence", "", *conv_text, ""]
     if conv_table is not None:
         m += [_md_table(conv_table), ""]

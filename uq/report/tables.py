@@ -391,6 +391,22 @@ def convergence_summary(ds: xr.Dataset) -> tuple[list[str], Table | None]:
                         "suggested base samples", "base rows dropped"], rows)
 
 
+def screening_table(ds: xr.Dataset) -> Table | None:
+    """The decisions of a ``[screening]`` pre-study: per screened input, kept or fixed at its
+    nominal, and why; ``None`` without a screening."""
+    if "screening_fixed" not in ds:
+        return None
+    fixed = np.asarray(ds["screening_fixed"].values, dtype=bool)
+    reasons = [str(r) for r in np.asarray(ds["screening_reason"].values)]
+    names = [str(n) for n in ds["screened_parameter"].values]
+    rows = [[n, "fixed at its nominal" if f else "kept", r]
+            for n, f, r in zip(names, fixed, reasons, strict=True)]
+    runs = ds.attrs.get("screening_runs", "?")
+    return Table(["input", "decision", "why"], rows,
+                 f"Screening before the study (Morris, {runs} model runs; threshold "
+                 f"{ds.attrs.get('screening_threshold', '?')})")
+
+
 def nonconverged_table(ds: xr.Dataset) -> Table:
     """Per exposure: evaluations, those not converged, gap-air range and convection onset
     counts."""
