@@ -451,6 +451,24 @@ def _md_table(t: Table) -> str:
     return "\n".join(out)
 
 
+def screening_html(ds: xr.Dataset) -> list[str]:
+    """The section on a ``[screening]`` pre-study (none without one), steady or transient."""
+    screen = screening_table(ds)
+    if screen is None:
+        return []
+    return ["<h2>Screening before the study</h2>",
+            "<p>Inputs whose Morris measures stayed below the threshold were fixed at their "
+            "nominal values for the main study; the study's indices and percentiles cover the "
+            "kept inputs only.</p>", _html_table(screen)]
+
+
+def screening_markdown(ds: xr.Dataset) -> list[str]:
+    """:func:`screening_html` for ``summary.md``."""
+    screen = screening_table(ds)
+    return [] if screen is None else ["## Screening before the study", "", _md_table(screen),
+                                      ""]
+
+
 def _cautions_html() -> str:
     items = "".join(f"<li>{_esc(c)}</li>" for c in CAUTIONS)
     return f'<div class="cautions"><h2>Cautions</h2><ul>{items}</ul></div>'
@@ -687,12 +705,7 @@ def _html_lines(ds: xr.Dataset, c: _Content) -> list[str]:
                  f"<figcaption>{_esc(f.caption)}</figcaption></figure>")
     if tol is not None:
         h += tol.html()
-    screen = screening_table(ds)
-    if screen is not None:
-        h += ["<h2>Screening before the study</h2>",
-              "<p>Inputs whose Morris measures stayed below the threshold were fixed at their "
-              "nominal values for the main study; the study's indices and percentiles cover "
-              "the kept inputs only.</p>", _html_table(screen)]
+    h += screening_html(ds)
     h.append("<h2>Convergence of the indices</h2>")
     h += [f"<p>{_esc(t)}</p>" for t in conv_text]
     if conv_table is not None:
@@ -732,9 +745,7 @@ def _markdown_lines(ds: xr.Dataset, c: _Content, out: Path, files: list[Path]) -
                               + (f" (top {TOP_COUNT})" if len(t.rows) > TOP_COUNT else ""))), ""]
     if c.tol is not None:
         m += c.tol.markdown()
-    screen = screening_table(ds)
-    if screen is not None:
-        m += ["## Screening before the study", "", _md_table(screen), ""]
+    m += screening_markdown(ds)
     m += ["## Convergence", "", *conv_text, ""]
     if conv_table is not None:
         m += [_md_table(conv_table), ""]

@@ -24,7 +24,7 @@ from plyrisk.cautions import TRANSIENT_CAUTIONS
 from plyrisk.report.csv_tables import write_csv
 from plyrisk.report.figures import transient as tf
 from plyrisk.report.figures.common import format_percent, format_temperature
-from plyrisk.report.tables import Table, cell_text, provenance_table, screening_table
+from plyrisk.report.tables import Table, cell_text, provenance_table
 from plyrisk.report.verdict import verdict_html, verdict_markdown
 from plyrisk.results.dataset import is_swept, scenario_slices
 from plyrisk.text.indices import NOT_RESOLVED
@@ -428,6 +428,8 @@ def write_transient_report(ds: xr.Dataset, out_dir: str | Path, *,
         _pending_tolerances,
         _save,
         _Tolerances,
+        screening_html,
+        screening_markdown,
         with_contents,
     )
 
@@ -501,12 +503,7 @@ def write_transient_report(ds: xr.Dataset, out_dir: str | Path, *,
     h.append(_html_table(rules))
     if tol is not None:
         h += tol.html()
-    screen = screening_table(ds)
-    if screen is not None:
-        h += ["<h2>Screening before the study</h2>",
-              "<p>Inputs whose Morris measures stayed below the threshold were fixed at their "
-              "nominal values for the main study; the study's indices and percentiles cover "
-              "the kept inputs only.</p>", _html_table(screen)]
+    h += screening_html(ds)
     h += ["<h2>Samples that did not converge</h2>",
           "<p>Samples whose transient solve failed are excluded from every statistic and "
           "counted here.</p>", _html_table(_nonconverged(ds))]
@@ -537,9 +534,7 @@ def write_transient_report(ds: xr.Dataset, out_dir: str | Path, *,
     for t in ranking:
         m += [_md_table(Table(t.header, t.rows[:5], t.caption)), ""]
     m += [_md_table(rules), ""] + (tol.markdown() if tol is not None else [])
-    screen = screening_table(ds)
-    if screen is not None:
-        m += ["## Screening before the study", "", _md_table(screen), ""]
+    m += screening_markdown(ds)
     m += ["## Samples that did not converge", "",
           _md_table(_nonconverged(ds)), ""]
     if notes:
