@@ -137,8 +137,8 @@ def analysis(method: str = "saltelli", samples: int = 32, *, design: str | None 
              **kw) -> Analysis:
     """Analysis settings of a transient test study."""
     return Analysis(method=method, samples=samples, seed=kw.pop("seed", 7), limit=317.15,
-                    design=design or {"saltelli": "sobol", "pce": "lhs",
-                                      "morris": "morris"}[method], **kw)
+                    design=design or {"saltelli": "sobol", "pce": "lhs", "morris": "morris",
+                                      "shapley": "lhs"}[method], **kw)
 
 
 def fabric_on_skin(method: str = "saltelli", samples: int = 32, *, scenarios=None,
@@ -164,6 +164,20 @@ def fabric_on_skin(method: str = "saltelli", samples: int = 32, *, scenarios=Non
                              output_times=tuple(np.linspace(0.0, 30.0, 31)))
     return StandInStudy("invented fabric on skin (test)", (fabric, gap), tuple(params),
                         analysis(method, samples, **kw), setup, scenarios)
+
+
+def correlated(study: StandInStudy, pairs: dict[tuple[str, str], float]) -> StandInStudy:
+    """The same study with Spearman rank correlations between pairs of its inputs (a Gaussian
+    copula, as ``[correlations]`` builds it)."""
+    from plyrisk.study.correlations import Correlations, linear_from_rank
+
+    names = tuple(n for n in study.parameter_names
+                  if any(n in pair for pair in pairs))
+    rank = np.eye(len(names))
+    for (a, b), rho in pairs.items():
+        i, j = names.index(a), names.index(b)
+        rank[i, j] = rank[j, i] = rho
+    return replace(study, correlations=Correlations(names, rank, linear_from_rank(rank)))
 
 
 def duration_sweep(study: StandInStudy, levels=(3.0, 5.0, 7.0, 9.0)) -> StandInStudy:
@@ -206,6 +220,14 @@ def skin_sweep() -> tuple[StandInStudy, Propagation]:
 def sensor_pce() -> tuple[StandInStudy, Propagation]:
     """PCE on 48 Latin-hypercube samples, sensor."""
     study = fabric_on_sensor(48)
+    return study, propagate(study)
+
+
+@functools.cache
+def skin_shapley() -> tuple[StandInStudy, Propagation]:
+    """Shapley effects, 128 joint draws and 64 permutations, three independent inputs in two
+    layer groups (1408 runs)."""
+    study = fabric_on_skin("shapley", 128, permutations=64)
     return study, propagate(study)
 
 

@@ -106,3 +106,72 @@ def test_method_override_is_refused_with_one_line(capsys):
     assert code == 2
     assert len(err.strip().splitlines()) == 1
     assert "[correlations]" in err
+
+
+def transient_config(tmp: Path) -> Path:
+    """The small invented flash study (skin) with method shapley, two correlated inputs and a
+    tolerance target on the time to burn."""
+    from tests.study_texts import flash
+
+    text = flash(64, study="permutations = 32", tail=(
+        '\n[correlations]\npairs = [["exposure.incident_flux", "exposure.duration", -0.5]]\n'
+        '\n[tolerances]\nsamples = 64\ntarget = "P(second_degree_burn) <= 5 %"\n'))
+    text = text.replace('method = "saltelli"', 'method = "shapley"\ndesign = "lhs"')
+    path = tmp / "flash_correlated.toml"
+    path.write_text(text)
+    return path
+
+
+def test_transient_study_with_correlated_inputs_end_to_end(tmp_path):
+    config = transient_config(tmp_path)
+    code, text = run(["check", str(config)])
+    assert code == 0, text
+    assert "Rank correlations" in text and "exposure.incident_flux" in text
+    outs = {}
+    for name, extra in (("a", ["--chunk-size", "37"]), ("b", ["--workers", "2"])):
+        code, text = run(["run", str(config), "--out", str(tmp_path / name), "--quiet",
+                          *extra])
+        assert code == 0, text
+        outs[name] = xr.open_dataset(tmp_path / name / "results.nc").load()
+    for needle in ("inputs ranked by Shapley effect of capped_time_to_second_degree_burn",
+                   "layers ranked by Shapley effect", "dominant layer: fabric (for the time to "
+                   "second-degree burn, capped at the horizon: Shapley effect",
+                   "indices of dependent inputs of capped_time_to_second_degree_burn",
+                   "How to read Shapley effects", "P(second-degree burn within 12 s)"):
+        assert needle in text, needle
+    a, b = outs["a"], outs["b"]
+    # results do not depend on the chunking or the number of workers
+    for v in ("shapley_effect", "shapley_group_effect", "full_total_index",
+              "event_time_quantile", "event_probability"):
+        np.testing.assert_array_equal(a[v].values, b[v].values, err_msg=v)
+    ds = a.isel(scenario=0)
+    outputs = [str(o) for o in ds["output"].values]
+    assert outputs[0] == "capped_time_to_second_degree_burn"
+    eff = ds["shapley_effect"].values
+    assert np.allclose(np.nansum(eff, axis=-1), 1.0, atol=1e-9)
+    assert ds["shapley_effect"].attrs["units"] == "1" and ds["shapley_effect"].attrs["long_name"]
+    r = ds["input_rank_correlation"].values
+    names = list(ds["parameter"].values)
+    assert r[names.index("exposure.incident_flux"), names.index("exposure.duration")] == -0.5
+    assert int(ds["samples_used"]) == 64  # statistics from the joint draws
+    report = (tmp_path / "a" / "report.html").read_text()
+    for needle in ("Inputs ranked by Shapley effect of capped_time_to_second_degree_burn",
+                   "Layers ranked by Shapley effect", "How to read Shapley effects",
+                   "Indices of dependent inputs of capped_time_to_second_degree_burn",
+                   "dependent through a Gaussian copula", "Which layer buys the most time"):
+        assert needle in report, needle
+    assert (tmp_path / "a" / "shapley.csv").read_text().startswith("scenario,output,kind")
+    assert "Shapley effect" in (tmp_path / "a" / "tolerances.csv").read_text()
+    code, text = run(["report", str(tmp_path / "a" / "results.nc"), "--out",
+                      str(tmp_path / "again")])
+    assert code == 0, text
+    code, text = run(["tolerances", str(config), "--out", str(tmp_path / "tol"), "--quiet"])
+    assert code == 0, text
+    assert "inputs correlated ([correlations])" in text
+
+
+def test_transient_shapley_refuses_growth_with_one_line(tmp_path, capsys):
+    code = main(["run", str(transient_config(tmp_path)), "--until-converged", "--quiet"])
+    _, err = capsys.readouterr()
+    assert code == 2
+    assert len(err.strip().splitlines()) == 1 and "--until-converged" in err

@@ -414,6 +414,9 @@ def shapley_effects(y_joint: np.ndarray, y_cond: np.ndarray, permutations: np.nd
         ip = rng.integers(0, used, used)
         ij = rng.integers(0, yj.size, yj.size)
         v = float(np.var(yj[ij], ddof=1))
+        if not v > 0.0:  # a resample without spread (e.g. a rare burn indicator): no estimate
+            boot[b] = boot_full[b] = boot_indep[b] = only_perms[b] = only_joint[b] = np.nan
+            continue
         boot[b] = d0[ip].mean(axis=0) / v + e[ip].mean(axis=0)
         boot_full[b] = 1.0 - _by_input(c_last[ip], last_in[ip], d) / v
         boot_indep[b] = _by_input(c_first[ip], first_in[ip], d) / v
@@ -423,7 +426,7 @@ def shapley_effects(y_joint: np.ndarray, y_cond: np.ndarray, permutations: np.nd
 
     def joint_share(m: np.ndarray) -> np.ndarray:
         """Share of the bootstrap variance that comes from the joint draws [-]."""
-        vp, vj = np.var(only_perms @ m, axis=0), np.var(only_joint @ m, axis=0)
+        vp, vj = np.nanvar(only_perms @ m, axis=0), np.nanvar(only_joint @ m, axis=0)
         with np.errstate(invalid="ignore", divide="ignore"):
             return np.where(vp + vj > 0.0, vj / (vp + vj), 0.0)
 

@@ -490,6 +490,10 @@ class TransientScenarioAnalysis:
         Derived output → one line on the surrogate's fit (``method = "pce"``).
     screening
         Derived output → Morris measures (``method = "morris"``).
+    shapley
+        Derived output → (per-parameter, per-layer)
+        :class:`plyrisk.analysis.shapley.ShapleyEffects` (``method = "shapley"``); the rankings
+        are then by Shapley effect.
     nonconverged
         Samples that did not converge (excluded from every statistic).
     constant_outputs
@@ -508,6 +512,7 @@ class TransientScenarioAnalysis:
     screening: dict[str, Any] = field(default_factory=dict)
     nonconverged: int = 0
     constant_outputs: tuple[str, ...] = ()
+    shapley: dict[str, tuple[Any, Any]] = field(default_factory=dict)
 
 
 @dataclass(frozen=True, eq=False)
@@ -631,7 +636,7 @@ def analyse_transient(study: Study, propagation: Propagation, *,
         result.append(TransientScenarioAnalysis(
             times, burn, plain, energy, bands, ix.indices, ix.ranking, ix.group_ranking,
             dict(getattr(ix, "quality", {}) or {}), dict(getattr(ix, "screening", {}) or {}),
-            int(np.sum(~conv)), constant))
+            int(np.sum(~conv)), constant, dict(getattr(ix, "shapley", {}) or {})))
     limit = None
     headline = HEADLINE_EVENT.get(facts.wearer_kind)
     if (statistics and study.scenarios is not None and headline is not None

@@ -32,6 +32,9 @@ Hooks and what calls them
 ``dataset_variables(study, analysis, outputs)``
     :func:`plyrisk.results.dataset.to_dataset`: the index variables the method adds, as plain
     ``name -> (dims, values, units, long_name, attrs)`` records (no xarray here).
+``transient_variables(study, analysis, outputs)``
+    :func:`plyrisk.results.transient.transient_dataset`: index variables a method adds to a
+    transient dataset beyond the shared ``sobol_*`` and ``morris_*`` ones (the same records).
 """
 
 from __future__ import annotations
@@ -187,6 +190,12 @@ class Method:
     def dataset_variables(self, study: Study, analysis: StudyAnalysis,
                           outputs: Sequence[str]) -> dict[str, VariableRecord]:
         """Index variables this method adds to the dataset (none by default)."""
+        return {}
+
+    def transient_variables(self, study: Study, analysis: Any,
+                            outputs: Sequence[str]) -> dict[str, VariableRecord]:
+        """Index variables this method adds to a transient dataset (none by default: the
+        ``sobol_*`` and ``morris_*`` variables are written from the analysis itself)."""
         return {}
 
     def summary_lines(self, result: Any, *, top: int) -> list[str] | None:

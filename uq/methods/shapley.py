@@ -74,7 +74,6 @@ class Shapley(Method):
     stores = False
     allows_screening = False
     handles_dependence = True
-    supports_transient = False
     builds_design = True
     independence = "handles dependent inputs"
 
@@ -181,6 +180,11 @@ class Shapley(Method):
                 group_ranking[o] = rank_effects(grp, ci_threshold=a.index_ci_threshold)
         return IndexResult({}, ranking, group_ranking, shapley=effects)
 
+    def transient_variables(self, study: Study, analysis: Any,
+                            outputs: Sequence[str]) -> dict[str, VariableRecord]:
+        """The same variables as a steady study's, over the derived outputs."""
+        return self.dataset_variables(study, analysis, outputs)
+
     def dataset_variables(self, study: Study, analysis: StudyAnalysis,
                           outputs: Sequence[str]) -> dict[str, VariableRecord]:
         """Shapley effects, their intervals, ranks and convergence flags (docs/results.md)."""
@@ -280,7 +284,8 @@ class Shapley(Method):
         data["shapley_output_variance"] = ((*dims,), var, "", "variance of the output "
                                            "from the joint draws, in the output's SI unit "
                                            "squared (K2 for temperatures, W2 m-4 for "
-                                           "heat_flux)", {})
+                                           "heat_flux, s2 for times; 1 for a burn indicator "
+                                           "and a log10 damage)", {})
         if study.correlations is not None:
             rank = study.correlations.full_rank(pnames)
             data["input_rank_correlation"] = (

@@ -312,6 +312,12 @@ NO_SOBOL = ("Without a Saltelli design (method = \"saltelli\") the Sobol indices
             "monotone influence only and misses interactions.")
 """Said wherever a ranking is shown for a pce study."""
 
+INDEPENDENT_INPUTS = (
+    "The uncertain inputs are sampled independently of each other from the distributions "
+    "given; the results are only as good as those distributions.")
+"""The assumption on the inputs' dependence (replaced for correlated inputs:
+:func:`plyrisk.report.shapley.dependence_assumptions`)."""
+
 ASSUMPTIONS = (
     "Steady state: the temperatures are those reached after a long, constant exposure; no "
     "transient heating, no heat stored in the layers.",
@@ -322,8 +328,7 @@ ASSUMPTIONS = (
     "Grey, diffuse surfaces for radiation across gaps.",
     "Air gaps conduct through still air unless gap convection is enabled; air properties are "
     "those of dry air at 1 atm, valid for gap temperatures of 250–1500 K.",
-    "The uncertain inputs are sampled independently of each other from the distributions "
-    "given; the results are only as good as those distributions.",
+    INDEPENDENT_INPUTS,
     "Percentiles and the exceedance probability come from the independent samples (for a "
     "Sobol design its A and B blocks, which are quasi-random: the confidence intervals, "
     "derived for independent draws, are then approximate).",

@@ -8,8 +8,8 @@ import xarray as xr
 
 from plyrisk.report.tables import Table, exposure_text, scenario_values
 
-__all__ = ["DEPENDENT_INPUTS", "dependence_assumptions", "has_shapley", "shapley_paragraphs",
-           "shapley_tables"]
+__all__ = ["DEPENDENT_INPUTS", "dependence_assumptions", "dependent_index_table", "has_shapley",
+           "shapley_paragraphs", "shapley_tables", "write_shapley_csv"]
 
 DEPENDENT_INPUTS = (
     "The uncertain inputs are sampled from the distributions given, dependent through a "
@@ -86,14 +86,15 @@ def shapley_tables(ds: xr.Dataset) -> list[Table]:
             out.append(Table(header + ["Shapley effect ± CI", "status"], rows,
                              f"{what} by Shapley effect of the inner-surface temperature"
                              f"{suffix}"))
-        table = _dependent_index_table(one, k, suffix)
+        table = dependent_index_table(one, k, f"the inner-surface temperature{suffix}")
         if table is not None:
             out.append(table)
     return out
 
 
-def _dependent_index_table(one: xr.Dataset, k: int, suffix: str) -> Table | None:
-    """The four indices of dependent inputs per parameter, in the order of the effects."""
+def dependent_index_table(one: xr.Dataset, k: int, of: str) -> Table | None:
+    """The four indices of dependent inputs of output ``k`` per parameter, in the order of the
+    effects; ``of`` names the output (and the exposure) in the caption."""
     from plyrisk.text.shapley import INDEX_COLUMNS
 
     cols = [(attr, label) for attr, label in INDEX_COLUMNS if f"{attr}_index" in one]
@@ -108,9 +109,8 @@ def _dependent_index_table(one: xr.Dataset, k: int, suffix: str) -> Table | None
             _cell(float(one[f"{attr}_index"].values[k, j]),
                   float(one[f"{attr}_index_ci"].values[k, j])) for attr, _ in cols])
     return Table(["parameter"] + [f"{label} ± CI" for _, label in cols], rows,
-                 "Indices of dependent inputs of the inner-surface temperature (full: with "
-                 "what the correlated partners carry; indep.: the parameter's own part)"
-                 f"{suffix}")
+                 f"Indices of dependent inputs of {of} (full: with what the correlated "
+                 "partners carry; indep.: the parameter's own part)")
 
 
 def write_shapley_csv(ds: xr.Dataset, out) -> list:

@@ -24,6 +24,7 @@ from plyrisk.cautions import TRANSIENT_CAUTIONS
 from plyrisk.report.csv_tables import write_csv
 from plyrisk.report.figures import transient as tf
 from plyrisk.report.figures.common import format_percent, format_temperature
+from plyrisk.report.shapley import dependence_assumptions, has_shapley, shapley_paragraphs
 from plyrisk.report.tables import Table, cell_text, provenance_table
 from plyrisk.report.verdict import verdict_html, verdict_markdown
 from plyrisk.results.dataset import is_swept, scenario_slices
@@ -52,25 +53,39 @@ def _time(one: xr.Dataset, event: str, p: float) -> str:
     return f"{parts[0]} [{parts[1]}, {parts[2]}]"
 
 
+def _ranked_by(one: xr.Dataset, output: str, *, groups: bool,
+               ) -> tuple[str, np.ndarray, np.ndarray] | None:
+    """What ``output`` is ranked by, per layer group or per input: ("Shapley effect" or
+    "total index", the values, their half-widths); ``None`` without indices."""
+    if "shapley_effect" in one:
+        word, name = "Shapley effect", ("shapley_group_effect" if groups else "shapley_effect")
+    elif "sobol_total" in one:
+        word, name = "total index", ("sobol_group_total" if groups else "sobol_total")
+    else:
+        return None
+    s = one.sel(output=output)
+    return (word, np.asarray(s[name].values, float), np.asarray(s[f"{name}_ci"].values, float))
+
+
 def _dominant(one: xr.Dataset) -> str:
     if "output" not in one.coords or one.sizes.get("output", 0) == 0:
         return ""
     output = str(one["output"].values[0])
-    if "sobol_group_total" in one:
-        tot = np.asarray(one["sobol_group_total"].sel(output=output).values, float)
-        ci = np.asarray(one["sobol_group_total_ci"].sel(output=output).values, float)
+    ranked = _ranked_by(one, output, groups=True)
+    if ranked is not None:
+        word, tot, ci = ranked
         names = [str(g) for g in one["group"].values]
         layer = np.array([n not in CONDITION_GROUPS for n in names])
         if np.isfinite(tot[layer]).any():
             j = int(np.nanargmax(np.where(layer, tot, np.nan)))
-            text = (f"dominant layer: {names[j]} (total index {tot[j]:.2f} ± {ci[j]:.2f} for "
+            text = (f"dominant layer: {names[j]} ({word} {tot[j]:.2f} ± {ci[j]:.2f} for "
                     f"{output}")
             threshold = float(one.attrs.get("index_ci_threshold", math.inf))
             if not_resolved(tot[j], ci[j]) or not ci[j] <= threshold:
                 text += f"; {NOT_RESOLVED}"
             k = int(np.nanargmax(tot))
             if not layer[k]:
-                text += (f"; the {names[k]} itself moves it more: total index {tot[k]:.2f} ± "
+                text += (f"; the {names[k]} itself moves it more: {word} {tot[k]:.2f} ± "
                          f"{ci[k]:.2f}")
             return text + ")"
         if output in one and np.ptp(np.nan_to_num(np.asarray(one[output].values, float))) > 0:
@@ -183,17 +198,24 @@ def transient_figures(ds: xr.Dataset) -> list[Any]:
                 "time; the hatched bar at the horizon is the share without it (censored: only "
                 "known to be beyond the horizon). The shaded span is the confidence interval of "
                 "P5.", tf.burn_time_figure(ds, scenario=idx)))
-        if "sobol_group_total" in one or "morris_mu_star" in one:
+        if any(v in one for v in ("sobol_group_total", "shapley_group_effect",
+                                  "morris_mu_star")):
             try:
                 out.append(ReportFigure(
                     f"layer_indices{sfx}", f"Which layer buys the most time{at}",
-                    "Indices of the first derived output (the capped time to burn) per layer: "
-                    "each layer's parameters varied together. Indices of a capped output count "
-                    "every sample without a burn as burning at the horizon; see the rule in the "
-                    "title.", tf.layer_indices_figure(ds, scenario=idx, groups=True)))
+                    ("Shapley effects of the first derived output (the capped time to burn) "
+                     "per layer: the sum of the layer's parameters' effects, with bootstrap "
+                     "intervals. " if "shapley_group_effect" in one else
+                     "Indices of the first derived output (the capped time to burn) per layer: "
+                     "each layer's parameters varied together. ")
+                    + "Indices of a capped output count every sample without a burn as burning "
+                    "at the horizon; see the rule in the title.",
+                    tf.layer_indices_figure(ds, scenario=idx, groups=True)))
                 out.append(ReportFigure(
                     f"input_indices{sfx}", f"Indices per input{at}",
-                    "The same output's indices per uncertain input.",
+                    "The same output's "
+                    + ("Shapley effects" if "shapley_effect" in one else "indices")
+                    + " per uncertain input.",
                     tf.layer_indices_figure(ds, scenario=idx, groups=False)))
             except ValueError:
                 pass
@@ -282,6 +304,8 @@ def _ranking_tables(ds: xr.Dataset) -> list[Table]:
                                      "status"],
                                     rows, f"Inputs ranked for {o}"
                                     + (f" — {label}" if label else "")))
+            elif "shapley_effect" in one:
+                tables += _shapley_tables(one, o, label, first=o == str(one["output"].values[0]))
             elif "morris_mu_star" in one:
                 s = one.sel(output=o)
                 mu = np.asarray(s["morris_mu_star"].values, float)
@@ -293,6 +317,43 @@ def _ranking_tables(ds: xr.Dataset) -> list[Table]:
                 tables.append(Table(["rank", "input", "mu*", "sigma"], rows,
                                     f"Morris screening of {o}" + (f" — {label}" if label
                                                                   else "")))
+    return tables
+
+
+def _shapley_tables(one: xr.Dataset, output: str, label: str, *, first: bool) -> list[Table]:
+    """Inputs and layers by Shapley effect of ``output``; for the headline output also the four
+    indices of dependent inputs."""
+    from plyrisk.report.shapley import dependent_index_table
+
+    threshold = float(one.attrs.get("index_ci_threshold", math.inf))
+    s = one.sel(output=output)
+    at = f" — {label}" if label else ""
+    tables = []
+    for dim, prefix, who in (("parameter", "shapley", "Inputs"), ("group", "shapley_group",
+                                                                  "Layers")):
+        eff = np.asarray(s[f"{prefix}_effect"].values, float)
+        ci = np.asarray(s[f"{prefix}_effect_ci"].values, float)
+        order = np.argsort(-np.nan_to_num(eff, nan=-np.inf), kind="stable")
+        rows = []
+        for k, j in enumerate(order):
+            name = str(s[dim].values[j])
+            row = [str(k + 1), name.replace("_", " ")
+                   + (" (not a layer)" if dim == "group" and name in CONDITION_GROUPS else "")]
+            if dim == "parameter":
+                row.append(str(s["parameter_group"].values[j]))
+            rows.append(row + [cell_text(f"{eff[j]:.3f} ± {ci[j]:.3f}"),
+                               _index_status(((eff[j], ci[j]),), threshold)])
+        if not np.isfinite(eff).any():
+            rows = [["-", "(none)"] + ([""] if dim == "parameter" else []) + [
+                "", "the output is the same in every converged sample: no input moves it"]]
+        header = ["rank", "input", "layer"] if dim == "parameter" else ["rank", "layer"]
+        tables.append(Table(header + ["Shapley effect ± CI", "status"], rows,
+                            f"{who} ranked by Shapley effect of {output}{at}"))
+    if first:
+        k = [str(v) for v in one["output"].values].index(output)
+        table = dependent_index_table(one, k, f"{output}{at}")
+        if table is not None:
+            tables.append(table)
     return tables
 
 
@@ -420,6 +481,7 @@ def write_transient_report(ds: xr.Dataset, out_dir: str | Path, *,
     """
     from plyrisk.report.html import (
         _CSS,
+        INDEPENDENT_INPUTS,
         ReportFiles,
         _esc,
         _formats,
@@ -499,6 +561,7 @@ def write_transient_report(ds: xr.Dataset, out_dir: str | Path, *,
     h += [_html_table(t) for t in events]
     h.append(f"<p>{_esc(ds.attrs.get('censoring', ''))}.</p>")
     h.append("<h2>Ranking: which inputs and layers matter</h2>")
+    h += [f"<p>{_esc(t)}</p>" for t in shapley_paragraphs(ds)] if has_shapley(ds) else []
     h += [_html_table(t) for t in ranking]
     h.append(_html_table(rules))
     if tol is not None:
@@ -507,8 +570,9 @@ def write_transient_report(ds: xr.Dataset, out_dir: str | Path, *,
     h += ["<h2>Samples that did not converge</h2>",
           "<p>Samples whose transient solve failed are excluded from every statistic and "
           "counted here.</p>", _html_table(_nonconverged(ds))]
+    inputs = dependence_assumptions(ds, (INDEPENDENT_INPUTS,))
     h.append("<h2>Assumptions and limits of the model</h2><ul>"
-             + "".join(f"<li>{_esc(c)}</li>" for c in TRANSIENT_CAUTIONS[2:])
+             + "".join(f"<li>{_esc(c)}</li>" for c in (*TRANSIENT_CAUTIONS[2:], *inputs))
              + "".join(f"<li>{_esc(n)}</li>" for n in notes) + "</ul>")
     h.append(box)
     h += ["<h2>Provenance</h2>", _html_table(_provenance(ds)), "<h3>Config text</h3>",
@@ -531,14 +595,15 @@ def write_transient_report(ds: xr.Dataset, out_dir: str | Path, *,
     for t in events:
         m += [_md_table(t), ""]
     m += ["## Ranking", ""]
+    if has_shapley(ds):
+        m += [x for t in shapley_paragraphs(ds) for x in (t, "")]
     for t in ranking:
         m += [_md_table(Table(t.header, t.rows[:5], t.caption)), ""]
     m += [_md_table(rules), ""] + (tol.markdown() if tol is not None else [])
     m += screening_markdown(ds)
     m += ["## Samples that did not converge", "",
           _md_table(_nonconverged(ds)), ""]
-    if notes:
-        m += ["## Notes", "", *[f"- {n}" for n in notes], ""]
+    m += ["## Notes", "", *[f"- {n}" for n in (*inputs, *notes)], ""]
     m += ["## Files", "", *[f"- `{p.relative_to(out).as_posix()}`" for p in
                             fig_paths + tables], "", "## Provenance", "",
           _md_table(_provenance(ds)), "", cautions_md, ""]
@@ -581,6 +646,9 @@ def _csv(ds: xr.Dataset, out: Path) -> list[Path]:
         paths.append(write_csv(out / "event_probabilities.csv",
                                ["exposure", "event", "probability", "lower", "upper", "count",
                                 "samples"], rows_p))
+    from plyrisk.report.shapley import write_shapley_csv
+
+    paths += write_shapley_csv(ds, out)
     if "sobol_total" in ds:
         rows = []
         for label, one in scenario_slices(ds):

@@ -18,6 +18,7 @@ from plyrisk.analysis.outputs import DERIVED_OUTPUTS, output_column
 from plyrisk.analysis.outputs import MemoryRows as _Rows
 from plyrisk.analysis.transient import BAND_PROBABILITIES, EVENTS, TransientAnalysis
 from plyrisk.cautions import cautions_text
+from plyrisk.methods import get_method
 from plyrisk.models.transient_outputs import TRANSIENT_OUTPUTS
 from plyrisk.propagate.evaluate import Propagation
 from plyrisk.provenance import library_versions
@@ -74,6 +75,10 @@ def transient_dataset(study: Study, propagation: Propagation, analysis: Transien
     if analysis.statistics:
         data.update(_statistics_variables(study, analysis, sd, per))
     data.update(_index_variables(study, analysis, sd, per))
+    for name, (dims, values, units, long_name, extra) in (method or get_method(
+            study.analysis.method)).transient_variables(study, analysis,
+                                                        list(analysis.outputs)).items():
+        data[name] = _var((*sd, *dims), per(values), units, long_name, **extra)
     coords = _coordinates(study, propagation, analysis)
     return xr.Dataset(data, coords, _attributes(study, propagation, analysis, method))
 

@@ -71,21 +71,27 @@ def _status(item: Any) -> str:
     return "ok" if ok else NOT_RESOLVED
 
 
+def index_word(sc: TransientScenarioAnalysis, output: str) -> str:
+    """What the rankings of ``output`` are by: "Shapley effect" or "total index"."""
+    return "Shapley effect" if output in getattr(sc, "shapley", {}) else "total index"
+
+
 def dominant(study: Any, sc: TransientScenarioAnalysis, output: str) -> tuple[str, str]:
     """The layer group (or input) that moves ``output`` most, and how it was measured.
 
-    By the total index per layer group (Saltelli or the surrogate); for Morris by the largest
-    mu*, naming its input and layer.
+    By the total index per layer group (Saltelli or the surrogate) or the layer's Shapley
+    effect; for Morris by the largest mu*, naming its input and layer.
     """
     groups = [g for g in sc.group_ranking.get(output) or [] if math.isfinite(g.total)]
     layers = [g for g in groups if g.name not in CONDITION_GROUPS]
+    word = index_word(sc, output)
     if layers:
         first = layers[0]
-        how = f"total index {first.total:.2f} ± {first.total_ci:.2f}"
+        how = f"{word} {first.total:.2f} ± {first.total_ci:.2f}"
         if not index_resolved(first.total, first.total_ci, first.total_converged):
             how += f"; {NOT_RESOLVED}"
         if groups[0].name in CONDITION_GROUPS:
-            how += (f"; the {groups[0].name} itself moves it more: total index "
+            how += (f"; the {groups[0].name} itself moves it more: {word} "
                     f"{groups[0].total:.2f} ± {groups[0].total_ci:.2f}")
         return first.name, how
     m = sc.screening.get(output)
@@ -236,6 +242,13 @@ def transient_summary_lines(study: Any, analysis: TransientAnalysis, *, evaluati
     for o in analysis.outputs:
         if o in DERIVED_OUTPUTS:
             lines.append(f"  {o}: {DERIVED_OUTPUTS[o].rule}")
+    if any(sc.shapley for sc in analysis.scenarios):
+        import textwrap
+
+        from plyrisk.methods.shapley import HOW_TO_READ
+
+        lines.append("")
+        lines += ["  " + t for t in textwrap.wrap(HOW_TO_READ, 96)]
     return lines
 
 
@@ -273,21 +286,28 @@ def _rankings(study, analysis: TransientAnalysis, sc, top: int) -> list[str]:
             continue
         groups = sc.group_ranking.get(o) or []
         params = sc.ranking.get(o) or []
+        shapley = o in sc.shapley
+        word = index_word(sc, o)
         if params:
             fit = sc.surrogate_quality.get(o, "")
-            lines.append(f"inputs ranked by total index of {o}" + (f" ({fit})" if fit else "")
+            lines.append(f"inputs ranked by {word} of {o}" + (f" ({fit})" if fit else "")
                          + ":")
             for r, item in enumerate(params[:top], start=1):
-                lines.append(f"  {r}. {item.name:<32} total {item.total:6.3f} ± "
-                             f"{item.total_ci:.3f}  first {item.first:6.3f}  "
-                             f"{_status(item)}")
+                value = (f"effect {item.total:6.3f} ± {item.total_ci:.3f}" if shapley else
+                         f"total {item.total:6.3f} ± {item.total_ci:.3f}  first "
+                         f"{item.first:6.3f}")
+                lines.append(f"  {r}. {item.name:<32} {value}  {_status(item)}")
         if groups:
-            lines.append(f"layers ranked by total index of {o}:")
+            lines.append(f"layers ranked by {word} of {o}"
+                         + (" (sum of the layer's parameters' effects)" if shapley else "")
+                         + ":")
             for r, item in enumerate(groups[:top], start=1):
                 name = (f"{item.name} (not a layer)" if item.name in CONDITION_GROUPS
                         else item.name)
-                lines.append(f"  {r}. {name:<32} total {item.total:6.3f} ± "
-                             f"{item.total_ci:.3f}  {_status(item)}")
+                lines.append(f"  {r}. {name:<32} {'effect' if shapley else 'total'} "
+                             f"{item.total:6.3f} ± {item.total_ci:.3f}  {_status(item)}")
+        if shapley and o == analysis.outputs[0]:
+            lines += _dependent_indices(study, sc, o, params[:top])
         m = sc.screening.get(o)
         if m is not None:
             lines.append(f"inputs ranked by Morris mu* of {o}:")
@@ -295,6 +315,18 @@ def _rankings(study, analysis: TransientAnalysis, sc, top: int) -> list[str]:
                 lines.append(f"  {r}. {m.names[j]:<32} mu* {m.mu_star[j]:8.3g} ± "
                              f"{m.mu_star_ci[j]:.2g}  sigma {m.sigma[j]:8.3g}")
     return lines
+
+
+def _dependent_indices(study, sc, output: str, ranked: list) -> list[str]:
+    """The four indices of dependent inputs of the headline output (``method = "shapley"``)."""
+    from plyrisk.text.shapley import dependent_index_lines
+
+    table = dependent_index_lines(sc.shapley[output][0], [item.name for item in ranked])
+    if not table:
+        return []
+    return ([f"indices of dependent inputs of {output} (full: with what the correlated "
+             "partners carry; indep.: the input's own part; first-order and total; "
+             f"{100 * study.analysis.confidence:g} % bootstrap intervals):"] + table)
 
 
 def sweep_lines(study, analysis: TransientAnalysis) -> list[str]:

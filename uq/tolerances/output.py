@@ -26,14 +26,14 @@ from typing import Any
 
 from plyrisk.cautions import cautions_text
 from plyrisk.study.definition import Parameter, Study
-from plyrisk.study.targets import Target, limit_quantity
+from plyrisk.study.targets import EVENT_TIMES, Target, limit_quantity
 from plyrisk.study.units import difference_unit, from_si
 from plyrisk.text.tables import text_table
 from plyrisk.tolerances.study import Outcome, ToleranceReport
 
 __all__ = ["ADVICE_PREFIX", "CORRELATED_SHARE", "ManufacturingRow", "beyond_horizon",
            "manufacturing_rows", "manufacturing_table", "read_tolerance_csv", "share_resolved",
-           "share_text", "shapley_shares", "tolerance_advice", "tolerance_text",
+           "share_text", "shapley_output", "shapley_shares", "tolerance_advice", "tolerance_text",
            "write_tolerance_csv"]
 
 ADVICE_PREFIX = "# advice: "
@@ -99,9 +99,31 @@ def beyond_horizon(report: ToleranceReport, value: float) -> bool:
     return math.isfinite(horizon) and -value >= horizon * (1.0 - 1e-12)
 
 
+def shapley_output(target: Target) -> str:
+    """The output whose Shapley effects stand for the variance shares of ``target``: the
+    inner-surface temperature (steady); for a transient target the capped time to its event (a
+    time quantile) or its burn indicator (a probability).
+
+    Examples
+    --------
+    >>> from plyrisk.study.targets import parse_target
+    >>> shapley_output(parse_target("P(second_degree_burn) <= 5 %"))
+    'second_degree_burn'
+    >>> shapley_output(parse_target("P5(time_to_second_degree_burn) >= 12 s"))
+    'capped_time_to_second_degree_burn'
+    """
+    if not target.transient:
+        return target.output
+    if target.kind == "quantile":
+        return f"capped_{target.output}"
+    event = next(e for e, t in EVENT_TIMES.items() if t == target.output)
+    return "sensor_criterion_reached" if event == "sensor_criterion" else event
+
+
 def shapley_shares(report: ToleranceReport, analysis: Any) -> dict[str, float] | None:
-    """Shapley effects of the inner-surface temperature at the tolerance study's worst exposure,
-    by parameter name, for :func:`manufacturing_table`; ``None`` without Shapley effects.
+    """Shapley effects of the target's output (:func:`shapley_output`) at the tolerance
+    study's worst exposure, by parameter name, for :func:`manufacturing_table`; ``None``
+    without Shapley effects of that output.
 
     Parameters
     ----------
@@ -114,7 +136,7 @@ def shapley_shares(report: ToleranceReport, analysis: Any) -> dict[str, float] |
     if not scenarios:
         return None
     s = min(int(report.whatif.baseline.scenario), len(scenarios) - 1)
-    effects = getattr(scenarios[s], "shapley", {}).get("inner_surface_temperature")
+    effects = getattr(scenarios[s], "shapley", {}).get(shapley_output(_target(report)))
     if not effects:
         return None
     ind = effects[0]

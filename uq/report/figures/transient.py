@@ -302,7 +302,8 @@ def _wrap(names: list[str]) -> int:
 
 def layer_indices_figure(ds: xr.Dataset, *, scenario: int | None = None,
                          output: str | None = None, groups: bool = True) -> Figure:
-    """Sobol indices per layer (or per input) of a derived output; Morris mu* without them.
+    """Sobol indices (or Shapley effects) per layer or per input of a derived output; Morris
+    mu* without them.
 
     Parameters
     ----------
@@ -346,6 +347,28 @@ def layer_indices_figure(ds: xr.Dataset, *, scenario: int | None = None,
             add_title(ax, ("Which layer buys the most time" if groups else
                            "Which input matters"), f"indices of {output}", label,
                       textwrap.fill(f"rule: {rule}", _wrap(names)), *([fit] if fit else []))
+        elif "shapley_effect" in s:
+            prefix, dim = ("shapley_group", "group") if groups else ("shapley", "parameter")
+            names = [str(n).replace("_", " ") for n in s[dim].values]
+            if groups:
+                from plyrisk.analysis.transient import CONDITION_GROUPS
+
+                names = [f"{n} (not a layer)" if str(g) in CONDITION_GROUPS else n
+                         for n, g in zip(names, s[dim].values, strict=True)]
+            fig = Figure(figsize=(8.0, 2.2 + 0.42 * len(names)), layout="constrained")
+            ax = fig.add_subplot()
+            ax.set_label("layer shapley" if groups else "shapley")
+            eff = np.asarray(s[f"{prefix}_effect"].values, float)
+            ci = np.asarray(s[f"{prefix}_effect_ci"].values, float)
+            order = np.argsort(-np.nan_to_num(eff, nan=-np.inf), kind="stable")
+            ax.barh([names[j] for j in order], eff[order], xerr=ci[order], color=BLUE,
+                    alpha=0.8, capsize=3)
+            ax.invert_yaxis()
+            ax.axvline(0.0, color="0.4", lw=0.8)
+            ax.set_xlabel("Shapley effect [-] (share of the variance; the effects add up to 1)")
+            add_title(ax, ("Which layer buys the most time" if groups else
+                           "Which input matters"), f"Shapley effects of {output}", label,
+                      textwrap.fill(f"rule: {rule}", _wrap(names)))
         elif "morris_mu_star" in s:
             names = [str(n) for n in s["parameter"].values]
             fig = Figure(figsize=(8.0, 2.2 + 0.42 * len(names)), layout="constrained")
@@ -360,5 +383,5 @@ def layer_indices_figure(ds: xr.Dataset, *, scenario: int | None = None,
             add_title(ax, f"Screening: Morris mu* of {output}", label,
                       textwrap.fill(f"rule: {rule}", _wrap(names)))
         else:
-            raise ValueError("the dataset has no indices (sobol_* or morris_*)")
+            raise ValueError("the dataset has no indices (sobol_*, shapley_* or morris_*)")
     return fig
