@@ -89,6 +89,8 @@ def test_run_writes_shapley_effects(tmp_path):
     assert csv_text.splitlines()[0].endswith("independent_total_index,"
                                              "independent_total_index_ci_half_width")
     assert np.isfinite(eff).all()
+    # the percentiles come from the 128 joint draws, all converged: no lost-samples warning
+    assert "did not converge" not in (tmp_path / "out" / "quantiles.csv").read_text()
 
 
 def test_tolerances_leave_out_the_variance_share(tmp_path):
@@ -154,6 +156,9 @@ def test_transient_study_with_correlated_inputs_end_to_end(tmp_path):
     names = list(ds["parameter"].values)
     assert r[names.index("exposure.incident_flux"), names.index("exposure.duration")] == -0.5
     assert int(ds["samples_used"]) == 64  # statistics from the joint draws
+    from plyrisk.report.figures.transient import independent_rows
+
+    assert int(independent_rows(ds).sum()) == 64  # and so do the figures
     report = (tmp_path / "a" / "report.html").read_text()
     for needle in ("Inputs ranked by Shapley effect of capped_time_to_second_degree_burn",
                    "Layers ranked by Shapley effect", "How to read Shapley effects",

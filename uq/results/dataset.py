@@ -537,9 +537,11 @@ def subset_warning(used: int, independent: int, where: str = "") -> str:
 
 
 def independent_samples(ds: xr.Dataset) -> int:
-    """Independent samples of a results dataset: the A and B rows of a Saltelli design, every
-    sample otherwise."""
+    """Independent samples of a results dataset: the A and B rows of a Saltelli design, the
+    joint draws of a Shapley design (``sample_block`` 0 or 1), every sample otherwise."""
     n = int(ds.attrs.get("evaluations", ds.sizes.get("sample", 0)))
+    if "sample_block" in ds and ds.sizes.get("sample", 0) == n:
+        return int(np.count_nonzero(np.asarray(ds["sample_block"].values) <= 1))
     if ds.attrs.get("method") == "saltelli":
         return 2 * int(ds.attrs.get("base_samples", 0))
     return n

@@ -7,7 +7,7 @@ import math
 import textwrap
 from typing import Any
 
-__all__ = ["INDEX_COLUMNS", "dependent_index_lines", "shapley_lines"]
+__all__ = ["INDEX_COLUMNS", "dependent_index_lines", "rerun_line", "shapley_lines"]
 
 
 def _line(rank: int, item: Any) -> str:
@@ -55,7 +55,6 @@ def shapley_lines(study: Any, sc: Any, *, top: int,
     output
         The output.
     """
-    from plyrisk.analysis.shapley import rerun_counts
     from plyrisk.methods.shapley import HOW_TO_READ
 
     a = study.analysis
@@ -86,18 +85,30 @@ def shapley_lines(study: Any, sc: Any, *, top: int,
         first = groups[0]
         lines.append(f"dominant layer: {first.name} (Shapley effect {first.total:.2f} ± "
                      f"{first.total_ci:.2f})")
-    unconv = [i for i in (*ranking, *groups) if not i.converged]
-    counts = [c for e in sc.shapley.get(output, (None, None)) if e is not None
-              for c in (rerun_counts(e, ci_threshold=a.index_ci_threshold),) if c is not None]
-    if unconv and counts:
-        perm, joint = max(c[0] for c in counts), max(c[1] for c in counts)
-        if joint > int(a.samples):
-            lines.append(f"  {len(unconv)} effect interval(s) wider than {thr} (for some, the "
-                         f"joint draws behind Var(Y) alone exceed it): rerun with [study] "
-                         f"samples = {joint} and permutations = {perm} or more to settle the "
-                         "ranking")
-        else:
-            lines.append(f"  {len(unconv)} effect interval(s) wider than {thr}: rerun with "
-                         f"[study] permutations = {perm} or more to settle the ranking")
+    rerun = rerun_line(study, sc, output)
+    if rerun:
+        lines.append(f"  {rerun}")
     lines += ["  " + t for t in textwrap.wrap(HOW_TO_READ, 96)]
     return lines
+
+
+def rerun_line(study: Any, sc: Any, output: str) -> str:
+    """What to rerun with when some Shapley effects of ``output`` are wider than the study's
+    ``index_ci_threshold`` ("" when none is, or no count would do)."""
+    from plyrisk.analysis.shapley import rerun_counts
+
+    a = study.analysis
+    thr = f"±{a.index_ci_threshold:g}"
+    unconv = [i for i in (*(sc.ranking.get(output) or []), *(sc.group_ranking.get(output) or []))
+              if not i.converged]
+    counts = [c for e in sc.shapley.get(output, (None, None)) if e is not None
+              for c in (rerun_counts(e, ci_threshold=a.index_ci_threshold),) if c is not None]
+    if not (unconv and counts):
+        return ""
+    perm, joint = max(c[0] for c in counts), max(c[1] for c in counts)
+    if joint > int(a.samples):
+        return (f"{len(unconv)} effect interval(s) wider than {thr} (for some, the joint draws "
+                f"behind Var(Y) alone exceed it): rerun with [study] samples = {joint} and "
+                f"permutations = {perm} or more to settle the ranking")
+    return (f"{len(unconv)} effect interval(s) wider than {thr}: rerun with [study] "
+            f"permutations = {perm} or more to settle the ranking")

@@ -306,6 +306,11 @@ def _rankings(study, analysis: TransientAnalysis, sc, top: int) -> list[str]:
                         else item.name)
                 lines.append(f"  {r}. {name:<32} {'effect' if shapley else 'total'} "
                              f"{item.total:6.3f} ± {item.total_ci:.3f}  {_status(item)}")
+        if shapley:
+            from plyrisk.text.shapley import rerun_line
+
+            rerun = rerun_line(study, sc, o)
+            lines += [f"  {rerun}"] if rerun else []
         if shapley and o == analysis.outputs[0]:
             lines += _dependent_indices(study, sc, o, params[:top])
         m = sc.screening.get(o)

@@ -439,11 +439,33 @@ def select_quantile(da: xr.DataArray, p: float) -> xr.DataArray:
     return da.isel(quantile=int(hit[0]))
 
 
+def joint_rows(ds: xr.Dataset) -> np.ndarray:
+    """Rows drawn independently from the joint input distribution: ``sample_block`` 0 or 1
+    (the A and B rows of a Saltelli design, the joint draws of a Shapley design, every row of
+    the other designs, whose rows are all block 0); every row of a file without
+    ``sample_block``.
+
+    Parameters
+    ----------
+    ds
+        A results dataset.
+
+    Returns
+    -------
+    numpy.ndarray
+        Boolean mask over ``sample``.
+    """
+    if "sample_block" not in ds:
+        return np.ones(ds.sizes["sample"], dtype=bool)
+    return np.asarray(ds["sample_block"].values) <= 1
+
+
 def independent_mask(ds: xr.Dataset) -> np.ndarray:
     """Rows drawn from the joint input distribution that converged, for one exposure.
 
-    Saltelli designs: the A and B rows (``sample_block`` 0 or 1); other designs: every row. Only
-    samples flagged ``converged`` with a finite inner-surface temperature are kept.
+    :func:`joint_rows` (a Saltelli design's A and B rows, a Shapley design's joint draws,
+    every row of the others). Only samples flagged ``converged`` with a finite inner-surface
+    temperature are kept.
 
     Parameters
     ----------
@@ -457,9 +479,7 @@ def independent_mask(ds: xr.Dataset) -> np.ndarray:
     """
     if "scenario" in ds["inner_surface_temperature"].dims:
         raise ValueError("independent_mask needs one exposure: select a scenario first")
-    rows = np.ones(ds.sizes["sample"], dtype=bool)
-    if ds.attrs.get("method") in ("saltelli", "sobol"):  # "sobol": files before 0.2
-        rows = np.asarray(ds["sample_block"].values) <= 1
+    rows = joint_rows(ds)
     ok = np.asarray(ds["converged"].values, dtype=bool)
     ok &= np.isfinite(np.asarray(ds["inner_surface_temperature"].values, dtype=float))
     return rows & ok

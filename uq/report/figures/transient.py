@@ -26,6 +26,7 @@ from plyrisk.report.figures.common import (
     ORANGE,
     add_title,
     format_percent,
+    joint_rows,
     one_exposure,
     pretty_unit,
     styled,
@@ -57,11 +58,9 @@ def _event_source(event: str) -> str:
 
 
 def independent_rows(one: xr.Dataset) -> np.ndarray:
-    """Converged rows drawn from the joint input distribution, for one exposure."""
-    rows = np.ones(one.sizes["sample"], dtype=bool)
-    if one.attrs.get("method") == "saltelli":
-        rows = np.asarray(one["sample_block"].values) <= 1
-    return rows & np.asarray(one["converged"].values, dtype=bool)
+    """Converged rows drawn from the joint input distribution, for one exposure
+    (:func:`plyrisk.report.figures.common.joint_rows`)."""
+    return joint_rows(one) & np.asarray(one["converged"].values, dtype=bool)
 
 
 def _exposure(one: xr.Dataset) -> tuple[float, float]:
