@@ -320,7 +320,7 @@ def cmd_run(args: argparse.Namespace) -> int:
                 result = run_study(study, options=options)
             except AnalysisError as err:
                 print(f"{PROG}: {err}", file=sys.stderr)
-                print(cautions_text())
+                print(cautions_text(transient=study.transient is not None))
                 return 1
             result.dataset.attrs["study_fingerprint"] = fingerprint
             # results.nc is compressed and written by a forked process while the report is drawn
@@ -589,7 +589,7 @@ def _add_report(subparsers) -> None:
             "plyrisk report study/results.nc --out share  # write it to another folder"),
         formatter_class=_Formatter,
     )
-    p.add_argument("results", help="a results.nc written by plyrisk run")
+    p.add_argument("results", help="a results.nc written by plyrisk run, or its folder")
     p.add_argument("--out", metavar="DIR", help="output folder (default: the folder of the "
                    "results file)")
     _verbosity(p, "no progress lines (they are shown on a terminal only)")
@@ -614,8 +614,11 @@ def cmd_report(args: argparse.Namespace) -> int:
 
     _progress_clock(args)
     path = Path(args.results)
+    if path.is_dir() and (path / "results.nc").is_file():  # the output folder of a run
+        path = path / "results.nc"
     if not path.is_file():
-        raise UsageError(f"{path}: no such results file")
+        raise UsageError(f"{path}: no such results file (give the results.nc that plyrisk run "
+                         "wrote, or its folder)")
     # stages on stderr when it is a terminal (a script reading stderr gets errors only, one
     # line each)
     quiet = args.quiet or not sys.stderr.isatty()
@@ -639,7 +642,7 @@ def cmd_report(args: argparse.Namespace) -> int:
     line = _update_folder(out_dir, str(ds.attrs.get("study_fingerprint", "")), ds, write,
                           "--out" if args.out else "output folder")
     print(line)
-    print(cautions_text())
+    print(cautions_text(transient=ds.attrs.get("study_kind") == "transient"))
     return 0
 
 
