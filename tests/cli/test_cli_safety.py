@@ -123,6 +123,7 @@ def test_two_runs_into_one_folder_and_ctrl_c(tmp_path):
         assert second.returncode == 2
         line = one_line(second.stderr)
         assert f"--out {out}: in use by another plyrisk run (pid {first.pid} on " in line
+        assert (out / LOCK_NAME).is_file()  # the refused run leaves the first one's lock alone
         first.send_signal(signal.SIGINT)  # Ctrl-C while solving
         _, err = first.communicate(timeout=120)
     finally:
@@ -137,6 +138,7 @@ def test_two_runs_into_one_folder_and_ctrl_c(tmp_path):
     assert command[:2] == ["plyrisk", "run"] and "--resume" in command
     assert main(command[1:]) == 0
     assert _chunks_done(store) == 7
+    assert not (out / LOCK_NAME).exists()  # the run that created it removed it
 
 
 def test_seed_of_2_to_the_64_is_refused_before_computing(tmp_path, capsys):
@@ -199,6 +201,7 @@ def test_foreign_files_in_the_folder_are_never_touched(tmp_path, capsys):
     assert main([*argv, "--seed", "3"]) == 0
     assert main([*argv, "--seed", "4", "--overwrite"]) == 0
     assert (tmp_path / "notes.html").read_text() == "my own report"
+    assert not (tmp_path / LOCK_NAME).exists()
     with xr.open_dataset(tmp_path / "results.nc") as ds:
         assert int(ds.attrs["seed"]) == 4
 

@@ -90,6 +90,47 @@ def test_a_second_process_is_refused_at_once_naming_the_holder(tmp_path):
         pass
 
 
+def test_the_lock_file_a_run_created_is_removed_at_the_end(tmp_path):
+    folder = tmp_path / "out"
+    with folder_lock(folder):
+        assert (folder / files.LOCK_NAME).is_file()
+        (folder / "results.nc").write_text("r")
+    assert sorted(p.name for p in folder.iterdir()) == ["results.nc"]
+
+
+def test_a_lock_file_found_in_place_is_left_there(tmp_path):
+    # plyrisk did not create it in this run (an older run's, or a killed run's): never removed
+    (tmp_path / files.LOCK_NAME).write_text("")
+    with folder_lock(tmp_path):
+        pass
+    assert (tmp_path / files.LOCK_NAME).is_file()
+
+
+def test_a_run_that_locked_a_removed_lock_file_starts_again_and_is_refused(tmp_path,
+                                                                        monkeypatch):
+    # B opens the lock file of run A, A ends (removes the file, then unlocks), C creates and
+    # locks a new one; B's lock on A's removed file must not let B in beside C.
+    with folder_lock(tmp_path):
+        stale, created = files._open_lock_file(tmp_path / files.LOCK_NAME)  # B, before A ends
+    assert not created and not (tmp_path / files.LOCK_NAME).exists()
+    opened = []
+    real = files._open_lock_file
+
+    def stale_first(path):
+        opened.append(path)
+        return (stale, False) if len(opened) == 1 else real(path)
+
+    with folder_lock(tmp_path):  # C
+        monkeypatch.setattr(files, "_open_lock_file", stale_first)
+        with pytest.raises(FolderBusy, match="in use by another plyrisk run"):
+            with folder_lock(tmp_path):  # B
+                pass  # pragma: no cover
+        monkeypatch.setattr(files, "_open_lock_file", real)
+        assert len(opened) == 2 and stale.closed
+        assert (tmp_path / files.LOCK_NAME).is_file()  # C's, untouched by B
+    assert not (tmp_path / files.LOCK_NAME).exists()
+
+
 def test_manifest_lists_the_set_with_sizes_and_hashes(tmp_path):
     m = _write_set(tmp_path, {"results.nc": "r", "figures/a.png": "png"})
     on_disk = json.loads((tmp_path / MANIFEST).read_text())

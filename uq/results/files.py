@@ -22,7 +22,9 @@ incomplete and can be replaced with ``overwrite``.
 
 :func:`folder_lock` is an advisory lock (``fcntl.flock``) on :data:`LOCK_NAME` inside a folder:
 a second plyrisk process that wants the same folder fails at once with one line naming the
-holder (pid, host, start time).
+holder (pid, host, start time). A run that created the lock file removes it when it lets go (still
+holding the lock, so a run that opened it in the meantime sees it gone and tries again); a lock
+file that was there before the run is left in place.
 """
 
 from __future__ import annotations
@@ -47,7 +49,7 @@ MANIFEST = "plyrisk-manifest.json"
 """Name of the manifest of an output folder."""
 
 LOCK_NAME = ".plyrisk-lock"
-"""Name of the lock file inside a locked folder (kept; it is empty while no run holds it)."""
+"""Name of the lock file inside a locked folder (removed at the end by the run that created it)."""
 
 STAGING_PREFIX = ".plyrisk-staging-"
 """Prefix of the folder a run's files are written to before they are moved into place."""
@@ -192,6 +194,15 @@ def folder_lock(folder: str | Path, *, what: str = "output folder") -> Iterator[
     OutputError
         When the folder cannot be created or written.
 
+    Notes
+    -----
+    The lock file is removed at the end only when this call created it, and while the lock is
+    still held. A process that opened the file before it was removed and locks it afterwards
+    holds a lock on a file no longer in the folder: it compares the file it locked with the one
+    at :data:`LOCK_NAME` (device and inode) and starts again on a mismatch, so two runs never
+    hold the folder at once. A lock file found in place (another run's, or one left by a killed
+    run) is used and left there.
+
     Examples
     --------
     >>> import tempfile
@@ -199,27 +210,35 @@ def folder_lock(folder: str | Path, *, what: str = "output folder") -> Iterator[
     >>> with folder_lock(folder):
     ...     (folder / LOCK_NAME).is_file()
     True
+    >>> (folder / LOCK_NAME).exists()
+    False
     """
     import fcntl
 
     folder = Path(folder)
-    try:
-        folder.mkdir(parents=True, exist_ok=True)
-        fh = open(folder / LOCK_NAME, "a+", encoding="utf-8")  # held to the end
-    except OSError as err:
-        raise OutputError(f"{what} {folder}: cannot write there ({err.strerror or err})"
-                          ) from None
-    try:
+    path = folder / LOCK_NAME
+    while True:
+        try:
+            folder.mkdir(parents=True, exist_ok=True)
+            fh, created = _open_lock_file(path)  # held to the end
+        except OSError as err:
+            raise OutputError(f"{what} {folder}: cannot write there ({err.strerror or err})"
+                              ) from None
         try:
             fcntl.flock(fh.fileno(), fcntl.LOCK_EX | fcntl.LOCK_NB)
         except OSError as err:
+            fh.seek(0)
+            holder = _describe_holder(fh.read())
+            fh.close()
             if err.errno not in (errno.EWOULDBLOCK, errno.EACCES, errno.EAGAIN):
                 raise OutputError(f"{what} {folder}: cannot lock it ({err.strerror or err})"
                                   ) from None
-            fh.seek(0)
-            holder = _describe_holder(fh.read())
             raise FolderBusy(f"{what} {folder}: in use by another plyrisk run ({holder}); wait "
                              "for it to finish or choose another folder") from None
+        if _same_file(fh, path):
+            break
+        fh.close()  # locked a lock file its run removed meanwhile: start again
+    try:
         fh.seek(0)
         fh.truncate()
         fh.write(json.dumps({"pid": os.getpid(), "host": socket.gethostname(),
@@ -231,9 +250,36 @@ def folder_lock(folder: str | Path, *, what: str = "output folder") -> Iterator[
             fh.seek(0)
             fh.truncate()
             fh.flush()
+            if created and _same_file(fh, path):
+                path.unlink(missing_ok=True)  # still locked: see the Notes
             fcntl.flock(fh.fileno(), fcntl.LOCK_UN)
     finally:
         fh.close()
+
+
+def _open_lock_file(path: Path) -> tuple[Any, bool]:
+    """The lock file opened for reading and writing, and whether this call created it."""
+    while True:
+        try:
+            fd = os.open(path, os.O_RDWR | os.O_CREAT | os.O_EXCL, 0o666)
+            created = True
+        except FileExistsError:
+            try:
+                fd = os.open(path, os.O_RDWR)
+            except FileNotFoundError:  # its run removed it in between: create it
+                continue
+            created = False
+        return os.fdopen(fd, "r+", encoding="utf-8"), created
+
+
+def _same_file(fh: Any, path: Path) -> bool:
+    """Whether the open file ``fh`` is the file now at ``path``."""
+    try:
+        here = os.stat(path)
+    except FileNotFoundError:
+        return False
+    mine = os.fstat(fh.fileno())
+    return (here.st_dev, here.st_ino) == (mine.st_dev, mine.st_ino)
 
 
 # ----------------------------------------------------------------------------------------------
