@@ -39,6 +39,8 @@ def test_each_medium_spells_temperatures_one_way(which, request):
     for name in ("summary.md", "report.html"):
         text = _page_text(run.out / name)
         assert "degC" not in text and "°C" in text, name
+        # no table cell gives a temperature's unit as K (the derived outputs' units column)
+        assert not re.search(r"(\|\s*K\s*\|)|(<td>K</td>)", text), name
     # the verdict block of the page shows the bound in the page's spelling
     md = (run.out / "summary.md").read_text(encoding="utf-8")
     verdict = md[md.index("## Verdict"):md.index("**Caution:**")]

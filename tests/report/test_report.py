@@ -239,6 +239,20 @@ def test_quantiles_csv(report):
     assert {r["unit"] for r in rows} == {ds.attrs["limit_display_unit"]}
 
 
+def test_percentile_tables_show_the_requested_percentiles_only(dataset):
+    # [study] percentiles (docs/config.md); the quantile axis also holds the band levels 1 and
+    # 99 %, which only quantiles.csv lists
+    from plyrisk.report.tables import quantile_tables
+
+    ds = dataset("saltelli", False)
+    assert {0.01, 0.99} <= {round(float(p), 6) for p in ds["quantile"].values}
+    wanted = [f"P{100 * p:g}" for p in ds.attrs["percentiles"]]
+    assert [[r[0] for r in t.rows] for t in quantile_tables(ds)] == [wanted]
+    fewer = ds.copy()
+    fewer.attrs["percentiles"] = [0.95]
+    assert [[r[0] for r in t.rows] for t in quantile_tables(fewer)] == [["P95"]]
+
+
 def test_indices_group_and_ranking_csv(report):
     ds, files = report
     folder = files.html.parent

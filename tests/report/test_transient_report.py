@@ -71,6 +71,42 @@ def test_turnout_demo_runs_end_to_end(tmp_path):
     assert "## What was studied" in files.markdown.read_text(encoding="utf-8")
 
 
+@pytest.mark.slow
+def test_event_tables_show_the_requested_percentiles_only():
+    # [study] percentiles (docs/config.md), as the steady percentile table; the band levels 1
+    # and 99 % stay in event_times.csv only
+    from plyrisk.report.transient import _event_tables
+
+    ds = _dataset(ts.skin_saltelli)
+    wanted = [f"P{100 * p:g}" for p in ds.attrs["percentiles"]]
+    events, peaks = _event_tables(ds)
+    assert events.header == ["event", *wanted, "P(within 30 s)"]
+    assert peaks.header == ["output", *wanted]
+    fewer = ds.copy()
+    fewer.attrs["percentiles"] = [0.05, 0.5]
+    assert [t.header[1:3] for t in _event_tables(fewer)] == [["P5", "P50"]] * 2
+
+
+def test_derived_output_temperatures_are_shown_in_the_display_unit():
+    # common practice: temperatures in the unit the study's limit is written in (°C on pages,
+    # plyrisk.display), not the kelvin the dataset stores
+    import numpy as np
+    import xarray as xr
+
+    from plyrisk.report.transient import _rules_table
+
+    def rows(unit):
+        ds = xr.Dataset(
+            {"peak_basal_temperature": ("sample", np.zeros(2), {"units": "K", "rule": "r"}),
+             "second_degree_burn": ("sample", np.zeros(2), {"units": "1", "rule": "r"})},
+            coords={"output": ["second_degree_burn", "peak_basal_temperature"]},
+            attrs={"limit_display_unit": unit})
+        return [r[:2] for r in _rules_table(ds).rows]
+
+    assert rows("degC") == [["second_degree_burn", "1"], ["peak_basal_temperature", "°C"]]
+    assert rows("degF")[1] == ["peak_basal_temperature", "°F"]
+
+
 def test_unresolved_indices_are_flagged_not_shown_as_values():
     from plyrisk.analysis.sobol import RankedIndex
     from plyrisk.text.indices import NOT_RESOLVED

@@ -30,7 +30,7 @@ if TYPE_CHECKING:  # pragma: no cover - for type checkers only
 __all__ = ["INDEX_KEYS", "IndexSet", "Table", "cell_text", "convergence_summary",
            "exposure_text", "headline_table", "index_sets", "nonconverged_table",
            "provenance_table", "quantile_note", "quantile_tables", "ranking_tables",
-           "scenario_values", "stack_tables"]
+           "requested_quantiles", "scenario_values", "stack_tables"]
 
 
 @dataclass(frozen=True)
@@ -211,12 +211,31 @@ def headline_table(ds: xr.Dataset) -> tuple[Table, list[str]]:
                  + (f" ({method} interval)" if method else "")), verdicts
 
 
+def requested_quantiles(ds: xr.Dataset) -> list[tuple[int, float]]:
+    """``(position, level)`` on the ``quantile`` axis of the study's own percentiles
+    (``[study] percentiles``, ``attrs["percentiles"]``), the ones the tables show; the axis
+    also holds the levels of the figure bands (1 and 99 %), which only the CSV tables list.
+    Every level for a dataset that names none.
+
+    Examples
+    --------
+    >>> ds = xr.Dataset(coords={"quantile": [0.01, 0.05, 0.5, 0.95, 0.99]},
+    ...                 attrs={"percentiles": [0.05, 0.5, 0.95]})
+    >>> [f"P{100 * p:g}" for _, p in requested_quantiles(ds)]
+    ['P5', 'P50', 'P95']
+    """
+    levels = np.asarray(ds["quantile"].values, dtype=float)
+    wanted = np.atleast_1d(np.asarray(ds.attrs.get("percentiles", []), dtype=float))
+    return [(k, float(p)) for k, p in enumerate(levels)
+            if wanted.size == 0 or np.any(np.isclose(wanted, p, rtol=0.0, atol=1e-9))]
+
+
 def quantile_tables(ds: xr.Dataset) -> list[Table]:
-    """The percentiles of the inner-surface temperature, one table per exposure."""
+    """The study's percentiles of the inner-surface temperature, one table per exposure."""
     out = []
     for _, label, one in scenario_values(ds):
         rows = []
-        for k, p in enumerate(np.asarray(one["quantile"].values, dtype=float)):
+        for k, p in requested_quantiles(one):
             rows.append([f"P{100 * p:g}",
                          _t(ds, one["inner_surface_temperature_quantile"].values[k]),
                          f"[{_t(ds, one['inner_surface_temperature_quantile_lower'].values[k])}, "

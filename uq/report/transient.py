@@ -23,9 +23,14 @@ from plyrisk.analysis.transient import CONDITION_GROUPS
 from plyrisk.cautions import TRANSIENT_CAUTIONS
 from plyrisk.report.csv_tables import write_csv
 from plyrisk.report.figures import transient as tf
-from plyrisk.report.figures.common import format_percent, format_temperature
+from plyrisk.report.figures.common import (
+    format_percent,
+    format_temperature,
+    pretty_unit,
+    temperature_unit,
+)
 from plyrisk.report.shapley import dependence_assumptions, has_shapley, shapley_paragraphs
-from plyrisk.report.tables import Table, cell_text, provenance_table
+from plyrisk.report.tables import Table, cell_text, provenance_table, requested_quantiles
 from plyrisk.report.verdict import verdict_html, verdict_markdown
 from plyrisk.results.dataset import is_swept, scenario_slices
 from plyrisk.text.indices import NOT_RESOLVED
@@ -248,7 +253,7 @@ def _event_tables(ds: xr.Dataset) -> list[Table]:
     for label, one in scenario_slices(ds):
         if "event_time_quantile" not in one:
             continue
-        probs = [float(p) for p in one["quantile"].values]
+        probs = [p for _, p in requested_quantiles(one)]  # as the steady tables
         rows = []
         for e in one["event"].values:
             e = str(e)
@@ -371,7 +376,10 @@ def _rules_table(ds: xr.Dataset) -> Table:
     rows = []
     for o in [str(v) for v in ds["output"].values] if "output" in ds.coords else []:
         rule = ds[o].attrs.get("rule", "") if o in ds else ""
-        rows.append([o, str(ds[o].attrs.get("units", "")) if o in ds else "", rule])
+        units = str(ds[o].attrs.get("units", "")) if o in ds else ""
+        if units == "K":  # a temperature: in the unit every other temperature is shown in
+            units = pretty_unit(temperature_unit(ds))
+        rows.append([o, units, rule])
     return Table(["derived output", "units", "rule"], rows,
                  "Outputs the indices refer to, and how each is derived")
 
