@@ -56,6 +56,7 @@ def test_run_writes_shapley_effects(tmp_path):
         assert needle in text, needle
     flat = " ".join(text.split())
     assert all(" ".join(c.split()) in flat for c in CAUTIONS)
+    assert "hot_side (not a layer)" in text and "dominant layer: hot_side" not in text
     ds = xr.open_dataset(tmp_path / "out" / "results.nc")
     ds = ds.isel(scenario=0)  # unswept: its one scenario
     eff = ds["shapley_effect"].sel(output="inner_surface_temperature").values
@@ -79,6 +80,7 @@ def test_run_writes_shapley_effects(tmp_path):
     report = (tmp_path / "out" / "report.html").read_text()
     assert "How to read Shapley effects" in report
     assert "Layers by Shapley effect" in report
+    assert "hot side (not a layer)" in report  # ranked with the layers, marked as conditions
     assert "Indices of dependent inputs of the inner-surface temperature" in report
     assert "dependent through a Gaussian copula" in report
     assert "sampled independently" not in report

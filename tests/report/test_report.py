@@ -253,6 +253,24 @@ def test_percentile_tables_show_the_requested_percentiles_only(dataset):
     assert [[r[0] for r in t.rows] for t in quantile_tables(fewer)] == [["P95"]]
 
 
+@pytest.mark.parametrize("method", ["saltelli", "pce"])
+def test_layer_rankings_mark_the_hot_side_as_not_a_layer(dataset, method):
+    # the invented study's hot-side convection coefficient is uncertain: its group is ranked
+    # with the layers, marked as conditions, as in a transient report
+    from plyrisk.report.tables import ranking_tables
+
+    ds = dataset(method, False)
+    assert "hot_side" in [str(g) for g in ds["group"].values]
+    layers = [t for t in ranking_tables(ds) if t.caption.startswith("Layers")]
+    assert len(layers) == 1
+    names = [r[1] for r in layers[0].rows]
+    assert "hot side (not a layer)" in names and "hot side" not in names
+    figure = (fg.group_indices_figure(ds) if method == "saltelli" else
+              fg.surrogate_indices_figure(ds, groups=True))
+    ticks = [t.get_text() for t in figure.axes[0].get_yticklabels()]
+    assert "hot side (not a layer)" in ticks
+
+
 def test_indices_group_and_ranking_csv(report):
     ds, files = report
     folder = files.html.parent

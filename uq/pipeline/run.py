@@ -223,9 +223,15 @@ def _limit_ranking_lines(sc, output: str, words: str) -> list[str]:
         if ranked:
             lines.append(f"most influential {what} for the {words}, which the limit applies "
                          "to (total Sobol index ± CI half-width):")
-            lines += [f"  {r}. {item.name:<32} {item.total:.3f} ± {item.total_ci:.3f}"
-                      for r, item in enumerate(ranked[:TOP_COUNT], start=1)]
+            lines += [f"  {r}. {_name(item.name, what):<32} {item.total:.3f} ± "
+                      f"{item.total_ci:.3f}" for r, item in enumerate(ranked[:TOP_COUNT], start=1)]
     return lines
+
+
+def _name(name: str, what: str) -> str:
+    from plyrisk.text.indices import layer_label
+
+    return layer_label(name) if what == "layers" else name
 
 
 def _fv(fmt, value: float) -> str:

@@ -7,6 +7,7 @@ import numpy as np
 import xarray as xr
 
 from plyrisk.report.tables import Table, exposure_text, scenario_values
+from plyrisk.text.indices import layer_label
 
 __all__ = ["DEPENDENT_INPUTS", "dependence_assumptions", "dependent_index_table", "has_shapley",
            "shapley_paragraphs", "shapley_tables", "write_shapley_csv"]
@@ -73,7 +74,8 @@ def shapley_tables(ds: xr.Dataset) -> list[Table]:
             eff = np.asarray(one[f"{prefix}_effect"].values[k], dtype=float)
             ci = np.asarray(one[f"{prefix}_effect_ci"].values[k], dtype=float)
             ok = np.asarray(one[f"{prefix}_converged"].values[k], dtype=bool)
-            names = [str(n).replace("_", " ") for n in one[dim].values]
+            names = [str(n).replace("_", " ") if dim == "parameter" else
+                     layer_label(str(n), spaced=True) for n in one[dim].values]
             order = np.argsort(-np.nan_to_num(eff, nan=-np.inf), kind="stable")
             rows = []
             for r, j in enumerate(order, start=1):

@@ -23,6 +23,7 @@ from plyrisk.report.figures import outputs as fg
 from plyrisk.report.figures.common import PRIMARY, format_limit_value, limit_quantile_variables
 from plyrisk.results.dataset import is_swept, scenario_slices, subset_warnings
 from plyrisk.study.units import QUANTITIES, TEMPERATURE, format_value
+from plyrisk.text.indices import layer_label
 
 if TYPE_CHECKING:  # pragma: no cover - for type checkers only
     from plyrisk.study.definition import Study
@@ -350,7 +351,7 @@ def ranking_tables(ds: xr.Dataset) -> list[Table]:
             out.append(Table(["rank", "parameter", "layer", "total index ± CI",
                               "first-order index ± CI", "status"], rows,
                              f"Parameters by total Sobol index{how}{suffix}"))
-            groups = [str(g).replace("_", " ") for g in one["group"].values]
+            groups = [layer_label(str(g), spaced=True) for g in one["group"].values]
             rows = [[str(int(ix.g_rank[j])), groups[j],
                      _idx(float(ix.g["total"][j]), float(ix.g["total_ci"][j])),
                      _idx(float(ix.g["first"][j]), float(ix.g["first_ci"][j])),

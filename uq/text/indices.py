@@ -9,6 +9,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from plyrisk.analysis.sobol import RankedIndex, not_resolved
+from plyrisk.analysis.transient import CONDITION_GROUPS
 
 NOT_RESOLVED = "not resolved: more samples"
 """Status of an index estimate outside [0, 1] by more than its interval."""
@@ -40,7 +41,34 @@ def _terms(surrogate) -> str:
     return f"{surrogate.terms} terms"
 
 
-def ranked_line(rank: int, item: RankedIndex, *, first: bool = True) -> str:
+def layer_label(group: str, *, spaced: bool = False) -> str:
+    """A parameter group as a ranking of layers shows it: a group of conditions rather than of
+    a layer (:data:`plyrisk.analysis.transient.CONDITION_GROUPS`: the hot or cold side, the
+    exposure, the wearer) is marked "(not a layer)".
+
+    Parameters
+    ----------
+    group
+        The group's name (a layer name, ``hot_side``, ``exposure`` ...).
+    spaced
+        Spell underscores as spaces, as the report does.
+
+    Examples
+    --------
+    >>> layer_label("hot_side"), layer_label("hot_side", spaced=True), layer_label("liner")
+    ('hot_side (not a layer)', 'hot side (not a layer)', 'liner')
+    """
+    shown = group.replace("_", " ") if spaced else group
+    return f"{shown} (not a layer)" if group in CONDITION_GROUPS else shown
+
+
+def first_layer(groups: list[RankedIndex]) -> RankedIndex | None:
+    """The first ranked group that is a layer (never a group of conditions), else ``None``."""
+    return next((g for g in groups if g.name not in CONDITION_GROUPS), None)
+
+
+def ranked_line(rank: int, item: RankedIndex, *, first: bool = True,
+                name: str | None = None) -> str:
     """One ranked parameter or layer: total (and first-order) index, half-width, status.
 
     Parameters
@@ -51,9 +79,11 @@ def ranked_line(rank: int, item: RankedIndex, *, first: bool = True) -> str:
         The ranked index.
     first
         Show the first-order index too.
+    name
+        The name shown (default ``item.name``), e.g. :func:`layer_label` of a group.
     """
-    text = f"  {rank}. {item.name:<32} " + _index("", item.total, item.total_ci,
-                                                    item.total_converged)
+    text = f"  {rank}. {name or item.name:<32} " + _index("", item.total, item.total_ci,
+                                                            item.total_converged)
     if first:
         text += "   " + _index("first ", item.first, item.first_ci, item.first_converged)
         if item.first_negative:
@@ -102,7 +132,7 @@ def index_lines(study: Study, sc, *, top: int, temperature: Callable[[float], st
     groups = sc.group_ranking.get("inner_surface_temperature", [])
     if groups:
         lines.append("layers (grouped total index ± CI half-width):")
-        lines += [ranked_line(r, item, first=False)
+        lines += [ranked_line(r, item, first=False, name=layer_label(item.name))
                   for r, item in enumerate(groups[:top], start=1)]
     bad = [i.name for i in (*ranking, *groups) if unresolved(i)]
     if bad:

@@ -10,9 +10,10 @@ from typing import Any
 __all__ = ["INDEX_COLUMNS", "dependent_index_lines", "rerun_line", "shapley_lines"]
 
 
-def _line(rank: int, item: Any) -> str:
+def _line(rank: int, item: Any, name: str | None = None) -> str:
     ok = "ok" if item.converged else "WIDE"
-    return f"  {rank}. {item.name:<32} {item.total:6.3f} ± {item.total_ci:.3f}  {ok:<4}".rstrip()
+    return (f"  {rank}. {name or item.name:<32} {item.total:6.3f} ± {item.total_ci:.3f}  "
+            f"{ok:<4}").rstrip()
 
 
 INDEX_COLUMNS = (("full_first", "full first"), ("independent_first", "indep. first"),
@@ -56,6 +57,7 @@ def shapley_lines(study: Any, sc: Any, *, top: int,
         The output.
     """
     from plyrisk.methods.shapley import HOW_TO_READ
+    from plyrisk.text.indices import first_layer, layer_label
 
     a = study.analysis
     ranking = sc.ranking.get(output) or []
@@ -81,10 +83,16 @@ def shapley_lines(study: Any, sc: Any, *, top: int,
         lines += table
     if groups:
         lines.append("layers (sum of their parameters' Shapley effects):")
-        lines += [_line(r, item) for r, item in enumerate(groups[:top], start=1)]
-        first = groups[0]
-        lines.append(f"dominant layer: {first.name} (Shapley effect {first.total:.2f} ± "
-                     f"{first.total_ci:.2f})")
+        lines += [_line(r, item, layer_label(item.name))
+                  for r, item in enumerate(groups[:top], start=1)]
+        first = first_layer(groups)  # never the hot or cold side
+        if first is not None:
+            text = (f"dominant layer: {first.name} (Shapley effect {first.total:.2f} ± "
+                    f"{first.total_ci:.2f}")
+            if groups[0] is not first:
+                text += (f"; the {groups[0].name} itself moves it more: Shapley effect "
+                         f"{groups[0].total:.2f} ± {groups[0].total_ci:.2f}")
+            lines.append(text + ")")
     rerun = rerun_line(study, sc, output)
     if rerun:
         lines.append(f"  {rerun}")

@@ -25,6 +25,7 @@ from plyrisk.report.figures.common import (
     styled,
 )
 from plyrisk.results.dataset import scenario_labels
+from plyrisk.text.indices import layer_label
 
 __all__ = ["group_indices_figure", "growth_figure", "indices_figure",
            "surrogate_indices_figure"]
@@ -193,7 +194,7 @@ def group_indices_figure(ds: xr.Dataset, *, scenario: int | None = None,
     s = _sobol_output(one, output)
     if "sobol_group_total" not in s:
         raise ValueError("the dataset has no grouped Sobol indices")
-    groups = [str(g).replace("_", " ") for g in s["group"].values]
+    groups = [layer_label(str(g), spaced=True) for g in s["group"].values]
     with styled():
         fig = Figure(figsize=(8.0, 1.6 + 0.42 * len(groups)), layout="constrained")
         ax = fig.add_subplot()
@@ -237,7 +238,7 @@ def surrogate_indices_figure(ds: xr.Dataset, *, scenario: int | None = None,
         raise ValueError("the dataset has no surrogate indices (pce_*); they exist for "
                          "method = 'pce' when a surrogate could be fitted")
     dim = "group" if groups else "parameter"
-    names = [str(n).replace("_", " ") if groups else str(n) for n in one[dim].values]
+    names = [layer_label(str(n), spaced=True) if groups else str(n) for n in one[dim].values]
     q2, order = float(one["pce_q2"].item()), int(one["pce_order"].item())
     with styled():
         fig = Figure(figsize=(8.0, 1.9 + 0.42 * len(names)), layout="constrained")
