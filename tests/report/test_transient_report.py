@@ -59,8 +59,22 @@ def test_turnout_demo_runs_end_to_end(tmp_path):
     text = summary_text(result)
     assert text.index("ANSWER") < text.index("CAUTIONS")
     assert "time to second-degree burn: P5" in text and "dominant layer:" in text
+    # at 16 base samples too few samples burn for any index: each output says so in one
+    # plain line with the run's own counts, instead of rows of nan
+    ds = read_results(result.path).isel(scenario=0)
+    k = int(ds["event_count"].sel(event="second_degree_burn"))
+    n, h = int(ds["samples_used"]), float(ds.attrs["horizon"])
+    flat = " ".join(text.split())
+    assert "nan" not in text.split()
+    for o in ("capped_time_to_second_degree_burn", "second_degree_burn"):
+        assert (f"no index for {o}: a second-degree burn within {h:g} s in only {k} of {n} "
+                "samples, too few at this sample size; raise [study] samples") in flat
     files = write_report(read_results(result.path), tmp_path)
     assert files.html.exists() and files.markdown.exists()
+    md = files.markdown.read_text(encoding="utf-8")
+    assert f"no index for second_degree_burn: a second-degree burn within {h:g} s in only " \
+           f"{k} of {n} samples" in md
+    assert "the same in every converged sample" not in md
     html = files.html.read_text(encoding="utf-8")
     # what was studied: every uncertain input with its distribution, as written
     assert html.index(">What was studied</h2>") < html.index(">Figures</h2>")
@@ -105,6 +119,47 @@ def test_derived_output_temperatures_are_shown_in_the_display_unit():
 
     assert rows("degC") == [["second_degree_burn", "1"], ["peak_basal_temperature", "°C"]]
     assert rows("degF")[1] == ["peak_basal_temperature", "°F"]
+
+
+def test_no_index_line_says_how_few_samples_reach_the_event():
+    # closed form: the counts are passed in; the line names the minority side
+    from plyrisk.text.transient import no_index_line
+
+    assert no_index_line("second_degree_burn", wearer_kind="skin", horizon=60.0, count=7,
+                         n=64) == ("no index for second_degree_burn: a second-degree burn "
+                                   "within 60 s in only 7 of 64 samples, too few at this "
+                                   "sample size; raise [study] samples")
+    assert "in all but 3 of 64 samples" in no_index_line(
+        "capped_time_to_second_degree_burn", wearer_kind="skin", horizon=60.0, count=61, n=64)
+    assert "the sensor reaching its second-degree criterion within 20 s in only 1 of 48" in \
+        no_index_line("sensor_criterion_reached", wearer_kind="sensor", horizon=20.0, count=1,
+                      n=48)
+    assert "it varies in too few samples" in no_index_line(
+        "peak_basal_temperature", wearer_kind="skin", horizon=60.0, count=None, n=64)
+
+
+@pytest.mark.slow
+def test_undefined_indices_in_the_report_say_why_constant_ones_say_so():
+    import numpy as np
+
+    from plyrisk.report.transient import _dominant, _ranking_tables
+
+    ds = _dataset(ts.skin_saltelli).copy(deep=True)
+    one = ds.isel(scenario=0)
+    o = str(ds["output"].values[0])
+    k = int(one["event_count"].sel(event="second_degree_burn"))
+    n = int(one["samples_used"])
+    for v in ("sobol_total", "sobol_total_ci", "sobol_first", "sobol_first_ci",
+              "sobol_group_total", "sobol_group_total_ci"):
+        ds[v].loc[{"output": o}] = np.nan
+    rows = _ranking_tables(ds)[0].rows
+    assert len(rows) == 1 and rows[0][-1].startswith(f"no index for {o}: ")
+    assert f" of {n} samples" in rows[0][-1] and (f"only {k} " in rows[0][-1]
+                                                  or f"all but {n - k} " in rows[0][-1])
+    assert _dominant(ds.isel(scenario=0)).startswith(f"dominant layer: not determined (no "
+                                                     f"index for {o}: ")
+    ds[o][...] = 30.0  # the same in every sample: said as such
+    assert "same in every converged sample" in _ranking_tables(ds)[0].rows[0][-1]
 
 
 def test_unresolved_indices_are_flagged_not_shown_as_values():

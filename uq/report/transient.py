@@ -18,8 +18,9 @@ from typing import Any
 import numpy as np
 import xarray as xr
 
+from plyrisk.analysis.outputs import DERIVED_OUTPUTS
 from plyrisk.analysis.sobol import not_resolved
-from plyrisk.analysis.transient import CONDITION_GROUPS
+from plyrisk.analysis.transient import CONDITION_GROUPS, EVENTS
 from plyrisk.cautions import TRANSIENT_CAUTIONS
 from plyrisk.report.csv_tables import write_csv
 from plyrisk.report.figures import transient as tf
@@ -34,7 +35,7 @@ from plyrisk.report.tables import Table, cell_text, provenance_table, requested_
 from plyrisk.report.verdict import verdict_html, verdict_markdown
 from plyrisk.results.dataset import is_swept, scenario_slices
 from plyrisk.text.indices import NOT_RESOLVED
-from plyrisk.text.transient import criterion_note
+from plyrisk.text.transient import criterion_note, no_index_line
 
 __all__ = ["headline_lines", "transient_figures", "write_transient_report"]
 
@@ -93,9 +94,8 @@ def _dominant(one: xr.Dataset) -> str:
                 text += (f"; the {names[k]} itself moves it more: {word} {tot[k]:.2f} ± "
                          f"{ci[k]:.2f}")
             return text + ")"
-        if output in one and np.ptp(np.nan_to_num(np.asarray(one[output].values, float))) > 0:
-            return (f"dominant layer: not determined (the indices of {output} are undefined at "
-                    "this sample size; raise [study] samples)")
+        if _varies(one, output):
+            return f"dominant layer: not determined ({_no_index(one, output)})"
         return f"dominant layer: none ({output} is the same in every sample)"
     if "morris_mu_star" in one:
         mu = np.asarray(one["morris_mu_star"].sel(output=output).values, float)
@@ -104,6 +104,28 @@ def _dominant(one: xr.Dataset) -> str:
             return (f"dominant layer: {one['parameter_group'].values[j]} (largest Morris mu* "
                     f"of {output}: {one['parameter'].values[j]})")
     return ""
+
+
+def _varies(one: xr.Dataset, output: str) -> bool:
+    """Whether a derived output differs between converged samples of one exposure."""
+    if output not in one:
+        return False
+    v = np.asarray(one[output].values, float)
+    v = v[np.isfinite(v)]
+    return v.size > 1 and bool(np.ptp(v) > 0)
+
+
+def _no_index(one: xr.Dataset, output: str) -> str:
+    """Why an output that varies has no index (:func:`plyrisk.text.transient.no_index_line`)."""
+    kind = str(one.attrs.get("wearer_kind", ""))
+    source = DERIVED_OUTPUTS[output].source if output in DERIVED_OUTPUTS else ""
+    count = None
+    for event, time in EVENTS.get(kind, ()):
+        if time == source and "event_count" in one and event in one["event"].values:
+            count = int(one["event_count"].sel(event=event))
+    n = int(one["samples_used"]) if "samples_used" in one else 0
+    return no_index_line(output, wearer_kind=kind, horizon=float(one.attrs["horizon"]),
+                         count=count, n=n)
 
 
 def headline_lines(ds: xr.Dataset) -> list[tuple[str, list[str]]]:
@@ -205,22 +227,31 @@ def transient_figures(ds: xr.Dataset) -> list[Any]:
                 "P5.", tf.burn_time_figure(ds, scenario=idx)))
         if any(v in one for v in ("sobol_group_total", "shapley_group_effect",
                                   "morris_mu_star")):
+            why = ""  # every index n/a: say why under the figure, as in the ranking
+            first = str(one["output"].values[0]) if one.sizes.get("output") else ""
+            values = ("sobol_total" if "sobol_total" in one else
+                      "shapley_effect" if "shapley_effect" in one else "")
+            if (values and first and _varies(one, first)
+                    and not np.isfinite(np.asarray(one[values].sel(output=first).values,
+                                                   float)).any()):
+                why = f" Every index is n/a here: {_no_index(one, first)}."
+            shapley = "shapley_group_effect" in one
             try:
                 out.append(ReportFigure(
                     f"layer_indices{sfx}", f"Which layer buys the most time{at}",
                     ("Shapley effects of the first derived output (the capped time to burn) "
                      "per layer: the sum of the layer's parameters' effects, with bootstrap "
-                     "intervals. " if "shapley_group_effect" in one else
+                     "intervals. " if shapley else
                      "Indices of the first derived output (the capped time to burn) per layer: "
                      "each layer's parameters varied together. ")
                     + "Indices of a capped output count every sample without a burn as burning "
-                    "at the horizon; see the rule in the title.",
+                    "at the horizon; see the rule in the title." + why,
                     tf.layer_indices_figure(ds, scenario=idx, groups=True)))
                 out.append(ReportFigure(
                     f"input_indices{sfx}", f"Indices per input{at}",
                     "The same output's "
-                    + ("Shapley effects" if "shapley_effect" in one else "indices")
-                    + " per uncertain input.",
+                    + ("Shapley effects" if shapley else "indices")
+                    + " per uncertain input." + why,
                     tf.layer_indices_figure(ds, scenario=idx, groups=False)))
             except ValueError:
                 pass
@@ -303,8 +334,9 @@ def _ranking_tables(ds: xr.Dataset) -> list[Table]:
                          _index_status(((tot[j], tci[j]), (first[j], fci[j])), threshold)]
                         for k, j in enumerate(order)]
                 if not np.isfinite(tot).any():  # e.g. every sample burns, or none does
-                    rows = [["-", "(none)", "", "", "", "the output is the same in every "
-                             "converged sample: no input moves it"]]
+                    rows = [["-", "(none)", "", "", "", _no_index(one, o) if _varies(one, o)
+                             else "the output is the same in every converged sample: no "
+                             "input moves it"]]
                 tables.append(Table(["rank", "input", "layer", "total index", "first-order",
                                      "status"],
                                     rows, f"Inputs ranked for {o}"

@@ -179,9 +179,9 @@ def headline_sentences(study: Any, analysis: TransientAnalysis, s: int) -> list[
     elif primary in sc.constant_outputs:
         out.append(f"dominant layer: none ({primary} is the same in every sample)")
     elif sc.indices or sc.screening:
-        out.append(f"dominant layer: not determined (the indices of {primary} are undefined at "
-                   "this sample size, e.g. too few samples burn in a design block; raise "
-                   "[study] samples)")
+        count, n = _event_count(analysis, sc, primary)
+        out.append("dominant layer: not determined (" + no_index_line(
+            primary, wearer_kind=f.wearer_kind, horizon=f.horizon, count=count, n=n) + ")")
     return out
 
 
@@ -277,6 +277,60 @@ def _details(study, analysis: TransientAnalysis, sc, temperature) -> list[str]:
     return lines
 
 
+def no_index_line(output: str, *, wearer_kind: str, horizon: float, count: int | None,
+                  n: int) -> str:
+    """One plain line on why an output that varies got no index (every estimate undefined).
+
+    For an output of a burn or of the sensor's criterion (the capped time, the indicator) it
+    says in how few samples the event occurs, or fails to: a design block (a replicate of a
+    Saltelli design) in which every sample agrees has no variance to share out.
+
+    Parameters
+    ----------
+    output
+        The derived output.
+    wearer_kind
+        ``"skin"``, ``"sensor"`` or ``"prescribed"``.
+    horizon
+        The horizon [s].
+    count
+        Converged independent samples with the output's event within the horizon; ``None``
+        when the output is not one of an event.
+    n
+        Converged independent samples.
+
+    Examples
+    --------
+    >>> no_index_line("second_degree_burn", wearer_kind="skin", horizon=60.0, count=7,
+    ...               n=64).split(": ", 1)[1][:48]
+    'a second-degree burn within 60 s in only 7 of 64'
+    """
+    source = DERIVED_OUTPUTS[output].source if output in DERIVED_OUTPUTS else ""
+    event = next((e for e, t in EVENTS.get(wearer_kind, ()) if t == source), None)
+    if event is None or count is None:
+        why = "it varies in too few samples"
+    else:
+        what = ("the sensor reaching its second-degree criterion" if event == "sensor_criterion"
+                else f"a {EVENT_TEXT[event]}")
+        few = f"only {count}" if count <= n - count else f"all but {n - count}"
+        why = f"{what} within {horizon:g} s in {few} of {n} samples"
+    return f"no index for {output}: {why}, too few at this sample size; raise [study] samples"
+
+
+def _event_count(analysis: TransientAnalysis, sc, output: str) -> tuple[int | None, int]:
+    """(samples with the output's event, converged independent samples) of one exposure."""
+    source = DERIVED_OUTPUTS[output].source if output in DERIVED_OUTPUTS else ""
+    for event, time in EVENTS.get(analysis.facts.wearer_kind, ()):
+        if time == source and event in sc.burn:
+            return sc.burn[event].count, sc.burn[event].n
+    any_burn = next(iter(sc.burn.values()), None)
+    return None, any_burn.n if any_burn is not None else 0
+
+
+def _undefined(items: list) -> bool:
+    return bool(items) and not any(math.isfinite(i.total) for i in items)
+
+
 def _rankings(study, analysis: TransientAnalysis, sc, top: int) -> list[str]:
     lines = []
     for o in analysis.outputs[:2]:
@@ -288,6 +342,11 @@ def _rankings(study, analysis: TransientAnalysis, sc, top: int) -> list[str]:
         params = sc.ranking.get(o) or []
         shapley = o in sc.shapley
         word = index_word(sc, o)
+        if _undefined(params) and (not groups or _undefined(groups)):
+            count, n = _event_count(analysis, sc, o)
+            lines.append(no_index_line(o, wearer_kind=analysis.facts.wearer_kind,
+                                       horizon=analysis.facts.horizon, count=count, n=n))
+            continue
         if params:
             fit = sc.surrogate_quality.get(o, "")
             lines.append(f"inputs ranked by {word} of {o}" + (f" ({fit})" if fit else "")
