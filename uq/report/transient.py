@@ -99,6 +99,8 @@ def _dominant(one: xr.Dataset) -> str:
         return f"dominant layer: none ({output} is the same in every sample)"
     if "morris_mu_star" in one:
         mu = np.asarray(one["morris_mu_star"].sel(output=output).values, float)
+        mu = np.where([str(g) not in CONDITION_GROUPS for g in one["parameter_group"].values],
+                      mu, np.nan)  # the dominant *layer*: never the exposure or the wearer
         if np.isfinite(mu).any():
             j = int(np.nanargmax(mu))
             return (f"dominant layer: {one['parameter_group'].values[j]} (largest Morris mu* "

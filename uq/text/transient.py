@@ -95,8 +95,9 @@ def dominant(study: Any, sc: TransientScenarioAnalysis, output: str) -> tuple[st
                     f"{groups[0].total:.2f} ± {groups[0].total_ci:.2f}")
         return first.name, how
     m = sc.screening.get(output)
-    if m is not None and np.isfinite(m.mu_star).any():
-        j = int(np.nanargmax(m.mu_star))
+    layer = np.array([p.group not in CONDITION_GROUPS for p in study.parameters], dtype=bool)
+    if m is not None and layer.size == len(m.mu_star) and np.isfinite(m.mu_star[layer]).any():
+        j = int(np.nanargmax(np.where(layer, m.mu_star, np.nan)))  # never the exposure
         group = study.parameters[j].group
         return group, f"largest Morris mu*: {m.names[j]}"
     return "", ""
