@@ -19,6 +19,7 @@ from matplotlib.figure import Figure
 
 from plyrisk.report.figures import outputs as fg
 from plyrisk.results.dataset import is_swept
+from plyrisk.text.indices import layer_label
 
 UREG = pint.UnitRegistry()
 
@@ -171,7 +172,7 @@ def test_group_bars_are_the_group_indices(invented_dataset):
         d = one(ds, s).sel(output="inner_surface_temperature")
         total = _bars(axes(fig, "group indices"), "total")
         for j, g in enumerate(d["group"].values):
-            assert total[str(g).replace("_", " ")] == pytest.approx(
+            assert total[layer_label(str(g), spaced=True)] == pytest.approx(
                 float(d["sobol_group_total"].values[j]))
 
 
@@ -195,7 +196,7 @@ def test_surrogate_bars_are_the_surrogate_indices(groups, invented_dataset):
         ax = axes(fig, "surrogate group indices" if groups else "surrogate indices")
         total, first = _bars(ax, "total"), _bars(ax, "first")
         for j, name in enumerate(d[dim].values):
-            key = str(name).replace("_", " ") if groups else str(name)
+            key = layer_label(str(name), spaced=True) if groups else str(name)
             assert total[key] == pytest.approx(float(d[f"{prefix}_total"].values[j]))
             assert first[key] == pytest.approx(float(d[f"{prefix}_first"].values[j]))
         assert f"Q2 = {float(d['pce_q2'].item()):.3f}" in " ".join(t.get_text()
