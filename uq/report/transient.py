@@ -384,7 +384,8 @@ def _shapley_tables(one: xr.Dataset, output: str, label: str, *, first: bool) ->
                                _index_status(((eff[j], ci[j]),), threshold)])
         if not np.isfinite(eff).any():
             rows = [["-", "(none)"] + ([""] if dim == "parameter" else []) + [
-                "", "the output is the same in every converged sample: no input moves it"]]
+                "", _no_index(one, output) if _varies(one, output) else
+                "the output is the same in every converged sample: no input moves it"]]
         header = ["rank", "input", "layer"] if dim == "parameter" else ["rank", "layer"]
         tables.append(Table(header + ["Shapley effect ± CI", "status"], rows,
                             f"{who} ranked by Shapley effect of {output}{at}"))
