@@ -91,6 +91,7 @@ def test_run_writes_shapley_effects(tmp_path):
     assert csv_text.splitlines()[0].endswith("independent_total_index,"
                                              "independent_total_index_ci_half_width")
     assert np.isfinite(eff).all()
+    _check_summary_json(tmp_path / "out", "inner_surface_temperature")
     # the percentiles come from the 128 joint draws, all converged: no lost-samples warning
     assert "did not converge" not in (tmp_path / "out" / "quantiles.csv").read_text()
 
@@ -168,6 +169,7 @@ def test_transient_study_with_correlated_inputs_end_to_end(tmp_path):
                    "dependent through a Gaussian copula", "Which layer buys the most time"):
         assert needle in report, needle
     assert (tmp_path / "a" / "shapley.csv").read_text().startswith("scenario,output,kind")
+    _check_summary_json(tmp_path / "a", "capped_time_to_second_degree_burn")
     assert "Shapley effect" in (tmp_path / "a" / "tolerances.csv").read_text()
     code, text = run(["report", str(tmp_path / "a"), "--out", str(tmp_path / "again")])
     assert code == 0, text  # the folder of a run stands for its results.nc
@@ -183,3 +185,17 @@ def test_transient_shapley_refuses_growth_with_one_line(tmp_path, capsys):
     _, err = capsys.readouterr()
     assert code == 2
     assert len(err.strip().splitlines()) == 1 and "--until-converged" in err
+
+
+def _check_summary_json(out: Path, output: str) -> None:
+    """summary.json ranks parameters and layers by Shapley effect and validates."""
+    import json
+
+    jsonschema = pytest.importorskip("jsonschema")
+    data = json.loads((out / "summary.json").read_text(encoding="utf-8"))
+    schema = json.loads((ROOT / "docs" / "summary.schema.json").read_text(encoding="utf-8"))
+    jsonschema.Draft202012Validator(schema).validate(data)
+    for key in ("top_parameters", "top_layers"):
+        top = data["scenarios"][0][key]
+        assert top["estimator"] == "shapley" and top["measure"] == "shapley_effect", key
+        assert top["output"] == output and top["items"][0]["rank"] == 1

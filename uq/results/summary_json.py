@@ -132,6 +132,8 @@ def _ranked(ds: xr.Dataset, k: int, dim: str) -> dict[str, Any] | None:
                   ("sobol_total", "sobol_total_ci", "sobol_total"),
                   ("pce_group_total", "pce_group_total_ci", "pce_total") if group else
                   ("pce_total", "pce_total_ci", "pce_total"),
+                  ("shapley_group_effect", "shapley_group_effect_ci", "shapley_effect")
+                  if group else ("shapley_effect", "shapley_effect_ci", "shapley_effect"),
                   (None, None, None) if group else
                   ("morris_mu_star", "morris_mu_star_ci", "morris_mu_star"))
     for name, ci, measure in candidates:
@@ -150,7 +152,8 @@ def _ranked(ds: xr.Dataset, k: int, dim: str) -> dict[str, Any] | None:
         order = np.argsort(-np.nan_to_num(values, nan=-np.inf), kind="stable")[:TOP]
         said = str(var.attrs.get("estimator", "saltelli"))
         estimator = ("pce" if name.startswith("pce") or said == "pce" or "polynomial" in said
-                     else "morris" if name.startswith("morris") else "saltelli")
+                     else "morris" if name.startswith("morris")
+                     else "shapley" if name.startswith("shapley") else "saltelli")
         return {"measure": measure, "estimator": estimator, "output": output,
                 "items": [{"rank": r, "name": names[j], "value": _num(values[j]),
                            "ci_half_width": None if half is None else
