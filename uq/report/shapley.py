@@ -50,6 +50,28 @@ def shapley_paragraphs(ds: xr.Dataset) -> list[str]:
                  for j in range(i + 1, len(names)) if r[i, j] != 0.0]
         out.append("The inputs were correlated through a Gaussian copula with these rank "
                    "correlations (as configured): " + ("; ".join(pairs) or "all zero") + ".")
+        out += _partner_sentences(ds)
+    return out
+
+
+def _partner_sentences(ds: xr.Dataset) -> list[str]:
+    """Per exposure, the inputs of the headline output that matter largely through their
+    correlated partners (:func:`plyrisk.text.shapley.through_partners`)."""
+    from plyrisk.text.shapley import through_partners
+
+    if "full_total_index" not in ds or "independent_total_index" not in ds:
+        return []
+    out = []
+    for _, label, one in scenario_values(ds):
+        outputs = [str(o) for o in one["output"].values]
+        k = outputs.index(PRIMARY) if PRIMARY in outputs else 0
+        names = [str(n) for n in one["parameter"].values]
+        said = through_partners(
+            names, *(np.asarray(one[v].values[k], dtype=float) for v in (
+                "full_total_index", "full_total_index_ci", "independent_total_index",
+                "independent_total_index_ci")))
+        at = f" ({exposure_text(ds, label)})" if label else ""
+        out += [f"For {outputs[k]}{at}: {t}." for t in said]
     return out
 
 

@@ -7,7 +7,8 @@ import math
 import textwrap
 from typing import Any
 
-__all__ = ["INDEX_COLUMNS", "dependent_index_lines", "rerun_line", "shapley_lines"]
+__all__ = ["INDEX_COLUMNS", "dependent_index_lines", "rerun_line", "shapley_lines",
+           "through_partners"]
 
 
 def _line(rank: int, item: Any, name: str | None = None) -> str:
@@ -38,6 +39,46 @@ def dependent_index_lines(effects: Any, names: list[str]) -> list[str]:
         out.append(("  " + f"{name:<32}" + "".join(
             f"{_cell(float(getattr(effects, a)[k]), float(getattr(effects, a + '_ci')[k])):>15}"
             for a, _ in cols)).rstrip())
+    return out
+
+
+def through_partners(names: Any, full_total: Any, full_total_ci: Any,
+                     independent_total: Any, independent_total_ci: Any, *,
+                     margin: float = 0.1) -> list[str]:
+    """Sentences naming the inputs that matter largely through their correlated partners.
+
+    An input is named when its full total index exceeds its independent total index by more
+    than ``margin``, by more than the two half-widths together and by more than a factor of
+    two: most of what it is involved in is carried by the inputs it is correlated with.
+
+    Parameters
+    ----------
+    names
+        Parameter names [-].
+    full_total, full_total_ci, independent_total, independent_total_ci
+        The two total indices per parameter and their half-widths [-].
+    margin
+        Smallest difference worth a sentence [-].
+
+    Returns
+    -------
+    list of str
+
+    Examples
+    --------
+    >>> through_partners(["a.width", "b.width"], [0.37, 0.40], [0.09, 0.02], [0.08, 0.38],
+    ...                  [0.03, 0.02])[0][:51]
+    'a.width matters largely through its correlated part'
+    """
+    out = []
+    for k, name in enumerate(names):
+        f, i = float(full_total[k]), float(independent_total[k])
+        fc, ic = float(full_total_ci[k]), float(independent_total_ci[k])
+        if (all(math.isfinite(v) for v in (f, i, fc, ic)) and f - i > max(margin, fc + ic)
+                and i < 0.5 * f):
+            out.append(f"{name} matters largely through its correlated partners: full total "
+                       f"index {f:.2f} ± {fc:.2f}, independent total index {i:.2f} ± {ic:.2f} "
+                       "(what it adds once its partners are known)")
     return out
 
 
@@ -81,6 +122,7 @@ def shapley_lines(study: Any, sc: Any, *, top: int,
                      "carry; indep.: the input's own part; first-order and total; "
                      f"{100 * a.confidence:g} % bootstrap intervals):")
         lines += table
+        lines += [f"  {t}" for t in _partners(effects)]
     if groups:
         lines.append("layers (sum of their parameters' Shapley effects):")
         lines += [_line(r, item, layer_label(item.name))
@@ -98,6 +140,14 @@ def shapley_lines(study: Any, sc: Any, *, top: int,
         lines.append(f"  {rerun}")
     lines += ["  " + t for t in textwrap.wrap(HOW_TO_READ, 96)]
     return lines
+
+
+def _partners(effects: Any) -> list[str]:
+    """:func:`through_partners` of one output's effects (none without the four indices)."""
+    if effects is None or effects.full_total is None or effects.independent_total is None:
+        return []
+    return through_partners(effects.names, effects.full_total, effects.full_total_ci,
+                            effects.independent_total, effects.independent_total_ci)
 
 
 def rerun_line(study: Any, sc: Any, output: str) -> str:

@@ -384,14 +384,15 @@ def _rankings(study, analysis: TransientAnalysis, sc, top: int) -> list[str]:
 
 def _dependent_indices(study, sc, output: str, ranked: list) -> list[str]:
     """The four indices of dependent inputs of the headline output (``method = "shapley"``)."""
-    from plyrisk.text.shapley import dependent_index_lines
+    from plyrisk.text.shapley import _partners, dependent_index_lines
 
     table = dependent_index_lines(sc.shapley[output][0], [item.name for item in ranked])
     if not table:
         return []
     return ([f"indices of dependent inputs of {output} (full: with what the correlated "
              "partners carry; indep.: the input's own part; first-order and total; "
-             f"{100 * study.analysis.confidence:g} % bootstrap intervals):"] + table)
+             f"{100 * study.analysis.confidence:g} % bootstrap intervals):"] + table
+            + [f"  {t}" for t in _partners(sc.shapley[output][0])])
 
 
 def sweep_lines(study, analysis: TransientAnalysis) -> list[str]:
