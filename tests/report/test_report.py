@@ -150,9 +150,10 @@ def test_html_carries_the_cautions_at_the_top_and_the_end(report):
                                                "accredited laboratories") < text.index(
         '<h2 id="headline">Headline</h2>')
     assert text.rindex(html.escape(CAUTIONS[0])) > text.index('<h2 id="assumptions')
-    # the contents follow the verdict and its short caution, before the first section
-    assert text.index("Verdict:") < text.index('<nav class="toc"') < text.index(
-        '<h2 id="headline">Headline</h2>')
+    # the verdict, its short caution and the headline come first; the contents follow them,
+    # before "What was studied"
+    assert text.index("Verdict:") < text.index('<h2 id="headline">Headline</h2>') < text.index(
+        '<nav class="toc"') < text.index('<h2 id="what-was-studied"')
 
 
 def test_html_contents(report):

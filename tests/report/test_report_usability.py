@@ -109,6 +109,10 @@ def test_contents_link_every_section_once():
         assert f'href="#{anchor}"' in nav
         assert sum(f'id="{anchor}"' in line for line in out) == 1
     assert nav.count("<li>") == 4 and 'id="figures-2"' in out[-1]
+    # with a "What was studied" section, the contents come just before it (after the answer)
+    out = with_contents(lines[:3] + ["<h2>What was studied</h2>"] + lines[3:])
+    nav = next(line for line in out if line.startswith('<nav class="toc"'))
+    assert out.index(nav) == 3 and out[4].startswith('<h2 id="what-was-studied"')
 
 
 def test_print_stylesheet_keeps_headings_with_their_content():

@@ -391,8 +391,9 @@ _HEADING = re.compile(r"<h2(?P<attrs>[^>]*)>(?P<text>.*?)</h2>")
 
 def with_contents(lines: list[str]) -> list[str]:
     """The HTML lines with an id on every ``<h2>`` and a table of contents of them, placed
-    after the first cautions box (the compact one below the verdict; before the first section
-    heading when there is none).
+    after the answer: before the "What was studied" section (else after the first cautions box,
+    the compact one below the verdict; else before the first section heading), so that the
+    verdict and the answer come first on the screen.
 
     Parameters
     ----------
@@ -425,6 +426,9 @@ def with_contents(lines: list[str]) -> list[str]:
         return out
     nav = ('<nav class="toc" aria-label="Contents"><h2 class="toc-title">Contents</h2><ol>'
            + "".join(f'<li><a href="#{a}">{t}</a></li>' for a, t in entries) + "</ol></nav>")
+    studied = next((i for i, line in enumerate(out) if 'id="what-was-studied"' in line), None)
+    if studied is not None:  # the answer stays on the first screen, the contents follow it
+        return out[:studied] + [nav] + out[studied:]
     box = next((i for i, line in enumerate(out) if '<div class="cautions' in line), None)
     if box is None:
         box = next(i for i, line in enumerate(out) if _HEADING.search(line)) - 1
