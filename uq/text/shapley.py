@@ -163,10 +163,15 @@ def rerun_line(study: Any, sc: Any, output: str) -> str:
               for c in (rerun_counts(e, ci_threshold=a.index_ci_threshold),) if c is not None]
     if not (unconv and counts):
         return ""
+    from plyrisk.design.copula import shapley_layout
+
     perm, joint = max(c[0] for c in counts), max(c[1] for c in counts)
+    samples = max(joint, int(a.samples))
+    runs = shapley_layout(samples, perm, len(study.parameters)).n_rows
+    cost = f" ({runs} model runs per exposure)"
     if joint > int(a.samples):
         return (f"{len(unconv)} effect interval(s) wider than {thr} (for some, the joint draws "
                 f"behind Var(Y) alone exceed it): rerun with [study] samples = {joint} and "
-                f"permutations = {perm} or more to settle the ranking")
+                f"permutations = {perm} or more to settle the ranking{cost}")
     return (f"{len(unconv)} effect interval(s) wider than {thr}: rerun with [study] "
-            f"permutations = {perm} or more to settle the ranking")
+            f"permutations = {perm} or more to settle the ranking{cost}")
