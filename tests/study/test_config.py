@@ -17,6 +17,7 @@ from plyrisk.study.config import (
     assemble,
     load_study,
     loads_study,
+    override,
     require_runnable,
     stack_key_path,
 )
@@ -468,6 +469,17 @@ def test_screening_section_is_read():
     assert (s.trajectories, s.levels, s.threshold, s.keep) == (12, 6, 0.05, ("skin gap.width",))
     assert loads_study(SCREENED + "\n[screening]\ntrajectories = 8\n").screening.levels == 4
     assert loads_study(SCREENED).screening is None
+
+
+def test_method_override_onto_a_screened_study_says_why_not():
+    study = loads_study(SCREENED + "\n[screening]\ntrajectories = 8\n")
+    with pytest.raises(ValueError, match=r"--method morris: the config has a \[screening\] "
+                       r"section, which screens before a saltelli or pce study \(method 'morris' "
+                       r"is a screening already\); remove it"):
+        override(study, method="morris")
+    with pytest.raises(ValueError, match=r"method 'shapley' takes no screening stage: the "
+                       r"Morris screening moves one input at a time"):
+        override(study, method="shapley")
 
 
 @pytest.mark.parametrize(("extra", "match"), [

@@ -74,6 +74,9 @@ class Method:
         Can stream its samples to a store (one fixed design).
     allows_screening
         May be preceded by a ``[screening]`` section.
+    no_screening
+        Why a method with ``allows_screening`` False takes no ``[screening]`` (ends the
+        one-line error ``method = '<name>' <no_screening>``).
     fits_surrogate
         Its indices come from a surrogate fitted to the samples.
     writes_report
@@ -98,6 +101,7 @@ class Method:
     grows: ClassVar[bool] = False
     stores: ClassVar[bool] = True
     allows_screening: ClassVar[bool] = True
+    no_screening: ClassVar[str] = ""
     fits_surrogate: ClassVar[bool] = False
     writes_report: ClassVar[bool] = True
     samples_distributions: ClassVar[bool] = True

@@ -37,6 +37,7 @@ class Morris(Method):
     only_keys = ("levels", "screening_threshold")
     stores = False
     allows_screening = False
+    no_screening = "is a screening already"
     writes_report = False
     samples_distributions = False
 

@@ -75,6 +75,9 @@ class Shapley(Method):
     only_keys = ("design", "permutations")
     stores = False
     allows_screening = False
+    no_screening = ("takes no screening stage: the Morris screening moves one input at a time "
+                    "along independent grids, which ignores the dependence between inputs that "
+                    "Shapley effects account for; the effects rank every input themselves")
     handles_dependence = True
     builds_design = True
     independence = "handles dependent inputs"

@@ -225,7 +225,8 @@ def loads_study(text: str, *, source: str = "<string>") -> Study:
         raise ConfigError(source, path, f"invalid TOML: {msg}") from None
     cv.check_keys(ctx, data, cv.TOP, SECTIONS, what="section")
     parsed: dict[str, Any] = {"source": source, "text": text, "parameters": [],
-                              "_transient": "exposure" in data}
+                              "_transient": "exposure" in data,
+                              "_correlated": "correlations" in data}
     for name, parse in SECTIONS.items():
         for key, value in parse(ctx, data.get(name), parsed).items():
             if key == "parameters":
@@ -438,8 +439,10 @@ def override(study: Study, *, samples: int | None = None, seed: int | None = Non
             raise ValueError(f"--method {method}: the config's study.lhs_optimization applies "
                              "to method = pce with design = lhs only; remove it from the config")
         if not chosen.allows_screening and study.screening is not None:
+            allowed = " or ".join(m.name for m in METHODS.values() if m.allows_screening)
             raise ValueError(f"--method {method}: the config has a [screening] section, which "
-                             "screens before a saltelli or pce study; remove it")
+                             f"screens before a {allowed} study (method {method!r} "
+                             f"{chosen.no_screening}); remove it")
         changes.update(method=method, design=design)
     if samples is not None:
         changes["samples"] = int(samples)

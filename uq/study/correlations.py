@@ -30,6 +30,7 @@ import numpy as np
 
 from plyrisk.methods import METHODS
 from plyrisk.study import values as cv
+from plyrisk.study.sections_analysis import check_dependence
 from plyrisk.study.values import Context, join, show, suggest
 
 __all__ = ["MIN_EIGENVALUE", "REORDERINGS", "REPAIRS", "Correlations", "linear_from_rank",
@@ -215,7 +216,12 @@ def _parameter(ctx: Context, raw: Any, path: str, uncertain: dict, parsed: dict)
 
 def _value(ctx: Context, raw: Any, path: str) -> float:
     """A rank correlation strictly between -1 and 1."""
-    if isinstance(raw, bool) or not isinstance(raw, int | float) or not -1.0 < raw < 1.0:
+    if isinstance(raw, bool) or not isinstance(raw, int | float):
+        got = (f"the string {raw!r}; write the number without quotes"
+               if isinstance(raw, str) else show(raw))
+        raise ctx.error(path, f"expected a number (a rank correlation strictly between -1 and "
+                        f"1), got {got}")
+    if not -1.0 < raw < 1.0:
         raise ctx.error(path, f"expected a rank correlation strictly between -1 and 1, got "
                         f"{show(raw)}")
     return float(raw)
@@ -295,11 +301,7 @@ def parse_correlations(ctx: Context, raw: Any, parsed: dict) -> dict:
     reorder = (cv.choice(ctx, t["lhs_reordering"], "correlations.lhs_reordering",
                          REORDERINGS, "lhs_reordering")
                if "lhs_reordering" in t else "copula")
-    method = METHODS[parsed["analysis"].method]
-    if not method.handles_dependence:
-        able = [m.name for m in METHODS.values() if m.handles_dependence]
-        raise ctx.error("study.method", f"method {method.name!r} {method.independence}; with "
-                        f"[correlations] use method = {able[0]!r} (Shapley effects)")
+    check_dependence(ctx, METHODS[parsed["analysis"].method])
     if reorder == "iman-conover" and parsed["analysis"].design != "lhs":
         raise ctx.error("correlations.lhs_reordering", f"'iman-conover' reorders a Latin "
                         f"hypercube; the study's design is {parsed['analysis'].design!r}; set "

@@ -60,6 +60,14 @@ def _method(ctx: Context, raw: Any) -> Method:
     return METHODS[cv.choice(ctx, raw, "study.method", tuple(METHODS), "method")]
 
 
+def check_dependence(ctx: Context, method: Method) -> None:
+    """Refuse a ``[correlations]`` section unless ``method`` handles dependent inputs."""
+    if not method.handles_dependence:
+        able = [m.name for m in METHODS.values() if m.handles_dependence]
+        raise ctx.error("study.method", f"method {method.name!r} {method.independence}; with "
+                        f"[correlations] use method = {able[0]!r} (Shapley effects)")
+
+
 def _only_for(key: str) -> tuple[Method, ...]:
     """The methods a ``[study]`` key applies to (empty: every method)."""
     return tuple(m for m in METHODS.values() if key in m.only_keys)
@@ -102,6 +110,8 @@ def parse_study_section(ctx: Context, raw: Any, parsed: dict) -> dict:
     if transient and not method.supports_transient:
         raise ctx.error("study.method", f"method {method.name!r} applies to steady studies "
                         "only (a study without [exposure]); use saltelli, pce or morris")
+    if parsed.get("_correlated"):  # before the keys of another method, which hide it
+        check_dependence(ctx, method)
     for key in t:
         only = _only_for(key)
         if only and method not in only:
@@ -442,7 +452,7 @@ def parse_screening(ctx: Context, raw: Any, parsed: dict) -> dict:
     method = METHODS[parsed["analysis"].method]
     if not method.allows_screening:
         allowed = " or ".join(f"'{m.name}'" for m in METHODS.values() if m.allows_screening)
-        raise ctx.error("screening", f"method = '{method.name}' is a screening already; remove "
+        raise ctx.error("screening", f"method = '{method.name}' {method.no_screening}; remove "
                         f"[screening] (it screens before a {allowed} study)")
     by_name = {p.name: p for p in parsed["parameters"]}
     kw: dict[str, Any] = {"trajectories": cv.integer(ctx, t["trajectories"],
