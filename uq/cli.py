@@ -696,6 +696,22 @@ def _add_tolerances(subparsers) -> None:
     p.set_defaults(func=cmd_tolerances)
 
 
+def _tolerance_blame(study: Any, args: argparse.Namespace) -> str:
+    """Where a refused tolerance setting came from: ``--target`` when that target does not fit
+    the study, else ``--samples`` when given (the design size is what remains to refuse), else
+    the config's ``[tolerances]``."""
+    from plyrisk.study.targets import parse_target
+    from plyrisk.tolerances.study import check_target_fits
+
+    if args.target is not None:
+        output = getattr(study.analysis, "limit_output", "inner_surface_temperature")
+        try:
+            check_target_fits(study, parse_target(args.target, output=output))
+        except ValueError:
+            return "--target"
+    return "--samples" if args.samples is not None else f"{study.source}: tolerances"
+
+
 def cmd_tolerances(args: argparse.Namespace) -> int:
     """Run ``plyrisk tolerances``: print the tolerance report, write ``DIR/tolerances.csv``.
 
@@ -737,8 +753,7 @@ def cmd_tolerances(args: argparse.Namespace) -> int:
     try:
         settings_for_study(study, target=args.target, samples=args.samples, seed=args.seed)
     except ValueError as err:
-        where = "--samples" if args.samples is not None else f"{study.source}: tolerances"
-        raise UsageError(f"{where}: {err}") from None
+        raise UsageError(f"{_tolerance_blame(study, args)}: {err}") from None
     show = not args.quiet  # a plain line per stage, on a terminal or not
     report = run_tolerances(
         study, target=args.target, samples=args.samples, seed=args.seed,

@@ -102,3 +102,22 @@ def test_a_steady_target_on_a_transient_study_is_one_line(tmp_path, capsys):
     assert code == 2
     assert len(err.strip().splitlines()) == 1 and "Traceback" not in err
     assert "transient study takes" in err
+
+
+@pytest.mark.parametrize(("options", "blamed"), [
+    (["--target", "P(exceed) <= 1 %"], "--target: target 'P(exceed) <= 1 %' is about"),
+    (["--samples", "3"], "--samples: samples = 3 is too small"),
+])
+def test_a_refused_option_is_named_not_the_config(tmp_path, capsys, options, blamed):
+    config = tmp_path / "flash.toml"
+    config.write_text(FLASH.replace("[tolerances]\n", '[tolerances]\ntarget = '
+                                    '"P5(time_to_second_degree_burn) >= 5 s"\n'),
+                      encoding="utf-8")
+    code = main(["tolerances", str(config), *options, "--out", str(tmp_path / "out"),
+                 "--quiet"])
+    _, err = capsys.readouterr()
+    assert code == 2
+    assert err.strip() == err.strip().splitlines()[0] and "Traceback" not in err
+    assert f"plyrisk: error: {blamed}" in err
+    assert "tolerances:" not in err.split(blamed)[0]
+    assert not (tmp_path / "out").exists()
