@@ -168,6 +168,12 @@ def test_transient_study_with_correlated_inputs_end_to_end(tmp_path):
                    "Indices of dependent inputs of capped_time_to_second_degree_burn",
                    "dependent through a Gaussian copula", "Which layer buys the most time"):
         assert needle in report, needle
+    # the copula of [correlations] is stated once among the notes, the pairs once too
+    notes = report.split("Assumptions and limits of the model")[-1]
+    assert notes.count("Gaussian copula of the rank correlations") == 1
+    assert notes.count("exposure.incident_flux with exposure.duration -0.50") == 1
+    md_notes = (tmp_path / "a" / "summary.md").read_text().split("## Notes")[-1]
+    assert md_notes.count("Gaussian copula of the rank correlations") <= 1
     assert (tmp_path / "a" / "shapley.csv").read_text().startswith("scenario,output,kind")
     _check_summary_json(tmp_path / "a", "capped_time_to_second_degree_burn")
     assert "Shapley effect" in (tmp_path / "a" / "tolerances.csv").read_text()

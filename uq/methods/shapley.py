@@ -117,9 +117,9 @@ class Shapley(Method):
                "Mara, Tarantola & Annoni 2015)"]
         if c is not None:
             pairs = "; ".join(f"{a} with {b} {v:+.2f}" for a, b, v in c.pairs()) or "all zero"
-            out.append("inputs correlated through a Gaussian copula of the rank correlations "
-                       f"in [correlations] ({pairs})"
-                       + (", the Latin hypercube reordered by Iman-Conover"
+            # the copula itself is stated once, by the report's assumptions and the note above
+            out.append(f"rank correlations of [correlations]: {pairs}"
+                       + ("; the Latin hypercube reordered by Iman-Conover"
                           if c.lhs_reordering == "iman-conover"
                           and study.analysis.design == "lhs" else ""))
             if c.repair_note:
