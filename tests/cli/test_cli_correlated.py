@@ -6,6 +6,7 @@ from __future__ import annotations
 
 import contextlib
 import io
+import re
 from pathlib import Path
 
 import numpy as np
@@ -162,6 +163,29 @@ def test_transient_study_with_correlated_inputs_end_to_end(tmp_path):
     from plyrisk.report.figures.transient import independent_rows
 
     assert int(independent_rows(ds).sum()) == 64  # and so do the figures
+    # the bands figure says the exposure it shades is nominal and how far it is uncertain
+    # Source: closed form; the P5 and P95 of a uniform on [lo, hi] are lo + 0.05 (hi - lo) and
+    # lo + 0.95 (hi - lo): 3.15-5.85 s for [3 s, 6 s], 42-78 kW/m2 for [40, 80] kW/m2. The
+    # copula reorders the draws, so the tolerance is three standard errors of a sample
+    # quantile from 64 draws, 3 sqrt(0.05 * 0.95 / 64) (hi - lo): 0.25 s and 3.3 kW/m2
+    # (common practice)
+    from plyrisk.report.figures import transient as tf
+
+    fig = tf.bands_figure(a)
+    legend = " ".join(t.get_text() for lg in fig.legends for t in lg.get_texts())
+    assert "exposure, nominal duration (4.5 s)" in legend
+    got = re.search(r"duration uncertain: P5–P95 ([\d.]+)–([\d.]+) s", legend)
+    assert got, legend
+    assert float(got[1]) == pytest.approx(3.15, abs=0.25)
+    assert float(got[2]) == pytest.approx(5.85, abs=0.25)
+    notes = " ".join(t.get_text() for ax in fig.axes for t in ax.texts)
+    got = re.search(r"flux uncertain: P5–P95 ([\d.]+)–([\d.]+) kW/m²", notes)
+    assert got, notes
+    assert float(got[1]) == pytest.approx(42.0, abs=3.3)
+    assert float(got[2]) == pytest.approx(78.0, abs=3.3)
+    fig = tf.burn_time_figure(a)
+    legend = [t.get_text() for t in fig.axes[0].get_legend().get_texts()]
+    assert "5 % of samples (where the curve crosses it: P5)" in legend
     report = (tmp_path / "a" / "report.html").read_text()
     for needle in ("Inputs ranked by Shapley effect of capped_time_to_second_degree_burn",
                    "Layers ranked by Shapley effect", "How to read Shapley effects",

@@ -74,6 +74,20 @@ def _exposure(one: xr.Dataset) -> tuple[float, float]:
     return duration, flux
 
 
+def exposure_spread(one: xr.Dataset, name: str) -> tuple[float, float] | None:
+    """P5 and P95 of an uncertain exposure input (``"duration"`` [s] or ``"incident_flux"``
+    [W m-2]) over the joint draws of one exposure; ``None`` when it is fixed or not stored."""
+    key = f"exposure.{name}"
+    if "input" not in one or key not in [str(p) for p in one["parameter"].values]:
+        return None
+    x = np.asarray(one["input"].sel(parameter=key).values, dtype=float)
+    x = x[independent_rows(one) & np.isfinite(x)]
+    if x.size == 0:
+        return None
+    lo, hi = np.percentile(x, [5.0, 95.0])
+    return float(lo), float(hi)
+
+
 def bands_figure(ds: xr.Dataset, *, scenario: int | None = None) -> Figure:
     """Percentile bands of the basal (skin) or sensor temperature against time.
 
@@ -120,14 +134,23 @@ def bands_figure(ds: xr.Dataset, *, scenario: int | None = None) -> Figure:
                             label=f"P5 time to second-degree burn ({p5:.3g} s)")
         else:
             _criterion_curve(top, ds, one, t)
+        spread = exposure_spread(one, "duration")
         if math.isfinite(duration):
             for ax in (top, bottom):
-                ax.axvspan(0.0, duration, color=ORANGE, alpha=0.10, lw=0)
+                ax.axvspan(0.0, duration, color=ORANGE, alpha=0.10, lw=0,
+                           label=f"exposure, nominal duration ({duration:.3g} s)"
+                           if ax is top else None)
+                if spread is not None:  # the shade is nominal: show how far the end varies
+                    ax.axvspan(spread[0], spread[1], facecolor="none", edgecolor=ORANGE,
+                               alpha=0.5, hatch="//", lw=0,
+                               label=f"duration uncertain: P5–P95 {spread[0]:.3g}–"
+                               f"{spread[1]:.3g} s" if ax is top else None)
         what = "basal-layer temperature (80 µm)" if skin else "sensor temperature"
         top.set_ylabel(temperature_label(ds, what))
         # below both panels, so that it never hides a band
-        fig.legend(*top.get_legend_handles_labels(), loc="outside lower center", ncols=3,
-                   fontsize="small")
+        handles, labels = top.get_legend_handles_labels()
+        fig.legend(handles, labels, loc="outside lower center", ncols=3 if len(labels) <= 6
+                   else 2, fontsize="small")
         add_title(top, f"{what.capitalize()} against time: percentile bands", label,
                   "each time's percentiles taken separately (not the history of one sample); "
                   f"{int(one['samples_used'].item()) if 'samples_used' in one else '?'} "
@@ -138,14 +161,19 @@ def bands_figure(ds: xr.Dataset, *, scenario: int | None = None) -> Figure:
                         lw=1.4)
             bottom.set_ylim(0.0, flux / 1e3 * 1.25)
             bottom.set_ylabel("incident flux\n[kW/m²]")
+
         else:
             bottom.set_yticks([])
             bottom.set_ylabel("exposure")
         # right of the exposure's end (where the step is back at zero), never over the step
         right = duration / horizon if math.isfinite(duration) and horizon > 0 else 0.0
-        bottom.text(min(right + 0.02, 0.6), 0.9, "exposure (shaded) then cool-down to the "
-                    "horizon", transform=bottom.transAxes, fontsize="small", va="top",
-                    color=INK)
+        note = "exposure (shaded) then cool-down to the horizon"
+        flux_spread = exposure_spread(one, "incident_flux")
+        if flux_spread is not None and math.isfinite(flux):
+            note += (f"\nnominal flux drawn; flux uncertain: P5–P95 "
+                     f"{flux_spread[0] / 1e3:.3g}–{flux_spread[1] / 1e3:.3g} kW/m²")
+        bottom.text(min(right + 0.02, 0.6), 0.9, note, transform=bottom.transAxes,
+                    fontsize="small", va="top", color=INK)
         bottom.set_xlabel("time from the start of the exposure [s]")
         bottom.set_xlim(0.0, horizon)
     return fig
@@ -217,7 +245,8 @@ def burn_time_figure(ds: xr.Dataset, *, scenario: int | None = None) -> Figure:
                        color=ORANGE, alpha=0.2, lw=0, label="interval of P5")
             ax.axvline(p5, color=ORANGE, lw=1.5, ls="-.", label=f"P5 = {p5:.3g} s")
         ax.axvline(horizon, color=INK, lw=1.0, ls=":", label=f"horizon {horizon:g} s")
-        ax.axhline(0.05, color=GREY, lw=0.8, ls="--")
+        ax.axhline(0.05, color=GREY, lw=0.8, ls="--",
+                   label="5 % of samples (where the curve crosses it: P5)")
         ax.set_xlim(0.0, horizon * 1.1)
         ax.set_ylim(0.0, 1.02)
         ax.set_xlabel(f"{what} [s]")
