@@ -89,7 +89,10 @@ def _add_check(subparsers) -> None:
         "check",
         help="validate a study config and show its parameters and nominal solution",
         description="Validate a study config; print the uncertain parameters, the nominal "
-        "solution (every uncertain input at its nominal value) and the margin to the limit.",
+        "solution (every uncertain input at its nominal value) and the margin to the limit. "
+        "A transient study's first check (or run) after installation compiles the time loop "
+        "once, up to a minute; on a terminal a line on stderr says so, piped output stays "
+        "clean.",
         epilog=_examples(
             "plyrisk check study.toml          # validate; show the nominal solution",
             "plyrisk init study.toml && plyrisk check study.toml   # start from a template"),

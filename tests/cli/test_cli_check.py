@@ -99,7 +99,9 @@ def test_help_exits_0(capsys):
     assert main(["--help"]) == 0
     assert "check" in capsys.readouterr().out
     assert main(["check", "--help"]) == 0
-    assert "CONFIG" in capsys.readouterr().out.upper()
+    text = capsys.readouterr().out
+    assert "CONFIG" in text.upper()
+    assert "compiles the time loop once" in " ".join(text.split())
 
 
 def test_check_reflective_garment(capsys):
