@@ -460,12 +460,17 @@ def _tolerance_rows(study: Any, analysis: Any, report: Callable[[], Any] | None 
     """The tolerance table of the report and the advice lines to act on
     (:func:`plyrisk.tolerances.study.run_tolerances`, or ``report()``: its result computed
     meanwhile); with correlated inputs the table's shares are the study's Shapley effects [-]."""
-    from plyrisk.tolerances.output import manufacturing_table, shapley_shares, tolerance_advice
+    from plyrisk.tolerances.output import (
+        headline_probability,
+        manufacturing_table,
+        shapley_shares,
+        tolerance_advice,
+    )
 
     report = _tolerance_report(study) if report is None else report()
     shares = shapley_shares(report, analysis)  # correlated inputs: Shapley effects
     rows = manufacturing_table(report, study, indices=shares, index_name="Shapley effect")
-    return rows, tolerance_advice(report, study)
+    return rows, tolerance_advice(report, study, probability=headline_probability(analysis))
 
 
 def _meanwhile(function: Callable[..., Any], *args: Any) -> Callable[[], Any]:

@@ -26,14 +26,21 @@ from typing import Any
 
 from plyrisk.cautions import cautions_text
 from plyrisk.study.definition import Parameter, Study
-from plyrisk.study.targets import EVENT_TIMES, Target, limit_quantity
+from plyrisk.study.targets import (
+    EVENT_TIMES,
+    Target,
+    default_criterion,
+    limit_quantity,
+    parse_target,
+)
 from plyrisk.study.units import difference_unit, from_si
 from plyrisk.text.tables import text_table
 from plyrisk.tolerances.study import Outcome, ToleranceReport
 
-__all__ = ["ADVICE_PREFIX", "CORRELATED_SHARE", "ManufacturingRow", "beyond_horizon",
-           "manufacturing_rows", "manufacturing_table", "read_tolerance_csv", "share_resolved",
-           "share_text", "shapley_output", "shapley_shares", "tolerance_advice", "tolerance_text",
+__all__ = ["ADVICE_PREFIX", "CORRELATED_SHARE", "ManufacturingRow", "acceptance_note",
+           "beyond_horizon", "headline_probability", "manufacturing_rows", "manufacturing_table",
+           "read_tolerance_csv", "share_resolved", "share_text", "shapley_output",
+           "shapley_shares", "study_criterion", "tolerance_advice", "tolerance_text",
            "write_tolerance_csv"]
 
 ADVICE_PREFIX = "# advice: "
@@ -414,9 +421,52 @@ def manufacturing_rows(records: Sequence[Mapping[str, str]]) -> list[Manufacturi
     return out
 
 
-def tolerance_advice(report: ToleranceReport, study: Study) -> list[str]:
-    """What to act on, one line each: the independent verification's verdict and, when
-    configured, the nominal-shift advice.
+def headline_probability(analysis: Any) -> float | None:
+    """P(headline event) within the horizon of a transient study's own run, at its worst
+    exposure (the largest over exposures), for :func:`acceptance_note`; ``None`` for a steady
+    study or without the probability.
+
+    Parameters
+    ----------
+    analysis
+        The study's analysis (:class:`plyrisk.analysis.transient.TransientAnalysis` for a
+        transient study) [-].
+    """
+    from plyrisk.analysis.transient import HEADLINE_EVENT
+
+    facts = getattr(analysis, "facts", None)
+    event = HEADLINE_EVENT.get(getattr(facts, "wearer_kind", ""), "")
+    values = [float(sc.burn[event].probability) for sc in getattr(analysis, "scenarios", None) or []
+              if event in (getattr(sc, "burn", None) or {})]
+    values = [v for v in values if math.isfinite(v)]
+    return max(values) if values else None
+
+
+def study_criterion(study: Study) -> str:
+    """The criterion the study's verdict judges: ``[study] criterion`` or its default
+    (:func:`plyrisk.study.targets.default_criterion`)."""
+    from plyrisk.analysis.transient import HEADLINE_EVENT, is_transient, transient_facts
+
+    given = str(getattr(study.analysis, "criterion", "") or "")
+    if given:
+        return given
+    if not is_transient(study):
+        return default_criterion()
+    facts = transient_facts(study)
+    return default_criterion(transient_event=HEADLINE_EVENT.get(facts.wearer_kind),
+                             acceptable=facts.acceptable_burn_probability)
+
+
+def acceptance_note(report: ToleranceReport, study: Study, *,
+                    probability: float | None = None) -> str:
+    """A plain note when meeting the tolerance target does not make the study acceptable.
+
+    Transient study with a target on a time quantile: the target judges only that time, while
+    P(headline event) may stay above ``[study] acceptable_burn_probability`` (default 5 %); the
+    note then gives that probability (same condition as
+    :func:`plyrisk.text.transient.criterion_note`). Otherwise, when the target is not the
+    criterion the study's verdict judges (``[study] criterion`` or its default), the note says
+    that meeting the target does not decide that verdict.
 
     Parameters
     ----------
@@ -424,12 +474,70 @@ def tolerance_advice(report: ToleranceReport, study: Study) -> list[str]:
         The tolerance results of ``study``.
     study
         The study.
+    probability
+        P(headline event) within the horizon from the study's own run, worst exposure [-];
+        ``None``: the tolerance design's baseline (current spreads, worst exposure).
+
+    Returns
+    -------
+    str
+        The note, or ``""``.
+    """
+    from plyrisk.analysis.transient import HEADLINE_EVENT, is_transient, transient_facts
+    from plyrisk.text.transient import criterion_note
+
+    t = _target(report)
+    criterion = study_criterion(study)
+    if is_transient(study) and t.kind == "quantile":
+        facts = transient_facts(study)
+        event = HEADLINE_EVENT.get(facts.wearer_kind, "")
+        if event and t.event == event:
+            own = probability is not None
+            p = float(probability) if own else float(report.whatif.baseline.worst_exceedance)
+            acceptable = facts.acceptable_burn_probability
+            if criterion_note(t.text, event, p, acceptable):
+                where = ("the study's run" if own
+                         else "the tolerance design at the current spreads")
+                return (f"note: the tolerance target judges only {t.text!r}; "
+                        f"P({event} within {facts.horizon:g} s) = {_pct(p)} ({where}) stays "
+                        f"above the acceptable {100 * (acceptable or 0.05):g} % of [study] "
+                        "acceptable_burn_probability: tolerances alone do not make the study "
+                        "acceptable")
+    try:
+        same = parse_target(criterion, output=t.output if not t.transient else
+                            "inner_surface_temperature").text == t.text
+    except ValueError:
+        same = False
+    if same:
+        return ""
+    return (f"note: the tolerance target {t.text!r} is not the study's criterion "
+            f"{criterion!r}; meeting the target does not decide the study's verdict on that "
+            "criterion")
+
+
+def tolerance_advice(report: ToleranceReport, study: Study, *,
+                     probability: float | None = None) -> list[str]:
+    """What to act on, one line each: the independent verification's verdict, the note of
+    :func:`acceptance_note` when it applies and, when configured, the nominal-shift advice.
+
+    Parameters
+    ----------
+    report
+        The tolerance results of ``study``.
+    study
+        The study.
+    probability
+        P(headline event) of the study's own run (worst exposure) for :func:`acceptance_note`
+        [-]; ``None``: the tolerance design's baseline.
 
     Returns
     -------
     list of str
     """
     out = [_verification_line(report, study).strip()]
+    note = acceptance_note(report, study, probability=probability)
+    if note:
+        out.append(note)
     if report.nominal_shift is not None:
         out += [ln.strip() for ln in _shift_lines(report, study)]
     return out
@@ -557,6 +665,9 @@ def tolerance_text(report: ToleranceReport, study: Study, *,
             f"{_pct(base.exceedance_upper[base.scenario])}]",
             f"  target metric = {_metric(report, study, base.score)}: "
             + ("MET" if base.met else "NOT MET")]
+    accept = acceptance_note(report, study)
+    if accept:
+        out.append(f"  {accept}")
     def bare(text: str) -> str:  # the unit goes in the heading, the number in the cell
         if text == "n/a":
             return text
@@ -664,6 +775,9 @@ def _allocation_lines(report: ToleranceReport, study: Study) -> list[str]:
         out.append(f"  kept at the current spread (not a manufacturing tolerance): "
                    f"{', '.join(a.kept)}")
     out.append(_verification_line(report, study))
+    accept = acceptance_note(report, study)
+    if accept:
+        out.append(f"  {accept}")
     return out
 
 
