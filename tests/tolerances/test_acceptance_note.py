@@ -4,45 +4,14 @@ verdict (terminal text, advice lines of the report and tolerances.csv)."""
 
 from __future__ import annotations
 
-from dataclasses import replace
-
-import numpy as np
 import pytest
 
-from plyrisk.study.settings import ToleranceSettings
 from plyrisk.tolerances.output import acceptance_note, tolerance_advice, tolerance_text
-from plyrisk.tolerances.study import analyse_tolerances, problem_from_study, settings_for_study
-from tests import transient_study as ts
-
-SCALE = 1.5e4
-"""Invented response: time to burn = SCALE * fabric thickness [s/m]; the thickness is uniform
-on 0.5-1.2 mm (as in test_output_flags.py)."""
-
-HORIZON = 9.0
-"""Invented horizon [s]."""
-
-
-def _linear(study, values):
-    t = SCALE * values[:, 0]
-    t = np.where(t > study.transient.exposure.horizon, np.inf, t)
-    return {"time_to_second_degree_burn": t[None], "converged": np.ones((1, t.size), bool)}
-
-
-def _report(target):
-    study = ts.fabric_on_skin("pce", 16, extra_group=False)
-    study = replace(study, parameters=study.parameters[:1], transient=replace(
-        study.transient, exposure=replace(study.transient.exposure, horizon=HORIZON,
-                                          exposure_duration=6.0)))
-    study = replace(study, tolerances=ToleranceSettings(target=target, samples=256,
-                                                        basis="estimate"))
-    settings = settings_for_study(study)
-    return study, analyse_tolerances(
-        problem_from_study(study, settings.target, evaluate=_linear), settings)
 
 
 @pytest.fixture(scope="module")
-def time_target():
-    return _report("P5(time_to_second_degree_burn) >= 7 s")
+def time_target(linear_time_report):
+    return linear_time_report("P5(time_to_second_degree_burn) >= 7 s")
 
 
 def test_a_met_time_target_with_a_high_burn_probability_says_so(time_target):
@@ -74,7 +43,7 @@ def test_an_acceptable_probability_gives_no_burn_note_but_names_the_criterion(ti
     assert "is not the study's criterion 'P(second_degree_burn) <= 5 %'" in note
 
 
-def test_the_criterion_itself_as_target_needs_no_note():
-    study, report = _report("P(second_degree_burn) <= 5 %")
+def test_the_criterion_itself_as_target_needs_no_note(linear_time_report):
+    study, report = linear_time_report("P(second_degree_burn) <= 5 %")
     assert acceptance_note(report, study) == ""
     assert not any(a.startswith("note:") for a in tolerance_advice(report, study))

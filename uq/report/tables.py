@@ -514,6 +514,15 @@ def _level(x: float, unit: str) -> str:
     return f"{x:.3g}" if unit == "s" else f"{x:.2f}"
 
 
+def _change(new: float, base: float, new_out: bool, base_out: bool, unit: str) -> str:
+    """``new - base`` with a sign; a bound where one value lies beyond the horizon (a time),
+    ``n/a`` where both do or one is missing."""
+    if not (math.isfinite(new) and math.isfinite(base)) or (new_out and base_out):
+        return "n/a"
+    text = f"{new - base:+.3g}" if unit == "s" else f"{new - base:+.2f}"
+    return ("> " if new_out else "< " if base_out else "") + text
+
+
 def tolerance_tables(columns: list[str], records: list[dict]) -> list[Table]:
     """The tolerance recommendations as display tables.
 
@@ -553,15 +562,28 @@ def tolerance_tables(columns: list[str], records: list[dict]) -> list[Table]:
         notes.append(f"> {_level(_number(at.get('quantile_if_halved')), unit)} {unit}: "
                      "only known to lie beyond the horizon (so many samples reach no event "
                      "within it)")
-    effect = Table(
-        ["Parameter", "Layer", "Share of the variance",
-         f"{label} with this spread halved [{unit}]"],
-        [[str(r["parameter"]), str(r["layer"]).replace("_", " "),
-          share_text(r.get("variance_share")),
-          ("> " if out else "") + _level(_number(r.get("quantile_if_halved")), unit)]
-         for r, out in zip(records, beyond, strict=True)],
-        "What each spread does" + (f" (share: {', '.join(sources)})" if sources else "")
-        + "".join(f"; {n}" for n in notes))
+    base = _number(first.get("quantile_baseline"))
+    base_out = _flag(first.get("quantile_baseline_beyond_horizon"))
+    n_design = _number(first.get("design_samples"))
+    size = int(n_design) if math.isfinite(n_design) else 0
+    columns = ["Parameter", "Layer", "Share of the variance",
+               f"{label} with this spread halved [{unit}]"]
+    cells = [[str(r["parameter"]), str(r["layer"]).replace("_", " "),
+              share_text(r.get("variance_share")),
+              ("> " if out else "") + _level(_number(r.get("quantile_if_halved")), unit)]
+             for r, out in zip(records, beyond, strict=True)]
+    caption = "What each spread does" + (f" (share: {', '.join(sources)})" if sources else "")
+    if math.isfinite(base):  # the reference the halved values are compared with
+        columns.append(f"Change from the tolerance baseline [{unit}]")
+        for row, r, out in zip(cells, records, beyond, strict=True):
+            row.append(_change(_number(r.get("quantile_if_halved")), base, out, base_out, unit))
+        design = f"its own design of {size} samples" if size else "its own design"
+        caption += (f"; baseline of the tolerance study: {label} = "
+                    f"{'> ' if base_out else ''}{_level(base, unit)} {unit} at the current "
+                    f"spreads ({design}, worst exposure): the halved values and changes are "
+                    "against it, not against the study's own percentile, which comes from "
+                    "another design and differs by sampling")
+    effect = Table(columns, cells, caption + "".join(f"; {n}" for n in notes))
 
     def factor(v: Any) -> str:
         x = _number(v)

@@ -187,6 +187,15 @@ class ManufacturingRow:
     variance_share_resolved
         ``variance_share`` lies within [0, 1]; False: estimation noise, not a share (shown
         ``not resolved (132 %)``).
+    quantile_baseline
+        The same quantile at the current spreads on the tolerance study's own design (its
+        baseline, worst exposure) [temperature_unit]: the reference of ``quantile_if_halved``.
+        It differs from the study's own percentile by sampling (another design). NaN in a
+        file from before it existed.
+    quantile_baseline_beyond_horizon
+        ``quantile_baseline`` is a time only known to exceed the horizon.
+    design_samples
+        Size of the tolerance study's design (``[tolerances] samples``) [-]; 0 when unknown.
     """
 
     parameter: str
@@ -202,6 +211,9 @@ class ManufacturingRow:
     target: str
     quantile_if_halved_beyond_horizon: bool = False
     variance_share_resolved: bool = True
+    quantile_baseline: float = math.nan
+    quantile_baseline_beyond_horizon: bool = False
+    design_samples: int = 0
 
 
 def _target(report: ToleranceReport) -> Target:
@@ -294,6 +306,9 @@ def manufacturing_table(report: ToleranceReport, study: Study, *,
         else (study.limit_unit or "K"))
     alloc = report.allocation
     label = _label(report, report.whatif.baseline.probability)
+    base = float(report.whatif.baseline.worst_quantile)
+    base_value = (-base if _flip(report) else
+                  float(from_si(base, unit, limit_quantity(study.analysis.limit_output))))
     rows = []
     for j, (p, w) in enumerate(zip(study.parameters, report.whatif.rows, strict=True)):
         share, source = w.variance_share, "held at nominal (CRN)"
@@ -313,7 +328,10 @@ def manufacturing_table(report: ToleranceReport, study: Study, *,
             recommended_factor=factor, target=target_text(report, study),
             quantile_if_halved_beyond_horizon=beyond_horizon(report,
                                                              float(w.halved.worst_quantile)),
-            variance_share_resolved=share_resolved(share) or not math.isfinite(share)))
+            variance_share_resolved=share_resolved(share) or not math.isfinite(share),
+            quantile_baseline=base_value,
+            quantile_baseline_beyond_horizon=beyond_horizon(report, base),
+            design_samples=int(report.settings.samples)))
     return rows
 
 
@@ -351,6 +369,7 @@ def write_tolerance_csv(rows: Sequence[ManufacturingRow], path: str | Path, *,
             d["variance_share"] = f"{row.variance_share:.6g}"
             d["quantile_if_halved"] = f"{row.quantile_if_halved:.6g}"
             d["recommended_factor"] = f"{row.recommended_factor:.6g}"
+            d["quantile_baseline"] = f"{row.quantile_baseline:.6g}"
             for flag in _FLAGS:
                 d[flag] = "true" if getattr(row, flag) else "false"
             writer.writerow(d)
@@ -383,9 +402,14 @@ def read_tolerance_csv(path: str | Path) -> tuple[list[dict[str, str]], list[str
     return [dict(r) for r in csv.DictReader(body)], advice
 
 
-_FLAGS = ("quantile_if_halved_beyond_horizon", "variance_share_resolved")
+_FLAGS = ("quantile_if_halved_beyond_horizon", "variance_share_resolved",
+          "quantile_baseline_beyond_horizon")
 """The flag columns of ``tolerances.csv`` (``true``/``false``); optional when read back (a
 file from before they existed: the beyond-horizon flag is false, the share's is worked out)."""
+
+
+_OPTIONAL = ("quantile_baseline", "design_samples")
+"""Columns of ``tolerances.csv`` that a file from before they existed lacks (NaN, 0)."""
 
 
 def manufacturing_rows(records: Sequence[Mapping[str, str]]) -> list[ManufacturingRow]:
@@ -396,7 +420,8 @@ def manufacturing_rows(records: Sequence[Mapping[str, str]]) -> list[Manufacturi
     ValueError
         When a column of the table is missing, or a flag is not ``true``/``false``.
     """
-    names = [n for n in ManufacturingRow.__dataclass_fields__ if n not in _FLAGS]
+    names = [n for n in ManufacturingRow.__dataclass_fields__
+             if n not in _FLAGS and n not in _OPTIONAL]
     out = []
     for i, r in enumerate(records):
         missing = [n for n in names if n not in r]
@@ -408,6 +433,13 @@ def manufacturing_rows(records: Sequence[Mapping[str, str]]) -> list[Manufacturi
                 d[n] = float(d[n]) if d[n] not in ("", None) else math.nan
             except ValueError:
                 raise ValueError(f"row {i + 1}: {n} = {d[n]!r} is not a number") from None
+        try:
+            d["quantile_baseline"] = float(r.get("quantile_baseline") or math.nan)
+            d["design_samples"] = int(r.get("design_samples") or 0)
+        except ValueError:
+            raise ValueError(f"row {i + 1}: quantile_baseline = {r.get('quantile_baseline')!r} "
+                             f"or design_samples = {r.get('design_samples')!r} is not a "
+                             "number") from None
         for n in _FLAGS:
             text = str(r.get(n) or "").strip().lower()
             if text not in ("", "true", "false"):
