@@ -463,13 +463,15 @@ def _tolerance_rows(study: Any, analysis: Any, report: Callable[[], Any] | None 
     from plyrisk.tolerances.output import (
         headline_probability,
         manufacturing_table,
+        shapley_intervals,
         shapley_shares,
         tolerance_advice,
     )
 
     report = _tolerance_report(study) if report is None else report()
     shares = shapley_shares(report, analysis)  # correlated inputs: Shapley effects
-    rows = manufacturing_table(report, study, indices=shares, index_name="Shapley effect")
+    rows = manufacturing_table(report, study, indices=shares, index_name="Shapley effect",
+                               index_ci=shapley_intervals(report, analysis))
     return rows, tolerance_advice(report, study, probability=headline_probability(analysis))
 
 

@@ -492,15 +492,19 @@ def _flag(v: Any) -> bool:
         isinstance(v, int | float | np.bool_) and not isinstance(v, bool) and bool(v))
 
 
-def share_text(v: Any) -> str:
+def share_text(v: Any, ci: Any = None) -> str:
     """A variance share (a fraction) as a percentage with 2 significant digits; ``"< 0.01 %"``
     for the negligible ones, ``"n/a"`` when missing, ``"not resolved (132 %)"`` outside
-    [0, 100 %] (estimation noise, not a share)."""
+    [0, 100 %] (estimation noise, not a share), unless the interval of half-width ``ci``
+    reaches into [0, 100 %]: then the nearer end within its interval
+    (:func:`plyrisk.tolerances.output.share_text`)."""
+    from plyrisk.tolerances.output import share_text as plain
+
     x = _number(v)
     if not math.isfinite(x):
         return "n/a"
     if not 0.0 <= x <= 1.0:
-        return f"not resolved ({100 * x:.3g} %)"
+        return plain(x, _number(ci))
     if x < 1e-4:
         return "< 0.01 %"
     return f"{100 * x:.2g} %" if x < 0.1 else f"{100 * x:.0f} %"
@@ -550,13 +554,20 @@ def tolerance_tables(columns: list[str], records: list[dict]) -> list[Table]:
     target = str(first.get("target", ""))
     sources = sorted({str(r.get("share_source", "")) for r in records} - {""})
     beyond = [_flag(r.get("quantile_if_halved_beyond_horizon")) for r in records]
-    noise = any(share_text(r.get("variance_share")).startswith("not resolved")
-                for r in records)
+    from plyrisk.tolerances.output import not_resolved_advice
+
+    shown = [share_text(r.get("variance_share"), r.get("variance_share_ci")) for r in records]
+    noise = [str(r.get("share_source", "")) for r, t in zip(records, shown, strict=True)
+             if t.startswith("not resolved")]
     notes = []
     if noise:
         notes.append("not resolved: a share estimated outside [0, 100 %] is estimation noise "
-                     "at this sample size, not a share (the estimate in brackets); raise "
-                     "[tolerances] samples")
+                     "at this sample size, not a share (the estimate in brackets); "
+                     + not_resolved_advice(noise))
+    if any("within its interval" in t for t in shown):
+        notes.append("'0 within its interval': an estimate just below zero whose interval "
+                     "reaches zero is noise around a small share, read as 0 as in the study's "
+                     "rankings")
     if any(beyond):
         at = next(r for r, out in zip(records, beyond, strict=True) if out)
         notes.append(f"> {_level(_number(at.get('quantile_if_halved')), unit)} {unit}: "
@@ -569,9 +580,9 @@ def tolerance_tables(columns: list[str], records: list[dict]) -> list[Table]:
     columns = ["Parameter", "Layer", "Share of the variance",
                f"{label} with this spread halved [{unit}]"]
     cells = [[str(r["parameter"]), str(r["layer"]).replace("_", " "),
-              share_text(r.get("variance_share")),
+              text,
               ("> " if out else "") + _level(_number(r.get("quantile_if_halved")), unit)]
-             for r, out in zip(records, beyond, strict=True)]
+             for r, out, text in zip(records, beyond, shown, strict=True)]
     caption = "What each spread does" + (f" (share: {', '.join(sources)})" if sources else "")
     if math.isfinite(base):  # the reference the halved values are compared with
         columns.append(f"Change from the tolerance baseline [{unit}]")

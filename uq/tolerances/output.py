@@ -39,9 +39,9 @@ from plyrisk.tolerances.study import Outcome, ToleranceReport
 
 __all__ = ["ADVICE_PREFIX", "CORRELATED_SHARE", "ManufacturingRow", "acceptance_note",
            "beyond_horizon", "headline_probability", "manufacturing_rows", "manufacturing_table",
-           "read_tolerance_csv", "share_resolved", "share_text", "shapley_output",
-           "shapley_shares", "study_criterion", "tolerance_advice", "tolerance_text",
-           "write_tolerance_csv"]
+           "not_resolved_advice", "read_tolerance_csv", "share_resolved", "share_text",
+           "shapley_intervals", "shapley_output", "shapley_shares", "study_criterion",
+           "tolerance_advice", "tolerance_text", "write_tolerance_csv"]
 
 ADVICE_PREFIX = "# advice: "
 """Start of the ``tolerances.csv`` comment lines that carry the verification verdict and the
@@ -55,37 +55,78 @@ NOT_RESOLVED_SHARE = ("not resolved: a variance share estimated outside [0, 100 
                       "estimation noise at this sample size (a ratio of sampled variances, or an "
                       "index just below zero), not a share; the estimate is in brackets; raise "
                       "[tolerances] samples to resolve it")
-"""The note under a table with a share that is not resolved."""
+"""The note under a table with a share that is not resolved (shares held at nominal)."""
 
 
-def share_resolved(share: float) -> bool:
-    """Whether a variance share estimate is a share at all: finite and within [0, 1].
+def not_resolved_advice(sources: Sequence[str]) -> str:
+    """Where more samples resolve a share estimated outside [0, 100 %], by its source: the
+    tolerance design (``[tolerances] samples``) for shares held at nominal, the study's own run
+    (``[study] samples``, and ``permutations`` for Shapley effects) for an index of the study.
+
+    Examples
+    --------
+    >>> not_resolved_advice(["Shapley effect"])
+    'raise [study] samples and permutations (the share is the Shapley effect of plyrisk run)'
+    >>> not_resolved_advice(["held at nominal (CRN)"])
+    'raise [tolerances] samples'
+    """
+    out = []
+    if any(s == "held at nominal (CRN)" for s in sources):
+        out.append("raise [tolerances] samples")
+    if any(s == "Shapley effect" for s in sources):
+        out.append("raise [study] samples and permutations (the share is the Shapley effect "
+                   "of plyrisk run)")
+    if any(s == "Sobol total index" for s in sources):
+        out.append("raise [study] samples (the share is the Sobol total index of plyrisk run)")
+    return "; ".join(out) or "raise [tolerances] samples"
+
+
+def share_resolved(share: float, ci: float = math.nan) -> bool:
+    """Whether a variance share estimate is a share: finite and within [0, 1], or, with the
+    half-width ``ci`` of its interval, an interval that reaches into [0, 1] (an estimate just
+    below zero is then noise around a small share, read as 0 within its interval, as in the
+    rankings of the study).
 
     Parameters
     ----------
     share
         The estimate (a fraction) [-].
+    ci
+        Half-width of its confidence interval [-]; NaN when unknown.
 
     Examples
     --------
     >>> share_resolved(0.4), share_resolved(1.32), share_resolved(-0.02)
     (True, False, False)
+    >>> share_resolved(-0.0133, 0.121), share_resolved(-0.3, 0.1)
+    (True, False)
     """
-    return math.isfinite(share) and 0.0 <= share <= 1.0
+    if not math.isfinite(share):
+        return False
+    if 0.0 <= share <= 1.0:
+        return True
+    return math.isfinite(ci) and share + ci >= 0.0 and share - ci <= 1.0
 
 
-def share_text(share: float) -> str:
-    """A variance share as a percentage; ``not resolved (132 %)`` outside [0, 100 %].
+def share_text(share: float, ci: float = math.nan) -> str:
+    """A variance share as a percentage; ``not resolved (132 %)`` outside [0, 100 %]; an
+    estimate outside whose interval (half-width ``ci``) reaches into it is read as the nearer
+    end: ``0 within its interval (-1.33 % ± 12.1 %)``.
 
     Examples
     --------
     >>> share_text(0.25), share_text(1.32), share_text(float("nan"))
     ('25 %', 'not resolved (132 %)', 'n/a')
+    >>> share_text(-0.0133, 0.121)
+    '0 within its interval (-1.33 % ± 12.1 %)'
     """
     if not math.isfinite(share):
         return "n/a"
-    if not share_resolved(share):
+    if not share_resolved(share, ci):
         return f"not resolved ({100 * share:.3g} %)"
+    if not 0.0 <= share <= 1.0:
+        end = "0" if share < 0.0 else "100 %"
+        return f"{end} within its interval ({100 * share:.3g} % ± {100 * ci:.3g} %)"
     return f"{100 * share:.3g} %"
 
 
@@ -150,6 +191,28 @@ def shapley_shares(report: ToleranceReport, analysis: Any) -> dict[str, float] |
     return {n: float(v) for n, v in zip(ind.names, ind.effect, strict=True)}
 
 
+def shapley_intervals(report: ToleranceReport, analysis: Any) -> dict[str, float] | None:
+    """Half-widths of the intervals of :func:`shapley_shares` (same output and exposure), by
+    parameter name; ``None`` without them.
+
+    Parameters
+    ----------
+    report
+        The tolerance results [-].
+    analysis
+        The study's :class:`plyrisk.analysis.study.StudyAnalysis` [-].
+    """
+    scenarios = getattr(analysis, "scenarios", None) or []
+    if not scenarios:
+        return None
+    s = min(int(report.whatif.baseline.scenario), len(scenarios) - 1)
+    effects = getattr(scenarios[s], "shapley", {}).get(shapley_output(_target(report)))
+    if not effects or getattr(effects[0], "effect_ci", None) is None:
+        return None
+    ind = effects[0]
+    return {n: float(v) for n, v in zip(ind.names, ind.effect_ci, strict=True)}
+
+
 @dataclass(frozen=True)
 class ManufacturingRow:
     """One parameter of the table for manufacturing.
@@ -196,6 +259,10 @@ class ManufacturingRow:
         ``quantile_baseline`` is a time only known to exceed the horizon.
     design_samples
         Size of the tolerance study's design (``[tolerances] samples``) [-]; 0 when unknown.
+    variance_share_ci
+        Half-width of the interval of ``variance_share`` when the index gives one (Shapley
+        effect) [-]; NaN otherwise. An estimate outside [0, 1] whose interval reaches into it
+        is read as the nearer end within its interval (``variance_share_resolved`` true).
     """
 
     parameter: str
@@ -214,6 +281,7 @@ class ManufacturingRow:
     quantile_baseline: float = math.nan
     quantile_baseline_beyond_horizon: bool = False
     design_samples: int = 0
+    variance_share_ci: float = math.nan
 
 
 def _target(report: ToleranceReport) -> Target:
@@ -282,7 +350,8 @@ def _recommended(p: Parameter, factor: float, status: str, kept: bool = False) -
 
 def manufacturing_table(report: ToleranceReport, study: Study, *,
                         indices: Mapping[str, float] | None = None,
-                        index_name: str = "Sobol total index") -> list[ManufacturingRow]:
+                        index_name: str = "Sobol total index",
+                        index_ci: Mapping[str, float] | None = None) -> list[ManufacturingRow]:
     """One row per parameter: spec, variance share, tightened quantile, recommendation.
 
     Parameters
@@ -296,6 +365,8 @@ def manufacturing_table(report: ToleranceReport, study: Study, *,
         as the variance share (see :func:`shapley_shares`).
     index_name
         What ``indices`` are, for ``share_source``.
+    index_ci
+        Half-widths of the intervals of ``indices`` (see :func:`shapley_intervals`).
 
     Returns
     -------
@@ -311,11 +382,12 @@ def manufacturing_table(report: ToleranceReport, study: Study, *,
                   float(from_si(base, unit, limit_quantity(study.analysis.limit_output))))
     rows = []
     for j, (p, w) in enumerate(zip(study.parameters, report.whatif.rows, strict=True)):
-        share, source = w.variance_share, "held at nominal (CRN)"
+        share, source, ci = w.variance_share, "held at nominal (CRN)", math.nan
         if study.correlations is not None:
             share, source = math.nan, CORRELATED_SHARE
         if indices is not None and p.name in indices:
             share, source = float(indices[p.name]), index_name
+            ci = float((index_ci or {}).get(p.name, math.nan))
         factor = float(alloc.factors[j]) if alloc.status != "infeasible" else math.nan
         rows.append(ManufacturingRow(
             parameter=p.name, layer=p.group, current_spec=p.describe(), variance_share=share,
@@ -328,7 +400,8 @@ def manufacturing_table(report: ToleranceReport, study: Study, *,
             recommended_factor=factor, target=target_text(report, study),
             quantile_if_halved_beyond_horizon=beyond_horizon(report,
                                                              float(w.halved.worst_quantile)),
-            variance_share_resolved=share_resolved(share) or not math.isfinite(share),
+            variance_share_resolved=share_resolved(share, ci) or not math.isfinite(share),
+            variance_share_ci=ci,
             quantile_baseline=base_value,
             quantile_baseline_beyond_horizon=beyond_horizon(report, base),
             design_samples=int(report.settings.samples)))
@@ -370,6 +443,7 @@ def write_tolerance_csv(rows: Sequence[ManufacturingRow], path: str | Path, *,
             d["quantile_if_halved"] = f"{row.quantile_if_halved:.6g}"
             d["recommended_factor"] = f"{row.recommended_factor:.6g}"
             d["quantile_baseline"] = f"{row.quantile_baseline:.6g}"
+            d["variance_share_ci"] = f"{row.variance_share_ci:.6g}"
             for flag in _FLAGS:
                 d[flag] = "true" if getattr(row, flag) else "false"
             writer.writerow(d)
@@ -408,7 +482,7 @@ _FLAGS = ("quantile_if_halved_beyond_horizon", "variance_share_resolved",
 file from before they existed: the beyond-horizon flag is false, the share's is worked out)."""
 
 
-_OPTIONAL = ("quantile_baseline", "design_samples")
+_OPTIONAL = ("quantile_baseline", "design_samples", "variance_share_ci")
 """Columns of ``tolerances.csv`` that a file from before they existed lacks (NaN, 0)."""
 
 
@@ -436,10 +510,12 @@ def manufacturing_rows(records: Sequence[Mapping[str, str]]) -> list[Manufacturi
         try:
             d["quantile_baseline"] = float(r.get("quantile_baseline") or math.nan)
             d["design_samples"] = int(r.get("design_samples") or 0)
+            d["variance_share_ci"] = float(r.get("variance_share_ci") or math.nan)
         except ValueError:
-            raise ValueError(f"row {i + 1}: quantile_baseline = {r.get('quantile_baseline')!r} "
-                             f"or design_samples = {r.get('design_samples')!r} is not a "
-                             "number") from None
+            raise ValueError(f"row {i + 1}: quantile_baseline = {r.get('quantile_baseline')!r}, "
+                             f"design_samples = {r.get('design_samples')!r} or "
+                             f"variance_share_ci = {r.get('variance_share_ci')!r}: expected "
+                             "numbers") from None
         for n in _FLAGS:
             text = str(r.get(n) or "").strip().lower()
             if text not in ("", "true", "false"):
@@ -448,7 +524,8 @@ def manufacturing_rows(records: Sequence[Mapping[str, str]]) -> list[Manufacturi
                 d[n] = text == "true"
             elif n == "variance_share_resolved":
                 share = d["variance_share"]
-                d[n] = share_resolved(share) or not math.isfinite(share)
+                d[n] = (share_resolved(share, d["variance_share_ci"])
+                        or not math.isfinite(share))
         out.append(ManufacturingRow(**d))
     return out
 
@@ -756,7 +833,8 @@ def tolerance_text(report: ToleranceReport, study: Study, *,
     out += ["", f"For manufacturing (target {target_text(report, study)})"]
     out += text_table(["parameter", "current spec", "variance share", f"{label} if halved",
                        "recommended"],
-                      [[r.parameter, r.current_spec, share_text(r.variance_share),
+                      [[r.parameter, r.current_spec,
+                        share_text(r.variance_share, r.variance_share_ci),
                         ("> " if r.quantile_if_halved_beyond_horizon else "")
                         + f"{r.quantile_if_halved:.4g} {r.temperature_unit}", r.recommended_spec]
                        for r in table])
@@ -765,7 +843,10 @@ def tolerance_text(report: ToleranceReport, study: Study, *,
             study.correlations is None and not all(
                 share_resolved(w.variance_share) or not math.isfinite(w.variance_share)
                 for w in wi.rows)):
-        notes.append(NOT_RESOLVED_SHARE)
+        notes.append(NOT_RESOLVED_SHARE.replace(
+            "raise [tolerances] samples",
+            not_resolved_advice([r.share_source for r in table]
+                                + ["held at nominal (CRN)"] * (study.correlations is None))))
     if flip and any(r.quantile_if_halved_beyond_horizon for r in table) or (
             flip and beyond_horizon(report, base.worst_quantile)):
         notes.append(f"'> {-report_limit(report):g} s': so many samples reach no event "
