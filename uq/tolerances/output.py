@@ -38,10 +38,10 @@ from plyrisk.text.tables import text_table
 from plyrisk.tolerances.study import Outcome, ToleranceReport
 
 __all__ = ["ADVICE_PREFIX", "CORRELATED_SHARE", "ManufacturingRow", "acceptance_note",
-           "beyond_horizon", "headline_probability", "manufacturing_rows", "manufacturing_table",
-           "not_resolved_advice", "read_tolerance_csv", "share_resolved", "share_text",
-           "shapley_intervals", "shapley_output", "shapley_shares", "study_criterion",
-           "tolerance_advice", "tolerance_text", "write_tolerance_csv"]
+           "beyond_horizon", "cap_note", "headline_probability", "manufacturing_rows",
+           "manufacturing_table", "not_resolved_advice", "read_tolerance_csv", "share_resolved",
+           "share_text", "shapley_intervals", "shapley_output", "shapley_shares",
+           "study_criterion", "tolerance_advice", "tolerance_text", "write_tolerance_csv"]
 
 ADVICE_PREFIX = "# advice: "
 """Start of the ``tolerances.csv`` comment lines that carry the verification verdict and the
@@ -338,14 +338,43 @@ def _label(report: ToleranceReport, probability: float) -> str:
     return f"P{100 * probability:.10g}"
 
 
-def _recommended(p: Parameter, factor: float, status: str, kept: bool = False) -> str:
+def cap_note(bounded: bool) -> str:
+    """The mark of a spread factor at its cap: the search stopped there, so the spec is the
+    widest one tried, not a spec to adopt.
+
+    Parameters
+    ----------
+    bounded
+        The physical bounds of the distribution set the cap (else ``[tolerances] max_factor``).
+
+    Examples
+    --------
+    >>> cap_note(False)
+    'at the max_factor cap: the target holds up to it; not a recommended spec'
+    """
+    if bounded:
+        return ("at the widest spread the physical bounds allow: the target holds up to it; "
+                "not a recommended spec")
+    return "at the max_factor cap: the target holds up to it; not a recommended spec"
+
+
+def _at_cap(factor: float, cap: float) -> bool:
+    """A factor above 1 at its cap (within the search's tolerance)."""
+    return math.isfinite(factor) and cap > 1.0 and factor >= cap * (1.0 - 1e-9)
+
+
+def _recommended(p: Parameter, factor: float, status: str, kept: bool = False,
+                 cap: float = math.nan, bounded: bool = False) -> str:
     if status == "infeasible":
         return "not reachable by tolerances alone"
     if kept:
         return f"{p.describe()} (kept)"
     if factor == 1.0:
         return f"{p.describe()} (unchanged)"
-    return replace(p, distribution=p.distribution.with_spread(factor)).describe()
+    spec = replace(p, distribution=p.distribution.with_spread(factor)).describe()
+    if _at_cap(factor, cap):
+        return f"{spec} ({cap_note(bounded)})"
+    return spec
 
 
 def manufacturing_table(report: ToleranceReport, study: Study, *,
@@ -395,8 +424,9 @@ def manufacturing_table(report: ToleranceReport, study: Study, *,
             quantile_if_halved=(-float(w.halved.worst_quantile) if _flip(report) else
                                 float(from_si(w.halved.worst_quantile, unit,
                                               limit_quantity(study.analysis.limit_output)))),
-            temperature_unit=unit, recommended_spec=_recommended(p, factor, alloc.status,
-                                                               p.name in alloc.kept),
+            temperature_unit=unit, recommended_spec=_recommended(
+                p, factor, alloc.status, p.name in alloc.kept, float(alloc.caps[j]),
+                _bounded(report, float(alloc.caps[j]))),
             recommended_factor=factor, target=target_text(report, study),
             quantile_if_halved_beyond_horizon=beyond_horizon(report,
                                                              float(w.halved.worst_quantile)),
@@ -811,16 +841,15 @@ def tolerance_text(report: ToleranceReport, study: Study, *,
     out.append(f"  (baseline {label} CI half-width about {half_text};"
                " the changes share the design (common random numbers) and are far more "
                "precise than that)")
-    out += ["", "Allowable spread: each parameter alone, the others as specified"]
+    out += ["", "Allowable spread: each parameter alone, the others as specified (the largest "
+            "spread meeting the target, a limit, not a recommendation)"]
     rows = []
     for p, a in zip(params, report.allowable, strict=True):
         if a.status == "none":
             spec, note = "-", "not met even at zero spread"
         else:
             spec = replace(p, distribution=p.distribution.with_spread(a.factor)).describe()
-            note = (f"met at any spread up to {a.cap:.3g}x"
-                    + (" (physical bounds)" if a.bounded else " (max_factor)")
-                    if a.status == "any" else "")
+            note = cap_note(a.bounded) if a.status == "any" or _at_cap(a.factor, a.cap) else ""
         if not a.monotone:
             note = (note + "; " if note else "") + "metric not monotone in the spread"
         rows.append([p.name, f"{a.factor:.3g}x" if math.isfinite(a.factor) else "-", spec,
@@ -868,6 +897,11 @@ def tolerance_text(report: ToleranceReport, study: Study, *,
     return "\n".join(out)
 
 
+def _bounded(report: ToleranceReport, cap: float) -> bool:
+    """Whether the physical bounds set a cap (one below ``[tolerances] max_factor``)."""
+    return cap < float(report.settings.max_factor) * (1.0 - 1e-9)
+
+
 def _allocation_lines(report: ToleranceReport, study: Study) -> list[str]:
     a, st = report.allocation, report.settings
     head = {"met": "meets the target at least cost",
@@ -882,7 +916,8 @@ def _allocation_lines(report: ToleranceReport, study: Study) -> list[str]:
     for j, p in enumerate(study.parameters):
         factor = "-" if a.status == "infeasible" else f"{a.factors[j]:.3g}x"
         rows.append([p.name, f"{a.weights[j]:.3g}", factor,
-                     _recommended(p, float(a.factors[j]), a.status, p.name in a.kept)])
+                     _recommended(p, float(a.factors[j]), a.status, p.name in a.kept,
+                                  float(a.caps[j]), _bounded(report, float(a.caps[j])))])
     out += text_table(["parameter", "cost weight", "factor", "recommended spec"], rows)
     if a.kept:
         out.append(f"  kept at the current spread (not a manufacturing tolerance): "
