@@ -794,7 +794,9 @@ def tolerance_text(report: ToleranceReport, study: Study, *,
     out = [f"Tolerance study: {study.title}", f"Config: {study.source}",
            f"Target: {target_text(report, study)}; judged on {basis} ({level})",
            f"Design: {st.design}, {st.samples} samples, seed {st.seed}, common random numbers; "
-           f"{report.runs} model runs"]
+           f"{report.runs} model runs ({report.runs - 1} over the {st.samples}-row design, each "
+           f"with one set of spreads, + 1 verification run over a new design of "
+           f"{report.allocation.verification.samples} rows)"]
     out += ["", f"Baseline (current spreads){_exposure(study, base)}:",
             f"  {label} = {_t(study, base.quantile[base.scenario])} "
             f"[{_t(study, getattr(base, lo_name)[base.scenario])}, "
