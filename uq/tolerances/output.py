@@ -632,7 +632,8 @@ def acceptance_note(report: ToleranceReport, study: Study, *,
         event = HEADLINE_EVENT.get(facts.wearer_kind, "")
         if event and t.event == event:
             own = probability is not None
-            p = float(probability) if own else float(report.whatif.baseline.worst_exceedance)
+            p = (float(probability) if probability is not None
+                 else float(report.whatif.baseline.worst_exceedance))
             acceptable = facts.acceptable_burn_probability
             if criterion_note(t.text, event, p, acceptable):
                 where = ("the study's run" if own
