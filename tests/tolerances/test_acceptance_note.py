@@ -47,3 +47,15 @@ def test_the_criterion_itself_as_target_needs_no_note(linear_time_report):
     study, report = linear_time_report("P(second_degree_burn) <= 5 %")
     assert acceptance_note(report, study) == ""
     assert not any(a.startswith("note:") for a in tolerance_advice(report, study))
+
+
+def test_a_steady_target_other_than_the_criterion_says_it_does_not_decide_the_verdict(
+        small_demo):
+    from plyrisk.tolerances.study import run_tolerances
+
+    # Source: the default criterion of a steady study, P95 <= limit (plyrisk.study.targets)
+    report = run_tolerances(small_demo, target="P90 <= limit", samples=64)
+    note = acceptance_note(report, small_demo)
+    assert "'P90 <= limit' is not the study's criterion 'P95 <= limit'" in note
+    same = run_tolerances(small_demo, target="P95 <= limit", samples=64)
+    assert acceptance_note(same, small_demo) == ""
