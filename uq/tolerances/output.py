@@ -180,15 +180,7 @@ def shapley_shares(report: ToleranceReport, analysis: Any) -> dict[str, float] |
     analysis
         The study's :class:`plyrisk.analysis.study.StudyAnalysis` [-].
     """
-    scenarios = getattr(analysis, "scenarios", None) or []
-    if not scenarios:
-        return None
-    s = min(int(report.whatif.baseline.scenario), len(scenarios) - 1)
-    effects = getattr(scenarios[s], "shapley", {}).get(shapley_output(_target(report)))
-    if not effects:
-        return None
-    ind = effects[0]
-    return {n: float(v) for n, v in zip(ind.names, ind.effect, strict=True)}
+    return _shapley_by_name(report, analysis, "effect")
 
 
 def shapley_intervals(report: ToleranceReport, analysis: Any) -> dict[str, float] | None:
@@ -202,15 +194,22 @@ def shapley_intervals(report: ToleranceReport, analysis: Any) -> dict[str, float
     analysis
         The study's :class:`plyrisk.analysis.study.StudyAnalysis` [-].
     """
+    return _shapley_by_name(report, analysis, "effect_ci")
+
+
+def _shapley_by_name(report: ToleranceReport, analysis: Any,
+                     attr: str) -> dict[str, float] | None:
+    """``attr`` of the per-parameter Shapley effects of the target's output at the tolerance
+    study's worst exposure, by parameter name; ``None`` without them."""
     scenarios = getattr(analysis, "scenarios", None) or []
     if not scenarios:
         return None
     s = min(int(report.whatif.baseline.scenario), len(scenarios) - 1)
     effects = getattr(scenarios[s], "shapley", {}).get(shapley_output(_target(report)))
-    if not effects or getattr(effects[0], "effect_ci", None) is None:
+    if not effects or getattr(effects[0], attr, None) is None:
         return None
     ind = effects[0]
-    return {n: float(v) for n, v in zip(ind.names, ind.effect_ci, strict=True)}
+    return {n: float(v) for n, v in zip(ind.names, getattr(ind, attr), strict=True)}
 
 
 @dataclass(frozen=True)
