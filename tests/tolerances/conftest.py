@@ -19,7 +19,8 @@ LINEAR_HORIZON = 9.0
 """Invented horizon [s]."""
 
 
-def _linear(study, values):
+def linear_time(study, values):
+    """The invented response of LINEAR_SCALE, censored at the study's horizon."""
     t = LINEAR_SCALE * values[:, 0]
     t = np.where(t > study.transient.exposure.horizon, np.inf, t)
     return {"time_to_second_degree_burn": t[None], "converged": np.ones((1, t.size), bool)}
@@ -38,5 +39,5 @@ def linear_time_report():
         study = replace(study, tolerances=ToleranceSettings(target=target, **options))
         resolved = settings_for_study(study)
         return study, analyse_tolerances(
-            problem_from_study(study, resolved.target, evaluate=_linear), resolved)
+            problem_from_study(study, resolved.target, evaluate=linear_time), resolved)
     return make

@@ -23,19 +23,10 @@ from plyrisk.tolerances.output import (
 )
 from plyrisk.tolerances.study import analyse_tolerances, problem_from_study, settings_for_study
 from tests import transient_study as ts
+from tests.tolerances.conftest import LINEAR_HORIZON, linear_time
 
-SCALE = 1.5e4
-"""Invented response: time to burn = SCALE * fabric thickness [s/m] (as in
-test_transient_targets.py); the thickness is uniform on 0.5-1.2 mm."""
-
-HORIZON = 9.0
+HORIZON = LINEAR_HORIZON
 """Invented horizon [s]: most samples reach no burn within it."""
-
-
-def _linear(study, values):
-    t = SCALE * values[:, 0]
-    t = np.where(t > study.transient.exposure.horizon, np.inf, t)
-    return {"time_to_second_degree_burn": t[None], "converged": np.ones((1, t.size), bool)}
 
 
 @pytest.fixture(scope="module")
@@ -48,7 +39,7 @@ def censored():
     study = replace(study, tolerances=ToleranceSettings(
         target="P50(time_to_second_degree_burn) >= 8 s", samples=256, basis="estimate"))
     settings = settings_for_study(study)
-    report = analyse_tolerances(problem_from_study(study, settings.target, evaluate=_linear),
+    report = analyse_tolerances(problem_from_study(study, settings.target, evaluate=linear_time),
                                 settings)
     return study, report
 
